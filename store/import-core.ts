@@ -1,0 +1,652 @@
+/**
+ * The import transaction, fed by a stream of read events (ratings, missing cells, problems,
+ * findings). `importRatings` (import-ratings.ts) wires the file reader to this; tests may feed
+ * events directly.
+ *
+ * Shape of the work:
+ * 1. Stream: every rating goes into a TEMP staging table keyed by (session, attribute, assessor,
+ *    product, replicate), in bounded batches, so memory stays flat however large the file is.
+ *    Identifiers are interned to small integers (memory grows with distinct names only).
+ *    The key constraint finds exact duplicates (kept once, named as a finding) and conflicting
+ *    duplicates (a problem naming both rows) as the rows arrive. Nothing of the store is
+ *    written or locked in this phase.
+ * 2. Decide: missing scales, session dates against the store; problems → reject (default) or
+ *    quarantine the offending cells.
+ * 3. Write: one IMMEDIATE transaction, synchronous, so a crash at any moment leaves all of it
+ *    or none of it (WAL), and no other request on the shared connection can interleave.
+ */
+import type { Database } from 'better-sqlite3';
+import type { InputFinding, InputProblem, ProblemCode } from '../domain/problems.js';
+import { MAX_LISTED_PROBLEMS } from '../domain/problems.js';
+import type { ImportSource, Rating, ScaleRange } from '../domain/ratings.js';
+import type { PanelConfigFile } from './panel-config.js';
+
+export type ImportOutcome = 'imported' | 'unchanged' | 'rejected' | 'quarantined';
+
+export interface ImportCounts {
+  /** Data rows in the file (the header is not counted). */
+  rows: number;
+  /** Valid ratings read from the file, exact duplicates counted once. */
+  ratings: number;
+  missingCells: number;
+  /** Sessions named in the file. */
+  sessions: number;
+  sessionsNew: number;
+  sessionsReplaced: number;
+  sessionsUnchanged: number;
+  /** Stored values replaced or removed (each kept in the correction history). */
+  valuesReplaced: number;
+  /** Cells held in quarantine. */
+  quarantined: number;
+}
+
+export interface ImportReport {
+  ok: boolean;
+  outcome: ImportOutcome;
+  importId: number | null;
+  panel: string;
+  fileName: string;
+  sha256: string;
+  counts: ImportCounts;
+  /** Labels of the sessions that were added or replaced. */
+  changedSessions: string[];
+  findings: InputFinding[];
+  /** The first MAX_LISTED_PROBLEMS problems. */
+  errors: InputProblem[];
+  totalErrors: number;
+  /** One plain sentence for a person. */
+  message: string;
+}
+
+/** Raw text of the row a problem was found in, as far as the reader could tell. */
+export interface ProblemCell {
+  session?: string | null;
+  date?: string | null;
+  assessor?: string | null;
+  product?: string | null;
+  replicate?: string | number | null;
+  attribute?: string | null;
+  value?: string | number | null;
+  code?: string | null;
+}
+
+/** What the reader yields (structurally the same as ingest/read-ratings.ts ReadEvent). */
+export type ImportEvent =
+  | { type: 'rating'; row: number; column: string; rating: Rating }
+  | { type: 'missing'; row: number; column?: string | null }
+  | { type: 'problem'; problem: InputProblem; cell?: ProblemCell | null }
+  | { type: 'finding'; finding: InputFinding };
+
+export interface ImportEventsRequest {
+  panel: string;
+  fileName: string;
+  source: ImportSource;
+  sha256: string;
+  scale?: ScaleRange;
+  quarantine: boolean;
+  settings?: PanelConfigFile;
+  now?: () => Date;
+}
+
+/** Events are staged in batches of this many; the only per-file JS memory besides name maps. */
+const STAGE_BATCH = 4096;
+/** Findings of one kind listed in the report (the total is in the message). */
+const MAX_LISTED_FINDINGS_PER_CODE = MAX_LISTED_PROBLEMS;
+
+let stagingCounter = 0;
+
+/** The scale a new attribute gets: its own in the settings file, else --scale, else the settings default. */
+export function scaleForNewAttribute(name: string, scale: ScaleRange | undefined, settings: PanelConfigFile | undefined): ScaleRange | undefined {
+  const own = settings?.attributes?.[name];
+  if (own) return { min: own.min, max: own.max };
+  return scale ?? settings?.scale;
+}
+
+/** Stored scales of a panel's attributes (empty when the panel does not exist yet). */
+export function storedScales(db: Database, panel: string): Map<string, ScaleRange> {
+  const rows = db
+    .prepare(
+      `SELECT a.name, a.scale_min AS min, a.scale_max AS max FROM attribute a JOIN panel p ON p.id = a.panel_id WHERE p.name = ?`,
+    )
+    .all(panel) as { name: string; min: number; max: number }[];
+  return new Map(rows.map((row) => [row.name, { min: row.min, max: row.max }]));
+}
+
+/** Looks for an earlier import of the same content into the same panel that wrote something. */
+export function findEarlierImport(db: Database, panel: string, sha256: string): { id: number; startedAt: string } | undefined {
+  return db
+    .prepare(
+      `SELECT i.id, i.started_at AS startedAt FROM import i JOIN panel p ON p.id = i.panel_id
+       WHERE p.name = ? AND i.content_sha256 = ? AND i.outcome IN ('imported', 'quarantined')
+       ORDER BY i.id DESC LIMIT 1`,
+    )
+    .get(panel, sha256) as { id: number; startedAt: string } | undefined;
+}
+
+function emptyCounts(): ImportCounts {
+  return { rows: 0, ratings: 0, missingCells: 0, sessions: 0, sessionsNew: 0, sessionsReplaced: 0, sessionsUnchanged: 0, valuesReplaced: 0, quarantined: 0 };
+}
+
+/** Records an attempt that wrote no ratings (rejected, or unchanged content); creates the panel if needed. */
+export function recordAttempt(db: Database, request: ImportEventsRequest, report: Omit<ImportReport, 'importId'>): number {
+  const now = (request.now ?? (() => new Date()))().toISOString();
+  return db.transaction(() => {
+    const panelId = ensurePanel(db, request.panel, now);
+    const info = db
+      .prepare(
+        `INSERT INTO import (panel_id, file_name, content_sha256, source, started_at, finished_at, outcome,
+           n_rows, n_ratings, n_sessions, n_replaced, n_quarantined, n_errors, report_json)
+         VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, 0, 0, ?, ?)`,
+      )
+      .run(panelId, request.fileName, request.sha256, request.source, now, now, report.outcome, report.counts.rows, report.counts.ratings, report.counts.sessions, report.totalErrors, '{}');
+    const importId = Number(info.lastInsertRowid);
+    db.prepare('UPDATE import SET report_json = ? WHERE id = ?').run(JSON.stringify({ ...report, importId }), importId);
+    return importId;
+  }).immediate();
+}
+
+function ensurePanel(db: Database, name: string, nowIso: string): number {
+  db.prepare('INSERT INTO panel (name, created_at) VALUES (?, ?) ON CONFLICT (name) DO NOTHING').run(name, nowIso);
+  return (db.prepare('SELECT id FROM panel WHERE name = ?').get(name) as { id: number }).id;
+}
+
+/** Interns names to dense 1-based integers; memory grows with distinct names, not rows. */
+class NameTable {
+  readonly ids = new Map<string, number>();
+  readonly names: string[] = [''];
+  id(name: string): number {
+    let id = this.ids.get(name);
+    if (id === undefined) {
+      id = this.names.length;
+      this.ids.set(name, id);
+      this.names.push(name);
+    }
+    return id;
+  }
+}
+
+interface SessionInFile {
+  date: string;
+  firstRow: number;
+  /** Another date was seen for this label in the file. */
+  dateConflict: boolean;
+}
+
+const plural = (n: number, one: string, many = `${one}s`): string => `${n.toLocaleString('en-US')} ${n === 1 ? one : many}`;
+
+function cellText(value: unknown): string | null {
+  if (value === null || value === undefined) return null;
+  const text = String(value);
+  return text.length > 80 ? `${text.slice(0, 79)}…` : text;
+}
+
+/** Thrown inside the write transaction to roll it back with the problems found there. */
+class RejectImport extends Error {}
+
+/**
+ * Runs one import from a stream of read events. See the module comment for the phases.
+ * Never throws for bad input: problems come back in the report (outcome 'rejected').
+ */
+export async function importRatingEvents(db: Database, request: ImportEventsRequest, events: AsyncIterable<ImportEvent> | Iterable<ImportEvent>): Promise<ImportReport> {
+  const { panel, fileName, sha256 } = request;
+  const counts = emptyCounts();
+  const errors: InputProblem[] = [];
+  let totalErrors = 0;
+  let unquarantinableErrors = 0;
+  const findings: InputFinding[] = [];
+  const findingsPerCode = new Map<string, number>();
+  const addProblem = (problem: InputProblem): void => {
+    totalErrors += 1;
+    if (errors.length < MAX_LISTED_PROBLEMS) errors.push(problem);
+  };
+  const addFinding = (finding: InputFinding): void => {
+    const seen = (findingsPerCode.get(finding.code) ?? 0) + 1;
+    findingsPerCode.set(finding.code, seen);
+    if (seen <= MAX_LISTED_FINDINGS_PER_CODE) findings.push(finding);
+  };
+
+  const tag = `${process.pid}_${++stagingCounter}`;
+  const stage = `temp.stage_${tag}`;
+  const held = `temp.held_${tag}`;
+  db.exec(`
+    CREATE TABLE ${stage} (
+      s INTEGER NOT NULL, attr INTEGER NOT NULL, assessor INTEGER NOT NULL, product INTEGER NOT NULL,
+      rep INTEGER NOT NULL, value REAL NOT NULL, code TEXT, row INTEGER NOT NULL, col TEXT NOT NULL,
+      conflicted INTEGER NOT NULL DEFAULT 0,
+      PRIMARY KEY (s, attr, assessor, product, rep)
+    ) WITHOUT ROWID;
+    CREATE TABLE ${held} (
+      row INTEGER, col TEXT, session TEXT, date TEXT, assessor TEXT, product TEXT, replicate TEXT,
+      attribute TEXT, raw_value TEXT, code TEXT, reason_code TEXT NOT NULL, reason TEXT NOT NULL
+    );`);
+  try {
+    const sessions = new NameTable();
+    const attributes = new NameTable();
+    const assessors = new NameTable();
+    const products = new NameTable();
+    const sessionInfo: SessionInFile[] = [undefined as unknown as SessionInFile];
+    const dateConflictSeen = new Set<string>();
+    let maxRow = 1;
+    let lastDuplicateRow = -1;
+
+    const insertStage = db.prepare(
+      `INSERT INTO ${stage} (s, attr, assessor, product, rep, value, code, row, col) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)
+       ON CONFLICT DO NOTHING`,
+    );
+    const findStaged = db.prepare(`SELECT value, code, row, col FROM ${stage} WHERE s = ? AND attr = ? AND assessor = ? AND product = ? AND rep = ?`);
+    const markConflicted = db.prepare(`UPDATE ${stage} SET conflicted = 1 WHERE s = ? AND attr = ? AND assessor = ? AND product = ? AND rep = ?`);
+    const insertHeld = db.prepare(
+      `INSERT INTO ${held} (row, col, session, date, assessor, product, replicate, attribute, raw_value, code, reason_code, reason)
+       VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
+    );
+
+    let batch: ImportEvent[] = [];
+    const stageRating = (row: number, column: string, rating: Rating): void => {
+      const s = sessions.id(rating.session);
+      let info = sessionInfo[s];
+      if (!info) {
+        info = { date: rating.date, firstRow: row, dateConflict: false };
+        sessionInfo[s] = info;
+      } else if (info.date !== rating.date) {
+        info.dateConflict = true;
+        const seenKey = `${s}\u0000${rating.date}`;
+        if (!dateConflictSeen.has(seenKey)) {
+          dateConflictSeen.add(seenKey);
+          addProblem({
+            code: 'session-date-conflict',
+            file: fileName,
+            row,
+            column: 'date',
+            message: `Session "${rating.session}" is dated ${rating.date} here but ${info.date} in row ${info.firstRow}; a session has one date, so correct one of them or give the sessions different labels.`,
+            value: rating.date,
+          });
+        }
+      }
+      const key = [s, attributes.id(rating.attribute), assessors.id(rating.assessor), products.id(rating.product), rating.replicate] as const;
+      const code = rating.code ?? null;
+      const result = insertStage.run(...key, rating.value, code, row, column);
+      if (result.changes === 1) {
+        counts.ratings += 1;
+        return;
+      }
+      const earlier = findStaged.get(...key) as { value: number; code: string | null; row: number; col: string };
+      if (earlier.value === rating.value && earlier.code === code) {
+        // An exact copy: keep one and name it once per row (a wide row repeats for every attribute).
+        if (row !== lastDuplicateRow) {
+          lastDuplicateRow = row;
+          addFinding({
+            code: 'duplicate-row',
+            file: fileName,
+            row,
+            column: null,
+            message: `Row ${row} repeats row ${earlier.row} exactly; it was counted once.`,
+            session: rating.session,
+            assessor: rating.assessor,
+            product: rating.product,
+            attribute: rating.attribute,
+          });
+        }
+        return;
+      }
+      markConflicted.run(...key);
+      const reason = `Row ${row} gives ${rating.value} for session "${rating.session}", assessor ${rating.assessor}, product ${rating.product}, replicate ${rating.replicate}, attribute ${rating.attribute}, but row ${earlier.row} gives ${earlier.value}${earlier.code !== code ? ` (sample codes ${earlier.code ?? 'none'} and ${code ?? 'none'})` : ''}; keep only the correct one.`;
+      addProblem({ code: 'conflicting-duplicate', file: fileName, row, column: column, message: reason, value: String(rating.value) });
+      insertHeld.run(row, column, rating.session, rating.date, rating.assessor, rating.product, String(rating.replicate), rating.attribute, String(rating.value), code, 'conflicting-duplicate', reason);
+    };
+    const flush = db.transaction((pending: ImportEvent[]) => {
+      for (const event of pending) {
+        if (event.type === 'rating') {
+          stageRating(event.row, event.column, event.rating);
+        } else if (event.type === 'problem') {
+          const { problem, cell } = event;
+          if (!cell || problem.row === null) {
+            unquarantinableErrors += 1;
+            continue;
+          }
+          insertHeld.run(
+            problem.row,
+            problem.column,
+            cellText(cell.session),
+            cellText(cell.date),
+            cellText(cell.assessor),
+            cellText(cell.product),
+            cellText(cell.replicate),
+            cellText(cell.attribute ?? problem.column),
+            cell.value === undefined || cell.value === null ? (problem.value ?? null) : String(cell.value),
+            cellText(cell.code),
+            problem.code,
+            problem.message,
+          );
+        }
+      }
+    });
+
+    for await (const event of events) {
+      switch (event.type) {
+        case 'rating':
+          if (event.row > maxRow) maxRow = event.row;
+          batch.push(event);
+          break;
+        case 'missing':
+          if (event.row > maxRow) maxRow = event.row;
+          counts.missingCells += 1;
+          break;
+        case 'problem':
+          if (event.problem.row !== null && event.problem.row > maxRow) maxRow = event.problem.row;
+          addProblem(event.problem);
+          batch.push(event);
+          break;
+        case 'finding':
+          addFinding(event.finding);
+          break;
+      }
+      if (batch.length >= STAGE_BATCH) {
+        flush(batch);
+        batch = [];
+      }
+    }
+    flush(batch);
+    batch = [];
+    counts.rows = maxRow - 1;
+    counts.sessions = sessions.names.length - 1;
+
+    // Scales: stored for known attributes, else from the request; none → a problem per attribute.
+    const stored = storedScales(db, panel);
+    const scaleOf = new Map<number, ScaleRange>();
+    for (let id = 1; id < attributes.names.length; id++) {
+      const name = attributes.names[id];
+      const scale = stored.get(name) ?? scaleForNewAttribute(name, request.scale, request.settings);
+      if (scale) {
+        scaleOf.set(id, scale);
+        continue;
+      }
+      const first = db.prepare(`SELECT min(row) AS row, col FROM ${stage} WHERE attr = ?`).get(id) as { row: number; col: string };
+      addProblem({
+        code: 'scale-missing',
+        file: fileName,
+        row: first.row,
+        column: first.col,
+        message: `Attribute "${name}" is new to panel "${panel}" and has no scale; give it with --scale MIN:MAX, the scale fields of the upload form, or --settings panel.json.`,
+      });
+      unquarantinableErrors += 1;
+    }
+
+    const reject = (): ImportReport => {
+      const base = {
+        ok: false,
+        outcome: 'rejected' as const,
+        panel,
+        fileName,
+        sha256,
+        counts: { ...counts, sessionsNew: 0, sessionsReplaced: 0, sessionsUnchanged: 0, valuesReplaced: 0, quarantined: 0 },
+        changedSessions: [],
+        findings,
+        errors,
+        totalErrors,
+        message: `${fileName} was not imported: ${plural(totalErrors, 'problem')} found, nothing was written; correct ${totalErrors === 1 ? 'it' : 'them'} and import again${unquarantinableErrors === 0 ? ', or use quarantine to store the valid rows' : ''}.`,
+      };
+      const importId = recordAttempt(db, request, base);
+      return { ...base, importId };
+    };
+
+    if (totalErrors > 0 && (!request.quarantine || unquarantinableErrors > 0)) return reject();
+
+    const nowIso = (request.now ?? (() => new Date()))().toISOString();
+    try {
+      return db
+        .transaction((): ImportReport => {
+          const written = writeImport(db, {
+            request, nowIso, stage, held, sessions, attributes, assessors, products, sessionInfo, scaleOf, counts, addProblem,
+            settings: request.settings, errorsSoFar: () => totalErrors,
+          });
+          const outcome: ImportOutcome =
+            counts.quarantined > 0 ? 'quarantined' : counts.sessionsNew + counts.sessionsReplaced > 0 ? 'imported' : 'unchanged';
+          const report: ImportReport = {
+            ok: true,
+            outcome,
+            importId: written.importId,
+            panel,
+            fileName,
+            sha256,
+            counts,
+            changedSessions: written.changedSessions,
+            findings,
+            errors,
+            totalErrors,
+            message: successMessage(fileName, panel, outcome, counts),
+          };
+          db.prepare('UPDATE import SET outcome = ?, report_json = ? WHERE id = ?').run(outcome, JSON.stringify(report), written.importId);
+          return report;
+        })
+        .immediate();
+    } catch (error) {
+      if (error instanceof RejectImport) return reject();
+      throw error;
+    }
+  } finally {
+    db.exec(`DROP TABLE IF EXISTS ${stage}; DROP TABLE IF EXISTS ${held};`);
+  }
+}
+
+function successMessage(fileName: string, panel: string, outcome: ImportOutcome, counts: ImportCounts): string {
+  if (outcome === 'unchanged') {
+    return `All ${plural(counts.sessions, 'session')} in ${fileName} are already stored in panel "${panel}" with identical ratings; nothing changed.`;
+  }
+  const parts = [`${counts.sessionsNew} new`, `${counts.sessionsReplaced} replaced`, `${counts.sessionsUnchanged} unchanged`].join(', ');
+  const held = counts.quarantined > 0 ? `; ${plural(counts.quarantined, 'cell')} held in quarantine for correction` : '';
+  const corrected = counts.valuesReplaced > 0 ? `; ${plural(counts.valuesReplaced, 'earlier value')} kept in the correction history` : '';
+  return `Imported ${plural(counts.ratings, 'rating')} in ${plural(counts.sessions, 'session')} (${parts}) from ${fileName} into panel "${panel}"${corrected}${held}.`;
+}
+
+interface WriteContext {
+  request: ImportEventsRequest;
+  nowIso: string;
+  stage: string;
+  held: string;
+  sessions: NameTable;
+  attributes: NameTable;
+  assessors: NameTable;
+  products: NameTable;
+  sessionInfo: SessionInFile[];
+  scaleOf: Map<number, ScaleRange>;
+  counts: ImportCounts;
+  addProblem: (problem: InputProblem) => void;
+  settings: PanelConfigFile | undefined;
+  errorsSoFar: () => number;
+}
+
+/** The write phase; runs inside one IMMEDIATE transaction (throws RejectImport to roll back). */
+function writeImport(db: Database, ctx: WriteContext): { importId: number; changedSessions: string[] } {
+  const { request, nowIso, stage, held, sessions, attributes, assessors, products, sessionInfo, counts } = ctx;
+  const panelId = ensurePanel(db, request.panel, nowIso);
+
+  // Session dates against the store (inside the write lock, so no other import can race).
+  const storedSession = db.prepare('SELECT id, session_date AS date, data_version AS dataVersion FROM session WHERE panel_id = ? AND label = ?');
+  const storedOf: ({ id: number; date: string; dataVersion: number } | undefined)[] = [undefined];
+  for (let s = 1; s < sessions.names.length; s++) {
+    const label = sessions.names[s];
+    const found = storedSession.get(panelId, label) as { id: number; date: string; dataVersion: number } | undefined;
+    storedOf.push(found);
+    const info = sessionInfo[s];
+    if (found && !info.dateConflict && found.date !== info.date) {
+      info.dateConflict = true;
+      ctx.addProblem({
+        code: 'session-date-conflict',
+        file: request.fileName,
+        row: info.firstRow,
+        column: 'date',
+        message: `Session "${label}" is dated ${info.date} here but is stored with date ${found.date}; correct the date, or give the session another label if it is a different session.`,
+        value: info.date,
+      });
+    }
+  }
+  if (ctx.errorsSoFar() > 0 && !request.quarantine) throw new RejectImport();
+
+  const importInfo = db
+    .prepare(`INSERT INTO import (panel_id, file_name, content_sha256, source, started_at, outcome) VALUES (?, ?, ?, ?, ?, 'imported')`)
+    .run(panelId, request.fileName, request.sha256, request.source, nowIso);
+  const importId = Number(importInfo.lastInsertRowid);
+
+  // Names → store ids, via small temp maps the bulk statements can join.
+  const dims = `temp.dims_${importId}_${process.pid}`;
+  db.exec(`CREATE TABLE ${dims} (kind INTEGER NOT NULL, idx INTEGER NOT NULL, db_id INTEGER, PRIMARY KEY (kind, idx)) WITHOUT ROWID`);
+  try {
+    const putDim = db.prepare(`INSERT INTO ${dims} (kind, idx, db_id) VALUES (?, ?, ?)`);
+    const KIND_ATTRIBUTE = 1;
+    const KIND_ASSESSOR = 2;
+    const KIND_PRODUCT = 3;
+    const KIND_SESSION = 4;
+
+    const upsertAttribute = db.prepare(
+      `INSERT INTO attribute (panel_id, name, scale_min, scale_max, anchor_low, anchor_high) VALUES (?, ?, ?, ?, ?, ?)
+       ON CONFLICT (panel_id, name) DO UPDATE SET anchor_low = coalesce(excluded.anchor_low, anchor_low), anchor_high = coalesce(excluded.anchor_high, anchor_high)
+       RETURNING id`,
+    );
+    for (let id = 1; id < attributes.names.length; id++) {
+      const name = attributes.names[id];
+      const scale = ctx.scaleOf.get(id) as ScaleRange;
+      const own = ctx.settings?.attributes?.[name];
+      const row = upsertAttribute.get(panelId, name, scale.min, scale.max, own?.anchorLow ?? null, own?.anchorHigh ?? null) as { id: number };
+      putDim.run(KIND_ATTRIBUTE, id, row.id);
+    }
+    const upsertAssessor = db.prepare(
+      `INSERT INTO assessor (panel_id, code) VALUES (?, ?) ON CONFLICT (panel_id, code) DO UPDATE SET code = excluded.code RETURNING id`,
+    );
+    for (let id = 1; id < assessors.names.length; id++) {
+      putDim.run(KIND_ASSESSOR, id, (upsertAssessor.get(panelId, assessors.names[id]) as { id: number }).id);
+    }
+    const upsertProduct = db.prepare(
+      `INSERT INTO product (panel_id, code, display_name, role) VALUES (?, ?, ?, coalesce(?, 'test'))
+       ON CONFLICT (panel_id, code) DO UPDATE SET display_name = coalesce(excluded.display_name, display_name),
+         role = coalesce(?, role)
+       RETURNING id`,
+    );
+    const productCodes = new Set(products.names.slice(1));
+    for (const code of Object.keys(ctx.settings?.products ?? {})) productCodes.add(code);
+    for (const code of productCodes) {
+      const own = ctx.settings?.products?.[code];
+      const row = upsertProduct.get(panelId, code, own?.name ?? null, own?.role ?? null, own?.role ?? null) as { id: number };
+      const idx = products.ids.get(code);
+      if (idx !== undefined) putDim.run(KIND_PRODUCT, idx, row.id);
+    }
+
+    // Quarantine: cells the reader rejected, conflicting duplicates, and every cell of a
+    // session whose date is in conflict (it cannot be stored under one date).
+    const insertQuarantine = db.prepare(
+      `INSERT INTO quarantine (import_id, panel_id, file_name, row_number, column_name, session_label, session_date, assessor, product,
+         replicate, attribute, raw_value, sample_code, reason_code, reason)
+       SELECT ?, ?, ?, row, col, session, date, assessor, product, replicate, attribute, raw_value, code, reason_code, reason FROM ${held} ORDER BY row, col`,
+    );
+    if (request.quarantine) {
+      counts.quarantined += insertQuarantine.run(importId, panelId, request.fileName).changes;
+      const quarantineStaged = db.prepare(
+        `INSERT INTO quarantine (import_id, panel_id, file_name, row_number, column_name, session_label, session_date, assessor, product,
+           replicate, attribute, raw_value, sample_code, reason_code, reason)
+         SELECT ?, ?, ?, st.row, st.col, ?, ?, ass.code, pr.code, st.rep, at.name, st.value, st.code, ?, ?
+         FROM ${stage} st
+         JOIN ${dims} da ON da.kind = ${KIND_ASSESSOR} AND da.idx = st.assessor JOIN assessor ass ON ass.id = da.db_id
+         JOIN ${dims} dp ON dp.kind = ${KIND_PRODUCT} AND dp.idx = st.product JOIN product pr ON pr.id = dp.db_id
+         JOIN ${dims} dt ON dt.kind = ${KIND_ATTRIBUTE} AND dt.idx = st.attr JOIN attribute at ON at.id = dt.db_id
+         WHERE st.s = ? AND (? OR st.conflicted = 1) ORDER BY st.row, st.col`,
+      );
+      for (let s = 1; s < sessions.names.length; s++) {
+        const info = sessionInfo[s];
+        const label = sessions.names[s];
+        if (info.dateConflict) {
+          const stored = storedOf[s];
+          const reason = stored
+            ? `Session "${label}" is stored with date ${stored.date}; this file gives ${info.date}.`
+            : `Session "${label}" has more than one date in this file.`;
+          counts.quarantined += quarantineStaged.run(importId, panelId, request.fileName, label, info.date, 'session-date-conflict', reason, s, 1).changes;
+          db.prepare(`DELETE FROM ${stage} WHERE s = ?`).run(s);
+        }
+      }
+      // Conflicting duplicates: the first-seen copy joins the later copies already held.
+      const conflictReason = 'Another row gives a different value for the same session, assessor, product, replicate and attribute.';
+      for (let s = 1; s < sessions.names.length; s++) {
+        if (sessionInfo[s].dateConflict) continue;
+        counts.quarantined += quarantineStaged.run(importId, panelId, request.fileName, sessions.names[s], sessionInfo[s].date, 'conflicting-duplicate', conflictReason, s, 0).changes;
+      }
+      db.exec(`DELETE FROM ${stage} WHERE conflicted = 1`);
+    }
+
+    // Sessions: new → insert; same content → unchanged; changed → replace with corrections kept.
+    const insertSession = db.prepare('INSERT INTO session (panel_id, label, session_date, import_id) VALUES (?, ?, ?, ?) RETURNING id');
+    const bumpSession = db.prepare('UPDATE session SET data_version = data_version + 1, import_id = ? WHERE id = ?');
+    const stagedCount = db.prepare(`SELECT count(*) AS n FROM ${stage} WHERE s = ?`);
+    const storedCount = db.prepare('SELECT count(*) AS n FROM rating WHERE session_id = ?');
+    const sameCount = db.prepare(
+      `SELECT count(*) AS n FROM ${stage} st
+       JOIN ${dims} dt ON dt.kind = ${KIND_ATTRIBUTE} AND dt.idx = st.attr
+       JOIN ${dims} da ON da.kind = ${KIND_ASSESSOR} AND da.idx = st.assessor
+       JOIN ${dims} dp ON dp.kind = ${KIND_PRODUCT} AND dp.idx = st.product
+       JOIN rating r ON r.session_id = ? AND r.attribute_id = dt.db_id AND r.assessor_id = da.db_id AND r.product_id = dp.db_id AND r.replicate = st.rep
+       WHERE st.s = ? AND r.value = st.value AND r.sample_code IS st.code`,
+    );
+    const recordCorrections = db.prepare(
+      `INSERT INTO rating_correction (session_id, assessor_id, product_id, attribute_id, replicate, old_value, old_sample_code, old_import_id,
+         new_value, replaced_by_import_id, corrected_at)
+       SELECT r.session_id, r.assessor_id, r.product_id, r.attribute_id, r.replicate, r.value, r.sample_code, r.import_id, n.value, ?, ?
+       FROM rating r
+       LEFT JOIN (
+         SELECT dt.db_id AS attribute_id, da.db_id AS assessor_id, dp.db_id AS product_id, st.rep, st.value, st.code
+         FROM ${stage} st
+         JOIN ${dims} dt ON dt.kind = ${KIND_ATTRIBUTE} AND dt.idx = st.attr
+         JOIN ${dims} da ON da.kind = ${KIND_ASSESSOR} AND da.idx = st.assessor
+         JOIN ${dims} dp ON dp.kind = ${KIND_PRODUCT} AND dp.idx = st.product
+         WHERE st.s = ?
+       ) n ON n.attribute_id = r.attribute_id AND n.assessor_id = r.assessor_id AND n.product_id = r.product_id AND n.rep = r.replicate
+       WHERE r.session_id = ? AND (n.value IS NULL OR n.value <> r.value OR n.code IS NOT r.sample_code)`,
+    );
+    const deleteRatings = db.prepare('DELETE FROM rating WHERE session_id = ?');
+    const changedSessions: string[] = [];
+    for (let s = 1; s < sessions.names.length; s++) {
+      const info = sessionInfo[s];
+      if (info.dateConflict) continue; // quarantined above
+      const label = sessions.names[s];
+      const stored = storedOf[s];
+      const nStaged = (stagedCount.get(s) as { n: number }).n;
+      if (!stored) {
+        if (nStaged === 0) continue; // every cell of it is in quarantine
+        const row = insertSession.get(panelId, label, info.date, importId) as { id: number };
+        putDim.run(KIND_SESSION, s, row.id);
+        counts.sessionsNew += 1;
+        changedSessions.push(label);
+        continue;
+      }
+      if (nStaged === 0) continue; // every cell of it is in quarantine: leave the stored version alone
+      const nStored = (storedCount.get(stored.id) as { n: number }).n;
+      if (nStaged === nStored && (sameCount.get(stored.id, s) as { n: number }).n === nStaged) {
+        counts.sessionsUnchanged += 1;
+        continue;
+      }
+      counts.valuesReplaced += recordCorrections.run(importId, nowIso, s, stored.id).changes;
+      deleteRatings.run(stored.id);
+      bumpSession.run(importId, stored.id);
+      putDim.run(KIND_SESSION, s, stored.id);
+      counts.sessionsReplaced += 1;
+      changedSessions.push(label);
+    }
+
+    // Bulk insert in key order (matches rating's unique index, so the B-tree fills in order).
+    db.prepare(
+      `INSERT INTO rating (session_id, assessor_id, product_id, attribute_id, replicate, value, sample_code, import_id)
+       SELECT ds.db_id, da.db_id, dp.db_id, dt.db_id, st.rep, st.value, st.code, ?
+       FROM ${stage} st
+       JOIN ${dims} ds ON ds.kind = ${KIND_SESSION} AND ds.idx = st.s
+       JOIN ${dims} dt ON dt.kind = ${KIND_ATTRIBUTE} AND dt.idx = st.attr
+       JOIN ${dims} da ON da.kind = ${KIND_ASSESSOR} AND da.idx = st.assessor
+       JOIN ${dims} dp ON dp.kind = ${KIND_PRODUCT} AND dp.idx = st.product
+       ORDER BY ds.db_id, dt.db_id, da.db_id, dp.db_id, st.rep`,
+    ).run(importId);
+    // Quarantined cells are not ratings of this import.
+    if (request.quarantine) counts.ratings = (db.prepare(`SELECT count(*) AS n FROM ${stage}`).get() as { n: number }).n;
+
+    db.prepare(
+      `UPDATE import SET finished_at = ?, n_rows = ?, n_ratings = ?, n_sessions = ?, n_replaced = ?, n_quarantined = ?, n_errors = ? WHERE id = ?`,
+    ).run(nowIso, counts.rows, counts.ratings, counts.sessions, counts.valuesReplaced, counts.quarantined, ctx.errorsSoFar(), importId);
+    return { importId, changedSessions };
+  } finally {
+    db.exec(`DROP TABLE IF EXISTS ${dims}`);
+  }
+}
