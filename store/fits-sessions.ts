@@ -1,0 +1,103 @@
+/**
+ * Read side for the refit: panels, sessions in time order with their data versions, and the
+ * observations of one session grouped by attribute (with each attribute's scale).
+ */
+import type { Database } from 'better-sqlite3';
+import type { Observation, ScaleRange } from '../domain/ratings.js';
+
+export interface PanelRow {
+  id: number;
+  name: string;
+}
+
+export interface SessionVersionRow {
+  id: number;
+  label: string;
+  date: string;
+  dataVersion: number;
+}
+
+export interface AttributeRow {
+  id: number;
+  name: string;
+  scale: ScaleRange;
+}
+
+export interface ProductRow {
+  code: string;
+  role: 'test' | 'reference';
+}
+
+export function findPanel(db: Database, panelName: string): PanelRow | null {
+  const row = db.prepare('SELECT id, name FROM panel WHERE name = ?').get(panelName) as PanelRow | undefined;
+  return row ?? null;
+}
+
+/** Sessions of a panel in analysis order: date, ties broken by label (methods notes §3.1). */
+export function listSessionVersions(db: Database, panelId: number): SessionVersionRow[] {
+  return db
+    .prepare(
+      `SELECT id, label, session_date AS date, data_version AS dataVersion
+         FROM session WHERE panel_id = ? ORDER BY session_date, label`,
+    )
+    .all(panelId) as SessionVersionRow[];
+}
+
+export function listAttributes(db: Database, panelId: number): AttributeRow[] {
+  const rows = db
+    .prepare('SELECT id, name, scale_min AS min, scale_max AS max FROM attribute WHERE panel_id = ? ORDER BY name')
+    .all(panelId) as { id: number; name: string; min: number; max: number }[];
+  return rows.map((r) => ({ id: r.id, name: r.name, scale: { min: r.min, max: r.max } }));
+}
+
+export function listProducts(db: Database, panelId: number): ProductRow[] {
+  return db.prepare('SELECT code, role FROM product WHERE panel_id = ? ORDER BY code').all(panelId) as ProductRow[];
+}
+
+export function listAssessorCodes(db: Database, panelId: number): string[] {
+  return (db.prepare('SELECT code FROM assessor WHERE panel_id = ? ORDER BY code').all(panelId) as { code: string }[]).map(
+    (r) => r.code,
+  );
+}
+
+/** One session's ratings as observations (plus the blind sample code), grouped by attribute name. */
+export interface SessionRatings {
+  session: SessionVersionRow;
+  byAttribute: Map<string, (Observation & { code: string | null })[]>;
+}
+
+export function loadSessionRatings(db: Database, session: SessionVersionRow): SessionRatings {
+  const rows = db
+    .prepare(
+      `SELECT at.name AS attribute, a.code AS assessor, p.code AS product, r.replicate, r.value, r.sample_code AS code
+         FROM rating r
+         JOIN attribute at ON at.id = r.attribute_id
+         JOIN assessor a ON a.id = r.assessor_id
+         JOIN product p ON p.id = r.product_id
+        WHERE r.session_id = ?
+        ORDER BY at.name, a.code, p.code, r.replicate`,
+    )
+    .all(session.id) as { attribute: string; assessor: string; product: string; replicate: number; value: number; code: string | null }[];
+  const byAttribute = new Map<string, (Observation & { code: string | null })[]>();
+  for (const row of rows) {
+    let list = byAttribute.get(row.attribute);
+    if (!list) byAttribute.set(row.attribute, (list = []));
+    list.push({ session: session.label, ...row });
+  }
+  return { session, byAttribute };
+}
+
+/** Sessions whose stored fits are missing or were computed from an older data version. */
+export function listStaleSessions(db: Database, panelId: number, analysisVersion: string): SessionVersionRow[] {
+  return db
+    .prepare(
+      `SELECT s.id, s.label, s.session_date AS date, s.data_version AS dataVersion
+         FROM session s
+        WHERE s.panel_id = ?
+          AND (NOT EXISTS (SELECT 1 FROM session_quality q WHERE q.session_id = s.id)
+               OR EXISTS (SELECT 1 FROM session_quality q WHERE q.session_id = s.id
+                            AND (q.data_version <> s.data_version OR q.analysis_version <> ?)))
+        ORDER BY s.session_date, s.label`,
+    )
+    .all(panelId, analysisVersion) as SessionVersionRow[];
+}
