@@ -1,0 +1,157 @@
+/**
+ * A monitored series: baseline per segment (segments restart at user events such as retraining
+ * or a new control batch, methods notes §3.6), standardisation z = (x − μ̂0)/σ̂, then EWMA,
+ * tabular CUSUM and the individuals chart with Western Electric rules on z.
+ * Missing values are skipped: the chart index counts only non-missing values (methods §3.1).
+ */
+import { estimateBaseline, type Baseline, type BaselineOptions } from './baseline.js';
+import { cusumChart, type CusumDesign } from './cusum.js';
+import { ewmaChart, type EwmaDesign } from './ewma.js';
+import { individualsChart, type WesternElectricRule } from './shewhart.js';
+
+export interface SeriesPoint {
+  session: string;
+  date: string;
+  /** The charted quantity for this session; null when it is not defined. */
+  value: number | null;
+}
+
+export interface SegmentOptions {
+  baseline?: BaselineOptions;
+  /** Sessions at which a new baseline starts (the event takes effect from that session). */
+  restartSessions?: readonly string[];
+  /**
+   * User-chosen reference period (inclusive session labels). A segment that contains it takes its
+   * baseline from the values inside; other segments use their first `fullValues` values.
+   */
+  referenceSessions?: { from: string; to: string } | null;
+}
+
+export interface StandardisedPoint {
+  session: string;
+  date: string;
+  value: number;
+  /** (value − centre)/spreadSd. */
+  z: number;
+}
+
+export interface Segment {
+  /** First session of the segment (the series start or a restart event). */
+  startSession: string;
+  baseline: Baseline;
+  /** Non-missing points of the segment, standardised; empty when the baseline has no limits. */
+  points: StandardisedPoint[];
+  /** Non-missing points that were not standardised (no limits in this segment). */
+  unchartedPoints: SeriesPoint[];
+}
+
+/** Splits at restart events, estimates each segment's baseline and standardises its values. */
+export function standardiseSegments(series: readonly SeriesPoint[], options: SegmentOptions = {}): Segment[] {
+  const restarts = new Set(options.restartSessions ?? []);
+  const fullValues = options.baseline?.fullValues ?? 20;
+  const pieces: SeriesPoint[][] = [];
+  let current: SeriesPoint[] = [];
+  for (const point of series) {
+    if (restarts.has(point.session) && current.length > 0) {
+      pieces.push(current);
+      current = [];
+    }
+    current.push(point);
+  }
+  if (current.length > 0) pieces.push(current);
+  return pieces.map((piece) => {
+    const present = piece.filter((p): p is SeriesPoint & { value: number } => p.value !== null && Number.isFinite(p.value));
+    let reference = present.slice(0, fullValues);
+    const window = options.referenceSessions;
+    if (window) {
+      const fromIndex = piece.findIndex((p) => p.session === window.from);
+      const toIndex = piece.findIndex((p) => p.session === window.to);
+      if (fromIndex >= 0 && toIndex >= fromIndex) {
+        const inside = new Set(piece.slice(fromIndex, toIndex + 1).map((p) => p.session));
+        reference = present.filter((p) => inside.has(p.session));
+      }
+    }
+    const baseline = estimateBaseline(reference.map((p) => p.value), options.baseline);
+    if (baseline.centre === null || baseline.spreadSd === null) {
+      return { startSession: piece[0].session, baseline, points: [], unchartedPoints: present };
+    }
+    const { centre, spreadSd } = baseline;
+    return {
+      startSession: piece[0].session,
+      baseline,
+      points: present.map((p) => ({ session: p.session, date: p.date, value: p.value, z: (p.value - centre) / spreadSd })),
+      unchartedPoints: [],
+    };
+  });
+}
+
+export interface ChartDesigns {
+  ewma: EwmaDesign;
+  cusum: CusumDesign;
+  rules: readonly WesternElectricRule[];
+}
+
+export interface MonitoredPoint extends StandardisedPoint {
+  ewma: number;
+  ewmaLimit: number;
+  cusumUpper: number;
+  cusumLower: number;
+  /** Western Electric rules that fired here. */
+  rules: WesternElectricRule[];
+  ewmaSignal: 'up' | 'down' | null;
+  cusumSignal: 'up' | 'down' | null;
+}
+
+export interface MonitoredSegment {
+  startSession: string;
+  baseline: Baseline;
+  points: MonitoredPoint[];
+  /** First CUSUM signal with the estimated change point, or null. */
+  cusumFirstSignal: { session: string; direction: 'up' | 'down'; changePointSession: string; estimatedNewMean: number } | null;
+  ewmaFirstSignalSession: string | null;
+}
+
+/** Full chart of a series (for display and for the flag engine): one entry per segment. */
+export function monitorSeries(series: readonly SeriesPoint[], designs: ChartDesigns, options: SegmentOptions = {}): MonitoredSegment[] {
+  return standardiseSegments(series, options).map((segment) => {
+    const z = segment.points.map((p) => p.z);
+    const ewma = ewmaChart(z, designs.ewma);
+    const cusum = cusumChart(z, designs.cusum);
+    const rules = individualsChart(z, designs.rules);
+    const points: MonitoredPoint[] = segment.points.map((p, i) => ({
+      ...p,
+      ewma: ewma.points[i].statistic,
+      ewmaLimit: ewma.points[i].limit,
+      cusumUpper: cusum.points[i].upper,
+      cusumLower: cusum.points[i].lower,
+      rules: rules[i].rules,
+      ewmaSignal: ewma.points[i].signal,
+      cusumSignal: cusum.points[i].signal,
+    }));
+    const signal = cusum.firstSignal;
+    const { centre, spreadSd } = segment.baseline;
+    return {
+      startSession: segment.startSession,
+      baseline: segment.baseline,
+      points,
+      ewmaFirstSignalSession: ewma.firstSignalIndex === null ? null : points[ewma.firstSignalIndex].session,
+      cusumFirstSignal:
+        signal && centre !== null && spreadSd !== null
+          ? {
+              session: points[signal.index].session,
+              direction: signal.direction,
+              changePointSession: points[signal.changePointIndex].session,
+              estimatedNewMean: centre + spreadSd * signal.estimatedShiftSd,
+            }
+          : null,
+    };
+  });
+}
+
+/**
+ * Target in-control ARL for a set of K charts updated together each session, given a tolerated
+ * number of false alarms per year across the set (methods §3.4: ARL0 ≈ K/f with f per session).
+ */
+export function targetArl0ForChartSet(nCharts: number, sessionsPerYear: number, falseAlarmsPerYear: number): number {
+  return Math.max(1, nCharts) * sessionsPerYear / falseAlarmsPerYear;
+}
