@@ -81,7 +81,8 @@ export interface ImportEventsRequest {
   panel: string;
   fileName: string;
   source: ImportSource;
-  sha256: string;
+  /** SHA-256 of the file content (hex); a promise when it is computed while the file streams. */
+  sha256: string | Promise<string>;
   scale?: ScaleRange;
   quarantine: boolean;
   settings?: PanelConfigFile;
@@ -127,8 +128,33 @@ function emptyCounts(): ImportCounts {
   return { rows: 0, ratings: 0, missingCells: 0, sessions: 0, sessionsNew: 0, sessionsReplaced: 0, sessionsUnchanged: 0, valuesReplaced: 0, quarantined: 0 };
 }
 
+/**
+ * The answer for content already imported into the panel: nothing is written but the attempt,
+ * so the imports page can show it.
+ */
+export function unchangedReport(
+  db: Database,
+  request: Omit<ImportEventsRequest, 'sha256'> & { sha256: string },
+  earlier: { id: number; startedAt: string },
+): ImportReport {
+  const base: Omit<ImportReport, 'importId'> = {
+    ok: true,
+    outcome: 'unchanged',
+    panel: request.panel,
+    fileName: request.fileName,
+    sha256: request.sha256,
+    counts: emptyCounts(),
+    changedSessions: [],
+    findings: [],
+    errors: [],
+    totalErrors: 0,
+    message: `${request.fileName} has the same content as import #${earlier.id} of ${earlier.startedAt.slice(0, 10)} into panel "${request.panel}"; nothing changed.`,
+  };
+  return { ...base, importId: recordAttempt(db, request, base) };
+}
+
 /** Records an attempt that wrote no ratings (rejected, or unchanged content); creates the panel if needed. */
-export function recordAttempt(db: Database, request: ImportEventsRequest, report: Omit<ImportReport, 'importId'>): number {
+export function recordAttempt(db: Database, request: Omit<ImportEventsRequest, 'sha256'> & { sha256: string }, report: Omit<ImportReport, 'importId'>): number {
   const now = (request.now ?? (() => new Date()))().toISOString();
   return db.transaction(() => {
     const panelId = ensurePanel(db, request.panel, now);
@@ -188,7 +214,8 @@ class RejectImport extends Error {}
  * Never throws for bad input: problems come back in the report (outcome 'rejected').
  */
 export async function importRatingEvents(db: Database, request: ImportEventsRequest, events: AsyncIterable<ImportEvent> | Iterable<ImportEvent>): Promise<ImportReport> {
-  const { panel, fileName, sha256 } = request;
+  const { panel, fileName } = request;
+  let sha256 = typeof request.sha256 === 'string' ? request.sha256 : '';
   const counts = emptyCounts();
   const errors: InputProblem[] = [];
   let totalErrors = 0;
@@ -347,6 +374,10 @@ export async function importRatingEvents(db: Database, request: ImportEventsRequ
     }
     flush(batch);
     batch = [];
+    sha256 = await request.sha256;
+    const resolved = { ...request, sha256 };
+    const earlier = findEarlierImport(db, panel, sha256);
+    if (earlier) return unchangedReport(db, resolved, earlier);
     counts.rows = maxRow - 1;
     counts.sessions = sessions.names.length - 1;
 
@@ -385,7 +416,7 @@ export async function importRatingEvents(db: Database, request: ImportEventsRequ
         totalErrors,
         message: `${fileName} was not imported: ${plural(totalErrors, 'problem')} found, nothing was written; correct ${totalErrors === 1 ? 'it' : 'them'} and import again${unquarantinableErrors === 0 ? ', or use quarantine to store the valid rows' : ''}.`,
       };
-      const importId = recordAttempt(db, request, base);
+      const importId = recordAttempt(db, resolved, base);
       return { ...base, importId };
     };
 
@@ -396,7 +427,7 @@ export async function importRatingEvents(db: Database, request: ImportEventsRequ
       return db
         .transaction((): ImportReport => {
           const written = writeImport(db, {
-            request, nowIso, stage, held, sessions, attributes, assessors, products, sessionInfo, scaleOf, counts, addProblem,
+            request: resolved, nowIso, stage, held, sessions, attributes, assessors, products, sessionInfo, scaleOf, counts, addProblem,
             settings: request.settings, errorsSoFar: () => totalErrors,
           });
           const outcome: ImportOutcome =
@@ -439,7 +470,7 @@ function successMessage(fileName: string, panel: string, outcome: ImportOutcome,
 }
 
 interface WriteContext {
-  request: ImportEventsRequest;
+  request: ImportEventsRequest & { sha256: string };
   nowIso: string;
   stage: string;
   held: string;
