@@ -4,7 +4,9 @@ import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { importRatingEvents, type ImportEventsRequest } from '../../store/import-core.js';
 import { openStore, type Database } from '../../store/open-store.js';
+import { discardQuarantined, listQuarantined, releaseQuarantined } from '../../store/quarantine.js';
 import { readLongCsvText } from './fake-reader.js';
+import { countOf } from './helpers.js';
 
 const HEADER = 'session,date,assessor,product,replicate,attribute,value';
 const base: Omit<ImportEventsRequest, 'sha256'> = { panel: 'crisps', fileName: 'week.csv', source: 'cli', quarantine: false, scale: { min: 0, max: 10 } };
@@ -41,5 +43,97 @@ describe('importRatingEvents', () => {
     expect(conflict.errors[0]).toMatchObject({ code: 'conflicting-duplicate', row: 3, column: 'value' });
     expect(conflict.errors[0].message).toContain('row 2');
     expect(db.prepare("SELECT count(*) AS n FROM session WHERE label = 'S9'").get()).toEqual({ n: 0 });
+  });
+});
+
+describe('sessions already stored', () => {
+  it('leaves an identical session alone, replaces a changed one and keeps the old values', async () => {
+    const first = await run(['S1,2026-01-05,A1,P1,1,sweet,5', 'S1,2026-01-05,A1,P2,1,sweet,6', 'S2,2026-01-12,A1,P1,1,sweet,4']);
+    expect(first.outcome).toBe('imported');
+    const version = () => db.prepare("SELECT data_version AS v FROM session WHERE label = 'S1'").get();
+    expect(version()).toEqual({ v: 1 });
+    // S1: one value changed, one cell gone, one added; S2 identical.
+    const second = await run(['S1,2026-01-05,A1,P1,1,sweet,5.5', 'S1,2026-01-05,A2,P1,1,sweet,3', 'S2,2026-01-12,A1,P1,1,sweet,4']);
+    expect(second.outcome).toBe('imported');
+    expect(second.counts).toMatchObject({ sessions: 2, sessionsNew: 0, sessionsReplaced: 1, sessionsUnchanged: 1, valuesReplaced: 2 });
+    expect(second.changedSessions).toEqual(['S1']);
+    expect(version()).toEqual({ v: 2 });
+    const corrections = db
+      .prepare(
+        `SELECT a.code AS assessor, p.code AS product, c.old_value AS oldValue, c.new_value AS newValue, c.old_import_id AS oldImport, c.replaced_by_import_id AS byImport
+         FROM rating_correction c JOIN assessor a ON a.id = c.assessor_id JOIN product p ON p.id = c.product_id ORDER BY p.code`,
+      )
+      .all();
+    expect(corrections).toEqual([
+      { assessor: 'A1', product: 'P1', oldValue: 5, newValue: 5.5, oldImport: first.importId, byImport: second.importId },
+      { assessor: 'A1', product: 'P2', oldValue: 6, newValue: null, oldImport: first.importId, byImport: second.importId },
+    ]);
+    const s1 = db.prepare("SELECT r.value FROM rating r JOIN session s ON s.id = r.session_id WHERE s.label = 'S1' ORDER BY r.value").all();
+    expect(s1).toEqual([{ value: 3 }, { value: 5.5 }]);
+    // The same content from another file: nothing changes, and the report says so.
+    const third = await run(['S2,2026-01-12,A1,P1,1,sweet,4']);
+    expect(third.outcome).toBe('unchanged');
+    expect(third.message).toContain('nothing changed');
+  });
+
+  it('rejects a session label reused with another date, in the file and against the store', async () => {
+    const inFile = await run(['S1,2026-01-05,A1,P1,1,sweet,5', 'S1,2026-01-06,A1,P2,1,sweet,6']);
+    expect(inFile.outcome).toBe('rejected');
+    expect(inFile.errors).toEqual([expect.objectContaining({ code: 'session-date-conflict', row: 3, column: 'date' })]);
+    await run(['S1,2026-01-05,A1,P1,1,sweet,5']);
+    const againstStore = await run(['S1,2026-02-05,A1,P1,1,sweet,5']);
+    expect(againstStore.outcome).toBe('rejected');
+    expect(againstStore.errors[0]).toMatchObject({ code: 'session-date-conflict', row: 2, column: 'date' });
+    expect(againstStore.errors[0].message).toContain('stored with date 2026-01-05');
+  });
+
+  it('asks for a scale for new attributes and says how to give it; stored attributes keep theirs', async () => {
+    const noScale = await run(['S1,2026-01-05,A1,P1,1,sweet,5'], { scale: undefined });
+    expect(noScale.outcome).toBe('rejected');
+    expect(noScale.errors[0]).toMatchObject({ code: 'scale-missing', row: 2 });
+    expect(noScale.errors[0].message).toMatch(/--scale MIN:MAX.*upload form.*--settings panel\.json/);
+    expect(noScale.importId).not.toBeNull();
+    expect(db.prepare('SELECT outcome FROM import WHERE id = ?').get(noScale.importId)).toEqual({ outcome: 'rejected' });
+    await run(['S1,2026-01-05,A1,P1,1,sweet,5'], { scale: { min: 0, max: 15 } });
+    const later = await run(['S2,2026-01-12,A1,P1,1,sweet,5', 'S2,2026-01-12,A1,P1,1,salty,5'], {
+      scale: undefined,
+      settings: { attributes: { salty: { min: 1, max: 9, anchorLow: 'none', anchorHigh: 'very' } } },
+    });
+    expect(later.outcome).toBe('imported');
+    expect(db.prepare('SELECT name, scale_min AS min, scale_max AS max, anchor_low AS low FROM attribute ORDER BY name').all()).toEqual([
+      { name: 'salty', min: 1, max: 9, low: 'none' },
+      { name: 'sweet', min: 0, max: 15, low: null },
+    ]);
+  });
+});
+
+describe('quarantine', () => {
+  it('stores the valid rows, holds the bad cells with their reason, and releases a corrected one', async () => {
+    const lines = ['S1,2026-01-05,A1,P1,1,sweet,5', 'S1,2026-01-05,A1,P2,1,sweet,abc', 'S1,2026-01-05,A2,P1,1,sweet,4', 'S1,2026-01-05,A2,P1,1,sweet,6'];
+    const rejected = await run(lines);
+    expect(rejected.outcome).toBe('rejected');
+    expect(rejected.totalErrors).toBe(2);
+    expect(countOf(db, 'rating')).toBe(0);
+    const held = await run(lines, { quarantine: true });
+    expect(held.outcome).toBe('quarantined');
+    expect(held.ok).toBe(true);
+    expect(held.counts).toMatchObject({ ratings: 1, quarantined: 3 });
+    expect(countOf(db, 'rating')).toBe(1);
+    const cells = listQuarantined(db, 'crisps');
+    expect(cells.map((c) => [c.rowNumber, c.reasonCode, c.rawValue])).toEqual([
+      [3, 'not-a-number', 'abc'],
+      [4, 'conflicting-duplicate', '4.0'],
+      [5, 'conflicting-duplicate', '6'],
+    ]);
+    expect(() => releaseQuarantined(db, cells[0].id, 11)).toThrow(/outside the scale/);
+    const released = releaseQuarantined(db, cells[0].id, 5.5);
+    expect(released.cell).toMatchObject({ status: 'released', resolvedValue: 5.5 });
+    expect(() => releaseQuarantined(db, cells[0].id, 5.5)).toThrow(/already released/);
+    expect(db.prepare("SELECT data_version AS v FROM session WHERE label = 'S1'").get()).toEqual({ v: 2 });
+    releaseQuarantined(db, cells[2].id, 6);
+    expect(() => releaseQuarantined(db, cells[1].id, 4)).toThrow(/already has 6/);
+    expect(discardQuarantined(db, cells[1].id).status).toBe('discarded');
+    expect(listQuarantined(db, 'crisps')).toEqual([]);
+    expect(countOf(db, 'rating')).toBe(3);
   });
 });
