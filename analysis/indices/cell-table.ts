@@ -1,0 +1,93 @@
+import type { Observation } from '../../domain/ratings.js';
+import { mean } from '../descriptive/mean.js';
+
+/**
+ * The ratings of one session and attribute arranged by assessor × product cell: the common
+ * input of every per-assessor index. Assessors and products are kept in first-seen order;
+ * `cellMean(a, p)` is m_ap, `panelMean(p)` is M_p = mean over assessors of m_ap (every assessor
+ * who rated p counts once, whatever their number of replicates).
+ */
+export interface CellTable {
+  session: string;
+  attribute: string;
+  assessors: string[];
+  products: string[];
+  /** values[assessor][product] = the assessor's ratings of the product (absent key = empty cell). */
+  values: Map<string, Map<string, number[]>>;
+}
+
+export function buildCellTable(observations: readonly Observation[]): CellTable {
+  if (observations.length === 0) throw new Error('buildCellTable: no observations');
+  const { session, attribute } = observations[0];
+  const assessors: string[] = [];
+  const productSet = new Set<string>();
+  const products: string[] = [];
+  const values = new Map<string, Map<string, number[]>>();
+  for (const observation of observations) {
+    if (observation.session !== session || observation.attribute !== attribute) {
+      throw new Error('buildCellTable: observations must come from one session and one attribute');
+    }
+    if (!Number.isFinite(observation.value)) throw new Error('buildCellTable: a rating value is not a finite number');
+    let row = values.get(observation.assessor);
+    if (!row) {
+      row = new Map();
+      values.set(observation.assessor, row);
+      assessors.push(observation.assessor);
+    }
+    if (!productSet.has(observation.product)) {
+      productSet.add(observation.product);
+      products.push(observation.product);
+    }
+    const cell = row.get(observation.product);
+    if (cell) cell.push(observation.value);
+    else row.set(observation.product, [observation.value]);
+  }
+  return { session, attribute, assessors, products, values };
+}
+
+/** Products the assessor rated, in table order. */
+export function productsRatedBy(table: CellTable, assessor: string): string[] {
+  const row = table.values.get(assessor);
+  return row ? table.products.filter((product) => row.has(product)) : [];
+}
+
+/** m_ap, or null for an empty cell. */
+export function cellMean(table: CellTable, assessor: string, product: string): number | null {
+  const cell = table.values.get(assessor)?.get(product);
+  return cell ? mean(cell) : null;
+}
+
+/** Cell means of product p for every assessor who rated it, optionally leaving one assessor out. */
+export function cellMeansOfProduct(table: CellTable, product: string, leaveOut?: string): number[] {
+  const means: number[] = [];
+  for (const assessor of table.assessors) {
+    if (assessor === leaveOut) continue;
+    const cell = table.values.get(assessor)?.get(product);
+    if (cell) means.push(mean(cell));
+  }
+  return means;
+}
+
+/** M_p = mean over assessors of m_ap (null if nobody rated p). */
+export function panelMean(table: CellTable, product: string): number | null {
+  const means = cellMeansOfProduct(table, product);
+  return means.length > 0 ? mean(means) : null;
+}
+
+/**
+ * Balanced = every assessor rated every product with the same number n ≥ 1 of replicates.
+ * Returns n, or null when the table is not balanced.
+ */
+export function balancedReplicates(table: CellTable): number | null {
+  let n: number | null = null;
+  for (const assessor of table.assessors) {
+    const row = table.values.get(assessor) as Map<string, number[]>;
+    for (const product of table.products) {
+      const cell = row.get(product);
+      if (!cell) return null;
+      if (n === null) n = cell.length;
+      else if (cell.length !== n) return null;
+    }
+  }
+  return n;
+}

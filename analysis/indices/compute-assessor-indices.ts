@@ -1,0 +1,71 @@
+import type { Observation } from '../../domain/ratings.js';
+import { disagreementTest, agreementCorrelation } from './agreement.js';
+import { balancedAnova } from './balanced-anova.js';
+import { buildCellTable } from './cell-table.js';
+import { assessorAnova } from './discrimination.js';
+import { levelOffset, pairedLevelTest } from './level.js';
+import { repeatabilityTest } from './repeatability.js';
+import { scalingCoefficient, type ScalingOptions } from './scaling.js';
+import type { AssessorSessionIndices, IndexReason } from './types.js';
+
+export type AssessorIndicesOptions = ScalingOptions;
+
+/**
+ * Per-assessor performance indices of one session and attribute, one entry per assessor in
+ * first-seen order. The five analyze-contract fields follow issue 3 exactly (offset vs the panel
+ * mean including the assessor; one-way ANOVA discrimination and its within-cell mean square;
+ * agreement r with the leave-one-out panel; scaling cov/var over the assessor's products).
+ * The test fields follow the methods notes: §2.1 paired level test, §2.3 variance-ratio
+ * repeatability test, §2.4c disagreement F (balanced with replicates), §2.5 test of scaling = 1.
+ * `reasons` lists why any field is null (deduplicated).
+ *
+ * Throws when the observations mix sessions or attributes (a programming error).
+ */
+export function computeAssessorIndices(observations: readonly Observation[], options: AssessorIndicesOptions = {}): AssessorSessionIndices[] {
+  if (observations.length === 0) return [];
+  const table = buildCellTable(observations);
+  const anova = balancedAnova(table);
+  return table.assessors.map((assessor, assessorIndex) => {
+    const oneWay = assessorAnova(table, assessor);
+    const level = pairedLevelTest(table, assessor);
+    const repeatability = repeatabilityTest(table, assessor);
+    const agreement = agreementCorrelation(table, assessor);
+    const disagreement = disagreementTest(anova, assessorIndex);
+    const scaling = scalingCoefficient(table, assessor, anova, options);
+    const reasons = new Set<IndexReason>([
+      ...level.reasons,
+      ...oneWay.reasons,
+      ...repeatability.reasons,
+      ...agreement.reasons,
+      ...disagreement.reasons,
+      ...scaling.reasons,
+    ]);
+    return {
+      session: table.session,
+      attribute: table.attribute,
+      assessor,
+      nProducts: oneWay.nProducts,
+      nRatings: oneWay.nRatings,
+      offset: levelOffset(table, assessor),
+      offsetT: level.t,
+      offsetDf: level.df,
+      offsetP: level.pValue,
+      discriminationF: oneWay.F,
+      discriminationDfNumerator: oneWay.dfNumerator,
+      discriminationDfDenominator: oneWay.dfDenominator,
+      discriminationP: oneWay.pValue,
+      repeatabilityMSE: oneWay.withinMeanSquare,
+      repeatabilityDf: oneWay.withinDf > 0 ? oneWay.withinDf : null,
+      repeatabilitySdRatio: repeatability.sdRatio,
+      repeatabilityF: repeatability.F,
+      repeatabilityP: repeatability.pValue,
+      agreementR: agreement.r,
+      disagreementF: disagreement.F,
+      disagreementP: disagreement.pValue,
+      scaling: scaling.scaling,
+      scalingT: scaling.t,
+      scalingP: scaling.pValue,
+      reasons: [...reasons],
+    };
+  });
+}

@@ -1,0 +1,15 @@
+/**
+ * Small seeded pseudo-random generator (mulberry32): uniform numbers in [0, 1) from a 32-bit
+ * seed, so permutation p-values are reproducible. Adequate for resampling, not for cryptography.
+ * Common practice, no source beyond the widely circulated public-domain algorithm.
+ */
+export function seededRandom(seed: number): () => number {
+  let state = seed >>> 0;
+  return () => {
+    state = (state + 0x6d2b79f5) >>> 0;
+    let t = state;
+    t = Math.imul(t ^ (t >>> 15), t | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+}
