@@ -1,0 +1,497 @@
+/**
+ * bytes → validated ratings, as a stream of events. Pure reading: no database, no clock.
+ *
+ * Formats: CSV long form (session,date,assessor,product,replicate,attribute,value[,code])
+ * and wide form (session,date,assessor,product,replicate[,code], then one column per
+ * attribute; an empty cell is a missing rating), from CSV text (UTF-8 with or without BOM,
+ * UTF-16 LE/BE with BOM; comma, semicolon or tab; LF or CRLF) or an .xlsx worksheet.
+ * The rules for decimal marks and dates are documented in cells.ts.
+ *
+ * Every problem names the file, the row as a spreadsheet shows it (header = 1) and the
+ * column header as written. A value cell that cannot become a rating is attached (as a
+ * RawCell) to exactly one problem event, so the quarantine gets each rejected cell once:
+ * - cell-level problems (bad value, out of scale, missing long-form value) carry `cell`;
+ * - a problem with the row's keys (bad date, replicate, missing assessor, …) rejects every
+ *   value cell of the row: the row's first key problem carries the first non-empty value
+ *   cell as `cell` and the row's other non-empty value cells in `moreCells` (wide form);
+ *   further problems of the same row carry `cell: null`;
+ * - whole-file and header problems carry `cell: null` and end the reading.
+ * Set-level checks (duplicate keys, one session label with two dates) belong to the store.
+ */
+import { open } from 'node:fs/promises';
+import { createReadStream } from 'node:fs';
+import { Readable } from 'node:stream';
+import type { InputFinding, InputProblem, ProblemCode } from '../domain/problems.js';
+import type { Rating, ScaleRange } from '../domain/ratings.js';
+import { parseRatingValue, parseReplicate, parseSessionDate, type DecimalMark } from './cells.js';
+import { readCsvRecords, type SourceRecord } from './csv-records.js';
+import { detectFileKind } from './file-kind.js';
+import { resolveColumnLayout, truncateText, type ColumnLayout } from './headers.js';
+import { SourceFailure } from './source-failure.js';
+import { restoreFormulaText } from './spreadsheet-safe.js';
+import { readXlsxRecords } from './xlsx-records.js';
+
+export { detectFileKind, type FileKind } from './file-kind.js';
+
+export type InputSource = { path: string } | { bytes: Uint8Array };
+
+export interface ReadRatingsOptions {
+  /** File name as the user named it; used in every problem. */
+  fileName: string;
+  /** .xlsx: sheet name (default: the first sheet); 'sheet-missing' when absent. Ignored for CSV. */
+  sheet?: string;
+  /**
+   * Scale for an attribute: a range; null when unknown (one 'scale-missing' problem per
+   * attribute, saying how to give it); or 'unchecked' (no scale check, analyze command).
+   * Called once per attribute.
+   */
+  scaleFor(attribute: string): ScaleRange | null | 'unchecked';
+  /** Header cells beyond this → 'too-many-columns'. Default 2000. */
+  maxColumns?: number;
+  /** Cells longer than this (characters) → 'cell-too-long'. Default 10,000. */
+  maxCellChars?: number;
+}
+
+/** A cell as read (trimmed text, apostrophe formula prefix removed), for the quarantine. */
+export interface RawCell {
+  session: string | null;
+  date: string | null;
+  assessor: string | null;
+  product: string | null;
+  replicate: string | null;
+  attribute: string | null;
+  rawValue: string | null;
+  code: string | null;
+}
+
+export type ReadEvent =
+  /** row as a spreadsheet shows it (header = 1); column = header of the value cell. */
+  | { type: 'rating'; row: number; column: string; rating: Rating }
+  /** An empty value cell in wide form: a missing rating, not an error. */
+  | { type: 'missing'; row: number; column: string; cell: RawCell }
+  /** Blocking. `cell` (and `moreCells`) are the value cells this problem rejects; see the module comment. */
+  | { type: 'problem'; problem: InputProblem; cell: RawCell | null; moreCells?: RawCell[] }
+  /** Not blocking. */
+  | { type: 'finding'; finding: InputFinding };
+
+const DEFAULT_MAX_COLUMNS = 2000;
+const DEFAULT_MAX_CELL_CHARS = 10_000;
+/** Read size for files and for slicing in-memory bytes. */
+const CHUNK_BYTES = 1 << 16;
+/** Message of the catch-all; property tests assert it never appears. */
+export const UNEXPECTED_READ_FAILURE = 'The file could not be read because of an unexpected error in the reader.';
+
+async function* sliceBytes(bytes: Uint8Array): AsyncGenerator<Uint8Array> {
+  for (let at = 0; at < bytes.length; at += CHUNK_BYTES) yield bytes.subarray(at, at + CHUNK_BYTES);
+}
+
+function byteStream(source: InputSource): Readable {
+  if ('bytes' in source) return Readable.from(sliceBytes(source.bytes), { objectMode: false });
+  return createReadStream(source.path, { highWaterMark: CHUNK_BYTES });
+}
+
+async function readHead(source: InputSource): Promise<Uint8Array> {
+  if ('bytes' in source) return source.bytes.subarray(0, 8);
+  const handle = await open(source.path, 'r');
+  try {
+    const head = new Uint8Array(8);
+    const { bytesRead } = await handle.read(head, 0, 8, 0);
+    return head.subarray(0, bytesRead);
+  } finally {
+    await handle.close();
+  }
+}
+
+function isBlankRecord(cells: readonly string[]): boolean {
+  for (let i = 0; i < cells.length; i++) if (cells[i].trim() !== '') return false;
+  return true;
+}
+
+/** Identifier text: trimmed, with the export's apostrophe formula prefix removed. */
+function identifier(text: string | undefined): string {
+  if (text === undefined) return '';
+  const trimmed = text.trim();
+  if (trimmed.charCodeAt(0) !== 39) return trimmed;
+  return restoreFormulaText(trimmed).trim();
+}
+
+function formatNumber(value: number): string {
+  return String(Number(value.toPrecision(12)));
+}
+
+function formatScale(scale: ScaleRange): string {
+  return `${formatNumber(scale.min)}–${formatNumber(scale.max)}`;
+}
+
+/** Row reader state for one file; created after the header row is resolved. */
+class RowReader {
+  readonly file: string;
+  private readonly layout: ColumnLayout;
+  private readonly decimalMark: DecimalMark;
+  private readonly strictFieldCount: boolean;
+  private readonly maxCellChars: number;
+  private readonly scaleFor: ReadRatingsOptions['scaleFor'];
+  private readonly scales = new Map<string, ScaleRange | null | 'unchecked'>();
+  private readonly nColumns: number;
+  private readonly valueColumns: { index: number; attribute: string | null }[];
+  private lastDateText: string | null = null;
+  private lastDate: ReturnType<typeof parseSessionDate> | null = null;
+  nMissing = 0;
+  nDataRows = 0;
+
+  constructor(file: string, layout: ColumnLayout, decimalMark: DecimalMark, strictFieldCount: boolean, options: ReadRatingsOptions) {
+    this.file = file;
+    this.layout = layout;
+    this.decimalMark = decimalMark;
+    this.strictFieldCount = strictFieldCount;
+    this.maxCellChars = options.maxCellChars ?? DEFAULT_MAX_CELL_CHARS;
+    this.scaleFor = options.scaleFor;
+    this.nColumns = layout.headers.length;
+    this.valueColumns =
+      layout.form === 'long'
+        ? [{ index: layout.index.value!, attribute: null }]
+        : layout.attributeColumns.map((c) => ({ index: c.index, attribute: c.attribute }));
+  }
+
+  problem(code: ProblemCode, row: number | null, column: string | null, message: string, value?: string | null): InputProblem {
+    const problem: InputProblem = { code, file: this.file, row, column, message };
+    if (value !== undefined) problem.value = value === null ? null : truncateText(value);
+    return problem;
+  }
+
+  /** Scale of an attribute, asking once; the scale-missing problem goes to `out`. */
+  private scaleOf(attribute: string, row: number, column: string, out: ReadEvent[]): ScaleRange | null | 'unchecked' {
+    let scale = this.scales.get(attribute);
+    if (scale === undefined) {
+      scale = this.scaleFor(attribute);
+      this.scales.set(attribute, scale);
+      if (scale === null) {
+        out.push({
+          type: 'problem',
+          cell: null,
+          problem: this.problem(
+            'scale-missing',
+            row,
+            column,
+            `Attribute "${truncateText(attribute, 60)}" has no rating scale yet. Give it with --scale MIN:MAX on the command line, in the scale fields of the upload form, or in a panel settings file.`,
+            attribute,
+          ),
+        });
+      }
+    }
+    return scale;
+  }
+
+  /** Wide form: ask for every attribute's scale once, at the header row. */
+  checkHeaderScales(headerRow: number, out: ReadEvent[]): void {
+    for (const c of this.layout.attributeColumns) this.scaleOf(c.attribute, headerRow, c.attribute, out);
+  }
+
+  /** Validate one non-blank data row, appending its events to `out`. */
+  readRow(record: SourceRecord, out: ReadEvent[]): void {
+    const { row, cells } = record;
+    const layout = this.layout;
+    const headers = layout.headers;
+    this.nDataRows++;
+
+    if (cells.length !== this.nColumns) {
+      let extraFilled = false;
+      for (let i = this.nColumns; i < cells.length; i++) if (cells[i].trim() !== '') extraFilled = true;
+      if (extraFilled || (this.strictFieldCount && cells.length < this.nColumns)) {
+        out.push({
+          type: 'problem',
+          cell: null,
+          problem: this.problem(
+            'row-field-count',
+            row,
+            null,
+            `This row has ${cells.length} cells but the header row has ${this.nColumns} columns; check for a missing or extra delimiter or an unquoted comma.`,
+          ),
+        });
+        return;
+      }
+    }
+
+    // Key cells. Problems here reject the whole row; they are collected first.
+    let keyProblems: InputProblem[] | null = null;
+    const keyProblem = (p: InputProblem): void => {
+      (keyProblems ??= []).push(p);
+    };
+    for (let i = 0; i < cells.length && i < this.nColumns; i++) {
+      if (cells[i].length > this.maxCellChars) {
+        keyProblem(
+          this.problem('cell-too-long', row, headers[i], `This cell holds ${cells[i].length} characters; the most a cell may hold is ${this.maxCellChars}.`, cells[i].slice(0, 80)),
+        );
+      }
+    }
+    for (const i of layout.unnamedColumns) {
+      const text = cells[i];
+      if (text !== undefined && text.trim() !== '' && text.length <= this.maxCellChars) {
+        keyProblem(this.problem('header-unknown-column', row, `column ${i + 1}`, `Column ${i + 1} has no header but this row has a value in it; give the column a name or empty the cell.`, text));
+      }
+    }
+    const ix = layout.index;
+    const required = (role: 'session' | 'assessor' | 'product' | 'attribute'): string => {
+      const value = identifier(cells[ix[role]!]);
+      if (value === '') keyProblem(this.problem('missing-value', row, headers[ix[role]!], `The ${role} is missing; every row needs one.`, ''));
+      return value;
+    };
+    const session = required('session');
+    const assessor = required('assessor');
+    const product = required('product');
+
+    const dateText = identifier(cells[ix.date!]);
+    let date = '';
+    if (dateText === '') {
+      keyProblem(this.problem('missing-value', row, headers[ix.date!], 'The session date is missing; write it as YYYY-MM-DD.', ''));
+    } else {
+      if (dateText !== this.lastDateText) {
+        this.lastDateText = dateText;
+        this.lastDate = parseSessionDate(dateText);
+      }
+      const parsed = this.lastDate!;
+      if (parsed.ok) date = parsed.value;
+      else keyProblem(this.problem(parsed.code, row, headers[ix.date!], parsed.message, dateText));
+    }
+
+    const replicateText = identifier(cells[ix.replicate!]);
+    let replicate = 0;
+    if (replicateText === '') {
+      keyProblem(this.problem('missing-value', row, headers[ix.replicate!], 'The replicate is missing; replicates are numbered 1, 2, 3, …', ''));
+    } else {
+      const parsed = parseReplicate(replicateText);
+      if (parsed.ok) replicate = parsed.value;
+      else keyProblem(this.problem(parsed.code, row, headers[ix.replicate!], parsed.message, replicateText));
+    }
+
+    const codeText = ix.code === undefined ? '' : identifier(cells[ix.code]);
+    const code = codeText === '' ? null : codeText;
+    const longAttribute = layout.form === 'long' ? required('attribute') : null;
+
+    if (keyProblems !== null) {
+      this.rejectRow(keyProblems, cells, { session, dateText, assessor, product, replicateText, longAttribute, code }, out);
+      return;
+    }
+
+    for (const column of this.valueColumns) {
+      const header = headers[column.index];
+      const attribute = column.attribute ?? longAttribute!;
+      const rawText = cells[column.index] ?? '';
+      let text = rawText.trim();
+      if (text.charCodeAt(0) === 39) text = restoreFormulaText(text).trim();
+      if (text === '') {
+        const cell = this.rawCell(session, dateText, assessor, product, replicateText, attribute, null, code);
+        if (layout.form === 'wide') {
+          this.nMissing++;
+          out.push({ type: 'missing', row, column: header, cell });
+        } else {
+          out.push({ type: 'problem', cell, problem: this.problem('missing-value', row, header, 'The value is missing; in long form every row needs a rating (leave the row out instead).', '') });
+        }
+        continue;
+      }
+      const scale = column.attribute === null ? this.scaleOf(attribute, row, headers[ix.attribute!], out) : this.scales.get(attribute)!;
+      const parsed = parseRatingValue(text, this.decimalMark);
+      if (!parsed.ok) {
+        const cell = this.rawCell(session, dateText, assessor, product, replicateText, attribute, text, code);
+        out.push({ type: 'problem', cell, problem: this.problem(parsed.code, row, header, parsed.message, text) });
+        continue;
+      }
+      const value = parsed.value;
+      if (scale !== null && scale !== 'unchecked' && (value < scale.min || value > scale.max)) {
+        const cell = this.rawCell(session, dateText, assessor, product, replicateText, attribute, text, code);
+        out.push({ type: 'problem', cell, problem: this.outOfScale(value, scale, attribute, row, header, text) });
+        continue;
+      }
+      out.push({
+        type: 'rating',
+        row,
+        column: header,
+        rating: { session, assessor, product, replicate, attribute, value, date, code },
+      });
+    }
+  }
+
+  private outOfScale(value: number, scale: ScaleRange, attribute: string, row: number, column: string, text: string): InputProblem {
+    const inScale = (v: number): boolean => v >= scale.min && v <= scale.max;
+    const shifted = inScale(value / 10) ? value / 10 : inScale(value / 100) ? value / 100 : null;
+    if (shifted !== null) {
+      return this.problem(
+        'decimal-shift',
+        row,
+        column,
+        `${text} on a ${formatScale(scale)} scale looks like a decimal shift of ${formatNumber(shifted)}; correct the value.`,
+        text,
+      );
+    }
+    return this.problem(
+      'out-of-scale',
+      row,
+      column,
+      `${text} is outside the ${formatScale(scale)} scale of attribute "${truncateText(attribute, 60)}".`,
+      text,
+    );
+  }
+
+  private rawCell(
+    session: string,
+    date: string,
+    assessor: string,
+    product: string,
+    replicate: string,
+    attribute: string | null,
+    rawValue: string | null,
+    code: string | null,
+  ): RawCell {
+    return {
+      session: session === '' ? null : session,
+      date: date === '' ? null : date,
+      assessor: assessor === '' ? null : assessor,
+      product: product === '' ? null : product,
+      replicate: replicate === '' ? null : replicate,
+      attribute: attribute === '' ? null : attribute,
+      rawValue: rawValue === '' ? null : rawValue,
+      code,
+    };
+  }
+
+  /** Report a row whose keys are bad: the first problem carries the row's non-empty value cells. */
+  private rejectRow(
+    problems: InputProblem[],
+    cells: readonly string[],
+    keys: { session: string; dateText: string; assessor: string; product: string; replicateText: string; longAttribute: string | null; code: string | null },
+    out: ReadEvent[],
+  ): void {
+    const rejected: RawCell[] = [];
+    for (const column of this.valueColumns) {
+      const raw = cells[column.index];
+      if (raw === undefined || raw.trim() === '') continue;
+      const text = raw.length > this.maxCellChars ? raw.slice(0, 80) : identifier(raw);
+      const attribute = column.attribute ?? keys.longAttribute;
+      rejected.push(this.rawCell(keys.session, keys.dateText, keys.assessor, keys.product, keys.replicateText, attribute, text, keys.code));
+    }
+    problems.forEach((problem, i) => {
+      if (i === 0 && rejected.length > 0) {
+        const event: ReadEvent = { type: 'problem', problem, cell: rejected[0] };
+        if (rejected.length > 1) event.moreCells = rejected.slice(1);
+        out.push(event);
+      } else {
+        out.push({ type: 'problem', problem, cell: null });
+      }
+    });
+  }
+}
+
+/**
+ * Read and validate a ratings file (CSV or .xlsx, decided by its first bytes).
+ * Never throws for bad input: every fault becomes a problem event naming file, row and column.
+ * @example
+ *   for await (const e of readRatings({ path }, { fileName: 'week12.csv', scaleFor: () => ({ min: 0, max: 10 }) })) …
+ */
+export async function* readRatings(source: InputSource, options: ReadRatingsOptions): AsyncGenerator<ReadEvent> {
+  const file = options.fileName;
+  const fileProblem = (code: ProblemCode, message: string, row: number | null = null, column: string | null = null): ReadEvent => ({
+    type: 'problem',
+    cell: null,
+    problem: { code, file, row, column, message },
+  });
+
+  let head: Uint8Array;
+  try {
+    head = await readHead(source);
+  } catch {
+    yield fileProblem('file-unreadable', 'The file could not be opened for reading.');
+    return;
+  }
+  const kind = detectFileKind(head);
+  if (kind === 'empty') {
+    yield fileProblem('file-empty', 'The file is empty; it needs a header row and at least one row of ratings.');
+    return;
+  }
+  if (kind === 'xls') {
+    yield fileProblem('file-unreadable', 'This is an old-style .xls workbook, which cannot be read; save it as .xlsx (Excel Workbook) or as CSV UTF-8.');
+    return;
+  }
+  if (kind === 'binary') {
+    yield fileProblem('file-unreadable', 'This file is not a spreadsheet or CSV text (it looks like a PDF, image or archive); upload a CSV or .xlsx file.');
+    return;
+  }
+
+  const maxColumns = options.maxColumns ?? DEFAULT_MAX_COLUMNS;
+  const maxCellChars = options.maxCellChars ?? DEFAULT_MAX_CELL_CHARS;
+  let decimalMark: DecimalMark = '.';
+  const records: AsyncGenerator<SourceRecord> =
+    kind === 'xlsx'
+      ? readXlsxRecords(byteStream(source), { sheet: options.sheet })
+      : readCsvRecords('bytes' in source ? sliceBytes(source.bytes) : byteStream(source), {
+          // A row may hold every column at full cell length; beyond that it is a broken quote.
+          maxRecordChars: maxCellChars * Math.min(maxColumns + 1, 2001) + maxColumns,
+          onDelimiter: (delimiter) => {
+            decimalMark = delimiter === ';' ? ',' : '.';
+          },
+        });
+
+  let reader: RowReader | null = null;
+  const out: ReadEvent[] = [];
+  try {
+    for await (const record of records) {
+      if (reader === null) {
+        if (isBlankRecord(record.cells)) continue;
+        if (record.cells.length > maxColumns) {
+          yield fileProblem('too-many-columns', `The header row has ${record.cells.length} columns; the most this reader accepts is ${maxColumns}.`, record.row);
+          return;
+        }
+        const longCell = record.cells.findIndex((c) => c.length > maxCellChars);
+        if (longCell !== -1) {
+          yield fileProblem('cell-too-long', `Header cell ${longCell + 1} holds ${record.cells[longCell].length} characters; the most a cell may hold is ${maxCellChars}.`, record.row);
+          return;
+        }
+        const { layout, problems } = resolveColumnLayout(record.cells, record.row);
+        if (layout === null) {
+          for (const p of problems) yield { type: 'problem', cell: null, problem: { ...p, file } };
+          return;
+        }
+        reader = new RowReader(file, layout, decimalMark, kind === 'csv', options);
+        if (layout.form === 'wide') {
+          reader.checkHeaderScales(record.row, out);
+          for (const event of out) yield event;
+          out.length = 0;
+        }
+        continue;
+      }
+      if (isBlankRecord(record.cells)) continue;
+      reader.readRow(record, out);
+      for (let i = 0; i < out.length; i++) yield out[i];
+      out.length = 0;
+    }
+  } catch (error) {
+    if (error instanceof SourceFailure) {
+      yield fileProblem(error.code, error.message, error.row, error.column);
+    } else {
+      yield fileProblem('file-unreadable', UNEXPECTED_READ_FAILURE);
+    }
+    return;
+  } finally {
+    await records.return(undefined);
+  }
+
+  if (reader === null) {
+    yield fileProblem('file-empty', 'The file has no header row (it holds only empty lines); it needs a header row and at least one row of ratings.');
+    return;
+  }
+  if (reader.nDataRows === 0) {
+    yield fileProblem('file-empty', 'The file has a header row but no rows of ratings.', 2);
+    return;
+  }
+  if (reader.nMissing > 0) {
+    yield {
+      type: 'finding',
+      finding: {
+        code: 'missing-cells',
+        file,
+        row: null,
+        column: null,
+        message: `${reader.nMissing} empty cell${reader.nMissing === 1 ? ' was' : 's were'} read as missing ratings.`,
+      },
+    };
+  }
+}
