@@ -12,6 +12,7 @@ import {
   type PanelScenarioOptions,
 } from '../../demo/generate-panel.js';
 import { createRandom } from '../../demo/random.js';
+import { readRatings } from '../../ingest/read-ratings.js';
 
 const base: Omit<PanelScenarioOptions, 'faults'> = { seed: 11, nWeeks: 40, nAssessors: 12, startDate: '2026-01-05' };
 
@@ -119,25 +120,24 @@ describe('generatePanel', () => {
       expect(session.products[0]).toBe('REF');
       expect(session.products).toHaveLength(5);
       expect(session.assessors.length).toBeGreaterThanOrEqual(9);
-      const codes = new Map<string, string>();
+      // One distinct 3-digit code per served sample (product × replicate).
+      const samplesByCode = new Map<string, Set<string>>();
       for (const r of panel.rawRows.filter((x) => x.session === session.label)) {
-        expect(r.code).toMatch(/^[1-9]\d\d$/);
-        const sample = `${r.product}|${r.replicate}`;
-        if (codes.has(r.code!)) expect(codes.get(r.code!)).toBe(sample);
-        codes.set(r.code!, sample);
+        if (!samplesByCode.has(r.code!)) samplesByCode.set(r.code!, new Set());
+        samplesByCode.get(r.code!)!.add(`${r.product}|${r.replicate}`);
       }
-      expect(codes.size).toBe(5 * 2);
+      expect(samplesByCode.size).toBe(5 * 2);
+      for (const [code, samples] of samplesByCode) {
+        expect(code).toMatch(/^[1-9]\d\d$/);
+        expect(samples.size).toBe(1);
+      }
     }
     // Recurring and rotating products: T01–T03 every week, T04–T07 once every four weeks.
     expect(panel.sessions.filter((s) => s.products.includes('T05'))).toHaveLength(10);
     // Clean data: every value inside the scale, at 0.1 resolution, no duplicate keys.
-    const keys = new Set<string>();
-    for (const r of panel.ratings) {
-      expect(r.value).toBeGreaterThanOrEqual(0);
-      expect(r.value).toBeLessThanOrEqual(10);
-      expect(Math.abs(r.value * 10 - Math.round(r.value * 10))).toBeLessThan(1e-9);
-      keys.add(keyOf(r));
-    }
+    const keys = new Set(panel.ratings.map(keyOf));
+    const badValues = panel.ratings.filter((r) => !(r.value >= 0 && r.value <= 10) || Math.abs(r.value * 10 - Math.round(r.value * 10)) > 1e-9);
+    expect(badValues).toEqual([]);
     expect(keys.size).toBe(panel.ratings.length);
     expect(panel.rawRows).toEqual(panel.ratings);
     expect(panel.truth).toEqual([]);
@@ -416,5 +416,35 @@ describe('CSV writers', () => {
     expect(settings.attributes.sweetness).toEqual({ min: 0, max: 10, anchorLow: 'not sweet', anchorHigh: 'very sweet' });
     expect(settings.products.REF.role).toBe('reference');
     expect(Object.keys(settings.products)).toHaveLength(8);
+  });
+});
+
+describe('long and wide files through the ingest reader', () => {
+  it('parse to the same ratings and the same problems', async () => {
+    const panel = generatePanel({
+      ...base,
+      nWeeks: 6,
+      faults: [
+        { kind: 'missing-cells', assessor: 'A04', fromSession: 2 },
+        { kind: 'decimal-shift', assessor: 'A02', fromSession: 4, product: 'T02', attributes: ['sweetness'] },
+        { kind: 'out-of-scale', assessor: 'A05', fromSession: 1, product: 'REF', attributes: ['thickness'] },
+      ],
+    });
+    const read = async (text: string, fileName: string) => {
+      const ratings: Rating[] = [];
+      const problems: string[] = [];
+      for await (const event of readRatings({ bytes: Buffer.from(text, 'utf8') }, { fileName, scaleFor: () => panel.scale })) {
+        if (event.type === 'rating') ratings.push(event.rating);
+        if (event.type === 'problem') problems.push(`${event.problem.code}|${event.cell?.assessor}|${event.cell?.product}|${event.cell?.attribute}`);
+      }
+      return { ratings, problems };
+    };
+    const long = await read(toLongCsv(panel), 'panel-long.csv');
+    const wide = await read(toWideCsv(panel), 'panel-wide.csv');
+    expect(long.ratings).toEqual(panel.ratings);
+    expect(wide.ratings).toEqual(panel.ratings);
+    expect(long.problems.sort()).toEqual(wide.problems.sort());
+    // The two invalid cells are the reader's only problems, each named for what it is.
+    expect(long.problems.sort()).toEqual(['decimal-shift|A02|T02|sweetness', 'out-of-scale|A05|REF|thickness']);
   });
 });

@@ -4,6 +4,8 @@ import { describe, expect, it } from 'vitest';
 import ExcelJS from 'exceljs';
 import { generatePanel, panelSettings, sessionSlices, toLongCsv } from '../../demo/generate-panel.js';
 import { SAMPLE_FILES, SAMPLE_OPTIONS } from '../../demo/write-sample-files.js';
+import { readRatings } from '../../ingest/read-ratings.js';
+import type { Rating } from '../../domain/ratings.js';
 
 const folder = join(import.meta.dirname, '..', '..', 'sample-data');
 
@@ -39,5 +41,21 @@ describe('sample-data files', () => {
         ...sample.values,
       ]);
     });
+  });
+
+  it('both files read without a problem into exactly the generated ratings (ingest reader)', async () => {
+    for (const [fileName, expected] of [
+      [SAMPLE_FILES.longCsv, first.panel.ratings],
+      [SAMPLE_FILES.wideXlsx, second.panel.ratings],
+    ] as const) {
+      const ratings: Rating[] = [];
+      const other: string[] = [];
+      for await (const event of readRatings({ path: join(folder, fileName) }, { fileName, scaleFor: () => panel.scale })) {
+        if (event.type === 'rating') ratings.push(event.rating);
+        else other.push(event.type);
+      }
+      expect(other).toEqual([]);
+      expect(ratings).toEqual(expected);
+    }
   });
 });

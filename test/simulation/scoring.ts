@@ -1,0 +1,93 @@
+/**
+ * Scores flags against the planted ground truth: which planted faults were found, and how many
+ * act-level flags fell on clean assessors.
+ */
+import type { Flag, FlagKind } from '../../domain/flags.js';
+import { FLAG_KINDS } from '../../domain/flags.js';
+import type { PlantedFault } from '../../demo/generate-panel.js';
+
+const ONE_SESSION_KINDS = new Set<FlagKind>(['out-of-scale', 'decimal-shift', 'duplicate', 'swapped-codes', 'missing-cells', 'straight-lining']);
+
+/**
+ * A flag finds a planted fault when it has the same kind and every identifying field both name
+ * agrees: assessor; product (either of the two for swapped codes); attribute (a flag without an
+ * attribute is assessor-wide and matches any; a fault on all attributes matches any flag
+ * attribute); and, for one-session data faults, the session.
+ */
+export function flagFindsFault(flag: Flag, fault: PlantedFault): boolean {
+  if (flag.kind !== fault.kind) return false;
+  if (fault.assessor !== null && flag.assessor !== fault.assessor) return false;
+  if (fault.product !== null && flag.product !== null) {
+    const products = [fault.product, fault.otherProduct].filter((p): p is string => p !== null);
+    if (!products.includes(flag.product)) return false;
+  }
+  if (fault.kind === 'unstable-product' && flag.product === null) return false;
+  if (fault.attributes !== null && flag.attribute !== null && !fault.attributes.includes(flag.attribute)) return false;
+  if (ONE_SESSION_KINDS.has(fault.kind) && flag.firstSession !== fault.firstSession) return false;
+  return true;
+}
+
+export interface KindTally {
+  kind: FlagKind;
+  planted: number;
+  /** Found at watch or act. */
+  found: number;
+  /** Found at act. */
+  foundAct: number;
+  /** Faults not found, described. */
+  missed: string[];
+}
+
+export interface PanelScore {
+  byKind: Map<FlagKind, KindTally>;
+  /** Act-level flags naming a clean assessor. */
+  cleanActFlags: Flag[];
+  cleanWatchFlags: Flag[];
+  /** Clean assessor-years observed (clean assessors × weeks / 52). */
+  cleanAssessorYears: number;
+  /** Act-level unstable-product flags on products with no planted step. */
+  stableProductActFlags: Flag[];
+}
+
+export function emptyTallies(): Map<FlagKind, KindTally> {
+  return new Map(FLAG_KINDS.map((kind) => [kind, { kind, planted: 0, found: 0, foundAct: 0, missed: [] }]));
+}
+
+export function scorePanel(flags: readonly Flag[], truth: readonly PlantedFault[], cleanAssessors: readonly string[], nWeeks: number, label: string): PanelScore {
+  const byKind = emptyTallies();
+  for (const fault of truth) {
+    const tally = byKind.get(fault.kind)!;
+    tally.planted++;
+    const matching = flags.filter((flag) => flagFindsFault(flag, fault));
+    if (matching.length > 0) tally.found++;
+    else tally.missed.push(`${label}: ${fault.description}`);
+    if (matching.some((flag) => flag.severity === 'act')) tally.foundAct++;
+  }
+  const clean = new Set(cleanAssessors);
+  const plantedProducts = new Set(truth.filter((f) => f.kind === 'unstable-product').map((f) => f.product));
+  return {
+    byKind,
+    cleanActFlags: flags.filter((f) => f.severity === 'act' && f.assessor !== null && clean.has(f.assessor)),
+    cleanWatchFlags: flags.filter((f) => f.severity === 'watch' && f.assessor !== null && clean.has(f.assessor)),
+    cleanAssessorYears: (cleanAssessors.length * nWeeks) / 52,
+    stableProductActFlags: flags.filter((f) => f.kind === 'unstable-product' && f.severity === 'act' && !plantedProducts.has(f.product)),
+  };
+}
+
+/** Adds panel tallies together. */
+export function addTallies(total: Map<FlagKind, KindTally>, more: Map<FlagKind, KindTally>): void {
+  for (const [kind, t] of more) {
+    const sum = total.get(kind)!;
+    sum.planted += t.planted;
+    sum.found += t.found;
+    sum.foundAct += t.foundAct;
+    sum.missed.push(...t.missed);
+  }
+}
+
+export function median(xs: readonly number[]): number | null {
+  if (xs.length === 0) return null;
+  const sorted = [...xs].sort((a, b) => a - b);
+  const mid = Math.floor(sorted.length / 2);
+  return sorted.length % 2 === 1 ? sorted[mid] : (sorted[mid - 1] + sorted[mid]) / 2;
+}
