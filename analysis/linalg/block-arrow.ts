@@ -1,0 +1,175 @@
+/**
+ * Cholesky factorisation of a symmetric positive-definite "block-arrow" matrix:
+ *
+ *     [ A_1              C_1 ]
+ *     [      A_2         C_2 ]
+ *     [           ...    ... ]
+ *     [ C_1ᵀ C_2ᵀ ...    A_B ]
+ *
+ * Independent diagonal blocks A_b (random effects nested in one level of a grouping factor,
+ * e.g. everything belonging to one session) plus a dense border A_B (effects crossed with
+ * that factor). L = [[L_b, 0], [W_bᵀ, L_B]] with L_b L_bᵀ = A_b, W_b = L_b⁻¹ C_b and
+ * L_B L_Bᵀ = A_B − Σ W_bᵀ W_b. Cost Σ_b (n_b³/3 + n_b² n_B + n_b n_B²) + n_B³/3 instead of q³/3.
+ */
+import { backSolveTransposeInPlace, choleskyInPlace, forwardSolveInPlace } from './dense.js';
+
+export interface BlockArrowLayout {
+  /** Size n_b of each diagonal block, in global order. */
+  blockSizes: number[];
+  /** Global position of the first row of each block. */
+  blockOffsets: number[];
+  /** Size n_B of the border (last rows in the global order). */
+  borderSize: number;
+  /** Global position of the first border row (= Σ n_b). */
+  borderOffset: number;
+  /** Total size q. */
+  size: number;
+}
+
+/** Matrix values before factorisation and the factor after: filled by the caller, overwritten by factorBlockArrowInPlace. */
+export interface BlockArrowWorkspace {
+  layout: BlockArrowLayout;
+  /** Row-major n_b×n_b: A_b, then L_b. */
+  blocks: Float64Array[];
+  /** Row-major n_b×n_B: C_b, then W_b = L_b⁻¹ C_b. */
+  couplings: Float64Array[];
+  /** Row-major n_B×n_B: A_B, then L_B. */
+  border: Float64Array;
+}
+
+export function makeBlockArrowLayout(blockSizes: number[], borderSize: number): BlockArrowLayout {
+  const blockOffsets: number[] = [];
+  let offset = 0;
+  for (const size of blockSizes) {
+    blockOffsets.push(offset);
+    offset += size;
+  }
+  return { blockSizes, blockOffsets, borderSize, borderOffset: offset, size: offset + borderSize };
+}
+
+export function makeBlockArrowWorkspace(layout: BlockArrowLayout): BlockArrowWorkspace {
+  return {
+    layout,
+    blocks: layout.blockSizes.map((size) => new Float64Array(size * size)),
+    couplings: layout.blockSizes.map((size) => new Float64Array(size * layout.borderSize)),
+    border: new Float64Array(layout.borderSize * layout.borderSize),
+  };
+}
+
+/** Factorises in place; returns false when the matrix is not positive definite. */
+export function factorBlockArrowInPlace(workspace: BlockArrowWorkspace): boolean {
+  const { layout, blocks, couplings, border } = workspace;
+  const nB = layout.borderSize;
+  for (let b = 0; b < blocks.length; b++) {
+    const nb = layout.blockSizes[b];
+    const block = blocks[b];
+    if (!choleskyInPlace(block, nb)) return false;
+    if (nB === 0) continue;
+    const coupling = couplings[b];
+    for (let column = 0; column < nB; column++) forwardSolveInPlace(block, nb, coupling, column, nB);
+    // Schur complement update of the lower triangle of the border: A_B -= W_bᵀ W_b.
+    for (let k = 0; k < nb; k++) {
+      const rowK = k * nB;
+      for (let i = 0; i < nB; i++) {
+        const wki = coupling[rowK + i];
+        if (wki === 0) continue;
+        const rowI = i * nB;
+        for (let j = 0; j <= i; j++) border[rowI + j] -= wki * coupling[rowK + j];
+      }
+    }
+  }
+  return nB === 0 || choleskyInPlace(border, nB);
+}
+
+/** Sum of log of squared diagonal of L = log det of the factored matrix. */
+export function blockArrowLogDeterminant(workspace: BlockArrowWorkspace): number {
+  const { layout, blocks, border } = workspace;
+  let sum = 0;
+  for (let b = 0; b < blocks.length; b++) {
+    const nb = layout.blockSizes[b];
+    for (let i = 0; i < nb; i++) sum += Math.log(blocks[b][i * nb + i]);
+  }
+  for (let i = 0; i < layout.borderSize; i++) sum += Math.log(border[i * layout.borderSize + i]);
+  return 2 * sum;
+}
+
+/** x ← L⁻¹ x for one column of a row-major q×m right-hand side (column `column`, stride m). */
+export function blockArrowForwardSolve(workspace: BlockArrowWorkspace, x: Float64Array, column = 0, stride = 1): void {
+  const { layout, blocks, couplings, border } = workspace;
+  const nB = layout.borderSize;
+  const borderStart = column + layout.borderOffset * stride;
+  for (let b = 0; b < blocks.length; b++) {
+    const nb = layout.blockSizes[b];
+    const start = column + layout.blockOffsets[b] * stride;
+    forwardSolveInPlace(blocks[b], nb, x, start, stride);
+    if (nB === 0) continue;
+    const coupling = couplings[b];
+    for (let k = 0; k < nb; k++) {
+      const xk = x[start + k * stride];
+      if (xk === 0) continue;
+      const rowK = k * nB;
+      for (let i = 0; i < nB; i++) x[borderStart + i * stride] -= coupling[rowK + i] * xk;
+    }
+  }
+  if (nB > 0) forwardSolveInPlace(border, nB, x, borderStart, stride);
+}
+
+/** x ← L⁻ᵀ x for one column of a row-major q×m right-hand side. */
+export function blockArrowBackSolve(workspace: BlockArrowWorkspace, x: Float64Array, column = 0, stride = 1): void {
+  const { layout, blocks, couplings, border } = workspace;
+  const nB = layout.borderSize;
+  const borderStart = column + layout.borderOffset * stride;
+  if (nB > 0) backSolveTransposeInPlace(border, nB, x, borderStart, stride);
+  for (let b = 0; b < blocks.length; b++) {
+    const nb = layout.blockSizes[b];
+    const start = column + layout.blockOffsets[b] * stride;
+    if (nB > 0) {
+      const coupling = couplings[b];
+      for (let k = 0; k < nb; k++) {
+        const rowK = k * nB;
+        let sum = 0;
+        for (let i = 0; i < nB; i++) sum += coupling[rowK + i] * x[borderStart + i * stride];
+        x[start + k * stride] -= sum;
+      }
+    }
+    backSolveTransposeInPlace(blocks[b], nb, x, start, stride);
+  }
+}
+
+/**
+ * Diagonal entry i of the inverse of the factored matrix, (L Lᵀ)⁻¹_ii = ‖L⁻¹ e_i‖²,
+ * touching only the block that holds position i and the border.
+ */
+export function blockArrowInverseDiagonal(workspace: BlockArrowWorkspace, position: number): number {
+  const { layout, blocks, couplings, border } = workspace;
+  const nB = layout.borderSize;
+  if (position >= layout.borderOffset) {
+    const local = new Float64Array(nB);
+    local[position - layout.borderOffset] = 1;
+    forwardSolveInPlace(border, nB, local);
+    return sumOfSquares(local);
+  }
+  let b = 0;
+  while (b + 1 < blocks.length && layout.blockOffsets[b + 1] <= position) b++;
+  const nb = layout.blockSizes[b];
+  const local = new Float64Array(nb);
+  local[position - layout.blockOffsets[b]] = 1;
+  forwardSolveInPlace(blocks[b], nb, local);
+  let total = sumOfSquares(local);
+  if (nB > 0) {
+    const borderPart = new Float64Array(nB);
+    const coupling = couplings[b];
+    for (let k = 0; k < nb; k++) {
+      for (let i = 0; i < nB; i++) borderPart[i] -= coupling[k * nB + i] * local[k];
+    }
+    forwardSolveInPlace(border, nB, borderPart);
+    total += sumOfSquares(borderPart);
+  }
+  return total;
+}
+
+function sumOfSquares(values: Float64Array): number {
+  let sum = 0;
+  for (const value of values) sum += value * value;
+  return sum;
+}

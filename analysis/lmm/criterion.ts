@@ -1,0 +1,205 @@
+/**
+ * Stage 2 of a fit: the profiled REML (or ML) criterion as a function of the relative
+ * standard deviations θ_k = σ_k/σ, computed as lme4 does (Bates et al. 2015, J. Stat. Softw.
+ * 67(1), section 3): with Λ = diag(θ) over the random effects,
+ *
+ *   L Lᵀ = Λ ZᵀZ Λ + I,  R_ZX = L⁻¹ Λ ZᵀX,  R_Xᵀ R_X = XᵀX − R_ZXᵀ R_ZX,
+ *   c_u = L⁻¹ Λ Zᵀy,  c_β = R_X⁻ᵀ (Xᵀy − R_ZXᵀ c_u),  pwrss = yᵀy − ‖c_u‖² − ‖c_β‖²,
+ *   REML: log|L|² + log|R_X|² + (n − p)(1 + log(2π pwrss/(n − p)))   (lme4's REMLcrit)
+ *   ML:   log|L|² + n(1 + log(2π pwrss/n))                          (lme4's deviance)
+ *
+ * θ_k = 0 is allowed (the term drops out), which is how boundary fits are represented.
+ * All work is q×q in block-arrow form (see linalg/block-arrow.ts); nothing is N×N.
+ */
+import {
+  blockArrowBackSolve,
+  blockArrowForwardSolve,
+  blockArrowInverseDiagonal,
+  blockArrowLogDeterminant,
+  factorBlockArrowInPlace,
+  makeBlockArrowWorkspace,
+} from '../linalg/block-arrow.js';
+import { backSolveTransposeInPlace, choleskyInPlace, choleskyLogDeterminant, forwardSolveInPlace, inverseFromCholesky } from '../linalg/dense.js';
+import type { ModelFrame } from './model-frame.js';
+
+export interface CriterionParts {
+  /** REMLcrit (reml) or deviance (ML), −2 × the profiled log-likelihood. */
+  deviance: number;
+  /** log|L|² = log det(Λ ZᵀZ Λ + I). */
+  logDetL: number;
+  /** log|R_X|² = log det(XᵀV⁻¹X σ²). */
+  logDetRX: number;
+  /** Penalised weighted residual sum of squares. */
+  pwrss: number;
+}
+
+export interface MixedModelSolution extends CriterionParts {
+  theta: Float64Array;
+  /** Residual SD at this θ (REML: √(pwrss/(n−p)); ML: √(pwrss/n)), as lme4's sigma(). */
+  sigma: number;
+  /** Fixed effects on the data scale (intercept first, then treatment contrasts). */
+  beta: Float64Array;
+  /** (R_Xᵀ R_X)⁻¹, so cov(β̂) = σ² × this (row-major p×p). */
+  unscaledCovBeta: Float64Array;
+  /** Conditional modes b = Λu of each term's random effects, by level, data scale. */
+  randomEffects: Float64Array[];
+  /** Conditional variances Var(b | y) of each level of term k, as lme4's ranef(condVar = TRUE). */
+  conditionalVariances(termIndex: number): Float64Array;
+}
+
+export interface RemlObjective {
+  frame: ModelFrame;
+  reml: boolean;
+  nTheta: number;
+  /** The criterion at θ (Infinity when a factorisation fails). */
+  evaluate(theta: ArrayLike<number>): number;
+  parts(theta: ArrayLike<number>): CriterionParts;
+  solve(theta: ArrayLike<number>): MixedModelSolution;
+  /** (R_Xᵀ R_X)⁻¹ at θ: cov(β̂) = σ² × this. */
+  unscaledCovBeta(theta: ArrayLike<number>): Float64Array;
+}
+
+export function makeRemlObjective(frame: ModelFrame, options: { reml?: boolean } = {}): RemlObjective {
+  const reml = options.reml ?? true;
+  const { layout, nFixed: p, nObservations: n } = frame;
+  const q = layout.size;
+  const nB = layout.borderSize;
+  const nTheta = frame.terms.length;
+  const workspace = makeBlockArrowWorkspace(layout);
+  const lambda = new Float64Array(q);
+  const rhs = new Float64Array(q * (p + 1));
+  const rx = new Float64Array(p * p);
+  const cBeta = new Float64Array(p);
+  const degreesOfFreedom = reml ? n - p : n;
+  if (degreesOfFreedom <= 0) throw new Error('too few observations for the fixed effects');
+
+  function factor(theta: ArrayLike<number>): boolean {
+    if (theta.length !== nTheta) throw new Error(`expected ${nTheta} relative SDs, got ${theta.length}`);
+    for (let i = 0; i < q; i++) lambda[i] = theta[frame.termOfPosition[i]];
+    for (let b = 0; b < layout.blockSizes.length; b++) {
+      const nb = layout.blockSizes[b];
+      const offset = layout.blockOffsets[b];
+      const source = frame.zTzBlocks[b];
+      const target = workspace.blocks[b];
+      for (let i = 0; i < nb; i++) {
+        const li = lambda[offset + i];
+        for (let j = 0; j < nb; j++) target[i * nb + j] = li * lambda[offset + j] * source[i * nb + j];
+        target[i * nb + i] += 1;
+      }
+      const sourceCoupling = frame.zTzCouplings[b];
+      const targetCoupling = workspace.couplings[b];
+      for (let i = 0; i < nb; i++) {
+        const li = lambda[offset + i];
+        for (let j = 0; j < nB; j++) targetCoupling[i * nB + j] = li * lambda[layout.borderOffset + j] * sourceCoupling[i * nB + j];
+      }
+    }
+    for (let i = 0; i < nB; i++) {
+      const li = lambda[layout.borderOffset + i];
+      for (let j = 0; j < nB; j++) workspace.border[i * nB + j] = li * lambda[layout.borderOffset + j] * frame.zTzBorder[i * nB + j];
+      workspace.border[i * nB + i] += 1;
+    }
+    if (!factorBlockArrowInPlace(workspace)) return false;
+
+    // [R_ZX | c_u] = L⁻¹ Λ [ZᵀX | Zᵀy]
+    const width = p + 1;
+    for (let i = 0; i < q; i++) {
+      const li = lambda[i];
+      for (let c = 0; c < p; c++) rhs[i * width + c] = li * frame.zTx[i * p + c];
+      rhs[i * width + p] = li * frame.zTy[i];
+    }
+    for (let c = 0; c <= p; c++) blockArrowForwardSolve(workspace, rhs, c, width);
+
+    // R_Xᵀ R_X = XᵀX − R_ZXᵀ R_ZX and the right-hand side Xᵀy − R_ZXᵀ c_u.
+    for (let i = 0; i < p; i++) {
+      for (let j = 0; j <= i; j++) {
+        let sum = frame.xTx[i * p + j];
+        for (let k = 0; k < q; k++) sum -= rhs[k * width + i] * rhs[k * width + j];
+        rx[i * p + j] = sum;
+        rx[j * p + i] = sum;
+      }
+      let sum = frame.xTy[i];
+      for (let k = 0; k < q; k++) sum -= rhs[k * width + i] * rhs[k * width + p];
+      cBeta[i] = sum;
+    }
+    if (!choleskyInPlace(rx, p)) return false;
+    forwardSolveInPlace(rx, p, cBeta);
+    return true;
+  }
+
+  function parts(theta: ArrayLike<number>): CriterionParts {
+    if (!factor(theta)) return { deviance: Infinity, logDetL: NaN, logDetRX: NaN, pwrss: NaN };
+    const width = p + 1;
+    let pwrss = frame.yTy;
+    for (let k = 0; k < q; k++) pwrss -= rhs[k * width + p] * rhs[k * width + p];
+    for (let i = 0; i < p; i++) pwrss -= cBeta[i] * cBeta[i];
+    const logDetL = blockArrowLogDeterminant(workspace);
+    const logDetRX = choleskyLogDeterminant(rx, p);
+    if (!(pwrss > 0)) return { deviance: Infinity, logDetL, logDetRX, pwrss };
+    const deviance =
+      logDetL + (reml ? logDetRX : 0) + degreesOfFreedom * (1 + Math.log((2 * Math.PI * pwrss) / degreesOfFreedom));
+    return { deviance, logDetL, logDetRX, pwrss };
+  }
+
+  function solve(thetaInput: ArrayLike<number>): MixedModelSolution {
+    const theta = Float64Array.from(thetaInput);
+    const criterion = parts(theta);
+    if (!Number.isFinite(criterion.deviance)) throw new Error('the mixed-model equations are singular at these parameters');
+    const width = p + 1;
+    const beta = Float64Array.from(cBeta);
+    backSolveTransposeInPlace(rx, p, beta);
+    // Spherical random effects u = L⁻ᵀ (c_u − R_ZX β), then b = Λu.
+    const u = new Float64Array(q);
+    for (let k = 0; k < q; k++) {
+      let sum = rhs[k * width + p];
+      for (let c = 0; c < p; c++) sum -= rhs[k * width + c] * beta[c];
+      u[k] = sum;
+    }
+    blockArrowBackSolve(workspace, u);
+    beta[0] += frame.responseCentre;
+    const randomEffects = frame.terms.map((term, k) =>
+      Float64Array.from(term.levels, (_, level) => {
+        const position = frame.positionOf[k][level];
+        return lambda[position] * u[position];
+      }),
+    );
+    const unscaledCovBeta = inverseFromCholesky(rx, p);
+    const sigma = Math.sqrt(criterion.pwrss / degreesOfFreedom);
+    // Snapshot of the factor: later evaluations overwrite the shared workspace.
+    const snapshot = {
+      layout,
+      blocks: workspace.blocks.map((block) => block.slice()),
+      couplings: workspace.couplings.map((coupling) => coupling.slice()),
+      border: workspace.border.slice(),
+    };
+    const lambdaSnapshot = lambda.slice();
+    return {
+      ...criterion,
+      theta,
+      sigma,
+      beta,
+      unscaledCovBeta,
+      randomEffects,
+      conditionalVariances(termIndex: number): Float64Array {
+        const positions = frame.positionOf[termIndex];
+        return Float64Array.from(positions, (position) => {
+          const scale = lambdaSnapshot[position];
+          if (scale === 0) return 0;
+          return sigma * sigma * scale * scale * blockArrowInverseDiagonal(snapshot, position);
+        });
+      },
+    };
+  }
+
+  return {
+    frame,
+    reml,
+    nTheta,
+    evaluate: (theta) => parts(theta).deviance,
+    parts,
+    solve,
+    unscaledCovBeta(theta: ArrayLike<number>): Float64Array {
+      if (!factor(theta)) throw new Error('the mixed-model equations are singular at these parameters');
+      return inverseFromCholesky(rx, p);
+    },
+  };
+}

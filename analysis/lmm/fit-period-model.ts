@@ -1,0 +1,92 @@
+/**
+ * The period model for one attribute over many sessions (issue 3, part 3):
+ *   value ~ product + (1|assessor) + (1|session) + (1|assessor:product)
+ *           + (1|assessor:session) + (1|product:session)
+ * with an optional boundary likelihood-ratio test of product:session (instability of product
+ * effects across sessions): LR = REMLcrit(without the term) − REMLcrit(full), p from the 50:50
+ * mixture of χ²₀ and χ²₁ (Self & Liang 1987; Stram & Lee 1994).
+ */
+import type { FitJson } from '../../domain/analysis.js';
+import type { Observation } from '../../domain/ratings.js';
+import { boundaryLrtPValue } from '../distributions/index.js';
+import { makeRemlObjective } from './criterion.js';
+import { LmmFitError } from './errors.js';
+import { fitFromObjective, type LmmDiagnostics, type LmmFit } from './fit.js';
+import { checkOneGroup, checkResponse } from './fit-session-model.js';
+import { buildModelFrame } from './model-frame.js';
+import { minimizeBounded } from './optimise.js';
+
+export interface PeriodModelFit {
+  json: FitJson;
+  diagnostics: LmmDiagnostics;
+  productSessionLrt: { likelihoodRatio: number; pValue: number } | null;
+  fit: LmmFit;
+}
+
+export interface PeriodModelOptions {
+  /** Include (1|product:session) and test it (default true). */
+  withProductSession?: boolean;
+}
+
+const BASE_TERMS: string[][] = [['assessor'], ['session'], ['assessor', 'product'], ['assessor', 'session']];
+
+export function fitPeriodModel(observations: Observation[], options: PeriodModelOptions = {}): PeriodModelFit {
+  const withProductSession = options.withProductSession ?? true;
+  const { attribute } = checkOneGroup(observations, false);
+  const values = observations.map((row) => row.value);
+  checkResponse(values);
+  const columns = {
+    assessor: observations.map((row) => row.assessor),
+    product: observations.map((row) => row.product),
+    session: observations.map((row) => row.session),
+  };
+  const nAssessors = new Set(columns.assessor).size;
+  const nSessions = new Set(columns.session).size;
+  if (nAssessors < 2) throw new LmmFitError('too-few-assessors', `only ${nAssessors} assessor rated ${attribute}: a panel model needs at least 2`);
+  if (nSessions < 2) throw new LmmFitError('too-few-sessions', `only ${nSessions} session has ratings of ${attribute}: a period model needs at least 2`);
+  const randomTerms = withProductSession ? [...BASE_TERMS, ['product', 'session']] : BASE_TERMS;
+  const frame = buildModelFrame({ response: values, columns, fixedFactor: 'product', randomTerms });
+  if (frame.nObservations <= frame.nFixed) {
+    throw new LmmFitError('too-few-observations', `${frame.nObservations} ratings of ${attribute} are too few for ${frame.nFixed} products`);
+  }
+  const objective = makeRemlObjective(frame);
+  const fit = fitFromObjective(objective, { startTheta: randomTerms.map(() => 0.5), randomEffectTerms: ['assessor'] });
+  if (nAssessors < 3) fit.diagnostics.messages.push(`too few assessors (${nAssessors}): the assessor variance is poorly determined`);
+
+  let productSessionLrt: PeriodModelFit['productSessionLrt'] = null;
+  if (withProductSession) {
+    const index = randomTerms.length - 1;
+    const withoutTerm = (theta: ArrayLike<number>): number => {
+      const full = new Float64Array(randomTerms.length);
+      for (let k = 0, j = 0; k < randomTerms.length; k++) full[k] = k === index ? 0 : theta[j++];
+      return objective.evaluate(full);
+    };
+    const start = [...fit.theta].filter((_, k) => k !== index).map((value) => Math.max(value, 0.05));
+    const reduced = minimizeBounded(withoutTerm, start);
+    const likelihoodRatio = Math.max(reduced.value - fit.criterion, 0);
+    productSessionLrt = { likelihoodRatio, pValue: boundaryLrtPValue(likelihoodRatio) };
+  }
+
+  const variance: FitJson['variance'] = {
+    assessor: fit.variances['assessor'],
+    'assessor:product': fit.variances['assessor:product'],
+    residual: fit.residualVariance,
+    session: fit.variances['session'],
+    'assessor:session': fit.variances['assessor:session'],
+  };
+  if (withProductSession) variance['product:session'] = fit.variances['product:session'];
+  const json: FitJson = {
+    session: null,
+    attribute,
+    model: 'period',
+    n: frame.nObservations,
+    assessors: nAssessors,
+    products: frame.nFixed,
+    variance,
+    remlCriterion: fit.criterion,
+    productTest: { F: fit.productTest.F, numDf: fit.productTest.numDf, denDf: fit.productTest.denDf, p: fit.productTest.pValue },
+    productMeans: fit.productMeans.map((mean) => ({ ...mean })),
+    assessorEffects: (fit.randomEffects['assessor'] ?? []).map((effect) => ({ assessor: effect.level, blup: effect.blup, condSD: effect.condSD })),
+  };
+  return { json, diagnostics: fit.diagnostics, productSessionLrt, fit };
+}

@@ -1,0 +1,265 @@
+/**
+ * Stage 1 of a fit: the model frame. Turns rows into level indices and the sufficient
+ * statistics of a variance-component model
+ *
+ *     y = Xβ + Σ_k Z_k u_k + e,   u_k ~ N(0, σ²_k I),  e ~ N(0, σ² I)
+ *
+ * with X = intercept + treatment-coded fixed factor (first level in sorted order is the
+ * reference, as R's factor() in the C locale) and Z_k the indicator matrix of random-intercept
+ * term k (a factor or an interaction of factors, e.g. assessor:product). Nothing N×N is
+ * formed: the criterion needs only ZᵀZ (stored in block-arrow form), ZᵀX, Zᵀy, XᵀX, Xᵀy, yᵀy.
+ */
+import { makeBlockArrowLayout, type BlockArrowLayout } from '../linalg/block-arrow.js';
+
+export interface ModelFrameInput {
+  /** The response, one value per observation. */
+  response: ArrayLike<number>;
+  /** Factor columns by name (e.g. assessor, product, session), one string per observation. */
+  columns: Record<string, readonly string[]>;
+  /** Name of the fixed factor (treatment coded). */
+  fixedFactor: string;
+  /** Random-intercept terms, each a list of factor names (['assessor', 'product'] is assessor:product). */
+  randomTerms: readonly (readonly string[])[];
+}
+
+export interface RandomTerm {
+  /** R-style label, e.g. "assessor:product". */
+  name: string;
+  factors: string[];
+  /** Level labels (factor values joined by ':'), sorted. */
+  levels: string[];
+  /** Level index of each observation. */
+  index: Int32Array;
+}
+
+export interface ModelFrame {
+  nObservations: number;
+  /** Number of fixed-effect columns (intercept + levels − 1). */
+  nFixed: number;
+  fixedFactor: string;
+  fixedLevels: string[];
+  fixedIndex: Int32Array;
+  response: Float64Array;
+  /** Mean of the response; the criterion works on the centred response for accuracy. */
+  responseCentre: number;
+  terms: RandomTerm[];
+  /** Factor whose levels split the random effects into independent blocks (null: one dense block). */
+  blockingFactor: string | null;
+  layout: BlockArrowLayout;
+  /** positionOf[k][level] = row of that random effect in the block-arrow order. */
+  positionOf: Int32Array[];
+  /** Term index of each row in the block-arrow order. */
+  termOfPosition: Int32Array;
+  /** ZᵀZ in block-arrow form (counts, full symmetric blocks). */
+  zTzBlocks: Float64Array[];
+  zTzCouplings: Float64Array[];
+  zTzBorder: Float64Array;
+  /** ZᵀX, q × p row-major. */
+  zTx: Float64Array;
+  /** Zᵀ(y − centre). */
+  zTy: Float64Array;
+  /** XᵀX, p × p row-major. */
+  xTx: Float64Array;
+  /** Xᵀ(y − centre). */
+  xTy: Float64Array;
+  /** (y − centre)ᵀ(y − centre). */
+  yTy: number;
+}
+
+/** Code-unit order: the same as R's sort(method = "radix"), i.e. the C locale. */
+export function compareLevels(a: string, b: string): number {
+  return a < b ? -1 : a > b ? 1 : 0;
+}
+
+export function buildModelFrame(input: ModelFrameInput): ModelFrame {
+  const n = input.response.length;
+  const response = Float64Array.from(input.response);
+  if (n === 0) throw new Error('no observations to fit');
+  for (const value of response) if (!Number.isFinite(value)) throw new Error('the response has a missing or non-finite value');
+  const column = (name: string): readonly string[] => {
+    const values = input.columns[name];
+    if (!values || values.length !== n) throw new Error(`factor column "${name}" is missing or has the wrong length`);
+    return values;
+  };
+
+  const fixedValues = column(input.fixedFactor);
+  const fixedLevels = [...new Set(fixedValues)].sort(compareLevels);
+  const fixedLevelIndex = new Map(fixedLevels.map((level, index) => [level, index]));
+  const fixedIndex = Int32Array.from(fixedValues, (value) => fixedLevelIndex.get(value)!);
+  const p = fixedLevels.length;
+
+  const terms: RandomTerm[] = input.randomTerms.map((factors) => {
+    const columns = factors.map(column);
+    const labels = new Array<string>(n);
+    for (let i = 0; i < n; i++) labels[i] = columns.length === 1 ? columns[0][i] : columns.map((values) => values[i]).join(':');
+    const levels = [...new Set(labels)].sort(compareLevels);
+    const levelIndex = new Map(levels.map((level, index) => [level, index]));
+    return { name: factors.join(':'), factors: [...factors], levels, index: Int32Array.from(labels, (label) => levelIndex.get(label)!) };
+  });
+
+  // Value of each factor for each level of each term (first observation of the level).
+  const factorValueOfLevel = terms.map((term) => {
+    const byFactor: Record<string, string[]> = {};
+    for (const factor of term.factors) {
+      const values = column(factor);
+      const perLevel = new Array<string>(term.levels.length);
+      for (let i = 0; i < n; i++) perLevel[term.index[i]] ??= values[i];
+      byFactor[factor] = perLevel;
+    }
+    return byFactor;
+  });
+
+  const blockingFactor = chooseBlockingFactor(terms, factorValueOfLevel);
+  const { layout, positionOf, termOfPosition } = layoutPositions(terms, factorValueOfLevel, blockingFactor);
+
+  const q = layout.size;
+  const blockOfPosition = new Int32Array(q).fill(-1);
+  const localOfPosition = new Int32Array(q);
+  layout.blockSizes.forEach((size, b) => {
+    for (let i = 0; i < size; i++) {
+      blockOfPosition[layout.blockOffsets[b] + i] = b;
+      localOfPosition[layout.blockOffsets[b] + i] = i;
+    }
+  });
+  for (let i = layout.borderOffset; i < q; i++) localOfPosition[i] = i - layout.borderOffset;
+
+  const nB = layout.borderSize;
+  const zTzBlocks = layout.blockSizes.map((size) => new Float64Array(size * size));
+  const zTzCouplings = layout.blockSizes.map((size) => new Float64Array(size * nB));
+  const zTzBorder = new Float64Array(nB * nB);
+  const zTx = new Float64Array(q * p);
+  const zTy = new Float64Array(q);
+  const xTx = new Float64Array(p * p);
+  const xTy = new Float64Array(p);
+
+  let responseCentre = 0;
+  for (const value of response) responseCentre += value;
+  responseCentre /= n;
+  let yTy = 0;
+
+  const positions = new Int32Array(terms.length);
+  for (let i = 0; i < n; i++) {
+    const y = response[i] - responseCentre;
+    yTy += y * y;
+    const fixedColumn = fixedIndex[i];
+    xTx[0] += 1;
+    xTy[0] += y;
+    if (fixedColumn > 0) {
+      xTx[fixedColumn] += 1;
+      xTx[fixedColumn * p] += 1;
+      xTx[fixedColumn * p + fixedColumn] += 1;
+      xTy[fixedColumn] += y;
+    }
+    for (let k = 0; k < terms.length; k++) {
+      const position = positionOf[k][terms[k].index[i]];
+      positions[k] = position;
+      zTy[position] += y;
+      zTx[position * p] += 1;
+      if (fixedColumn > 0) zTx[position * p + fixedColumn] += 1;
+    }
+    for (let k = 0; k < terms.length; k++) {
+      const row = positions[k];
+      for (let m = 0; m < terms.length; m++) {
+        const col = positions[m];
+        const rowBlock = blockOfPosition[row];
+        const colBlock = blockOfPosition[col];
+        if (rowBlock >= 0 && colBlock >= 0) {
+          if (rowBlock !== colBlock) throw new Error('internal: random effects of two blocks share an observation');
+          zTzBlocks[rowBlock][localOfPosition[row] * layout.blockSizes[rowBlock] + localOfPosition[col]] += 1;
+        } else if (rowBlock >= 0) {
+          zTzCouplings[rowBlock][localOfPosition[row] * nB + localOfPosition[col]] += 1;
+        } else if (colBlock < 0) {
+          zTzBorder[localOfPosition[row] * nB + localOfPosition[col]] += 1;
+        }
+      }
+    }
+  }
+
+  return {
+    nObservations: n,
+    nFixed: p,
+    fixedFactor: input.fixedFactor,
+    fixedLevels,
+    fixedIndex,
+    response,
+    responseCentre,
+    terms,
+    blockingFactor,
+    layout,
+    positionOf,
+    termOfPosition,
+    zTzBlocks,
+    zTzCouplings,
+    zTzBorder,
+    zTx,
+    zTy,
+    xTx,
+    xTy,
+    yTy,
+  };
+}
+
+/**
+ * Picks the factor whose levels split the most work into independent blocks: every term that
+ * contains it is nested in its levels (e.g. session for session, assessor:session and
+ * product:session); the other terms form the dense border. The estimated Cholesky cost decides.
+ */
+function chooseBlockingFactor(terms: RandomTerm[], factorValueOfLevel: Record<string, string[]>[]): string | null {
+  const totalSize = terms.reduce((sum, term) => sum + term.levels.length, 0);
+  let best: string | null = null;
+  let bestCost = totalSize ** 3 / 3;
+  const candidates = [...new Set(terms.flatMap((term) => term.factors))].sort(compareLevels);
+  for (const factor of candidates) {
+    const blockSizes = new Map<string, number>();
+    let borderSize = 0;
+    terms.forEach((term, k) => {
+      if (!term.factors.includes(factor)) {
+        borderSize += term.levels.length;
+        return;
+      }
+      for (const value of factorValueOfLevel[k][factor]) blockSizes.set(value, (blockSizes.get(value) ?? 0) + 1);
+    });
+    let cost = borderSize ** 3 / 3;
+    for (const size of blockSizes.values()) cost += size ** 3 / 3 + size * size * borderSize + size * borderSize * borderSize;
+    if (cost < bestCost) {
+      bestCost = cost;
+      best = factor;
+    }
+  }
+  return best;
+}
+
+function layoutPositions(
+  terms: RandomTerm[],
+  factorValueOfLevel: Record<string, string[]>[],
+  blockingFactor: string | null,
+): { layout: BlockArrowLayout; positionOf: Int32Array[]; termOfPosition: Int32Array } {
+  const positionOf = terms.map((term) => new Int32Array(term.levels.length));
+  const order: Array<[number, number]> = [];
+  const blockSizes: number[] = [];
+  if (blockingFactor !== null) {
+    const blockTerms = terms.map((term, k) => k).filter((k) => terms[k].factors.includes(blockingFactor));
+    const blockValues = [...new Set(blockTerms.flatMap((k) => factorValueOfLevel[k][blockingFactor]))].sort(compareLevels);
+    const membersOfBlock = new Map<string, Array<[number, number]>>(blockValues.map((value) => [value, []]));
+    for (const k of blockTerms) {
+      factorValueOfLevel[k][blockingFactor].forEach((value, level) => membersOfBlock.get(value)!.push([k, level]));
+    }
+    for (const value of blockValues) {
+      const members = membersOfBlock.get(value)!;
+      blockSizes.push(members.length);
+      order.push(...members);
+    }
+  }
+  let borderSize = 0;
+  terms.forEach((term, k) => {
+    if (blockingFactor !== null && term.factors.includes(blockingFactor)) return;
+    for (let level = 0; level < term.levels.length; level++) order.push([k, level]);
+    borderSize += term.levels.length;
+  });
+  const termOfPosition = new Int32Array(order.length);
+  order.forEach(([k, level], position) => {
+    positionOf[k][level] = position;
+    termOfPosition[position] = k;
+  });
+  return { layout: makeBlockArrowLayout(blockSizes, borderSize), positionOf, termOfPosition };
+}

@@ -1,0 +1,236 @@
+/**
+ * Product F-test with Satterthwaite denominator degrees of freedom, computed as lmerTest 3.1
+ * does it (Kuznetsova, Brockhoff & Christensen 2017, J. Stat. Softw. 82(13), section 3; source
+ * functions as_lmerModLT, contestMD, contest1D, get_Fstat_ddf):
+ *
+ * - variance parameters varpar = (θ_1..θ_K, σ) with θ_k = σ_k/σ;
+ * - A = 2 H⁺, H the Hessian of the deviance −2ℓ_R(θ, σ) (lmerTest's devfun_vp), H⁺ its
+ *   Moore–Penrose inverse over eigenvalues > 1e-8;
+ * - J_i = ∂cov(β̂)/∂varpar_i;
+ * - L: the rows of the product term in the transposed unit-lower factor of a Doolittle
+ *   LU decomposition of XᵀX (lmerTest's type-I/III contrasts for a one-term model);
+ * - eigen-decompose L cov(β̂) Lᵀ = P D Pᵀ, keep eigenvalues > √ε·d_1, rows ℓ_m of PᵀL;
+ *   ν_m = 2 d_m² / (g_mᵀ A g_m), g_m,i = ℓ_m J_i ℓ_mᵀ;
+ * - one row: ddf = ν_1; equal ν (within 1e-8): their mean; any ν_m ≤ 2: 2;
+ *   else E = Σ ν_m/(ν_m − 2), ddf = 2E/(E − q).
+ *
+ * Differences from lmerTest: the derivatives in θ are central differences with one Richardson
+ * step (lmerTest: numDeriv with four), the σ derivatives are analytic, and components at 0 are
+ * left out (at θ_k = 0 the deviance is even in θ_k, so lmerTest's Hessian has no cross terms
+ * with θ_k and ∂cov(β̂)/∂θ_k = 0: leaving it out gives the same numbers).
+ */
+import { fUpperTail } from '../distributions/index.js';
+import { symmetricEigen } from '../linalg/dense.js';
+import type { RemlObjective } from './criterion.js';
+
+export interface ProductTest {
+  F: number | null;
+  numDf: number;
+  denDf: number | null;
+  pValue: number | null;
+  /** Per-eigenvector Satterthwaite df ν_m (diagnostic). */
+  nuPerContrast: number[];
+  messages: string[];
+}
+
+export interface VarparCovariance {
+  /** Indices of the θ components kept (those > 0). */
+  freeComponents: number[];
+  /** Asymptotic covariance 2H⁺ of (θ_free..., σ), row-major. */
+  covariance: Float64Array;
+  /** Jacobians of cov(β̂) with respect to (θ_free..., σ), each p×p row-major. */
+  jacobians: Float64Array[];
+  /** Eigenvalues of H (a non-positive one means the fit is not at a proper minimum). */
+  hessianEigenvalues: number[];
+}
+
+/** Asymptotic covariance of the variance parameters and Jacobians of cov(β̂), at θ̂ (σ̂ from θ̂). */
+export function varparCovariance(objective: RemlObjective, theta: Float64Array, sigma: number): VarparCovariance {
+  const { nObservations: n, nFixed: p } = objective.frame;
+  const freeComponents = [...theta].map((value, k) => k).filter((k) => theta[k] > 0);
+  const m = freeComponents.length;
+  const dimension = m + 1;
+  const sigma2 = sigma * sigma;
+  const degrees = objective.reml ? n - p : n;
+
+  const at = (shifts: Array<[number, number]>): Float64Array => {
+    const point = theta.slice();
+    for (const [index, delta] of shifts) point[freeComponents[index]] += delta;
+    return point;
+  };
+  // h(θ) = log|L|² (+ log|R_X|²) + pwrss/σ̂²: the θ-dependent part of the deviance at fixed σ̂.
+  const h = (point: Float64Array): { value: number; pwrss: number } => {
+    const parts = objective.parts(point);
+    return { value: parts.logDetL + (objective.reml ? parts.logDetRX : 0) + parts.pwrss / sigma2, pwrss: parts.pwrss };
+  };
+  const steps = freeComponents.map((k) => Math.max(1e-3 * theta[k], 1e-5));
+  const centre = h(theta);
+
+  const hessian = new Float64Array(dimension * dimension);
+  const pwrssGradient = new Float64Array(m);
+  // Central differences at steps s and s/2 combined by Richardson extrapolation: (4 D(s/2) − D(s))/3.
+  const richardson = (estimate: (scale: number) => number): number => (4 * estimate(0.5) - estimate(1)) / 3;
+  for (let i = 0; i < m; i++) {
+    hessian[i * dimension + i] = richardson((scale) => {
+      const s = steps[i] * scale;
+      return (h(at([[i, s]])).value - 2 * centre.value + h(at([[i, -s]])).value) / (s * s);
+    });
+    pwrssGradient[i] = richardson((scale) => {
+      const s = steps[i] * scale;
+      return (h(at([[i, s]])).pwrss - h(at([[i, -s]])).pwrss) / (2 * s);
+    });
+    for (let j = 0; j < i; j++) {
+      const value = richardson((scale) => {
+        const si = steps[i] * scale;
+        const sj = steps[j] * scale;
+        const pp = h(at([[i, si], [j, sj]])).value;
+        const pm = h(at([[i, si], [j, -sj]])).value;
+        const mp = h(at([[i, -si], [j, sj]])).value;
+        const mm = h(at([[i, -si], [j, -sj]])).value;
+        return (pp - pm - mp + mm) / (4 * si * sj);
+      });
+      hessian[i * dimension + j] = value;
+      hessian[j * dimension + i] = value;
+    }
+  }
+  // σ derivatives of pwrss/σ² + (n − p) log(2πσ²), analytic.
+  for (let i = 0; i < m; i++) {
+    const value = (-2 * pwrssGradient[i]) / (sigma2 * sigma);
+    hessian[i * dimension + m] = value;
+    hessian[m * dimension + i] = value;
+  }
+  hessian[m * dimension + m] = (6 * centre.pwrss) / (sigma2 * sigma2) - (2 * degrees) / sigma2;
+
+  const eigen = symmetricEigen(hessian, dimension);
+  const covariance = new Float64Array(dimension * dimension);
+  eigen.values.forEach((value, index) => {
+    if (!(value > 1e-8)) return;
+    const vector = eigen.vectors[index];
+    for (let i = 0; i < dimension; i++) {
+      for (let j = 0; j < dimension; j++) covariance[i * dimension + j] += (2 * vector[i] * vector[j]) / value;
+    }
+  });
+
+  const unscaled = (point: Float64Array): Float64Array => objective.unscaledCovBeta(point);
+  const jacobians: Float64Array[] = [];
+  for (let i = 0; i < m; i++) {
+    const derivative = (scale: number): Float64Array => {
+      const s = steps[i] * scale;
+      const up = unscaled(at([[i, s]]));
+      const down = unscaled(at([[i, -s]]));
+      return Float64Array.from(up, (value, index) => (sigma2 * (value - down[index])) / (2 * s));
+    };
+    const coarse = derivative(1);
+    const fine = derivative(0.5);
+    jacobians.push(Float64Array.from(fine, (value, index) => (4 * value - coarse[index]) / 3));
+  }
+  const atOptimum = unscaled(theta);
+  jacobians.push(Float64Array.from(atOptimum, (value) => 2 * sigma * value));
+  return { freeComponents, covariance, jacobians, hessianEigenvalues: eigen.values };
+}
+
+/**
+ * lmerTest's contrast rows for the single fixed factor: t(doolittle(XᵀX)$L) without the
+ * intercept row (its eps = 1e-6 zeroing included).
+ */
+export function productContrastRows(xTx: Float64Array, p: number): number[][] {
+  if (p < 2) return [];
+  const eps = 1e-6;
+  const lower = new Float64Array(p * p);
+  const upper = new Float64Array(p * p);
+  for (let i = 0; i < p; i++) lower[i * p + i] = 1;
+  for (let i = 0; i < p; i++) {
+    for (let j = 0; j < p; j++) {
+      let value = xTx[i * p + j];
+      for (let k = 0; k < i; k++) value -= lower[i * p + k] * upper[k * p + j];
+      upper[i * p + j] = value;
+    }
+    for (let j = i + 1; j < p; j++) {
+      let value = xTx[j * p + i];
+      for (let k = 0; k < i; k++) value -= lower[j * p + k] * upper[k * p + i];
+      lower[j * p + i] = Math.abs(upper[i * p + i]) < eps ? 0 : value / upper[i * p + i];
+    }
+  }
+  const rows: number[][] = [];
+  for (let r = 1; r < p; r++) {
+    const row: number[] = [];
+    for (let c = 0; c < p; c++) {
+      const value = lower[c * p + r];
+      row.push(Math.abs(value) < eps ? 0 : value);
+    }
+    rows.push(row);
+  }
+  return rows;
+}
+
+export function quadraticForm(row: ArrayLike<number>, matrix: ArrayLike<number>, p: number): number {
+  let sum = 0;
+  for (let i = 0; i < p; i++) {
+    if (row[i] === 0) continue;
+    let inner = 0;
+    for (let j = 0; j < p; j++) inner += matrix[i * p + j] * row[j];
+    sum += row[i] * inner;
+  }
+  return sum;
+}
+
+/** lmerTest's get_Fstat_ddf. */
+export function combineSatterthwaiteDf(nu: number[], tolerance = 1e-8): number {
+  if (nu.length === 1) return nu[0];
+  let allEqual = true;
+  for (let i = 1; i < nu.length; i++) if (!(Math.abs(nu[i] - nu[i - 1]) < tolerance)) allEqual = false;
+  if (allEqual) return nu.reduce((sum, value) => sum + value, 0) / nu.length;
+  if (nu.some((value) => value <= 2)) return 2;
+  const e = nu.reduce((sum, value) => sum + value / (value - 2), 0);
+  return (2 * e) / (e - nu.length);
+}
+
+/** Multi-df F-test of the product term (contestMD / contest1D). */
+export function productFTest(
+  beta: Float64Array,
+  covBeta: Float64Array,
+  contrastRows: number[][],
+  varpar: Pick<VarparCovariance, 'covariance' | 'jacobians'> | null,
+): ProductTest {
+  const p = beta.length;
+  const messages: string[] = [];
+  const rows = contrastRows.length;
+  if (rows === 0) return { F: null, numDf: 0, denDf: null, pValue: null, nuPerContrast: [], messages: ['only one product: no product test'] };
+  const vl = new Float64Array(rows * rows);
+  for (let i = 0; i < rows; i++) {
+    for (let j = 0; j < rows; j++) {
+      let sum = 0;
+      for (let a = 0; a < p; a++) {
+        if (contrastRows[i][a] === 0) continue;
+        for (let b = 0; b < p; b++) sum += contrastRows[i][a] * covBeta[a * p + b] * contrastRows[j][b];
+      }
+      vl[i * rows + j] = sum;
+    }
+  }
+  const eigen = symmetricEigen(vl, rows);
+  const tolerance = Math.max(Math.sqrt(2.220446049250313e-16) * eigen.values[0], 0);
+  const kept = eigen.values.map((value, index) => index).filter((index) => eigen.values[index] > tolerance);
+  const q = kept.length;
+  if (q === 0) return { F: null, numDf: 0, denDf: null, pValue: null, nuPerContrast: [], messages: ['the product contrasts have no variance'] };
+  let statistic = 0;
+  const nu: number[] = [];
+  for (const index of kept) {
+    const vector = eigen.vectors[index];
+    const ell = new Float64Array(p);
+    for (let r = 0; r < rows; r++) for (let c = 0; c < p; c++) ell[c] += vector[r] * contrastRows[r][c];
+    let estimate = 0;
+    for (let c = 0; c < p; c++) estimate += ell[c] * beta[c];
+    const variance = quadraticForm(ell, covBeta, p);
+    statistic += (estimate * estimate) / variance;
+    if (varpar) {
+      const gradient = varpar.jacobians.map((jacobian) => quadraticForm(ell, jacobian, p));
+      const denominator = quadraticForm(gradient, varpar.covariance, gradient.length);
+      nu.push((2 * variance * variance) / denominator);
+    }
+  }
+  const F = statistic / q;
+  if (!varpar) return { F, numDf: q, denDf: null, pValue: null, nuPerContrast: [], messages };
+  const denDf = combineSatterthwaiteDf(nu);
+  if (nu.some((value) => value <= 2)) messages.push('Satterthwaite df of some contrast is at most 2: denominator df set to 2 and unreliable');
+  return { F, numDf: q, denDf, pValue: fUpperTail(F, q, denDf), nuPerContrast: nu, messages };
+}
