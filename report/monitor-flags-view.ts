@@ -1,0 +1,176 @@
+/** The flags list (filter by kind, severity, status) and the retraining list (open act flags by assessor). */
+import { FLAG_KINDS, type Flag, type FlagKind, type FlagSeverity } from '../domain/flags.js';
+import { assessorMonitorHref, evidenceItems, monitorCrumbs, monitorHref, REVIEW_NOTICE, type EvidenceItem } from './monitor-common.js';
+import type { PageViewBase } from './page-common.js';
+
+export interface FlagRecordInput {
+  id: number;
+  key: string;
+  flag: Flag;
+  status: 'open' | 'dismissed' | 'closed';
+  reviewNote: string | null;
+  reviewedAt: string | null;
+  isCurrent: boolean;
+}
+
+export interface FlagItem {
+  id: number;
+  key: string;
+  kind: FlagKind;
+  severity: FlagSeverity;
+  assessor: string | null;
+  assessorHref: string | null;
+  product: string | null;
+  attribute: string | null;
+  firstSession: string;
+  message: string;
+  evidence: EvidenceItem[];
+  status: 'open' | 'dismissed' | 'closed';
+  isOpen: boolean;
+  reviewNote: string | null;
+  reviewedAt: string | null;
+  reviewAction: string;
+  /** The Flag object exactly as the CLI and API give it. */
+  flag: Flag;
+}
+
+export interface FlagFilter {
+  kind: FlagKind | null;
+  severity: FlagSeverity | null;
+  status: 'open' | 'dismissed' | 'closed' | null;
+}
+
+export interface FlagsListView extends PageViewBase {
+  panel: string;
+  notices: readonly string[];
+  filter: FlagFilter;
+  kindOptions: { value: string; isSelected: boolean }[];
+  severityOptions: { value: string; isSelected: boolean }[];
+  statusOptions: { value: string; isSelected: boolean }[];
+  nTotal: number;
+  nShown: number;
+  flags: FlagItem[];
+  formAction: string;
+  apiHref: string;
+}
+
+export function flagReviewAction(panel: string, flagId: number): string {
+  return `${monitorHref(panel, 'flags')}/${flagId}/review`;
+}
+
+function toItem(panel: string, record: FlagRecordInput): FlagItem {
+  const f = record.flag;
+  return {
+    id: record.id,
+    key: record.key,
+    kind: f.kind,
+    severity: f.severity,
+    assessor: f.assessor,
+    assessorHref: f.assessor === null ? null : assessorMonitorHref(panel, f.assessor, f.attribute ?? undefined),
+    product: f.product,
+    attribute: f.attribute,
+    firstSession: f.firstSession,
+    message: f.message,
+    evidence: evidenceItems(f.evidence),
+    status: record.status,
+    isOpen: record.status === 'open',
+    reviewNote: record.reviewNote,
+    reviewedAt: record.reviewedAt,
+    reviewAction: flagReviewAction(panel, record.id),
+    flag: f,
+  };
+}
+
+/** Parses the query's filter; unknown values are ignored (shown as "all"). */
+export function parseFlagFilter(query: { kind?: string; severity?: string; status?: string }): FlagFilter {
+  return {
+    kind: (FLAG_KINDS as readonly string[]).includes(query.kind ?? '') ? (query.kind as FlagKind) : null,
+    severity: query.severity === 'act' || query.severity === 'watch' ? query.severity : null,
+    status: query.status === 'open' || query.status === 'dismissed' || query.status === 'closed' ? query.status : null,
+  };
+}
+
+export function buildFlagsListView(input: { panel: string; records: readonly FlagRecordInput[]; filter: FlagFilter }): FlagsListView {
+  const { filter } = input;
+  const shown = input.records.filter(
+    (r) =>
+      (filter.kind === null || r.flag.kind === filter.kind) &&
+      (filter.severity === null || r.flag.severity === filter.severity) &&
+      (filter.status === null || r.status === filter.status),
+  );
+  const options = (values: readonly string[], selected: string | null) => values.map((value) => ({ value, isSelected: value === selected }));
+  return {
+    title: `Flags: ${input.panel}`,
+    breadcrumbs: monitorCrumbs(input.panel, 'Flags'),
+    panel: input.panel,
+    notices: REVIEW_NOTICE,
+    filter,
+    kindOptions: options(FLAG_KINDS, filter.kind),
+    severityOptions: options(['act', 'watch'], filter.severity),
+    statusOptions: options(['open', 'dismissed', 'closed'], filter.status),
+    nTotal: input.records.length,
+    nShown: shown.length,
+    flags: shown.map((r) => toItem(input.panel, r)),
+    formAction: monitorHref(input.panel, 'flags'),
+    apiHref: `/api/panels/${encodeURIComponent(input.panel)}/flags`,
+  };
+}
+
+export interface RetrainingRecordInput {
+  id: number;
+  assessor: string;
+  status: 'planned' | 'done';
+  date: string;
+  note: string;
+  flagKeys: string[];
+  outcome: unknown | null;
+}
+
+export interface RetrainingGroup {
+  assessor: string;
+  assessorHref: string;
+  flags: FlagItem[];
+  records: (RetrainingRecordInput & { outcomeItems: EvidenceItem[]; updateAction: string })[];
+  /** Keys of the open act flags, posted with a new record to link them. */
+  flagKeysValue: string;
+  addAction: string;
+}
+
+export interface RetrainingView extends PageViewBase {
+  panel: string;
+  notices: readonly string[];
+  groups: RetrainingGroup[];
+  nAssessors: number;
+}
+
+/** Open act-level flags grouped by assessor, with the retraining records of each (also assessors with records only). */
+export function buildRetrainingView(input: { panel: string; records: readonly FlagRecordInput[]; retraining: readonly RetrainingRecordInput[] }): RetrainingView {
+  const openAct = input.records.filter((r) => r.status === 'open' && r.flag.severity === 'act' && r.flag.assessor !== null);
+  const assessors = [...new Set([...openAct.map((r) => r.flag.assessor as string), ...input.retraining.map((r) => r.assessor)])].sort();
+  const base = monitorHref(input.panel, 'retraining');
+  const groups = assessors.map((assessor): RetrainingGroup => {
+    const flags = openAct.filter((r) => r.flag.assessor === assessor).map((r) => toItem(input.panel, r));
+    return {
+      assessor,
+      assessorHref: assessorMonitorHref(input.panel, assessor),
+      flags,
+      records: input.retraining
+        .filter((r) => r.assessor === assessor)
+        .map((r) => ({
+          ...r,
+          outcomeItems: r.outcome && typeof r.outcome === 'object' ? evidenceItems(r.outcome as Flag['evidence']) : [],
+          updateAction: `${base}/${r.id}`,
+        })),
+      flagKeysValue: flags.map((f) => f.key).join('\n'),
+      addAction: base,
+    };
+  });
+  return {
+    title: `Retraining: ${input.panel}`,
+    breadcrumbs: monitorCrumbs(input.panel, 'Retraining'),
+    panel: input.panel,
+    notices: REVIEW_NOTICE,
+    groups,
+    nAssessors: groups.length,
+  };
+}

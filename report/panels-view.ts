@@ -1,0 +1,45 @@
+/** Home page: the panels in the store. */
+import { HOME_CRUMB, panelHref, type PageViewBase } from './page-common.js';
+
+export interface PanelSummaryInput {
+  name: string;
+  nSessions: number;
+  nAssessors: number;
+  nProducts: number;
+  nAttributes: number;
+  nRatings: number;
+  nImports: number;
+  nQuarantineHeld: number;
+  firstSessionDate: string | null;
+  lastSessionDate: string | null;
+}
+
+export interface PanelListItem extends PanelSummaryInput {
+  href: string;
+}
+
+export interface PanelsView extends PageViewBase {
+  panels: PanelListItem[];
+  nPanels: number;
+}
+
+export function buildPanelsView(panels: PanelSummaryInput[]): PanelsView {
+  return {
+    title: 'Panels',
+    breadcrumbs: [{ ...HOME_CRUMB, href: null }],
+    nPanels: panels.length,
+    panels: panels.map((panel) => ({
+      name: panel.name,
+      href: panelHref(panel.name),
+      nSessions: panel.nSessions,
+      nAssessors: panel.nAssessors,
+      nProducts: panel.nProducts,
+      nAttributes: panel.nAttributes,
+      nRatings: panel.nRatings,
+      nImports: panel.nImports,
+      nQuarantineHeld: panel.nQuarantineHeld,
+      firstSessionDate: panel.firstSessionDate,
+      lastSessionDate: panel.lastSessionDate,
+    })),
+  };
+}

@@ -1,0 +1,40 @@
+/**
+ * What every route module can reach on the fastify instance: the store, the configuration, the
+ * template renderer, the navigation registry and the import queue. Declared once here so route
+ * plugins (including later ones such as server/routes/monitor*.ts) are typed.
+ */
+import type { Database } from 'better-sqlite3';
+import type { ImportQueue } from './import-queue.js';
+import type { NavSection, ViewRenderer } from './views.js';
+
+export interface AppConfig {
+  /** The address the service listens on. Anything but loopback requires `accessToken`. */
+  host: string;
+  /** Access token for every read and write of panel data; null = none (loopback only). */
+  accessToken: string | null;
+  /** Largest accepted upload, in bytes. */
+  uploadLimitBytes: number;
+  /** Folder for uploads on their way into the store (deleted after each request). */
+  uploadTmpDir: string;
+  /** Folder holding layouts/, partials/, pages/ and static/. */
+  templatesDir: string;
+  /** Shown in the page footer. */
+  version: string;
+  /** fastify's logger option: false in tests, true (or pino options) when serving. */
+  logger: boolean | Record<string, unknown>;
+}
+
+declare module 'fastify' {
+  interface FastifyInstance {
+    db: Database;
+    appConfig: AppConfig;
+    views: ViewRenderer;
+    /** Sections of the site navigation; route modules push their own. */
+    navSections: NavSection[];
+    importQueue: ImportQueue;
+  }
+  interface FastifyRequest {
+    /** Temporary files written for this request; removed when the response is sent. */
+    uploadTempPaths: string[] | null;
+  }
+}

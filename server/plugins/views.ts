@@ -1,0 +1,111 @@
+/**
+ * Handlebars rendering. Templates live in `templates/` (layouts/, partials/, pages/), are
+ * compiled once at start-up, and only ever see the view objects built in `report/` plus a small
+ * `chrome` object (navigation, JSON link, CSRF token). Output is escaped: templates use `{{ }}`
+ * only (test/architecture.test.ts rejects triple braces). Helpers format; they never decide.
+ */
+import { readdirSync, readFileSync } from 'node:fs';
+import { basename, join } from 'node:path';
+import Handlebars from 'handlebars';
+
+/** A link in the site navigation. Panel-scoped sections appear on pages about one panel. */
+export interface NavSection {
+  label: string;
+  scope: 'global' | 'panel';
+  /** Global sections: a path. Panel sections: built from the panel name. */
+  href: string | ((panel: string) => string);
+  /** Smaller first. */
+  order: number;
+}
+
+export interface NavLink {
+  label: string;
+  href: string;
+  isCurrent: boolean;
+}
+
+/** What the layout needs besides the page's view. */
+export interface PageChrome {
+  nav: NavLink[];
+  panel: string | null;
+  panelNav: NavLink[];
+  jsonHref: string | null;
+  csrfToken: string | null;
+  isTokenRequired: boolean;
+  version: string;
+}
+
+export interface ViewRenderer {
+  /** Renders `templates/pages/NAME.hbs` with the view and the chrome; returns HTML. */
+  render(page: string, view: object, chrome: PageChrome): string;
+  pageNames(): string[];
+}
+
+function formatNumber(value: unknown, digits: unknown): string {
+  if (typeof value !== 'number' || !Number.isFinite(value)) return '—';
+  const nDigits = typeof digits === 'number' ? digits : 2;
+  return Number.isInteger(value) ? String(value) : value.toFixed(nDigits);
+}
+
+function registerHelpers(handlebars: typeof Handlebars): void {
+  // {{number value 2}}: fixed digits for non-integers, a dash for null/missing.
+  handlebars.registerHelper('number', (value: unknown, digits: unknown) => formatNumber(value, digits));
+  // {{percent value}}: "97.5 %", a dash when undefined.
+  handlebars.registerHelper('percent', (value: unknown) =>
+    typeof value === 'number' && Number.isFinite(value) ? `${value.toFixed(1)} %` : '—',
+  );
+  handlebars.registerHelper('eq', (a: unknown, b: unknown) => a === b);
+  // {{plural n "panel" "panels"}}
+  handlebars.registerHelper('plural', (n: unknown, one: unknown, many: unknown) => (n === 1 ? one : many));
+}
+
+function hbsFiles(folder: string): string[] {
+  return readdirSync(folder)
+    .filter((name) => name.endsWith('.hbs'))
+    .sort();
+}
+
+/** Compiles every template in the folder once. Throws at start-up when one does not compile. */
+export function createViewRenderer(templatesDir: string): ViewRenderer {
+  const handlebars = Handlebars.create();
+  registerHelpers(handlebars);
+  handlebars.registerPartial('layout', readFileSync(join(templatesDir, 'layouts', 'main.hbs'), 'utf8'));
+  for (const file of hbsFiles(join(templatesDir, 'partials'))) {
+    handlebars.registerPartial(basename(file, '.hbs'), readFileSync(join(templatesDir, 'partials', file), 'utf8'));
+  }
+  const pages = new Map<string, Handlebars.TemplateDelegate>();
+  for (const file of hbsFiles(join(templatesDir, 'pages'))) {
+    const source = readFileSync(join(templatesDir, 'pages', file), 'utf8');
+    const template = handlebars.compile(source, { preventIndent: true });
+    template({ chrome: {}, title: '', breadcrumbs: [] }); // compile now: a broken template stops the start
+    pages.set(basename(file, '.hbs'), template);
+  }
+  return {
+    render(page, view, chrome) {
+      const template = pages.get(page);
+      if (template === undefined) throw new Error(`no page template named ${page}`);
+      return template({ ...view, chrome });
+    },
+    pageNames: () => [...pages.keys()],
+  };
+}
+
+/** Builds the navigation links of a page from the registered sections. */
+export function buildNav(sections: NavSection[], panel: string | null, currentPath: string): { nav: NavLink[]; panelNav: NavLink[] } {
+  const sorted = [...sections].sort((a, b) => a.order - b.order);
+  const link = (section: NavSection, href: string): NavLink => ({
+    label: section.label,
+    href,
+    isCurrent: href === currentPath,
+  });
+  const nav = sorted
+    .filter((section) => section.scope === 'global' && typeof section.href === 'string')
+    .map((section) => link(section, section.href as string));
+  const panelNav =
+    panel === null
+      ? []
+      : sorted
+          .filter((section) => section.scope === 'panel' && typeof section.href === 'function')
+          .map((section) => link(section, (section.href as (panel: string) => string)(panel)));
+  return { nav, panelNav };
+}
