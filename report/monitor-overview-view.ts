@@ -2,8 +2,7 @@
  * Panel monitor overview: per assessor, act/watch flag counts per kind, sample sizes and a small
  * EWMA chart of the assessor's summary series. Assessors are listed by code, never ranked.
  */
-import type { AssessorSessionIndices } from '../analysis/indices/types.js';
-import { monitorSeries, type ChartDesigns } from '../analysis/monitor/chart.js';
+import type { ChartDesigns, MonitoredSegment, SeriesPoint } from '../analysis/monitor/chart.js';
 import type { Flag } from '../domain/flags.js';
 import { buildControlChart, type ChartView } from './charts/control-chart.js';
 import { monitorChartInputs } from './charts/monitor-charts.js';
@@ -16,7 +15,6 @@ import {
   type KindCount,
   type RefitStatusView,
 } from './monitor-common.js';
-import { indexIndices, summarySeries, type SessionRef } from './monitor-series.js';
 import type { PageViewBase } from './page-common.js';
 
 export interface MonitorEventInput {
@@ -56,24 +54,35 @@ export interface MonitorOverviewView extends PageViewBase {
   links: { label: string; href: string }[];
 }
 
+export interface SessionRef {
+  label: string;
+  date: string;
+}
+
+/** A series with its monitored segments (analysis/monitor/chart.ts monitorSeries). */
+export interface MonitoredSeriesInput {
+  series: SeriesPoint[];
+  segments: MonitoredSegment[];
+}
+
+export interface AssessorOverviewInput {
+  assessor: string;
+  nSessions: number;
+  nRatings: number;
+  /** The assessor's summary series (median z of the level offset over attributes). */
+  summary: MonitoredSeriesInput;
+}
+
 export interface MonitorOverviewInput {
   panel: string;
   sessions: SessionRef[];
-  attributes: string[];
-  assessors: string[];
-  indices: readonly AssessorSessionIndices[];
+  nAttributes: number;
+  assessors: AssessorOverviewInput[];
   /** Current flags that are still open (dismissed/closed ones are not counted). */
   openFlags: readonly Flag[];
   events: readonly MonitorEventInput[];
   designs: ChartDesigns;
   refit: RefitStatusView;
-}
-
-/** Sessions at which the baseline restarts for this assessor (retraining of them, or a panel-wide control batch). */
-export function restartSessionsFor(events: readonly MonitorEventInput[], assessor: string | null): string[] {
-  return events
-    .filter((e) => (e.kind === 'retraining' && (e.assessor === null || e.assessor === assessor)) || e.kind === 'control-batch')
-    .map((e) => e.session);
 }
 
 export function eventMarks(events: readonly MonitorEventInput[], assessor: string | null): { session: string; label: string }[] {
@@ -83,37 +92,24 @@ export function eventMarks(events: readonly MonitorEventInput[], assessor: strin
 }
 
 export function buildMonitorOverviewView(input: MonitorOverviewInput): MonitorOverviewView {
-  const index = indexIndices(input.indices);
   const labels = input.sessions.map((s) => s.label);
-  const assessors = input.assessors.map((assessor): AssessorOverview => {
-    const own = input.openFlags.filter((f) => f.assessor === assessor);
-    const restartSessions = restartSessionsFor(input.events, assessor);
-    const series = summarySeries(index, input.sessions, assessor, input.attributes, { restartSessions });
-    const segments = monitorSeries(series, input.designs, { restartSessions });
+  const assessors = input.assessors.map((a): AssessorOverview => {
+    const own = input.openFlags.filter((f) => f.assessor === a.assessor);
     const charts = monitorChartInputs({
-      title: `${assessor}, level over attributes`,
+      title: `${a.assessor}, level over attributes`,
       yLabel: 'median z',
       sessions: labels,
-      series,
-      segments,
+      series: a.summary.series,
+      segments: a.summary.segments,
       designs: input.designs,
-      events: eventMarks(input.events, assessor),
+      events: eventMarks(input.events, a.assessor),
       size: 'small',
     });
-    const byAttribute = index.get(assessor);
-    const sessionsSeen = new Set<string>();
-    let nRatings = 0;
-    for (const bySession of byAttribute?.values() ?? []) {
-      for (const ix of bySession.values()) {
-        sessionsSeen.add(ix.session);
-        nRatings += ix.nRatings;
-      }
-    }
     return {
-      assessor,
-      href: assessorMonitorHref(input.panel, assessor),
-      nSessions: sessionsSeen.size,
-      nRatings,
+      assessor: a.assessor,
+      href: assessorMonitorHref(input.panel, a.assessor),
+      nSessions: a.nSessions,
+      nRatings: a.nRatings,
       nAct: own.filter((f) => f.severity === 'act').length,
       nWatch: own.filter((f) => f.severity === 'watch').length,
       kinds: countByKind(own),
@@ -130,7 +126,7 @@ export function buildMonitorOverviewView(input: MonitorOverviewInput): MonitorOv
     nSessions: input.sessions.length,
     firstSession: input.sessions[0]?.label ?? null,
     lastSession: input.sessions[input.sessions.length - 1]?.label ?? null,
-    nAttributes: input.attributes.length,
+    nAttributes: input.nAttributes,
     assessors,
     panelFlags: countByKind(input.openFlags.filter((f) => f.assessor === null)),
     nFlagsOpen: input.openFlags.length,
