@@ -19,6 +19,7 @@ import type { Database } from 'better-sqlite3';
 import type { InputFinding, InputProblem, ProblemCode } from '../domain/problems.js';
 import { MAX_LISTED_PROBLEMS } from '../domain/problems.js';
 import type { ImportSource, Rating, ScaleRange } from '../domain/ratings.js';
+import type { RawCell, ReadEvent } from '../ingest/read-ratings.js';
 import type { PanelConfigFile } from './panel-config.js';
 
 export type ImportOutcome = 'imported' | 'unchanged' | 'rejected' | 'quarantined';
@@ -58,24 +59,8 @@ export interface ImportReport {
   message: string;
 }
 
-/** Raw text of the row a problem was found in, as far as the reader could tell. */
-export interface ProblemCell {
-  session?: string | null;
-  date?: string | null;
-  assessor?: string | null;
-  product?: string | null;
-  replicate?: string | number | null;
-  attribute?: string | null;
-  value?: string | number | null;
-  code?: string | null;
-}
-
-/** What the reader yields (structurally the same as ingest/read-ratings.ts ReadEvent). */
-export type ImportEvent =
-  | { type: 'rating'; row: number; column: string; rating: Rating }
-  | { type: 'missing'; row: number; column?: string | null }
-  | { type: 'problem'; problem: InputProblem; cell?: ProblemCell | null }
-  | { type: 'finding'; finding: InputFinding };
+/** What the reader yields (ingest/read-ratings.ts). */
+export type ImportEvent = ReadEvent;
 
 export interface ImportEventsRequest {
   panel: string;
@@ -91,6 +76,8 @@ export interface ImportEventsRequest {
 
 /** Events are staged in batches of this many; the only per-file JS memory besides name maps. */
 const STAGE_BATCH = 4096;
+/** Rows per multi-row INSERT into the staging table (9 parameters each, well under SQLite's limit). */
+const STAGE_CHUNK_ROWS = 64;
 /** Findings of one kind listed in the report (the total is in the message). */
 const MAX_LISTED_FINDINGS_PER_CODE = MAX_LISTED_PROBLEMS;
 
@@ -200,11 +187,21 @@ interface SessionInFile {
 
 const plural = (n: number, one: string, many = `${one}s`): string => `${n.toLocaleString('en-US')} ${n === 1 ? one : many}`;
 
-function cellText(value: unknown): string | null {
-  if (value === null || value === undefined) return null;
-  const text = String(value);
-  return text.length > 80 ? `${text.slice(0, 79)}…` : text;
-}
+/**
+ * Problems about one cell's content, which quarantine can hold for correction. Whole-file,
+ * header and row-shape problems, and missing scales, always reject the import.
+ */
+const QUARANTINABLE: ReadonlySet<ProblemCode> = new Set<ProblemCode>([
+  'missing-value',
+  'not-a-number',
+  'not-finite',
+  'replicate-not-positive-integer',
+  'invalid-date',
+  'out-of-scale',
+  'decimal-shift',
+  'cell-too-long',
+  'header-unknown-column',
+]);
 
 /** Thrown inside the write transaction to roll it back with the problems found there. */
 class RejectImport extends Error {}
@@ -255,10 +252,14 @@ export async function importRatingEvents(db: Database, request: ImportEventsRequ
     const dateConflictSeen = new Set<string>();
     let maxRow = 1;
     let lastDuplicateRow = -1;
+    // The file reader reports missing scales itself (it asks for every attribute's scale).
+    let readerAskedForScales = false;
 
-    const insertStage = db.prepare(
-      `INSERT INTO ${stage} (s, attr, assessor, product, rep, value, code, row, col) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)
-       ON CONFLICT DO NOTHING`,
+    const STAGE_COLUMNS = '(s, attr, assessor, product, rep, value, code, row, col)';
+    const insertStage = db.prepare(`INSERT INTO ${stage} ${STAGE_COLUMNS} VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?) ON CONFLICT DO NOTHING`);
+    // Many rows per statement: binding is the same, statement overhead is paid once per chunk.
+    const insertStageChunk = db.prepare(
+      `INSERT INTO ${stage} ${STAGE_COLUMNS} VALUES ${Array(STAGE_CHUNK_ROWS).fill('(?, ?, ?, ?, ?, ?, ?, ?, ?)').join(', ')} ON CONFLICT DO NOTHING`,
     );
     const findStaged = db.prepare(`SELECT value, code, row, col FROM ${stage} WHERE s = ? AND attr = ? AND assessor = ? AND product = ? AND rep = ?`);
     const markConflicted = db.prepare(`UPDATE ${stage} SET conflicted = 1 WHERE s = ? AND attr = ? AND assessor = ? AND product = ? AND rep = ?`);
@@ -268,7 +269,9 @@ export async function importRatingEvents(db: Database, request: ImportEventsRequ
     );
 
     let batch: ImportEvent[] = [];
-    const stageRating = (row: number, column: string, rating: Rating): void => {
+    type RatingEvent = Extract<ImportEvent, { type: 'rating' }>;
+    /** Interns the names, checks the session's date; returns the staging key. */
+    const keyOf = (row: number, rating: Rating): [number, number, number, number, number] => {
       const s = sessions.id(rating.session);
       let info = sessionInfo[s];
       if (!info) {
@@ -289,14 +292,17 @@ export async function importRatingEvents(db: Database, request: ImportEventsRequ
           });
         }
       }
-      const key = [s, attributes.id(rating.attribute), assessors.id(rating.assessor), products.id(rating.product), rating.replicate] as const;
+      return [s, attributes.id(rating.attribute), assessors.id(rating.assessor), products.id(rating.product), rating.replicate];
+    };
+    /** After an insert that may have been skipped: was it this event's row, an exact copy, or a conflict? */
+    const settle = (event: RatingEvent, key: readonly number[]): void => {
+      const { row, column, rating } = event;
       const code = rating.code ?? null;
-      const result = insertStage.run(...key, rating.value, code, row, column);
-      if (result.changes === 1) {
+      const earlier = findStaged.get(...key) as { value: number; code: string | null; row: number; col: string };
+      if (earlier.row === row && earlier.col === column) {
         counts.ratings += 1;
         return;
       }
-      const earlier = findStaged.get(...key) as { value: number; code: string | null; row: number; col: string };
       if (earlier.value === rating.value && earlier.code === code) {
         // An exact copy: keep one and name it once per row (a wide row repeats for every attribute).
         if (row !== lastDuplicateRow) {
@@ -317,36 +323,63 @@ export async function importRatingEvents(db: Database, request: ImportEventsRequ
       }
       markConflicted.run(...key);
       const reason = `Row ${row} gives ${rating.value} for session "${rating.session}", assessor ${rating.assessor}, product ${rating.product}, replicate ${rating.replicate}, attribute ${rating.attribute}, but row ${earlier.row} gives ${earlier.value}${earlier.code !== code ? ` (sample codes ${earlier.code ?? 'none'} and ${code ?? 'none'})` : ''}; keep only the correct one.`;
-      addProblem({ code: 'conflicting-duplicate', file: fileName, row, column: column, message: reason, value: String(rating.value) });
+      addProblem({ code: 'conflicting-duplicate', file: fileName, row, column, message: reason, value: String(rating.value) });
       insertHeld.run(row, column, rating.session, rating.date, rating.assessor, rating.product, String(rating.replicate), rating.attribute, String(rating.value), code, 'conflicting-duplicate', reason);
+    };
+    const chunkEvents: RatingEvent[] = [];
+    const chunkKeys: number[][] = [];
+    const chunkArgs: unknown[] = [];
+    const stageChunk = (): void => {
+      if (chunkEvents.length === STAGE_CHUNK_ROWS) {
+        // Fast path: every row new. Otherwise look at each row of the chunk (rare: duplicates).
+        if (insertStageChunk.run(chunkArgs).changes === STAGE_CHUNK_ROWS) counts.ratings += STAGE_CHUNK_ROWS;
+        else for (let i = 0; i < chunkEvents.length; i++) settle(chunkEvents[i], chunkKeys[i]);
+      } else {
+        for (let i = 0; i < chunkEvents.length; i++) {
+          const args = chunkArgs.slice(i * 9, i * 9 + 9);
+          if (insertStage.run(args).changes === 1) counts.ratings += 1;
+          else settle(chunkEvents[i], chunkKeys[i]);
+        }
+      }
+      chunkEvents.length = 0;
+      chunkKeys.length = 0;
+      chunkArgs.length = 0;
     };
     const flush = db.transaction((pending: ImportEvent[]) => {
       for (const event of pending) {
         if (event.type === 'rating') {
-          stageRating(event.row, event.column, event.rating);
+          const key = keyOf(event.row, event.rating);
+          chunkEvents.push(event);
+          chunkKeys.push(key);
+          chunkArgs.push(key[0], key[1], key[2], key[3], key[4], event.rating.value, event.rating.code ?? null, event.row, event.column);
+          if (chunkEvents.length === STAGE_CHUNK_ROWS) stageChunk();
         } else if (event.type === 'problem') {
           const { problem, cell } = event;
-          if (!cell || problem.row === null) {
+          if (!cell || problem.row === null || !QUARANTINABLE.has(problem.code)) {
             unquarantinableErrors += 1;
             continue;
           }
-          insertHeld.run(
-            problem.row,
-            problem.column,
-            cellText(cell.session),
-            cellText(cell.date),
-            cellText(cell.assessor),
-            cellText(cell.product),
-            cellText(cell.replicate),
-            cellText(cell.attribute ?? problem.column),
-            cell.value === undefined || cell.value === null ? (problem.value ?? null) : String(cell.value),
-            cellText(cell.code),
-            problem.code,
-            problem.message,
-          );
+          for (const rejected of [cell, ...(event.moreCells ?? [])]) holdCell(problem, rejected);
         }
       }
+      stageChunk();
     });
+    const holdCell = (problem: InputProblem, cell: RawCell): void => {
+      insertHeld.run(
+        problem.row,
+        problem.column,
+        cell.session,
+        cell.date,
+        cell.assessor,
+        cell.product,
+        cell.replicate,
+        cell.attribute,
+        cell.rawValue,
+        cell.code,
+        problem.code,
+        problem.message,
+      );
+    };
 
     for await (const event of events) {
       switch (event.type) {
@@ -360,6 +393,7 @@ export async function importRatingEvents(db: Database, request: ImportEventsRequ
           break;
         case 'problem':
           if (event.problem.row !== null && event.problem.row > maxRow) maxRow = event.problem.row;
+          if (event.problem.code === 'scale-missing') readerAskedForScales = true;
           addProblem(event.problem);
           batch.push(event);
           break;
@@ -391,6 +425,8 @@ export async function importRatingEvents(db: Database, request: ImportEventsRequ
         scaleOf.set(id, scale);
         continue;
       }
+      unquarantinableErrors += 1;
+      if (readerAskedForScales) continue;
       const first = db.prepare(`SELECT min(row) AS row, col FROM ${stage} WHERE attr = ?`).get(id) as { row: number; col: string };
       addProblem({
         code: 'scale-missing',
@@ -399,7 +435,6 @@ export async function importRatingEvents(db: Database, request: ImportEventsRequ
         column: first.col,
         message: `Attribute "${name}" is new to panel "${panel}" and has no scale; give it with --scale MIN:MAX, the scale fields of the upload form, or --settings panel.json.`,
       });
-      unquarantinableErrors += 1;
     }
 
     const reject = (): ImportReport => {
@@ -519,14 +554,19 @@ function writeImport(db: Database, ctx: WriteContext): { importId: number; chang
   const importId = Number(importInfo.lastInsertRowid);
 
   // Names → store ids, via small temp maps the bulk statements can join.
-  const dims = `temp.dims_${importId}_${process.pid}`;
-  db.exec(`CREATE TABLE ${dims} (kind INTEGER NOT NULL, idx INTEGER NOT NULL, db_id INTEGER, PRIMARY KEY (kind, idx)) WITHOUT ROWID`);
+  // One table per kind, keyed by rowid: the cheapest lookup for the bulk statements.
+  const KIND_ATTRIBUTE = 0;
+  const KIND_ASSESSOR = 1;
+  const KIND_PRODUCT = 2;
+  const KIND_SESSION = 3;
+  const dimTables = ['attribute', 'assessor', 'product', 'session'].map((kind) => `${stage}_${kind}`);
+  const [dimAttribute, dimAssessor, dimProduct, dimSession] = dimTables;
+  for (const table of dimTables) db.exec(`CREATE TABLE ${table} (idx INTEGER PRIMARY KEY, db_id INTEGER NOT NULL)`);
   try {
-    const putDim = db.prepare(`INSERT INTO ${dims} (kind, idx, db_id) VALUES (?, ?, ?)`);
-    const KIND_ATTRIBUTE = 1;
-    const KIND_ASSESSOR = 2;
-    const KIND_PRODUCT = 3;
-    const KIND_SESSION = 4;
+    const putDimStatements = dimTables.map((table) => db.prepare(`INSERT INTO ${table} (idx, db_id) VALUES (?, ?)`));
+    const putDim = (kind: number, idx: number, dbId: number): void => {
+      putDimStatements[kind].run(idx, dbId);
+    };
 
     const upsertAttribute = db.prepare(
       `INSERT INTO attribute (panel_id, name, scale_min, scale_max, anchor_low, anchor_high) VALUES (?, ?, ?, ?, ?, ?)
@@ -538,13 +578,13 @@ function writeImport(db: Database, ctx: WriteContext): { importId: number; chang
       const scale = ctx.scaleOf.get(id) as ScaleRange;
       const own = ctx.settings?.attributes?.[name];
       const row = upsertAttribute.get(panelId, name, scale.min, scale.max, own?.anchorLow ?? null, own?.anchorHigh ?? null) as { id: number };
-      putDim.run(KIND_ATTRIBUTE, id, row.id);
+      putDim(KIND_ATTRIBUTE, id, row.id);
     }
     const upsertAssessor = db.prepare(
       `INSERT INTO assessor (panel_id, code) VALUES (?, ?) ON CONFLICT (panel_id, code) DO UPDATE SET code = excluded.code RETURNING id`,
     );
     for (let id = 1; id < assessors.names.length; id++) {
-      putDim.run(KIND_ASSESSOR, id, (upsertAssessor.get(panelId, assessors.names[id]) as { id: number }).id);
+      putDim(KIND_ASSESSOR, id, (upsertAssessor.get(panelId, assessors.names[id]) as { id: number }).id);
     }
     const upsertProduct = db.prepare(
       `INSERT INTO product (panel_id, code, display_name, role) VALUES (?, ?, ?, coalesce(?, 'test'))
@@ -558,7 +598,7 @@ function writeImport(db: Database, ctx: WriteContext): { importId: number; chang
       const own = ctx.settings?.products?.[code];
       const row = upsertProduct.get(panelId, code, own?.name ?? null, own?.role ?? null, own?.role ?? null) as { id: number };
       const idx = products.ids.get(code);
-      if (idx !== undefined) putDim.run(KIND_PRODUCT, idx, row.id);
+      if (idx !== undefined) putDim(KIND_PRODUCT, idx, row.id);
     }
 
     // Quarantine: cells the reader rejected, conflicting duplicates, and every cell of a
@@ -575,9 +615,9 @@ function writeImport(db: Database, ctx: WriteContext): { importId: number; chang
            replicate, attribute, raw_value, sample_code, reason_code, reason)
          SELECT ?, ?, ?, st.row, st.col, ?, ?, ass.code, pr.code, st.rep, at.name, st.value, st.code, ?, ?
          FROM ${stage} st
-         JOIN ${dims} da ON da.kind = ${KIND_ASSESSOR} AND da.idx = st.assessor JOIN assessor ass ON ass.id = da.db_id
-         JOIN ${dims} dp ON dp.kind = ${KIND_PRODUCT} AND dp.idx = st.product JOIN product pr ON pr.id = dp.db_id
-         JOIN ${dims} dt ON dt.kind = ${KIND_ATTRIBUTE} AND dt.idx = st.attr JOIN attribute at ON at.id = dt.db_id
+         JOIN ${dimAssessor} da ON da.idx = st.assessor JOIN assessor ass ON ass.id = da.db_id
+         JOIN ${dimProduct} dp ON dp.idx = st.product JOIN product pr ON pr.id = dp.db_id
+         JOIN ${dimAttribute} dt ON dt.idx = st.attr JOIN attribute at ON at.id = dt.db_id
          WHERE st.s = ? AND (? OR st.conflicted = 1) ORDER BY st.row, st.col`,
       );
       for (let s = 1; s < sessions.names.length; s++) {
@@ -608,9 +648,9 @@ function writeImport(db: Database, ctx: WriteContext): { importId: number; chang
     const storedCount = db.prepare('SELECT count(*) AS n FROM rating WHERE session_id = ?');
     const sameCount = db.prepare(
       `SELECT count(*) AS n FROM ${stage} st
-       JOIN ${dims} dt ON dt.kind = ${KIND_ATTRIBUTE} AND dt.idx = st.attr
-       JOIN ${dims} da ON da.kind = ${KIND_ASSESSOR} AND da.idx = st.assessor
-       JOIN ${dims} dp ON dp.kind = ${KIND_PRODUCT} AND dp.idx = st.product
+       JOIN ${dimAttribute} dt ON dt.idx = st.attr
+       JOIN ${dimAssessor} da ON da.idx = st.assessor
+       JOIN ${dimProduct} dp ON dp.idx = st.product
        JOIN rating r ON r.session_id = ? AND r.attribute_id = dt.db_id AND r.assessor_id = da.db_id AND r.product_id = dp.db_id AND r.replicate = st.rep
        WHERE st.s = ? AND r.value = st.value AND r.sample_code IS st.code`,
     );
@@ -622,9 +662,9 @@ function writeImport(db: Database, ctx: WriteContext): { importId: number; chang
        LEFT JOIN (
          SELECT dt.db_id AS attribute_id, da.db_id AS assessor_id, dp.db_id AS product_id, st.rep, st.value, st.code
          FROM ${stage} st
-         JOIN ${dims} dt ON dt.kind = ${KIND_ATTRIBUTE} AND dt.idx = st.attr
-         JOIN ${dims} da ON da.kind = ${KIND_ASSESSOR} AND da.idx = st.assessor
-         JOIN ${dims} dp ON dp.kind = ${KIND_PRODUCT} AND dp.idx = st.product
+         JOIN ${dimAttribute} dt ON dt.idx = st.attr
+         JOIN ${dimAssessor} da ON da.idx = st.assessor
+         JOIN ${dimProduct} dp ON dp.idx = st.product
          WHERE st.s = ?
        ) n ON n.attribute_id = r.attribute_id AND n.assessor_id = r.assessor_id AND n.product_id = r.product_id AND n.rep = r.replicate
        WHERE r.session_id = ? AND (n.value IS NULL OR n.value <> r.value OR n.code IS NOT r.sample_code)`,
@@ -640,7 +680,7 @@ function writeImport(db: Database, ctx: WriteContext): { importId: number; chang
       if (!stored) {
         if (nStaged === 0) continue; // every cell of it is in quarantine
         const row = insertSession.get(panelId, label, info.date, importId) as { id: number };
-        putDim.run(KIND_SESSION, s, row.id);
+        putDim(KIND_SESSION, s, row.id);
         counts.sessionsNew += 1;
         changedSessions.push(label);
         continue;
@@ -654,21 +694,20 @@ function writeImport(db: Database, ctx: WriteContext): { importId: number; chang
       counts.valuesReplaced += recordCorrections.run(importId, nowIso, s, stored.id).changes;
       deleteRatings.run(stored.id);
       bumpSession.run(importId, stored.id);
-      putDim.run(KIND_SESSION, s, stored.id);
+      putDim(KIND_SESSION, s, stored.id);
       counts.sessionsReplaced += 1;
       changedSessions.push(label);
     }
 
-    // Bulk insert in key order (matches rating's unique index, so the B-tree fills in order).
+    // Bulk insert in staging-key order, which follows rating's unique index closely (no sort needed).
     db.prepare(
       `INSERT INTO rating (session_id, assessor_id, product_id, attribute_id, replicate, value, sample_code, import_id)
        SELECT ds.db_id, da.db_id, dp.db_id, dt.db_id, st.rep, st.value, st.code, ?
        FROM ${stage} st
-       JOIN ${dims} ds ON ds.kind = ${KIND_SESSION} AND ds.idx = st.s
-       JOIN ${dims} dt ON dt.kind = ${KIND_ATTRIBUTE} AND dt.idx = st.attr
-       JOIN ${dims} da ON da.kind = ${KIND_ASSESSOR} AND da.idx = st.assessor
-       JOIN ${dims} dp ON dp.kind = ${KIND_PRODUCT} AND dp.idx = st.product
-       ORDER BY ds.db_id, dt.db_id, da.db_id, dp.db_id, st.rep`,
+       JOIN ${dimSession} ds ON ds.idx = st.s
+       JOIN ${dimAttribute} dt ON dt.idx = st.attr
+       JOIN ${dimAssessor} da ON da.idx = st.assessor
+       JOIN ${dimProduct} dp ON dp.idx = st.product`,
     ).run(importId);
     // Quarantined cells are not ratings of this import.
     if (request.quarantine) counts.ratings = (db.prepare(`SELECT count(*) AS n FROM ${stage}`).get() as { n: number }).n;
@@ -678,6 +717,6 @@ function writeImport(db: Database, ctx: WriteContext): { importId: number; chang
     ).run(nowIso, counts.rows, counts.ratings, counts.sessions, counts.valuesReplaced, counts.quarantined, ctx.errorsSoFar(), importId);
     return { importId, changedSessions };
   } finally {
-    db.exec(`DROP TABLE IF EXISTS ${dims}`);
+    for (const table of dimTables) db.exec(`DROP TABLE IF EXISTS ${table}`);
   }
 }

@@ -6,6 +6,9 @@ import { Command, CommanderError } from 'commander';
 import { CliError } from './cli-error.js';
 // Command modules (one import and one registration line each):
 // ---- commands ----
+import { registerImportCommand } from './import-command.js';
+import { registerExportCommand } from './export-command.js';
+import { registerBackupCommands } from './backup-command.js';
 
 const program = new Command();
 program
@@ -15,6 +18,9 @@ program
   .exitOverride();
 
 // ---- registrations ----
+registerImportCommand(program);
+registerExportCommand(program);
+registerBackupCommands(program);
 
 try {
   await program.parseAsync(process.argv);

@@ -16,7 +16,7 @@ export function* readLongCsvText(text: string, fileName = 'test.csv'): Generator
       yield {
         type: 'problem',
         problem: { code: 'not-a-number', file: fileName, row, column: 'value', message: `Row ${row}: not a number.`, value: cells[at('value')] },
-        cell: { session: cells[0], date: cells[1], assessor: cells[2], product: cells[3], replicate: cells[4], attribute: cells[5], value: cells[6] },
+        cell: { session: cells[0], date: cells[1], assessor: cells[2], product: cells[3], replicate: cells[4], attribute: cells[5], rawValue: cells[6], code: null },
       };
       continue;
     }
