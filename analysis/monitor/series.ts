@@ -1,0 +1,215 @@
+/**
+ * Per assessor × attribute time series built from stored per-session results (methods notes §3.1):
+ * level offset, scaling (log β), repeatability (log SD ratio), discrimination (log F), agreement
+ * (atanh r); the per-assessor summary over attributes; and the reference (blind control) product
+ * series. Transformations make the series closer to normal with steadier variance (CP, §3.1).
+ */
+import type { FitJson } from '../../domain/analysis.js';
+import type { InputFinding, ProblemCode } from '../../domain/problems.js';
+import type { Rating } from '../../domain/ratings.js';
+import type { AssessorSessionIndices } from '../indices/types.js';
+import { standardiseSegments, type SegmentOptions, type SeriesPoint } from './chart.js';
+
+export interface SessionAttributeResult {
+  session: string;
+  date: string;
+  attribute: string;
+  scaleMin: number;
+  scaleMax: number;
+  fit: FitJson;
+  indices: AssessorSessionIndices[];
+  /** Panel product test p of this session and attribute (null when not defined). */
+  productTestP: number | null;
+}
+
+export interface PanelEvent {
+  id: number;
+  kind: 'retraining' | 'control-batch' | 'note';
+  /** Takes effect from this session. */
+  session: string;
+  /** null: the whole panel. */
+  assessor: string | null;
+  note: string;
+}
+
+export interface PeriodFitSummary {
+  attribute: string;
+  sessions: string[];
+  /** σ̂²_PS of the period model (a variance). */
+  productSessionVariance: number;
+  lrt: { likelihoodRatio: number; pValue: number } | null;
+}
+
+/** An import finding; quarantine problems ('out-of-scale', 'conflicting-duplicate') may be passed too. */
+export type ImportFinding = Omit<InputFinding, 'code'> & { code: InputFinding['code'] | ProblemCode };
+
+export interface PanelHistory {
+  /** In time order. */
+  sessions: { label: string; date: string }[];
+  attributes: { name: string; scaleMin: number; scaleMax: number }[];
+  referenceProducts: string[];
+  results: SessionAttributeResult[];
+  /** For the data-quality checks; may be limited to recent sessions. */
+  ratings?: Rating[];
+  importFindings: ImportFinding[];
+  events: PanelEvent[];
+  periodFits?: PeriodFitSummary[];
+}
+
+export type IndexSeriesKind = 'level' | 'scaling' | 'repeatability' | 'discrimination' | 'agreement';
+
+export const INDEX_SERIES_KINDS: readonly IndexSeriesKind[] = ['level', 'scaling', 'repeatability', 'discrimination', 'agreement'];
+
+/** The charted value of one index (null when undefined or not transformable). */
+export function seriesValue(kind: IndexSeriesKind, indices: AssessorSessionIndices): number | null {
+  switch (kind) {
+    case 'level':
+      return indices.offset;
+    case 'scaling':
+      return indices.scaling !== null && indices.scaling > 0 ? Math.log(indices.scaling) : null;
+    case 'repeatability':
+      return indices.repeatabilitySdRatio !== null && indices.repeatabilitySdRatio > 0 ? Math.log(indices.repeatabilitySdRatio) : null;
+    case 'discrimination':
+      return indices.discriminationF !== null && indices.discriminationF > 0 ? Math.log(indices.discriminationF) : null;
+    case 'agreement':
+      // |r| capped at 0.999 so that a perfect correlation on few products stays finite.
+      return indices.agreementR !== null ? Math.atanh(Math.max(-0.999, Math.min(0.999, indices.agreementR))) : null;
+  }
+}
+
+export interface AssessorSeries {
+  assessor: string;
+  attribute: string;
+  kind: IndexSeriesKind;
+  /** One point per panel session in time order (value null when the assessor/index is absent). */
+  points: SeriesPoint[];
+}
+
+/** Indices by assessor → attribute → session, in one pass. */
+export function indexLookup(history: PanelHistory): Map<string, Map<string, Map<string, AssessorSessionIndices>>> {
+  const byAssessor = new Map<string, Map<string, Map<string, AssessorSessionIndices>>>();
+  for (const result of history.results) {
+    for (const row of result.indices) {
+      let byAttribute = byAssessor.get(row.assessor);
+      if (!byAttribute) byAssessor.set(row.assessor, (byAttribute = new Map()));
+      let bySession = byAttribute.get(result.attribute);
+      if (!bySession) byAttribute.set(result.attribute, (bySession = new Map()));
+      bySession.set(result.session, row);
+    }
+  }
+  return byAssessor;
+}
+
+/** Every assessor × attribute series of the given kinds (default: all five). */
+export function buildAssessorSeries(history: PanelHistory, kinds: readonly IndexSeriesKind[] = INDEX_SERIES_KINDS): AssessorSeries[] {
+  const lookup = indexLookup(history);
+  const out: AssessorSeries[] = [];
+  for (const [assessor, byAttribute] of [...lookup].sort((a, b) => a[0].localeCompare(b[0]))) {
+    for (const attribute of history.attributes) {
+      const bySession = byAttribute.get(attribute.name);
+      if (!bySession) continue;
+      for (const kind of kinds) {
+        out.push({
+          assessor,
+          attribute: attribute.name,
+          kind,
+          points: history.sessions.map((s) => {
+            const row = bySession.get(s.label);
+            return { session: s.label, date: s.date, value: row ? seriesValue(kind, row) : null };
+          }),
+        });
+      }
+    }
+  }
+  return out;
+}
+
+/** Sessions at which an assessor's baselines restart: retraining events for them or the whole panel. */
+export function restartSessionsFor(history: PanelHistory, assessor: string | null): string[] {
+  return history.events
+    .filter((e) => e.kind === 'retraining' && (e.assessor === null || e.assessor === assessor))
+    .map((e) => e.session);
+}
+
+/**
+ * Per-assessor summary series (methods §3.1, CP): each attribute's series is standardised with its
+ * own baseline (z), and the summary at a session is the median of the z-values available there.
+ * The summary is then baselined and charted like any other series.
+ */
+export function summarySeries(attributeSeries: readonly SeriesPoint[][], options: SegmentOptions): SeriesPoint[] {
+  if (attributeSeries.length === 0) return [];
+  const zBySession = new Map<string, number[]>();
+  for (const series of attributeSeries) {
+    for (const segment of standardiseSegments(series, options)) {
+      for (const point of segment.points) {
+        let list = zBySession.get(point.session);
+        if (!list) zBySession.set(point.session, (list = []));
+        list.push(point.z);
+      }
+    }
+  }
+  return attributeSeries[0].map((p) => {
+    const list = zBySession.get(p.session);
+    return { session: p.session, date: p.date, value: list && list.length > 0 ? median(list) : null };
+  });
+}
+
+export function median(values: readonly number[]): number {
+  const sorted = [...values].sort((a, b) => a - b);
+  const middle = sorted.length >> 1;
+  return sorted.length % 2 === 1 ? sorted[middle] : (sorted[middle - 1] + sorted[middle]) / 2;
+}
+
+export interface ReferenceProductSeries {
+  product: string;
+  attribute: string;
+  /** Panel mean of the control per session (from the session fit's product means). */
+  panelMean: SeriesPoint[];
+  /** Per assessor: control cell mean minus the mean of the other assessors' control cell means (needs ratings). */
+  assessorDeviation: { assessor: string; points: SeriesPoint[] }[];
+}
+
+/** Control-product charts' inputs (methods §3.6). Assessor deviations only for sessions with ratings. */
+export function buildReferenceSeries(history: PanelHistory): ReferenceProductSeries[] {
+  const out: ReferenceProductSeries[] = [];
+  const resultByKey = new Map(history.results.map((r) => [`${r.session}\u0000${r.attribute}`, r]));
+  // cell means of the control by product → attribute → session → assessor
+  const cells = new Map<string, { sum: number; n: number }>();
+  for (const rating of history.ratings ?? []) {
+    if (!history.referenceProducts.includes(rating.product)) continue;
+    const key = `${rating.product}\u0000${rating.attribute}\u0000${rating.session}\u0000${rating.assessor}`;
+    const cell = cells.get(key) ?? { sum: 0, n: 0 };
+    cell.sum += rating.value;
+    cell.n += 1;
+    cells.set(key, cell);
+  }
+  const assessors = [...new Set((history.ratings ?? []).map((r) => r.assessor))].sort();
+  for (const product of history.referenceProducts) {
+    for (const attribute of history.attributes) {
+      const panelMean = history.sessions.map((s) => {
+        const mean = resultByKey.get(`${s.label}\u0000${attribute.name}`)?.fit.productMeans.find((m) => m.product === product)?.mean;
+        return { session: s.label, date: s.date, value: mean ?? null };
+      });
+      const assessorDeviation = assessors.map((assessor) => ({
+        assessor,
+        points: history.sessions.map((s) => {
+          const own = cells.get(`${product}\u0000${attribute.name}\u0000${s.label}\u0000${assessor}`);
+          let othersSum = 0;
+          let othersN = 0;
+          for (const other of assessors) {
+            if (other === assessor) continue;
+            const cell = cells.get(`${product}\u0000${attribute.name}\u0000${s.label}\u0000${other}`);
+            if (cell) {
+              othersSum += cell.sum / cell.n;
+              othersN++;
+            }
+          }
+          const value = own && othersN >= 2 ? own.sum / own.n - othersSum / othersN : null;
+          return { session: s.label, date: s.date, value };
+        }),
+      }));
+      if (panelMean.some((p) => p.value !== null)) out.push({ product, attribute: attribute.name, panelMean, assessorDeviation });
+    }
+  }
+  return out;
+}
