@@ -12,6 +12,7 @@ import { seededRandom } from './seeded-random.js';
  * (R friedman.test). Permutation p: ranks shuffled independently within judges,
  * p = (1 + #{S* ≥ S}) / (1 + permutations), recommended for n ≤ 7 or m ≤ 4 (Legendre 2005).
  * A judge whose values are all equal carries no ranking: left out and listed in `excludedJudges`.
+ * Values within 1e-9 × max(1, max |value|) of each other count as tied (rounding in cell means).
  *
  * @see Kendall & Babington Smith (1939); Friedman (1937); Legendre (2005) JABES 10, 226–245; methods notes §4.3.
  */
@@ -37,6 +38,9 @@ export interface KendallWOptions {
   seed?: number;
 }
 
+/** Ratings are recorded to a few decimals; differences below this share of the scale are rounding. */
+const TIE_RELATIVE_TOLERANCE = 1e-9;
+
 /** `scores[judge][object]`: each judge's values (or ranks) for the same objects in the same order. */
 export function kendallW(scores: readonly (readonly number[])[], options: KendallWOptions = {}): KendallWResult {
   const permutations = options.permutations ?? 0;
@@ -48,11 +52,12 @@ export function kendallW(scores: readonly (readonly number[])[], options: Kendal
   let tieTotal = 0;
   scores.forEach((row, judge) => {
     if (row.some((value) => !Number.isFinite(value))) throw new Error('kendallW: missing or non-finite score');
-    if (row.every((value) => value === row[0])) {
+    const tolerance = TIE_RELATIVE_TOLERANCE * Math.max(1, ...row.map(Math.abs));
+    if (row.every((value) => Math.abs(value - row[0]) <= tolerance)) {
       excludedJudges.push(judge);
       return;
     }
-    const { ranks, tieSum } = rankWithTies(row);
+    const { ranks, tieSum } = rankWithTies(row, tolerance);
     rankRows.push(ranks);
     tieTotal += tieSum;
   });
