@@ -87,3 +87,26 @@ export async function writeSyntheticLongCsv(path: string, d: SyntheticDesign, mu
   await once(out, 'finish');
   return nRatingsOf(d);
 }
+
+/**
+ * The same design in wide form (one column per attribute, same values as the long lines).
+ * `holes` leaves chosen cells empty (missing ratings) — the long form then lacks those lines.
+ */
+export function* syntheticWideLines(d: SyntheticDesign): Generator<string> {
+  const long = syntheticLongLines(d);
+  long.next(); // header
+  const attributes = Array.from({ length: d.attributes }, (_, t) => attributeName(t));
+  yield ['session', 'date', 'assessor', 'product', 'replicate', 'code', ...attributes].join(',');
+  for (;;) {
+    const values: string[] = [];
+    let keys: string[] = [];
+    for (let t = 0; t < d.attributes; t++) {
+      const next = long.next();
+      if (next.done) return;
+      const cells = next.value.split(',');
+      keys = [cells[0], cells[1], cells[2], cells[3], cells[4], cells[7]];
+      values.push(cells[6]);
+    }
+    yield [...keys, ...values].join(',');
+  }
+}
