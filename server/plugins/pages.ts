@@ -112,8 +112,12 @@ export function registerPage<View extends object>(app: FastifyInstance, options:
       return await answer(request, reply, format, { ...params, [lastParam]: base });
     } catch (error) {
       // A name that itself ends in ".json" (say a panel called "trial.json") still has its page.
-      if (error instanceof AppError && error.status === 404) return answer(request, reply, 'html', params);
-      throw error;
+      if (!(error instanceof AppError) || error.status !== 404) throw error;
+      try {
+        return await answer(request, reply, 'html', params);
+      } catch {
+        throw error; // the twin's own "not found" is the answer
+      }
     }
   });
 }

@@ -87,6 +87,27 @@ export function checkDeclaredLength(request: FastifyRequest, limitBytes: number)
 
 /** Reads a multipart form: text fields into `fields`, the part named "file" to a temp file. */
 export async function receiveMultipart(request: FastifyRequest, limitBytes: number, tmpDir: string): Promise<UploadBody> {
+  try {
+    return await readParts(request, limitBytes, tmpDir);
+  } catch (error) {
+    throw asUploadError(error);
+  }
+}
+
+/**
+ * The form parser's own errors ("Unexpected end of multipart data", "Malformed part header")
+ * carry no status and no system error code: they describe the request, so they become a 400.
+ * File-system errors (ENOSPC, EACCES: they have a code) stay server errors.
+ */
+function asUploadError(error: unknown): unknown {
+  if (error instanceof AppError) return error;
+  const { code, statusCode, message } = (error ?? {}) as { code?: unknown; statusCode?: unknown; message?: unknown };
+  if (statusCode !== undefined || (typeof code === 'string' && code !== '')) return error;
+  const detail = typeof message === 'string' ? message.slice(0, 200) : 'malformed form data';
+  return new AppError('BAD_REQUEST', { detail: `the multipart form could not be read (${detail}).` });
+}
+
+async function readParts(request: FastifyRequest, limitBytes: number, tmpDir: string): Promise<UploadBody> {
   const fields: Record<string, string> = {};
   let file: ReceivedFile | null = null;
   const parts = request.parts({ limits: { fileSize: limitBytes, fieldSize: MAX_FIELD_BYTES, fields: 50, parts: 60 } });

@@ -72,6 +72,8 @@ export async function apiRoutes(app: FastifyInstance): Promise<void> {
         file = body.file;
         // Form fields win over query parameters of the same name.
         optionSource = { ...request.query, ...body.fields };
+      } else if (request.body !== undefined && request.body !== null) {
+        throw new AppError('UNSUPPORTED_MEDIA_TYPE'); // e.g. a JSON body
       } else {
         file = null;
         optionSource = request.query;
