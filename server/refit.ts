@@ -2,7 +2,7 @@
  * Refit orchestration (issue 4, "fits kept, not recomputed"). After an import, or on demand:
  * 1. sessions whose stored results are missing or older than the session's data version are
  *    fitted again (fits, per-assessor indices, data-quality findings), one worker task each;
- * 2. period fits of the rolling windows whose sessions or versions changed are fitted again;
+ * 2. period fits of the windows (see periodWindows) whose sessions or versions changed are fitted again;
  * 3. the flag set is rebuilt from everything stored, when anything it reads has changed.
  * The workers do the numbers; this module reads and writes the store on the calling thread.
  */
@@ -14,6 +14,8 @@ import {
   listProducts,
   listSessionVersions,
   listStaleSessions,
+  loadCurrentFindings,
+  loadPanelRatings,
   loadSessionRatings,
   type SessionRatings,
   type SessionVersionRow,
@@ -34,7 +36,8 @@ import { listPanelEvents } from '../store/monitor-events.js';
 import { loadPanelThresholds } from '../store/monitor-settings.js';
 import { createRefitJob, getRefitJob, markRefitJob, type RefitJob } from '../store/monitor-jobs.js';
 import type { FitRunner } from './fit-pool.js';
-import type { PanelSnapshot, RatedObservation } from './workers/fit-task-types.js';
+import type { ImportFinding, PanelHistory, PeriodFitSummary, SessionAttributeResult } from '../analysis/monitor/series.js';
+import type { PeriodFitResult, RatedObservation } from './workers/fit-task-types.js';
 
 /** Recorded with every stored result; bump when a change in analysis/ changes stored numbers. */
 export const ANALYSIS_VERSION = 'analysis-1';
@@ -77,11 +80,21 @@ export interface RefitSummary {
   durationMs: number;
 }
 
-/** Windows of consecutive sessions ending at each session, at most `windowSessions` long, at least MIN_WINDOW_SESSIONS. */
-export function rollingWindows<T>(sessions: readonly T[], windowSessions: number): T[][] {
+/**
+ * The period windows kept: consecutive blocks of `windowSessions` sessions (1–12, 13–24, …: the
+ * history of product stability without overlap) plus the rolling window of the latest
+ * `windowSessions` sessions (the current state). Every window has at least MIN_WINDOW_SESSIONS.
+ * Fitting a window at every session would multiply the (costly) period fits by the window length
+ * for little extra information, since overlapping windows share most of their data.
+ */
+export function periodWindows<T>(sessions: readonly T[], windowSessions: number): T[][] {
   const windows: T[][] = [];
-  for (let last = MIN_WINDOW_SESSIONS - 1; last < sessions.length; last++) {
-    windows.push(sessions.slice(Math.max(0, last - windowSessions + 1), last + 1));
+  const n = sessions.length;
+  for (let last = 0; last < n; last++) {
+    const isBlockEnd = (last + 1) % windowSessions === 0;
+    if (!isBlockEnd && last !== n - 1) continue;
+    const window = sessions.slice(Math.max(0, last - windowSessions + 1), last + 1);
+    if (window.length >= MIN_WINDOW_SESSIONS) windows.push(window);
   }
   return windows;
 }
@@ -151,7 +164,7 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
   );
 
   // 2. Period windows whose sessions or data versions differ from what the stored fit used.
-  const windows = rollingWindows(sessions, windowSessions);
+  const windows = periodWindows(sessions, windowSessions);
   deletePeriodFitsExcept(db, panel.id, windowSessions, windows.map((w) => w[w.length - 1].id));
   const stored = options.scope === 'all' ? new Map<string, string>() : loadPeriodSignatures(db, panel.id, windowSessions);
   const periodJobs: { attributeId: number; attribute: string; window: SessionVersionRow[]; signature: WindowSignature }[] = [];
@@ -181,7 +194,7 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
         lastSessionId: job.window[job.window.length - 1].id,
         sessions: job.signature,
         analysisVersion: ANALYSIS_VERSION,
-        result: result.problem ? { problem: result.problem, fit: result.result } : result.result,
+        result: (result.result ?? { problem: result.problem ?? 'not fitted' }) satisfies StoredPeriodResult,
       });
       periodsDone += 1;
       options.onProgress?.({
@@ -206,8 +219,8 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
     lastBuild?.thresholdsHash !== thresholdsHash;
   let nFlags = lastBuild?.nFlags ?? 0;
   if (needFlags) {
-    const snapshot = buildPanelSnapshot(db, panel.id, panel.name, windowSessions);
-    const { flags } = await options.runner.run({ type: 'flags', snapshot, thresholds });
+    const history = buildPanelHistory(db, panel.id, windowSessions);
+    const { flags } = await options.runner.run({ type: 'flags', history, thresholds });
     replaceCurrentFlags(db, panel.id, flags, { dataSignature, thresholdsHash });
     nFlags = flags.length;
     options.onProgress?.({ phase: 'flags', done: 1, total: 1, label: 'flags' });
@@ -223,28 +236,57 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
   };
 }
 
-/** Everything the flag engine reads, from the store, as one structured-clone-safe object. */
-export function buildPanelSnapshot(db: Database, panelId: number, panelName: string, windowSessions = DEFAULT_WINDOW_SESSIONS): PanelSnapshot {
+/** What a stored period fit holds: the period task's result, or the sentence saying why there is none. */
+export type StoredPeriodResult = PeriodFitResult | { problem: string };
+
+/** Everything the flag engine and the monitor pages read, from the store (structured-clone safe). */
+export function buildPanelHistory(db: Database, panelId: number, windowSessions = DEFAULT_WINDOW_SESSIONS): PanelHistory {
+  const sessions = listSessionVersions(db, panelId);
+  const attributes = listAttributes(db, panelId);
+  const scaleOf = new Map(attributes.map((a) => [a.name, a.scale]));
+  const indicesBy = new Map<string, SessionAttributeResult['indices']>();
+  for (const row of loadSessionIndices(db, panelId)) {
+    const key = `${row.session}\u0000${row.attribute}`;
+    let list = indicesBy.get(key);
+    if (!list) indicesBy.set(key, (list = []));
+    list.push(row);
+  }
+  const results: SessionAttributeResult[] = loadSessionFits(db, panelId).map((f) => {
+    const scale = scaleOf.get(f.attribute)!;
+    return {
+      session: f.session,
+      date: f.sessionDate,
+      attribute: f.attribute,
+      scaleMin: scale.min,
+      scaleMax: scale.max,
+      fit: f.fit,
+      indices: indicesBy.get(`${f.session}\u0000${f.attribute}`) ?? [],
+      productTestP: f.fit.productTest?.p ?? null,
+    };
+  });
+  const periodFits: PeriodFitSummary[] = [];
+  for (const p of loadPeriodFits(db, panelId)) {
+    if (p.windowSessions !== windowSessions) continue;
+    const result = p.result as StoredPeriodResult;
+    if ('problem' in result) continue;
+    periodFits.push({
+      attribute: p.attribute,
+      sessions: p.sessions.map(([label]) => label),
+      productSessionVariance: result.json.variance['product:session'] ?? 0,
+      lrt: result.lrt,
+    });
+  }
   return {
-    panel: panelName,
-    sessions: listSessionVersions(db, panelId).map((s) => ({ label: s.label, date: s.date, dataVersion: s.dataVersion })),
-    attributes: listAttributes(db, panelId).map((a) => ({ name: a.name, scale: a.scale })),
+    sessions: sessions.map((s) => ({ label: s.label, date: s.date })),
+    attributes: attributes.map((a) => ({ name: a.name, scaleMin: a.scale.min, scaleMax: a.scale.max })),
     referenceProducts: listProducts(db, panelId)
       .filter((p) => p.role === 'reference')
       .map((p) => p.code),
-    fits: loadSessionFits(db, panelId).map((f) => f.fit),
-    indices: loadSessionIndices(db, panelId),
-    quality: loadSessionQuality(db, panelId).map((q) => ({ session: q.session, findings: q.findings })),
-    periodFits: loadPeriodFits(db, panelId)
-      .filter((p) => p.windowSessions === windowSessions)
-      .map((p) => ({
-        attribute: p.attribute,
-        firstSession: p.firstSession,
-        lastSession: p.lastSession,
-        sessions: p.sessions.map(([label]) => label),
-        result: p.result,
-      })),
-    events: listPanelEvents(db, panelId).map((e) => ({ kind: e.kind, session: e.session, assessor: e.assessor })),
+    results,
+    ratings: loadPanelRatings(db, panelId),
+    importFindings: loadCurrentFindings(db, panelId) as ImportFinding[],
+    events: listPanelEvents(db, panelId),
+    periodFits,
   };
 }
 

@@ -3,7 +3,7 @@
  * observations of one session grouped by attribute (with each attribute's scale).
  */
 import type { Database } from 'better-sqlite3';
-import type { Observation, ScaleRange } from '../domain/ratings.js';
+import type { Observation, Rating, ScaleRange } from '../domain/ratings.js';
 
 export interface PanelRow {
   id: number;
@@ -100,4 +100,67 @@ export function listStaleSessions(db: Database, panelId: number, analysisVersion
         ORDER BY s.session_date, s.label`,
     )
     .all(panelId, analysisVersion) as SessionVersionRow[];
+}
+
+/** Every stored rating of the panel (optionally from a session date on), in session order. */
+export function loadPanelRatings(db: Database, panelId: number, fromDate?: string): Rating[] {
+  return db
+    .prepare(
+      `SELECT s.label AS session, s.session_date AS date, a.code AS assessor, p.code AS product, r.replicate,
+              at.name AS attribute, r.value, r.sample_code AS code
+         FROM rating r
+         JOIN session s ON s.id = r.session_id
+         JOIN attribute at ON at.id = r.attribute_id
+         JOIN assessor a ON a.id = r.assessor_id
+         JOIN product p ON p.id = r.product_id
+        WHERE s.panel_id = ? AND s.session_date >= ?
+        ORDER BY s.session_date, s.label, at.name, a.code, p.code, r.replicate`,
+    )
+    .all(panelId, fromDate ?? '') as Rating[];
+}
+
+/** A finding of an import, or a quarantined cell still held (code = the quarantine reason). */
+export interface StoredFinding {
+  code: string;
+  file: string;
+  row: number | null;
+  column: string | null;
+  message: string;
+  session?: string | null;
+  assessor?: string | null;
+  product?: string | null;
+  attribute?: string | null;
+}
+
+/**
+ * Findings that describe the data as stored now: those of the import that last wrote each
+ * session (older imports' findings were replaced with the data), plus cells held in quarantine.
+ */
+export function loadCurrentFindings(db: Database, panelId: number): StoredFinding[] {
+  const imports = db
+    .prepare(
+      `SELECT i.id, i.report_json AS json FROM import i
+        WHERE i.panel_id = ? AND EXISTS (SELECT 1 FROM session s WHERE s.import_id = i.id)`,
+    )
+    .all(panelId) as { id: number; json: string }[];
+  const sessionsOf = db.prepare('SELECT label FROM session WHERE import_id = ?');
+  const out: StoredFinding[] = [];
+  for (const imp of imports) {
+    const current = new Set((sessionsOf.all(imp.id) as { label: string }[]).map((r) => r.label));
+    let findings: StoredFinding[] = [];
+    try {
+      findings = (JSON.parse(imp.json) as { findings?: StoredFinding[] }).findings ?? [];
+    } catch {
+      findings = []; // an unreadable report carries no findings
+    }
+    for (const f of findings) if (!f.session || current.has(f.session)) out.push(f);
+  }
+  const held = db
+    .prepare(
+      `SELECT reason_code AS code, file_name AS file, row_number AS row, column_name AS "column", reason AS message,
+              session_label AS session, assessor, product, attribute
+         FROM quarantine WHERE panel_id = ? AND status = 'held' ORDER BY id`,
+    )
+    .all(panelId) as StoredFinding[];
+  return [...out, ...held];
 }

@@ -207,3 +207,13 @@ export function reviewFlag(db: Database, panelId: number, flagId: number, status
     .run(status, note, reviewedAt, panelId, flagId);
   return result.changes === 1;
 }
+
+/**
+ * The flags the CLI (`flags --format json`) and the API (`GET /api/panels/:panel/flags`) give:
+ * the current set as Flag objects, optionally from a session on. null when the panel is unknown.
+ */
+export function listCurrentFlagObjects(db: Database, panelName: string, sinceSession?: string): Flag[] | null {
+  const panel = db.prepare('SELECT id FROM panel WHERE name = ?').get(panelName) as { id: number } | undefined;
+  if (!panel) return null;
+  return listFlags(db, panel.id, { sinceSession }).map((record) => record.flag);
+}

@@ -6,6 +6,7 @@ import type { FitJson } from '../../domain/analysis.js';
 import type { Flag } from '../../domain/flags.js';
 import type { Observation, ScaleRange } from '../../domain/ratings.js';
 import type { AssessorSessionIndices } from '../../analysis/indices/types.js';
+import type { PanelHistory } from '../../analysis/monitor/series.js';
 
 export type RatedObservation = Observation & { code: string | null };
 
@@ -45,29 +46,23 @@ export interface PeriodTask {
   observations: RatedObservation[];
 }
 
-export interface PeriodTaskResult {
-  attribute: string;
-  /** The period fit as analysis/ returns it, or null with a problem sentence. */
-  result: unknown;
-  problem: string | null;
+export interface PeriodFitResult {
+  json: FitJson;
+  diagnostics: unknown;
+  /** Boundary likelihood-ratio test of product:session (null when not made). */
+  lrt: { likelihoodRatio: number; pValue: number } | null;
 }
 
-/** Everything stored about a panel that the flag engine reads (built by server/refit.ts). */
-export interface PanelSnapshot {
-  panel: string;
-  sessions: { label: string; date: string; dataVersion: number }[];
-  attributes: { name: string; scale: ScaleRange }[];
-  referenceProducts: string[];
-  fits: FitJson[];
-  indices: AssessorSessionIndices[];
-  quality: { session: string; findings: unknown[] }[];
-  periodFits: { attribute: string; firstSession: string; lastSession: string; sessions: string[]; result: unknown }[];
-  events: { kind: 'retraining' | 'control-batch' | 'note'; session: string; assessor: string | null }[];
+export interface PeriodTaskResult {
+  attribute: string;
+  /** null when the window could not be fitted (the sentence is in `problem`). */
+  result: PeriodFitResult | null;
+  problem: string | null;
 }
 
 export interface FlagsTask {
   type: 'flags';
-  snapshot: PanelSnapshot;
+  history: PanelHistory;
   /** The panel's thresholds (validated), or null for the defaults. */
   thresholds: unknown;
 }

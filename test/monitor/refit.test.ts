@@ -1,61 +1,27 @@
 /**
  * Refit plumbing: what is recomputed after an import, and what is stored with which data version.
- * The runner here is a recording test double (the numbers are checked in the analysis suites);
- * these tests check the bookkeeping: which sessions, which windows, when the flags are rebuilt.
+ * The numbers themselves are checked against R in the analysis suites; here the stored results
+ * are compared with direct calls of the same analysis functions on the same ratings.
  */
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import type { Database } from 'better-sqlite3';
-import type { FitJson } from '../../domain/analysis.js';
-import type { FitRunner } from '../../server/fit-pool.js';
-import { DEFAULT_WINDOW_SESSIONS, panelDataSignature, refitPanel, rollingWindows, RefitService } from '../../server/refit.js';
-import type { FitTask, FitTaskResult } from '../../server/workers/fit-task-types.js';
+import { computeAssessorIndices } from '../../analysis/indices/compute-assessor-indices.js';
+import { fitSessionModel } from '../../analysis/lmm/fit-session-model.js';
+import { createFitPool, type FitRunner } from '../../server/fit-pool.js';
+import { panelDataSignature, periodWindows, refitPanel, RefitService } from '../../server/refit.js';
 import { findPanel, listSessionVersions } from '../../store/fits-sessions.js';
-import { loadPeriodFits, loadSessionFits } from '../../store/fits-results.js';
+import { loadPeriodFits, loadSessionFits, loadSessionIndices } from '../../store/fits-results.js';
 import { listFlags, loadFlagBuild } from '../../store/monitor-flags.js';
 import { savePanelThresholds } from '../../store/monitor-settings.js';
 import { countingRunner, importRatings, makeTestStore, smallPanel } from './helpers.js';
 
-/** Records n and the mean of what it was given; one watch flag per stored session count. */
-function recordingRunner(): FitRunner {
-  return {
-    mode: 'in-thread',
-    threads: 0,
-    async run<T extends FitTask>(task: T): Promise<FitTaskResult<T>> {
-      if (task.type === 'session') {
-        return {
-          session: task.session,
-          attributes: task.attributes.map((a) => ({
-            attribute: a.attribute,
-            fit: { session: task.session, attribute: a.attribute, model: 'session', n: a.observations.length } as FitJson,
-            diagnostics: { mean: a.observations.reduce((s, o) => s + o.value, 0) / a.observations.length },
-            indices: [],
-            problem: null,
-          })),
-          findings: [],
-        } as FitTaskResult<T>;
-      }
-      if (task.type === 'period') {
-        return { attribute: task.attribute, result: { n: task.observations.length, sessions: task.sessions }, problem: null } as FitTaskResult<T>;
-      }
-      const last = task.snapshot.sessions[task.snapshot.sessions.length - 1];
-      return {
-        flags: [
-          {
-            kind: 'drift',
-            assessor: 'A01',
-            product: null,
-            attribute: null,
-            firstSession: last.label,
-            severity: 'watch',
-            evidence: { test: 'recording double', n: task.snapshot.sessions.length, threshold: 'none' },
-            message: 'Recorded.',
-          },
-        ],
-      } as FitTaskResult<T>;
-    },
-    close: async () => undefined,
-  };
+/** A runner whose every task fails (a bug in analysis, a worker crash). */
+function failingRunner(): FitRunner {
+  return { mode: 'in-thread', threads: 0, run: async () => Promise.reject(new Error('boom at /some/path')), close: async () => undefined };
 }
+
+const inThread = () => createFitPool({ mode: 'in-thread' });
+const bookkeeping = () => countingRunner(inThread(), { skipPeriodFits: true });
 
 let db: Database;
 beforeEach(() => {
@@ -63,90 +29,118 @@ beforeEach(() => {
 });
 afterEach(() => db.close());
 
-describe('rollingWindows', () => {
-  it('ends a window at every session from the third, at most windowSessions long', () => {
-    const labels = Array.from({ length: 15 }, (_, i) => `S${i + 1}`);
-    const windows = rollingWindows(labels, 12);
-    expect(windows).toHaveLength(13);
-    expect(windows[0]).toEqual(['S1', 'S2', 'S3']);
-    expect(windows[12]).toEqual(labels.slice(3, 15));
-    expect(windows.every((w) => w.length <= 12 && w.length >= 3)).toBe(true);
+describe('periodWindows', () => {
+  const labels = (n: number) => Array.from({ length: n }, (_, i) => i + 1);
+  it('keeps blocks of 12 and the latest 12 sessions', () => {
+    expect(periodWindows(labels(15), 12).map((w) => [w[0], w[w.length - 1]])).toEqual([
+      [1, 12],
+      [4, 15],
+    ]);
+    expect(periodWindows(labels(26), 12).map((w) => [w[0], w[w.length - 1]])).toEqual([
+      [1, 12],
+      [13, 24],
+      [15, 26],
+    ]);
+  });
+  it('does not repeat a block that is also the latest window, and needs 3 sessions', () => {
+    expect(periodWindows(labels(24), 12)).toHaveLength(2);
+    expect(periodWindows(labels(5), 12)).toEqual([[1, 2, 3, 4, 5]]);
+    expect(periodWindows(labels(2), 12)).toEqual([]);
   });
 });
 
 describe('refitPanel', () => {
-  it('stores fits of every session with the data version they came from, then rebuilds flags', async () => {
+  it('stores fits, indices and period fits with the data versions they came from, then the flags', async () => {
     const panel = smallPanel();
     await importRatings(db, panel);
-    const runner = countingRunner(recordingRunner());
+    const runner = countingRunner(inThread());
     const summary = await refitPanel(db, panel.panelName, { runner });
     const panelId = findPanel(db, panel.panelName)!.id;
     const sessions = listSessionVersions(db, panelId);
     expect(summary.sessionsRefitted).toEqual(sessions.map((s) => s.label));
     const fits = loadSessionFits(db, panelId);
-    expect(fits).toHaveLength(sessions.length * 3);
+    expect(fits).toHaveLength(sessions.length * panel.attributes.length);
+    const indices = loadSessionIndices(db, panelId);
     for (const fit of fits) {
-      const session = sessions.find((s) => s.label === fit.session)!;
-      expect(fit.dataVersion).toBe(session.dataVersion);
-      const expectedN = panel.ratings.filter((r) => r.session === fit.session && r.attribute === fit.attribute).length;
-      expect(fit.fit.n).toBe(expectedN);
+      expect(fit.dataVersion).toBe(sessions.find((s) => s.label === fit.session)!.dataVersion);
+      const ratings = panel.ratings.filter((r) => r.session === fit.session && r.attribute === fit.attribute);
+      const direct = fitSessionModel(ratings);
+      expect(fit.fit).toEqual(direct.json);
+      expect(indices.filter((ix) => ix.session === fit.session && ix.attribute === fit.attribute)).toEqual(
+        computeAssessorIndices(ratings, { panelProductPValue: direct.json.productTest.p }),
+      );
     }
-    // 6 sessions → windows ending at sessions 3..6, for 3 attributes.
-    expect(runner.counts.period).toBe(4 * 3);
-    expect(loadPeriodFits(db, panelId)).toHaveLength(12);
+    // 6 sessions: one window (the latest six) per attribute, with the product:session test.
+    const periods = loadPeriodFits(db, panelId);
+    expect(periods.map((p) => [p.attribute, p.firstSession, p.lastSession])).toEqual(
+      panel.attributes.map((a) => [a.name, sessions[0].label, sessions[5].label]).sort(),
+    );
+    for (const p of periods) {
+      const result = p.result as { json: { n: number; model: string }; lrt: { pValue: number } };
+      expect(result.json.model).toBe('period');
+      expect(result.json.n).toBe(panel.ratings.filter((r) => r.attribute === p.attribute).length);
+      expect(result.lrt.pValue).toBeGreaterThan(0);
+      expect(p.sessions).toEqual(sessions.map((s) => [s.label, s.dataVersion]));
+    }
     expect(runner.counts.flags).toBe(1);
     expect(loadFlagBuild(db, panelId)?.dataSignature).toBe(panelDataSignature(sessions));
-    expect(listFlags(db, panelId).map((f) => f.flag.firstSession)).toEqual([sessions[5].label]);
+    expect(listFlags(db, panelId)).toHaveLength(summary.nFlags);
   });
 
   it('does nothing after a re-import of unchanged data', async () => {
     const panel = smallPanel();
     await importRatings(db, panel);
-    await refitPanel(db, panel.panelName, { runner: recordingRunner() });
+    await refitPanel(db, panel.panelName, { runner: bookkeeping() });
     const again = await importRatings(db, panel);
     expect(again.changedSessions).toEqual([]);
-    const runner = countingRunner(recordingRunner());
+    const runner = bookkeeping();
     const summary = await refitPanel(db, panel.panelName, { runner });
     expect(runner.counts).toEqual({ session: 0, period: 0, flags: 0 });
     expect(summary.flagsRebuilt).toBe(false);
   });
 
   it('refits a changed session and exactly the period windows that contain it', async () => {
-    const panel = smallPanel({ nWeeks: 16 });
+    const panel = smallPanel({ nWeeks: 26 });
     await importRatings(db, panel);
-    await refitPanel(db, panel.panelName, { runner: recordingRunner() });
+    await refitPanel(db, panel.panelName, { runner: bookkeeping() });
     const panelId = findPanel(db, panel.panelName)!.id;
     const before = listSessionVersions(db, panelId);
-    // Change one value of the 4th session and import that session again.
-    const target = before[3].label;
-    const changed = panel.ratings
-      .filter((r) => r.session === target)
-      .map((r, i) => (i === 0 ? { ...r, value: r.value === 5 ? 6 : 5 } : r));
-    const report = await importRatings(db, panel, changed);
-    expect(report.changedSessions).toEqual([target]);
-    const runner = countingRunner(recordingRunner());
-    const summary = await refitPanel(db, panel.panelName, { runner });
-    expect(runner.sessions).toEqual([target]);
-    expect(summary.sessionsRefitted).toEqual([target]);
-    // Windows ending at sessions 4..15 (0-based 3..14) contain session index 3 (window of 12).
-    const lastLabels = before.slice(3, 3 + DEFAULT_WINDOW_SESSIONS).map((s) => s.label);
-    const expectedWindows = panel.attributes.flatMap((a) => lastLabels.map((l) => `${a.name}@${l}`)).sort();
-    expect([...runner.windows].sort()).toEqual(expectedWindows);
+    const label = (i: number) => before[i].label;
+    const changeSession = async (index: number) => {
+      const changed = panel.ratings
+        .filter((r) => r.session === label(index))
+        .map((r, i) => (i === 0 ? { ...r, value: r.value === 5 ? 6 : 5 } : r));
+      const report = await importRatings(db, panel, changed);
+      expect(report.changedSessions).toEqual([label(index)]);
+      const runner = bookkeeping();
+      await refitPanel(db, panel.panelName, { runner });
+      return runner;
+    };
+    const windows = (first: number, last: number) => panel.attributes.map((a) => `${a.name}@${label(first)}..${label(last)}`).sort();
+
+    // Session 4 lies in the block 1–12 only (the latest window is 15–26).
+    let runner = await changeSession(3);
+    expect(runner.sessions).toEqual([label(3)]);
+    expect([...runner.windows].sort()).toEqual(windows(0, 11));
     expect(runner.counts.flags).toBe(1);
-    const after = listSessionVersions(db, panelId);
-    const newVersion = after.find((s) => s.label === target)!.dataVersion;
-    expect(newVersion).toBeGreaterThan(before[3].dataVersion);
-    for (const fit of loadSessionFits(db, panelId).filter((f) => f.session === target)) expect(fit.dataVersion).toBe(newVersion);
-    const window = loadPeriodFits(db, panelId).find((p) => p.lastSession === lastLabels[0])!;
-    expect(window.sessions.find(([label]) => label === target)?.[1]).toBe(newVersion);
+    const version = listSessionVersions(db, panelId)[3].dataVersion;
+    expect(version).toBeGreaterThan(before[3].dataVersion);
+    for (const fit of loadSessionFits(db, panelId).filter((f) => f.session === label(3))) expect(fit.dataVersion).toBe(version);
+    const block = loadPeriodFits(db, panelId).find((p) => p.lastSession === label(11))!;
+    expect(block.sessions[3]).toEqual([label(3), version]);
+
+    // Session 21 lies in the block 13–24 and in the latest window 15–26.
+    runner = await changeSession(20);
+    expect(runner.sessions).toEqual([label(20)]);
+    expect([...runner.windows].sort()).toEqual([...windows(12, 23), ...windows(14, 25)].sort());
   });
 
-  it('rebuilds flags (only) when the thresholds change', async () => {
+  it('rebuilds only the flags when the thresholds change', async () => {
     const panel = smallPanel();
     await importRatings(db, panel);
-    await refitPanel(db, panel.panelName, { runner: recordingRunner() });
-    savePanelThresholds(db, findPanel(db, panel.panelName)!.id, { example: 1 });
-    const runner = countingRunner(recordingRunner());
+    await refitPanel(db, panel.panelName, { runner: bookkeeping() });
+    savePanelThresholds(db, findPanel(db, panel.panelName)!.id, { fdrLevel: 0.1 });
+    const runner = bookkeeping();
     await refitPanel(db, panel.panelName, { runner });
     expect(runner.counts).toEqual({ session: 0, period: 0, flags: 1 });
   });
@@ -154,10 +148,10 @@ describe('refitPanel', () => {
   it("scope 'all' recomputes everything", async () => {
     const panel = smallPanel();
     await importRatings(db, panel);
-    await refitPanel(db, panel.panelName, { runner: recordingRunner() });
-    const runner = countingRunner(recordingRunner());
+    await refitPanel(db, panel.panelName, { runner: bookkeeping() });
+    const runner = bookkeeping();
     await refitPanel(db, panel.panelName, { runner, scope: 'all' });
-    expect(runner.counts).toEqual({ session: 6, period: 12, flags: 1 });
+    expect(runner.counts).toEqual({ session: 6, period: 3, flags: 1 });
   });
 });
 
@@ -165,7 +159,7 @@ describe('RefitService', () => {
   it('returns a queued job at once and records its progress until done', async () => {
     const panel = smallPanel();
     await importRatings(db, panel);
-    const service = new RefitService(db, recordingRunner());
+    const service = new RefitService(db, bookkeeping());
     const job = service.schedule(panel.panelName, 'import');
     expect(job.status).toBe('queued');
     expect(service.schedule(panel.panelName, 'import').id).toBe(job.id);
@@ -176,12 +170,11 @@ describe('RefitService', () => {
     expect(done.finishedAt).not.toBeNull();
   });
 
-  it('records a failed job with a plain message and keeps earlier results', async () => {
+  it('records a failed job with a plain message', async () => {
     const panel = smallPanel();
     await importRatings(db, panel);
-    const failing: FitRunner = { ...recordingRunner(), run: async () => Promise.reject(new Error('boom at /some/path')) };
     const errors: unknown[] = [];
-    const service = new RefitService(db, failing, { onError: (e) => errors.push(e) });
+    const service = new RefitService(db, failingRunner(), { onError: (e) => errors.push(e) });
     const job = service.schedule(panel.panelName, 'import');
     await service.whenIdle();
     const failed = service.job(job.id)!;
