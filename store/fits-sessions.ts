@@ -3,6 +3,7 @@
  * observations of one session grouped by attribute (with each attribute's scale).
  */
 import type { Database } from 'better-sqlite3';
+import type { InputFinding } from '../domain/problems.js';
 import type { Observation, Rating, ScaleRange } from '../domain/ratings.js';
 
 export interface PanelRow {
@@ -120,17 +121,7 @@ export function loadPanelRatings(db: Database, panelId: number, fromDate?: strin
 }
 
 /** A finding of an import, or a quarantined cell still held (code = the quarantine reason). */
-export interface StoredFinding {
-  code: string;
-  file: string;
-  row: number | null;
-  column: string | null;
-  message: string;
-  session?: string | null;
-  assessor?: string | null;
-  product?: string | null;
-  attribute?: string | null;
-}
+export type StoredFinding = Omit<InputFinding, 'code'> & { code: string };
 
 /**
  * Findings that describe the data as stored now: those of the import that last wrote each
