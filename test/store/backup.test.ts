@@ -1,0 +1,87 @@
+import { existsSync, writeFileSync } from 'node:fs';
+import { join } from 'node:path';
+import BetterSqlite3 from 'better-sqlite3';
+import { afterEach, beforeEach, describe, expect, it } from 'vitest';
+import { backupStore, BackupError, integrityCheck, restoreStore } from '../../store/backup.js';
+import { fileInput, importRatings } from '../../store/import-ratings.js';
+import { openStore, type Database } from '../../store/open-store.js';
+import { exportText, tempFolder } from './helpers.js';
+import { writeSyntheticLongCsv } from './synthetic-ratings.js';
+
+let folder: string;
+let remove: () => void;
+let db: Database;
+beforeEach(async () => {
+  ({ folder, remove } = tempFolder('backup'));
+  db = openStore(join(folder, 'live.db'));
+  const path = join(folder, 'base.csv');
+  await writeSyntheticLongCsv(path, { sessions: 20, assessors: 12, products: 6, replicates: 2, attributes: 10, seed: 11 });
+  await importRatings(db, { panel: 'crisps', fileName: 'base.csv', source: 'cli', input: fileInput(path), scale: { min: 0, max: 10 }, quarantine: false });
+});
+afterEach(() => {
+  db.close();
+  remove();
+});
+
+describe('online backup', () => {
+  it('gives a consistent copy while another connection keeps committing imports', async () => {
+    const writer = openStore(join(folder, 'live.db'));
+    const perSession = (conn: Database) =>
+      conn.prepare('SELECT s.label, count(r.id) AS n FROM session s LEFT JOIN rating r ON r.session_id = s.id GROUP BY s.id ORDER BY s.label').all() as { label: string; n: number }[];
+    // Small steps so the copy takes many event-loop turns; the writer commits between them.
+    let commits = 0;
+    let writing = true;
+    const writeLoop = (async () => {
+      for (let i = 0; i < 15 && writing; i++) {
+        const lines = ['session,date,assessor,product,replicate,attribute,value'];
+        for (let a = 1; a <= 12; a++) for (let p = 1; p <= 6; p++) lines.push(`X${String(i).padStart(2, '0')},2027-01-${String(i + 1).padStart(2, '0')},A${a},P${p},1,crunchiness,${(a + p) % 10}`);
+        const path = join(folder, `extra-${i}.csv`);
+        writeFileSync(path, lines.join('\n'));
+        const report = await importRatings(writer, { panel: 'crisps', fileName: `extra-${i}.csv`, source: 'cli', input: fileInput(path), scale: { min: 0, max: 10 }, quarantine: false });
+        expect(report.outcome).toBe('imported');
+        commits += 1;
+        await new Promise((resolve) => setImmediate(resolve));
+      }
+    })();
+    const out = join(folder, 'copy.db');
+    const result = await backupStore(db, out, { pagesPerStep: 2 });
+    const commitsDuringBackup = commits;
+    writing = false;
+    await writeLoop;
+    writer.close();
+    expect(commitsDuringBackup).toBeGreaterThan(0);
+    const copy = new BetterSqlite3(out, { readonly: true });
+    try {
+      expect(integrityCheck(copy)).toEqual(['ok']);
+      expect(copy.pragma('journal_mode', { simple: true })).toBe('delete');
+      // A committed state: every session whole (1440 base, 72 extra), imports and sessions agree.
+      const sessions = perSession(copy);
+      for (const s of sessions) expect(s.n).toBe(s.label.startsWith('X') ? 72 : 1440);
+      const nImports = (copy.prepare("SELECT count(*) AS n FROM import WHERE outcome = 'imported'").get() as { n: number }).n;
+      expect(nImports).toBe(1 + sessions.filter((s) => s.label.startsWith('X')).length);
+      expect(result.nRatings).toBe(sessions.reduce((sum, s) => sum + s.n, 0));
+    } finally {
+      copy.close();
+    }
+  });
+
+  it('restore gives an identical export, refuses damaged files, and keeps the replaced store', async () => {
+    const before = await exportText(db, 'crisps');
+    const out = join(folder, 'b.db');
+    await backupStore(db, out);
+    const target = join(folder, 'target.db');
+    await restoreStore(out, target);
+    const restored = openStore(target);
+    expect(await exportText(restored, 'crisps')).toBe(before);
+    restored.close();
+
+    const damaged = join(folder, 'damaged.db');
+    writeFileSync(damaged, 'SQLite format 3\u0000 but not really');
+    await expect(restoreStore(damaged, target, { force: true })).rejects.toThrow(BackupError);
+    await expect(restoreStore(join(folder, 'missing.db'), target)).rejects.toThrow(/does not exist/);
+
+    const forced = await restoreStore(out, target, { force: true, now: () => new Date('2026-03-01T10:00:00Z') });
+    expect(forced.previousSavedAs).toMatch(/target\.db\.before-restore-2026-03-01T10-00-00-000Z$/);
+    expect(existsSync(forced.previousSavedAs!)).toBe(true);
+  });
+});
