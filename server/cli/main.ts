@@ -6,6 +6,7 @@ import { Command, CommanderError } from 'commander';
 import { CliError } from './cli-error.js';
 // Command modules (one import and one registration line each):
 // ---- commands ----
+import { registerServeCommand } from './serve-command.js';
 import { registerImportCommand } from './import-command.js';
 import { registerExportCommand } from './export-command.js';
 import { registerBackupCommands } from './backup-command.js';
@@ -18,6 +19,7 @@ program
   .exitOverride();
 
 // ---- registrations ----
+registerServeCommand(program);
 registerImportCommand(program);
 registerExportCommand(program);
 registerBackupCommands(program);
