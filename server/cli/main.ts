@@ -6,6 +6,7 @@ import { Command, CommanderError } from 'commander';
 import { CliError } from './cli-error.js';
 // Command modules (one import and one registration line each):
 // ---- commands ----
+import { registerAnalyzeCommand } from './analyze-command.js';
 import { registerServeCommand } from './serve-command.js';
 import { registerImportCommand } from './import-command.js';
 import { registerExportCommand } from './export-command.js';
@@ -19,6 +20,7 @@ program
   .exitOverride();
 
 // ---- registrations ----
+registerAnalyzeCommand(program);
 registerServeCommand(program);
 registerImportCommand(program);
 registerExportCommand(program);
