@@ -173,3 +173,63 @@ function sumOfSquares(values: Float64Array): number {
   for (const value of values) sum += value * value;
   return sum;
 }
+
+/**
+ * Every diagonal entry of the inverse of the factored matrix, (L Lᵀ)⁻¹_ii = ‖L⁻¹ e_i‖², in the
+ * global order. Block rows: ‖L_b⁻¹ e_i‖² + ‖L_B⁻¹ W_bᵀ L_b⁻¹ e_i‖²; border rows: ‖L_B⁻¹ e_i‖².
+ * Cost about half of one factorisation.
+ */
+export function blockArrowInverseDiagonalAll(workspace: BlockArrowWorkspace, out: Float64Array): void {
+  const { layout, blocks, couplings, border } = workspace;
+  const nB = layout.borderSize;
+  const borderInverse = lowerTriangularInverse(border, nB);
+  for (let i = 0; i < nB; i++) {
+    let sum = 0;
+    for (let j = i; j < nB; j++) sum += borderInverse[j * nB + i] ** 2;
+    out[layout.borderOffset + i] = sum;
+  }
+  for (let b = 0; b < blocks.length; b++) {
+    const nb = layout.blockSizes[b];
+    const offset = layout.blockOffsets[b];
+    const blockInverse = lowerTriangularInverse(blocks[b], nb);
+    for (let i = 0; i < nb; i++) {
+      let sum = 0;
+      for (let j = i; j < nb; j++) sum += blockInverse[j * nb + i] ** 2;
+      out[offset + i] = sum;
+    }
+    if (nB === 0) continue;
+    // Q = W_bᵀ L_b⁻¹ (n_B × n_b), then the column norms of L_B⁻¹ Q.
+    const coupling = couplings[b];
+    const q = new Float64Array(nB * nb);
+    for (let k = 0; k < nb; k++) {
+      const rowK = k * nB;
+      for (let i = 0; i <= k; i++) {
+        const y = blockInverse[k * nb + i];
+        if (y === 0) continue;
+        for (let r = 0; r < nB; r++) q[r * nb + i] += coupling[rowK + r] * y;
+      }
+    }
+    const column = new Float64Array(nB);
+    for (let i = 0; i < nb; i++) {
+      for (let r = 0; r < nB; r++) column[r] = q[r * nb + i];
+      forwardSolveInPlace(border, nB, column);
+      let sum = 0;
+      for (let r = 0; r < nB; r++) sum += column[r] * column[r];
+      out[offset + i] += sum;
+    }
+  }
+}
+
+/** Inverse of a lower-triangular n×n matrix (row-major), itself lower triangular. */
+function lowerTriangularInverse(l: Float64Array, n: number): Float64Array {
+  const inverse = new Float64Array(n * n);
+  for (let j = 0; j < n; j++) {
+    inverse[j * n + j] = 1 / l[j * n + j];
+    for (let i = j + 1; i < n; i++) {
+      let sum = 0;
+      for (let k = j; k < i; k++) sum += l[i * n + k] * inverse[k * n + j];
+      inverse[i * n + j] = -sum / l[i * n + i];
+    }
+  }
+  return inverse;
+}

@@ -15,6 +15,7 @@ import {
   blockArrowBackSolve,
   blockArrowForwardSolve,
   blockArrowInverseDiagonal,
+  blockArrowInverseDiagonalAll,
   blockArrowLogDeterminant,
   factorBlockArrowInPlace,
   makeBlockArrowWorkspace,
@@ -55,6 +56,14 @@ export interface RemlObjective {
   evaluate(theta: ArrayLike<number>): number;
   parts(theta: ArrayLike<number>): CriterionParts;
   solve(theta: ArrayLike<number>): MixedModelSolution;
+  /**
+   * The criterion and its gradient with respect to γ_k = θ_k², for θ_k > 0 (NaN where θ_k = 0,
+   * whose one-sided slope the caller takes by differences). With T = the random-effects block
+   * of the inverse of the (spherical) mixed-model matrix and u the spherical modes,
+   * ∂f/∂γ_k = (q_k − tr T_kk − ‖u_k‖²/σ̂²)/γ_k (from Λ Zᵀ P Z Λ = I − T and Zᵀ P y = u/θ;
+   * Henderson's mixed-model equations, e.g. Searle, Casella & McCulloch 1992, ch. 6 [chapter from memory]).
+   */
+  valueAndGradient(theta: ArrayLike<number>): { value: number; gradient: Float64Array };
   /** (R_Xᵀ R_X)⁻¹ at θ: cov(β̂) = σ² × this. */
   unscaledCovBeta(theta: ArrayLike<number>): Float64Array;
 }
@@ -190,10 +199,58 @@ export function makeRemlObjective(frame: ModelFrame, options: { reml?: boolean }
     };
   }
 
+  const inverseDiagonal = new Float64Array(q);
+  const modes = new Float64Array(q);
+  const fixedRows = new Float64Array(q * p);
+  const rowBuffer = new Float64Array(p);
+  const termSizes = frame.terms.map((term) => term.levels.length);
+
+  function valueAndGradient(theta: ArrayLike<number>): { value: number; gradient: Float64Array } {
+    const criterion = parts(theta);
+    const gradient = new Float64Array(nTheta).fill(Number.NaN);
+    if (!Number.isFinite(criterion.deviance)) return { value: Infinity, gradient };
+    const width = p + 1;
+    const beta = Float64Array.from(cBeta);
+    backSolveTransposeInPlace(rx, p, beta);
+    for (let k = 0; k < q; k++) {
+      let sum = rhs[k * width + p];
+      for (let c = 0; c < p; c++) sum -= rhs[k * width + c] * beta[c];
+      modes[k] = sum;
+    }
+    blockArrowBackSolve(workspace, modes);
+    blockArrowInverseDiagonalAll(workspace, inverseDiagonal);
+    if (reml) {
+      // Fixed-effect part of T: rows g_i of L⁻ᵀ R_ZX, contribution ‖L_X⁻¹ g_i‖².
+      for (let i = 0; i < q; i++) for (let c = 0; c < p; c++) fixedRows[i * p + c] = rhs[i * width + c];
+      for (let c = 0; c < p; c++) blockArrowBackSolve(workspace, fixedRows, c, p);
+      for (let i = 0; i < q; i++) {
+        for (let c = 0; c < p; c++) rowBuffer[c] = fixedRows[i * p + c];
+        forwardSolveInPlace(rx, p, rowBuffer);
+        let sum = 0;
+        for (let c = 0; c < p; c++) sum += rowBuffer[c] * rowBuffer[c];
+        inverseDiagonal[i] += sum;
+      }
+    }
+    const sigma2 = criterion.pwrss / degreesOfFreedom;
+    const traceT = new Float64Array(nTheta);
+    const modeSquares = new Float64Array(nTheta);
+    for (let i = 0; i < q; i++) {
+      const k = frame.termOfPosition[i];
+      traceT[k] += inverseDiagonal[i];
+      modeSquares[k] += modes[i] * modes[i];
+    }
+    for (let k = 0; k < nTheta; k++) {
+      const gamma = theta[k] * theta[k];
+      if (gamma > 0) gradient[k] = (termSizes[k] - traceT[k] - modeSquares[k] / sigma2) / gamma;
+    }
+    return { value: criterion.deviance, gradient };
+  }
+
   return {
     frame,
     reml,
     nTheta,
+    valueAndGradient,
     evaluate: (theta) => parts(theta).deviance,
     parts,
     solve,

@@ -56,13 +56,17 @@ export function fitPeriodModel(observations: Observation[], options: PeriodModel
   let productSessionLrt: PeriodModelFit['productSessionLrt'] = null;
   if (withProductSession) {
     const index = randomTerms.length - 1;
-    const withoutTerm = (theta: ArrayLike<number>): number => {
+    const expand = (theta: ArrayLike<number>): Float64Array => {
       const full = new Float64Array(randomTerms.length);
       for (let k = 0, j = 0; k < randomTerms.length; k++) full[k] = k === index ? 0 : theta[j++];
-      return objective.evaluate(full);
+      return full;
+    };
+    const withGradient = (theta: ArrayLike<number>): { value: number; gradient: Float64Array } => {
+      const result = objective.valueAndGradient(expand(theta));
+      return { value: result.value, gradient: result.gradient.filter((_, k) => k !== index) };
     };
     const start = [...fit.theta].filter((_, k) => k !== index).map((value) => Math.max(value, 0.05));
-    const reduced = minimizeBounded(withoutTerm, start);
+    const reduced = minimizeBounded((theta) => objective.evaluate(expand(theta)), start, {}, withGradient);
     const likelihoodRatio = Math.max(reduced.value - fit.criterion, 0);
     productSessionLrt = { likelihoodRatio, pValue: boundaryLrtPValue(likelihoodRatio) };
   }

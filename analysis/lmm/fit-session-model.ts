@@ -118,7 +118,7 @@ function closedFormProductTest(anova: BalancedAnova): ProductTest {
 
 /** Confirms the ANOVA solution is stationary (one quasi-Newton check), then assembles with the closed-form test. */
 function confirmFastPath(objective: RemlObjective, theta: Float64Array, productTest: ProductTest): LmmFit {
-  const optimum = minimizeBounded(objective.evaluate, theta, { maxComponentsForFaceSearch: 0 });
+  const optimum = minimizeBounded(objective.evaluate, theta, { maxComponentsForFaceSearch: 0 }, objective.valueAndGradient);
   const gradientMaxAbs = Math.max(0, ...[...optimum.projectedGradient].map(Math.abs));
   return assembleFit(
     objective,

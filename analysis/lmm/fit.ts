@@ -154,7 +154,7 @@ export const OPTIMIZER_NAME = 'projected-bfgs(gamma)';
 /** Optimises the criterion from the start values and assembles the result. */
 export function fitFromObjective(objective: RemlObjective, options: FitOptions = {}): LmmFit {
   const start = options.startTheta ?? objective.frame.terms.map(() => 0.5);
-  const optimum = minimizeBounded(objective.evaluate, start, options.control);
+  const optimum = minimizeBounded(objective.evaluate, start, options.control, objective.valueAndGradient);
   return assembleFit(
     objective,
     {

@@ -40,23 +40,41 @@ export interface OptimiserResult {
 }
 
 type Objective = (theta: ArrayLike<number>) => number;
+/** Criterion and its gradient with respect to γ = θ² (NaN entries are filled by differences). */
+type ObjectiveWithGradient = (theta: ArrayLike<number>) => { value: number; gradient: Float64Array };
+
+interface GammaFunctions {
+  f: (gamma: Float64Array) => number;
+  fg: (gamma: Float64Array) => { value: number; gradient: Float64Array };
+}
 
 export function minimizeBounded(
   objective: Objective,
   startTheta: ArrayLike<number>,
   control: Partial<OptimiserControl> = {},
+  objectiveWithGradient?: ObjectiveWithGradient,
 ): OptimiserResult {
   const settings = { ...DEFAULT_OPTIMISER_CONTROL, ...control };
   const k = startTheta.length;
   let evaluations = 0;
+  const toTheta = (gamma: Float64Array): Float64Array => Float64Array.from(gamma, (value) => Math.sqrt(Math.max(value, 0)));
   const f = (gamma: Float64Array): number => {
     evaluations++;
-    const theta = new Float64Array(k);
-    for (let i = 0; i < k; i++) theta[i] = Math.sqrt(Math.max(gamma[i], 0));
-    return objective(theta);
+    return objective(toTheta(gamma));
   };
+  const fg = (gamma: Float64Array): { value: number; gradient: Float64Array } => {
+    if (!objectiveWithGradient) {
+      const value = f(gamma);
+      return { value, gradient: numericGradient(f, gamma, value, new Float64Array(k).fill(Number.NaN)) };
+    }
+    evaluations++;
+    const result = objectiveWithGradient(toTheta(gamma));
+    if (!Number.isFinite(result.value)) return result;
+    return { value: result.value, gradient: numericGradient(f, gamma, result.value, result.gradient) };
+  };
+  const functions: GammaFunctions = { f, fg };
   const startGamma = Float64Array.from(startTheta, (value) => value * value);
-  let best = searchFace(f, startGamma, new Uint8Array(k), settings);
+  let best = searchFace(functions, startGamma, new Uint8Array(k), settings);
   if (k > 0 && k <= settings.maxComponentsForFaceSearch) {
     for (let mask = 1; mask < 1 << k; mask++) {
       const fixed = new Uint8Array(k);
@@ -70,133 +88,141 @@ export function minimizeBounded(
         }
       }
       if (alreadyThere) continue;
-      const face = searchFace(f, start, fixed, settings);
+      const face = searchFace(functions, start, fixed, settings);
       if (face.value < best.value - 1e-10 * Math.abs(best.value)) {
         // A lower face: polish it without constraints so it can leave the boundary if it wants.
-        const polished = searchFace(f, face.gamma, new Uint8Array(k), settings);
+        const polished = searchFace(functions, face.gamma, new Uint8Array(k), settings);
         best = polished.value <= face.value ? polished : face;
         best.iterations += face.iterations;
       }
     }
   }
-  const messages = [...best.messages];
-  const gradient = gradientAt(f, best.gamma, best.value).gradient;
-  const projectedGradient = Float64Array.from(gradient, (g, i) => (best.gamma[i] === 0 ? Math.min(g, 0) : g));
+  const projectedGradient = Float64Array.from(best.gradient, (g, i) => (best.gamma[i] === 0 ? Math.min(g, 0) : g));
   return {
-    theta: Float64Array.from(best.gamma, (g) => Math.sqrt(g)),
+    theta: toTheta(best.gamma),
     value: best.value,
     iterations: best.iterations,
     evaluations,
     converged: best.converged,
     projectedGradient,
-    messages,
+    messages: [...best.messages],
   };
 }
 
 interface FaceResult {
   gamma: Float64Array;
   value: number;
+  gradient: Float64Array;
   iterations: number;
   converged: boolean;
   messages: string[];
 }
 
-function searchFace(f: (gamma: Float64Array) => number, start: Float64Array, fixed: Uint8Array, settings: OptimiserControl): FaceResult {
+function searchFace(functions: GammaFunctions, start: Float64Array, fixed: Uint8Array, settings: OptimiserControl): FaceResult {
   const k = start.length;
   let x: Float64Array = Float64Array.from(start, (value, i) => (fixed[i] ? 0 : Math.max(value, 0)));
-  let fx = f(x);
-  if (!Number.isFinite(fx)) return { gamma: x, value: fx, iterations: 0, converged: false, messages: ['the criterion is not finite at the start'] };
-  if (fixed.every((flag) => flag === 1)) return { gamma: x, value: fx, iterations: 0, converged: true, messages: [] };
-  let { gradient, curvature } = gradientAt(f, x, fx);
-  let inverseHessian = diagonalInverse(curvature, x);
+  let current = functions.fg(x);
+  let fx = current.value;
+  let gradient = current.gradient;
+  if (!Number.isFinite(fx)) return { gamma: x, value: fx, gradient, iterations: 0, converged: false, messages: ['the criterion is not finite at the start'] };
+  if (fixed.every((flag) => flag === 1)) return { gamma: x, value: fx, gradient, iterations: 0, converged: true, messages: [] };
+  let inverseHessian = diagonalInverse(x);
+  let scaled = false;
   const messages: string[] = [];
   for (let iteration = 1; iteration <= settings.maxIterations; iteration++) {
     const free = Uint8Array.from(x, (value, i) => (fixed[i] || (value === 0 && gradient[i] > 0) ? 0 : 1));
     let direction = newtonDirection(inverseHessian, gradient, free);
     let slope = dot(direction, gradient);
     if (!(slope < 0)) {
-      inverseHessian = diagonalInverse(curvature, x);
+      inverseHessian = diagonalInverse(x);
+      scaled = false;
       direction = newtonDirection(inverseHessian, gradient, free);
       slope = dot(direction, gradient);
     }
     const decrement = -slope;
     if (!(decrement > settings.newtonDecrementTolerance)) {
-      return { gamma: x, value: fx, iterations: iteration, converged: true, messages };
+      return { gamma: x, value: fx, gradient, iterations: iteration, converged: true, messages };
     }
     let step = 1;
     let accepted: Float64Array | null = null;
-    let fNew = fx;
+    let next = current;
     for (let attempt = 0; attempt < 60; attempt++) {
       const candidate = Float64Array.from(x, (value, i) => (free[i] ? Math.max(value + step * direction[i], 0) : value));
-      const value = f(candidate);
+      const trial = functions.fg(candidate);
       let predicted = 0;
       for (let i = 0; i < k; i++) predicted += gradient[i] * (candidate[i] - x[i]);
-      if (Number.isFinite(value) && value <= fx + 1e-4 * predicted) {
+      if (Number.isFinite(trial.value) && trial.value <= fx + 1e-4 * predicted) {
         accepted = candidate;
-        fNew = value;
+        next = trial;
         break;
       }
       step *= 0.5;
     }
     if (accepted === null) {
       // No decrease along the projected path: the gradient is at its noise level here.
-      return { gamma: x, value: fx, iterations: iteration, converged: decrement < 1e-8, messages: decrement < 1e-8 ? messages : [...messages, 'line search failed'] };
+      const converged = decrement < 1e-8;
+      return { gamma: x, value: fx, gradient, iterations: iteration, converged, messages: converged ? messages : [...messages, 'line search failed'] };
     }
-    const next = gradientAt(f, accepted, fNew);
     const s = Float64Array.from(accepted, (value, i) => value - x[i]);
     const yDiff = Float64Array.from(next.gradient, (value, i) => value - gradient[i]);
-    const change = fx - fNew;
-    x = accepted;
+    const change = fx - next.value;
     const previous = fx;
-    fx = fNew;
+    x = accepted;
+    current = next;
+    fx = next.value;
     gradient = next.gradient;
-    curvature = next.curvature;
     const sy = dot(s, yDiff);
-    if (sy > 1e-14 * Math.sqrt(dot(s, s) * dot(yDiff, yDiff))) bfgsUpdate(inverseHessian, s, yDiff, sy);
+    if (sy > 1e-14 * Math.sqrt(dot(s, s) * dot(yDiff, yDiff))) {
+      if (!scaled) {
+        // Shanno–Phua scaling of the first estimate: sᵀy / yᵀy.
+        const factor = sy / dot(yDiff, yDiff);
+        for (let i = 0; i < k; i++) for (let j = 0; j < k; j++) inverseHessian[i * k + j] = i === j ? factor : 0;
+        scaled = true;
+      }
+      bfgsUpdate(inverseHessian, s, yDiff, sy);
+    }
     if (change <= settings.relativeFunctionTolerance * Math.abs(previous) && decrement < 1e-9) {
-      return { gamma: x, value: fx, iterations: iteration, converged: true, messages };
+      return { gamma: x, value: fx, gradient, iterations: iteration, converged: true, messages };
     }
   }
   messages.push(`no convergence in ${settings.maxIterations} iterations`);
-  return { gamma: x, value: fx, iterations: settings.maxIterations, converged: false, messages };
+  return { gamma: x, value: fx, gradient, iterations: settings.maxIterations, converged: false, messages };
 }
 
-/** Central differences in the interior, second-order one-sided differences next to the bound. */
-function gradientAt(f: (gamma: Float64Array) => number, x: Float64Array, fx: number): { gradient: Float64Array; curvature: Float64Array } {
+/**
+ * Fills the NaN entries of `gradient` by differences: central in the interior, second-order
+ * one-sided next to the bound γ = 0.
+ */
+function numericGradient(f: (gamma: Float64Array) => number, x: Float64Array, fx: number, gradient: Float64Array): Float64Array {
   const k = x.length;
-  const gradient = new Float64Array(k);
-  const curvature = new Float64Array(k);
+  const result = gradient.slice();
   const probe = x.slice();
   for (let i = 0; i < k; i++) {
+    if (!Number.isNaN(result[i])) continue;
     const h = Math.max(1e-4 * x[i], 1e-6);
     if (x[i] - h >= 0) {
       probe[i] = x[i] + h;
       const up = f(probe);
       probe[i] = x[i] - h;
       const down = f(probe);
-      gradient[i] = (up - down) / (2 * h);
-      curvature[i] = (up - 2 * fx + down) / (h * h);
+      result[i] = (up - down) / (2 * h);
     } else {
       probe[i] = x[i] + h;
       const one = f(probe);
       probe[i] = x[i] + 2 * h;
       const two = f(probe);
-      gradient[i] = (-3 * fx + 4 * one - two) / (2 * h);
-      curvature[i] = (fx - 2 * one + two) / (h * h);
+      result[i] = (-3 * fx + 4 * one - two) / (2 * h);
     }
     probe[i] = x[i];
   }
-  return { gradient, curvature };
+  return result;
 }
 
-function diagonalInverse(curvature: Float64Array, x: Float64Array): Float64Array {
-  const k = curvature.length;
+/** First inverse-Hessian guess: steps of the order of the current value (rescaled after one step). */
+function diagonalInverse(x: Float64Array): Float64Array {
+  const k = x.length;
   const matrix = new Float64Array(k * k);
-  for (let i = 0; i < k; i++) {
-    // Fall back to a step of the order of the current value when the curvature is not positive.
-    const fallback = 1 / Math.max(x[i] * x[i], 1e-2);
-    matrix[i * k + i] = curvature[i] > 0 && Number.isFinite(curvature[i]) ? 1 / curvature[i] : 1 / fallback;
-  }
+  for (let i = 0; i < k; i++) matrix[i * k + i] = Math.max(x[i] * x[i], 1e-2) / 10;
   return matrix;
 }
 
