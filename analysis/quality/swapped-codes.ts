@@ -1,0 +1,96 @@
+/**
+ * Suspected swapped sample codes (methods §5.10, common practice): an assessor's profiles of two
+ * products each lie closer to the other product's panel profile than to their own.
+ * Per assessor × replicate: x_pj = own rating, g_pj = leave-one-out panel mean (all replicates),
+ * both centred over products and divided by s_j = √MS_AP,j; D_pq = Σ_j (x̃_pj − g̃_qj)²;
+ * G_pq = (D_pp + D_qq) − (D_pq + D_qp), ρ_pq = G_pq/(D_pp + D_qq). Flag (watch, never act) when
+ * D_pq < D_pp, D_qp < D_qq and ρ_pq ≥ minRelativeGain (0.30).
+ * Requirements: ≥ minAttributes attributes with s_j > 0, ≥ 4 products, panel product p < 0.05 in
+ * ≥ 3 attributes. Products with similar profiles cannot be told apart (documented limitation).
+ */
+import { cellMeans, interactionMeanSquare, meanOf, type SessionData } from './session-data.js';
+
+export interface SwapFinding {
+  assessor: string;
+  replicate: number;
+  productA: string;
+  productB: string;
+  relativeGain: number;
+  /** Sample codes served for the two products in this replicate, when known. */
+  codes: [string | null, string | null];
+  nAttributes: number;
+}
+
+export function detectSwappedCodes(
+  data: SessionData,
+  productTestP: ReadonlyMap<string, number | null>,
+  options: { minRelativeGain: number; minAttributes: number },
+): SwapFinding[] {
+  const usable = data.attributes
+    .map((a) => ({ name: a.name, sd: Math.sqrt(interactionMeanSquare(data, a.name) ?? 0) }))
+    .filter((a) => a.sd > 0);
+  if (usable.length < options.minAttributes || data.products.length < 4) return [];
+  const discriminating = usable.filter((a) => {
+    const p = productTestP.get(a.name);
+    return p !== null && p !== undefined && p < 0.05;
+  });
+  if (discriminating.length < 3) return [];
+  const meansByAttribute = new Map(usable.map((a) => [a.name, cellMeans(data, a.name)]));
+  const findings: SwapFinding[] = [];
+  for (const assessor of data.assessors) {
+    for (let replicate = 1; replicate <= data.nReplicates; replicate++) {
+      // Products this assessor rated in this replicate on every usable attribute.
+      const products = data.products.filter((p) => usable.every((a) => data.byReplicate.get(a.name)?.get(assessor)?.get(p)?.has(replicate)));
+      if (products.length < 4) continue;
+      const x: number[][] = products.map(() => []);
+      const g: number[][] = products.map(() => []);
+      let ok = true;
+      for (const attribute of usable) {
+        const means = meansByAttribute.get(attribute.name) as Map<string, Map<string, number>>;
+        const own = products.map((p) => data.byReplicate.get(attribute.name)?.get(assessor)?.get(p)?.get(replicate) as number);
+        const panel = products.map((p) => {
+          const others = [...means.entries()].filter(([other, row]) => other !== assessor && row.has(p)).map(([, row]) => row.get(p) as number);
+          return others.length > 0 ? meanOf(others) : Number.NaN;
+        });
+        if (panel.some(Number.isNaN)) {
+          ok = false;
+          break;
+        }
+        const ownMean = meanOf(own);
+        const panelMean = meanOf(panel);
+        products.forEach((_, i) => {
+          x[i].push((own[i] - ownMean) / attribute.sd);
+          g[i].push((panel[i] - panelMean) / attribute.sd);
+        });
+      }
+      if (!ok) continue;
+      const distance = (p: number, q: number) => x[p].reduce((s, v, j) => s + (v - g[q][j]) ** 2, 0);
+      for (let p = 0; p < products.length - 1; p++) {
+        for (let q = p + 1; q < products.length; q++) {
+          const dpp = distance(p, p);
+          const dqq = distance(q, q);
+          const dpq = distance(p, q);
+          const dqp = distance(q, p);
+          const gain = dpp + dqq - (dpq + dqp);
+          const relativeGain = dpp + dqq > 0 ? gain / (dpp + dqq) : 0;
+          if (dpq < dpp && dqp < dqq && relativeGain >= options.minRelativeGain) {
+            findings.push({
+              assessor,
+              replicate,
+              productA: products[p],
+              productB: products[q],
+              relativeGain,
+              codes: [codeOf(data, assessor, products[p], replicate), codeOf(data, assessor, products[q], replicate)],
+              nAttributes: usable.length,
+            });
+          }
+        }
+      }
+    }
+  }
+  return findings;
+}
+
+function codeOf(data: SessionData, assessor: string, product: string, replicate: number): string | null {
+  return data.ratings.find((r) => r.assessor === assessor && r.product === product && r.replicate === replicate && r.code !== null)?.code ?? null;
+}
