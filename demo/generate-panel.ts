@@ -381,6 +381,9 @@ export function generatePanel(options: PanelScenarioOptions): GeneratedPanel {
   const truth: PlantedFault[] = specs.map((spec) =>
     resolveFault(spec, { frng, nWeeks, assessorIndex, productIndex, attributeNames, spreadOrder, sessions, absent, nAttributes, nReplicates }),
   );
+  // Decimal shifts whose attribute was left to the generator: moved to an attribute where the
+  // shifted value leaves the scale (a 0.8 written as 8 is not a visible decimal shift).
+  const movableCell = new Set(truth.filter((f, i) => f.kind === 'decimal-shift' && (specs[i].attributes ?? null) === null));
   // A one-session fault needs its assessor present.
   for (const fault of truth) {
     if (ONE_SESSION_KINDS.has(fault.kind) && fault.assessor !== null) {
@@ -537,7 +540,18 @@ export function generatePanel(options: PanelScenarioOptions): GeneratedPanel {
       case 'out-of-scale':
       case 'decimal-shift': {
         const row = rowsOf(fault.product!)[(fault.replicate ?? 1) - 1];
-        const j = attrIdx[0];
+        let j = attrIdx[0];
+        if (movableCell.has(fault) && !((row.values[j] ?? 0) * fault.size! > scale.max)) {
+          for (let step = 1; step < nAttributes; step++) {
+            const k = (j + step) % nAttributes;
+            if ((row.values[k] ?? 0) * fault.size! > scale.max) {
+              j = k;
+              break;
+            }
+          }
+          fault.attributes = [attributeNames[j]];
+          fault.description = describeFault(fault);
+        }
         const clean = row.values[j];
         if (clean === null) throw new Error(`A ${fault.kind} fault targets a cell another fault removed.`);
         const fileValue = fault.kind === 'out-of-scale' ? round1(-(clean + 0.5 * fault.size!)) : round1(clean * fault.size!);

@@ -332,6 +332,16 @@ describe('generatePanel', () => {
     expect(panel.rawRows.length - panel.ratings.length).toBe(2 + 10);
   });
 
+  it('a decimal shift left to the generator always leaves the scale', () => {
+    const faults: FaultSpec[] = Array.from({ length: 30 }, (_, i) => ({ kind: 'decimal-shift', assessor: `A${String((i % 12) + 1).padStart(2, '0')}`, fromSession: i }));
+    const panel = generatePanel({ ...base, faults });
+    for (const fault of panel.truth) {
+      expect(fault.cells).toHaveLength(1);
+      expect(fault.cells[0].fileValue).toBeGreaterThan(10);
+      expect(fault.attributes).toEqual([fault.cells[0].attribute]);
+    }
+  });
+
   it('can plant every flag kind', () => {
     const faults: FaultSpec[] = FLAG_KINDS.map((kind, i) => ({
       kind,

@@ -49,6 +49,8 @@ function designA(seed: number): SimulationScenario {
     { kind: 'duplicate', assessor: 'A04', fromSession: 12 },
     { kind: 'duplicate', assessor: 'A02', fromSession: 37 },
   ];
+  // One-session faults move a little with the seed, so the seeds do not repeat the same sessions.
+  for (const f of faults) if (f.fromSession !== undefined && f.kind !== 'drift' && f.kind !== 'unstable-product') f.fromSession += seed % 4;
   return {
     name: `A-seed${seed}`,
     options: { seed, nWeeks, nAssessors: 14, startDate: '2025-01-06', faults },
@@ -74,6 +76,9 @@ function designB(seed: number, nWeeks: number): SimulationScenario {
     { kind: 'decimal-shift', assessor: 'A04', fromSession: 5 },
     { kind: 'duplicate', assessor: 'A05', fromSession: nWeeks - 2 },
   ];
+  for (const f of faults) {
+    if (f.fromSession !== undefined && f.kind !== 'drift' && f.kind !== 'unstable-product') f.fromSession = Math.min(nWeeks - 1, f.fromSession + (seed % 3));
+  }
   return {
     name: `B-seed${seed}-${nWeeks}w`,
     options: { seed, nWeeks, nAssessors: 12, startDate: '2025-03-03', faults },

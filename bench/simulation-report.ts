@@ -1,0 +1,40 @@
+/**
+ * Flag detection on simulated panels (issue 4, "Done when"): runs the suite of
+ * test/simulation/scenarios.ts through the real pipeline and writes the results table into the
+ * "## Flag detection (simulation)" section of bench/README.md (replacing it, or appending it).
+ * Run: `npx tsx bench/simulation-report.ts` (several minutes on two cores).
+ */
+import { execFileSync } from 'node:child_process';
+import { existsSync, readFileSync, writeFileSync } from 'node:fs';
+import { dirname, join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { buildFlags, DEFAULT_THRESHOLDS } from '../analysis/flags/index.js';
+import { measureFlagDetection, reportMarkdown } from '../test/simulation/measure.js';
+
+const SECTION = '## Flag detection (simulation)';
+
+/** Replaces the section (from its heading to the next "## " heading) or appends it. */
+export function replaceSection(readme: string, section: string): string {
+  const start = readme.indexOf(SECTION);
+  if (start < 0) return `${readme.trimEnd()}${readme.trim() ? '\n\n' : ''}${section.trimEnd()}\n`;
+  const next = readme.indexOf('\n## ', start + SECTION.length);
+  const end = next < 0 ? readme.length : next + 1;
+  return `${readme.slice(0, start)}${section.trimEnd()}\n${next < 0 ? '' : '\n'}${readme.slice(end)}`;
+}
+
+const here = dirname(fileURLToPath(import.meta.url));
+const readmePath = join(here, 'README.md');
+let commit = 'unknown';
+try {
+  commit = execFileSync('git', ['rev-parse', '--short', 'HEAD'], { cwd: here, encoding: 'utf8' }).trim();
+} catch {
+  // not a git checkout: the table says "unknown"
+}
+const report = await measureFlagDetection(
+  (history) => buildFlags(history, DEFAULT_THRESHOLDS),
+  undefined,
+  (name) => process.stderr.write(`simulating ${name}\n`),
+);
+const readme = existsSync(readmePath) ? readFileSync(readmePath, 'utf8') : '# Benchmarks\n';
+writeFileSync(readmePath, replaceSection(readme, reportMarkdown(report, commit)));
+console.log(reportMarkdown(report, commit));

@@ -1,0 +1,156 @@
+/**
+ * Runs the flag engine on every simulated panel and measures, per flag kind, the share of planted
+ * faults found, the act-level flags on clean assessors, and the delay from the start of a drift
+ * to its first flag (the engine re-run on the history as it stood after each session).
+ */
+import type { Flag, FlagKind } from '../../domain/flags.js';
+import { FLAG_KINDS } from '../../domain/flags.js';
+import type { PanelHistory } from '../../analysis/monitor/series.js';
+import { historyUpTo, runPanel, type PanelRun } from './pipeline.js';
+import { simulationScenarios, type SimulationScenario } from './scenarios.js';
+import { addTallies, emptyTallies, flagFindsFault, median, scorePanel, type KindTally } from './scoring.js';
+
+export type FlagEngine = (history: PanelHistory) => Flag[];
+
+export interface DriftDelay {
+  panel: string;
+  assessor: string;
+  ratePerSession: number;
+  /** Sessions from the first drifting session (= 1) to the first drift flag; null = never flagged. */
+  sessionsToFirstFlag: number | null;
+}
+
+export interface SimulationReport {
+  panels: { name: string; nWeeks: number; nAssessors: number; nClean: number; nFlags: number; nUnfitted: number }[];
+  byKind: KindTally[];
+  cleanActFlags: { panel: string; flag: Flag }[];
+  cleanWatchFlagCount: number;
+  cleanAssessorYears: number;
+  /** Act-level flags on clean assessors per 10 clean assessor-years. */
+  cleanActPer10AssessorYears: number;
+  stableProductActFlags: { panel: string; flag: Flag }[];
+  driftDelays: DriftDelay[];
+  medianDriftDelaySessions: number | null;
+  elapsedMs: number;
+}
+
+export async function measureFlagDetection(
+  buildFlags: FlagEngine,
+  scenarios: SimulationScenario[] = simulationScenarios(),
+  onPanel?: (name: string) => void,
+): Promise<SimulationReport> {
+  const started = performance.now();
+  const total = emptyTallies();
+  const report: Omit<SimulationReport, 'byKind' | 'cleanActPer10AssessorYears' | 'medianDriftDelaySessions' | 'elapsedMs'> = {
+    panels: [],
+    cleanActFlags: [],
+    cleanWatchFlagCount: 0,
+    cleanAssessorYears: 0,
+    stableProductActFlags: [],
+    driftDelays: [],
+  };
+  for (const scenario of scenarios) {
+    onPanel?.(scenario.name);
+    const run = await runPanel(scenario);
+    const flags = buildFlags(historyUpTo(run));
+    const score = scorePanel(flags, run.panel.truth, scenario.cleanAssessors, run.panel.sessions.length, scenario.name);
+    addTallies(total, score.byKind);
+    report.panels.push({
+      name: scenario.name,
+      nWeeks: run.panel.sessions.length,
+      nAssessors: run.panel.assessors.length,
+      nClean: scenario.cleanAssessors.length,
+      nFlags: flags.length,
+      nUnfitted: run.unfitted.length,
+    });
+    report.cleanActFlags.push(...score.cleanActFlags.map((flag) => ({ panel: scenario.name, flag })));
+    report.cleanWatchFlagCount += score.cleanWatchFlags.length;
+    report.cleanAssessorYears += score.cleanAssessorYears;
+    report.stableProductActFlags.push(...score.stableProductActFlags.map((flag) => ({ panel: scenario.name, flag })));
+    report.driftDelays.push(...driftDelays(run, buildFlags));
+  }
+  const found = report.driftDelays.map((d) => d.sessionsToFirstFlag).filter((d): d is number => d !== null);
+  return {
+    ...report,
+    byKind: FLAG_KINDS.map((kind: FlagKind) => total.get(kind)!),
+    cleanActPer10AssessorYears: report.cleanAssessorYears > 0 ? (10 * report.cleanActFlags.length) / report.cleanAssessorYears : 0,
+    medianDriftDelaySessions: found.length === report.driftDelays.length ? median(found) : null,
+    elapsedMs: performance.now() - started,
+  };
+}
+
+/** For each planted drift: the first history length at which the engine flags drift for that assessor. */
+function driftDelays(run: PanelRun, buildFlags: FlagEngine): DriftDelay[] {
+  const out: DriftDelay[] = [];
+  for (const fault of run.panel.truth.filter((f) => f.kind === 'drift')) {
+    let delay: number | null = null;
+    for (let n = fault.fromSession + 1; n <= run.panel.sessions.length; n++) {
+      if (buildFlags(historyUpTo(run, n)).some((flag) => flagFindsFault(flag, fault))) {
+        delay = n - fault.fromSession;
+        break;
+      }
+    }
+    out.push({ panel: run.scenario.name, assessor: fault.assessor!, ratePerSession: fault.size!, sessionsToFirstFlag: delay });
+  }
+  return out;
+}
+
+const pct = (x: number) => `${(100 * x).toFixed(0)} %`;
+
+/** The results as a markdown section (for bench/README.md). */
+export function reportMarkdown(report: SimulationReport, commit: string): string {
+  const lines: string[] = [];
+  lines.push('## Flag detection (simulation)');
+  lines.push('');
+  lines.push(
+    'Written by `npx tsx bench/simulation-report.ts` (issue 4, "Done when"). Simulated panels from the demo generator ' +
+      '(`demo/generate-panel.ts`, invented oat-yoghurt range, 0–10 scale, 10 attributes, 5 products per session with the ' +
+      'reference in every session, 2 replicates) with every flag kind planted, run through the real pipeline ' +
+      '(`fitSessionModel` → `computeAssessorIndices` → import of one CSV per session with quarantine → `buildFlags` with ' +
+      '`DEFAULT_THRESHOLDS`). Scenarios and fault sizes: `test/simulation/scenarios.ts`; the same numbers are asserted by ' +
+      '`test/simulation/flag-detection.test.ts`.',
+  );
+  lines.push('');
+  lines.push(`Commit ${commit}; ${report.panels.length} panels, ${(report.elapsedMs / 1000).toFixed(0)} s.`);
+  lines.push('');
+  lines.push('| panel | weeks | assessors | clean | flags |');
+  lines.push('| --- | --- | --- | --- | --- |');
+  for (const p of report.panels) lines.push(`| ${p.name} | ${p.nWeeks} | ${p.nAssessors} | ${p.nClean} | ${p.nFlags} |`);
+  lines.push('');
+  lines.push('Planted faults found (goal ≥ 95 % at watch or act):');
+  lines.push('');
+  lines.push('| kind | planted | found (watch or act) | share | found at act |');
+  lines.push('| --- | --- | --- | --- | --- |');
+  for (const t of report.byKind) {
+    lines.push(`| ${t.kind} | ${t.planted} | ${t.found} | ${t.planted ? pct(t.found / t.planted) : '—'} | ${t.foundAct} |`);
+  }
+  lines.push('');
+  lines.push(
+    `Act-level flags on clean assessors: ${report.cleanActFlags.length} in ${report.cleanAssessorYears.toFixed(1)} clean assessor-years = ` +
+      `**${report.cleanActPer10AssessorYears.toFixed(2)} per 10 clean assessor-years** (goal ≤ 1). Watch-level flags on clean assessors: ${report.cleanWatchFlagCount}. ` +
+      `Act-level unstable-product flags on products with no planted step: ${report.stableProductActFlags.length}.`,
+  );
+  lines.push('');
+  lines.push('Drift (linear, from mid-period): sessions from the first drifting session (= 1) to the first drift flag, the engine re-run after every session:');
+  lines.push('');
+  lines.push('| panel | assessor | drift per session | sessions to first flag |');
+  lines.push('| --- | --- | --- | --- |');
+  for (const d of report.driftDelays) lines.push(`| ${d.panel} | ${d.assessor} | ${d.ratePerSession} | ${d.sessionsToFirstFlag ?? 'not flagged'} |`);
+  lines.push('');
+  lines.push(`Median sessions from drift start to first flag: **${report.medianDriftDelaySessions ?? 'n/a (a drift was never flagged)'}**.`);
+  const missed = report.byKind.flatMap((t) => t.missed);
+  if (missed.length > 0) {
+    lines.push('');
+    lines.push('Missed planted faults:');
+    lines.push('');
+    for (const m of missed) lines.push(`- ${m}`);
+  }
+  if (report.cleanActFlags.length > 0) {
+    lines.push('');
+    lines.push('Act-level flags on clean assessors:');
+    lines.push('');
+    for (const { panel, flag } of report.cleanActFlags) lines.push(`- ${panel}: ${flag.kind} ${flag.assessor} ${flag.attribute ?? '(all attributes)'} from ${flag.firstSession}: ${flag.message}`);
+  }
+  lines.push('');
+  return lines.join('\n');
+}
