@@ -57,8 +57,8 @@ export function truncateText(text: string, max = 80): string {
  * Long form when an attribute or value column is present (both are then required);
  * wide form otherwise, with one attribute per unknown header.
  */
-export function resolveColumnLayout(rawHeaders: readonly string[], headerRow = 1): { layout: ColumnLayout | null; problems: HeaderProblem[] } {
-  const headers = rawHeaders.map((h) => restoreFormulaText(h.trim()).trim());
+export function resolveColumnLayout(rawHeaders: readonly string[], headerRow = 1, restoreFormulas = true): { layout: ColumnLayout | null; problems: HeaderProblem[] } {
+  const headers = rawHeaders.map((h) => (restoreFormulas ? restoreFormulaText(h.trim()).trim() : h.trim()));
   const problems: HeaderProblem[] = [];
   const index: Partial<Record<ColumnRole, number>> = {};
   const others: number[] = [];

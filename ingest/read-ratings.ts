@@ -50,6 +50,8 @@ export interface ReadRatingsOptions {
   maxColumns?: number;
   /** Cells longer than this (characters) → 'cell-too-long'. Default 10,000. */
   maxCellChars?: number;
+  /** .xlsx: give up on a damaged workbook when reading makes no progress for this long. Default 5000 ms. */
+  stallTimeoutMs?: number;
 }
 
 /** A cell as read (trimmed text, apostrophe formula prefix removed), for the quarantine. */
@@ -76,6 +78,7 @@ export type ReadEvent =
 
 const DEFAULT_MAX_COLUMNS = 2000;
 const DEFAULT_MAX_CELL_CHARS = 10_000;
+const DEFAULT_STALL_TIMEOUT_MS = 5000;
 /** Read size for files and for slicing in-memory bytes. */
 const CHUNK_BYTES = 1 << 16;
 /** Message of the catch-all; property tests assert it never appears. */
@@ -107,11 +110,14 @@ function isBlankRecord(cells: readonly string[]): boolean {
   return true;
 }
 
-/** Identifier text: trimmed, with the export's apostrophe formula prefix removed. */
-function identifier(text: string | undefined): string {
+/**
+ * Cell text trimmed; for CSV also with the export's apostrophe formula prefix removed
+ * (.xlsx cells are typed, so export never prefixes them and an apostrophe there is data).
+ */
+function cellText(text: string | undefined, restoreFormulas: boolean): string {
   if (text === undefined) return '';
   const trimmed = text.trim();
-  if (trimmed.charCodeAt(0) !== 39) return trimmed;
+  if (!restoreFormulas || trimmed.charCodeAt(0) !== 39) return trimmed;
   return restoreFormulaText(trimmed).trim();
 }
 
@@ -128,7 +134,8 @@ class RowReader {
   readonly file: string;
   private readonly layout: ColumnLayout;
   private readonly decimalMark: DecimalMark;
-  private readonly strictFieldCount: boolean;
+  /** CSV: field counts must match the header, and apostrophe formula prefixes are removed. */
+  private readonly csv: boolean;
   private readonly maxCellChars: number;
   private readonly scaleFor: ReadRatingsOptions['scaleFor'];
   private readonly scales = new Map<string, ScaleRange | null | 'unchecked'>();
@@ -139,11 +146,11 @@ class RowReader {
   nMissing = 0;
   nDataRows = 0;
 
-  constructor(file: string, layout: ColumnLayout, decimalMark: DecimalMark, strictFieldCount: boolean, options: ReadRatingsOptions) {
+  constructor(file: string, layout: ColumnLayout, decimalMark: DecimalMark, csv: boolean, options: ReadRatingsOptions) {
     this.file = file;
     this.layout = layout;
     this.decimalMark = decimalMark;
-    this.strictFieldCount = strictFieldCount;
+    this.csv = csv;
     this.maxCellChars = options.maxCellChars ?? DEFAULT_MAX_CELL_CHARS;
     this.scaleFor = options.scaleFor;
     this.nColumns = layout.headers.length;
@@ -151,6 +158,10 @@ class RowReader {
       layout.form === 'long'
         ? [{ index: layout.index.value!, attribute: null }]
         : layout.attributeColumns.map((c) => ({ index: c.index, attribute: c.attribute }));
+  }
+
+  private text(cell: string | undefined): string {
+    return cellText(cell, this.csv);
   }
 
   problem(code: ProblemCode, row: number | null, column: string | null, message: string, value?: string | null): InputProblem {
@@ -197,7 +208,7 @@ class RowReader {
     if (cells.length !== this.nColumns) {
       let extraFilled = false;
       for (let i = this.nColumns; i < cells.length; i++) if (cells[i].trim() !== '') extraFilled = true;
-      if (extraFilled || (this.strictFieldCount && cells.length < this.nColumns)) {
+      if (extraFilled || (this.csv && cells.length < this.nColumns)) {
         out.push({
           type: 'problem',
           cell: null,
@@ -232,7 +243,7 @@ class RowReader {
     }
     const ix = layout.index;
     const required = (role: 'session' | 'assessor' | 'product' | 'attribute'): string => {
-      const value = identifier(cells[ix[role]!]);
+      const value = this.text(cells[ix[role]!]);
       if (value === '') keyProblem(this.problem('missing-value', row, headers[ix[role]!], `The ${role} is missing; every row needs one.`, ''));
       return value;
     };
@@ -240,7 +251,7 @@ class RowReader {
     const assessor = required('assessor');
     const product = required('product');
 
-    const dateText = identifier(cells[ix.date!]);
+    const dateText = this.text(cells[ix.date!]);
     let date = '';
     if (dateText === '') {
       keyProblem(this.problem('missing-value', row, headers[ix.date!], 'The session date is missing; write it as YYYY-MM-DD.', ''));
@@ -254,7 +265,7 @@ class RowReader {
       else keyProblem(this.problem(parsed.code, row, headers[ix.date!], parsed.message, dateText));
     }
 
-    const replicateText = identifier(cells[ix.replicate!]);
+    const replicateText = this.text(cells[ix.replicate!]);
     let replicate = 0;
     if (replicateText === '') {
       keyProblem(this.problem('missing-value', row, headers[ix.replicate!], 'The replicate is missing; replicates are numbered 1, 2, 3, …', ''));
@@ -264,7 +275,7 @@ class RowReader {
       else keyProblem(this.problem(parsed.code, row, headers[ix.replicate!], parsed.message, replicateText));
     }
 
-    const codeText = ix.code === undefined ? '' : identifier(cells[ix.code]);
+    const codeText = ix.code === undefined ? '' : this.text(cells[ix.code]);
     const code = codeText === '' ? null : codeText;
     const longAttribute = layout.form === 'long' ? required('attribute') : null;
 
@@ -276,9 +287,7 @@ class RowReader {
     for (const column of this.valueColumns) {
       const header = headers[column.index];
       const attribute = column.attribute ?? longAttribute!;
-      const rawText = cells[column.index] ?? '';
-      let text = rawText.trim();
-      if (text.charCodeAt(0) === 39) text = restoreFormulaText(text).trim();
+      const text = this.text(cells[column.index]);
       if (text === '') {
         const cell = this.rawCell(session, dateText, assessor, product, replicateText, attribute, null, code);
         if (layout.form === 'wide') {
@@ -365,7 +374,7 @@ class RowReader {
     for (const column of this.valueColumns) {
       const raw = cells[column.index];
       if (raw === undefined || raw.trim() === '') continue;
-      const text = raw.length > this.maxCellChars ? raw.slice(0, 80) : identifier(raw);
+      const text = raw.length > this.maxCellChars ? raw.slice(0, 80) : this.text(raw);
       const attribute = column.attribute ?? keys.longAttribute;
       rejected.push(this.rawCell(keys.session, keys.dateText, keys.assessor, keys.product, keys.replicateText, attribute, text, keys.code));
     }
@@ -421,7 +430,7 @@ export async function* readRatings(source: InputSource, options: ReadRatingsOpti
   let decimalMark: DecimalMark = '.';
   const records: AsyncGenerator<SourceRecord> =
     kind === 'xlsx'
-      ? readXlsxRecords(byteStream(source), { sheet: options.sheet })
+      ? readXlsxRecords(byteStream(source), { sheet: options.sheet, stallTimeoutMs: options.stallTimeoutMs ?? DEFAULT_STALL_TIMEOUT_MS })
       : readCsvRecords('bytes' in source ? sliceBytes(source.bytes) : byteStream(source), {
           // A row may hold every column at full cell length; beyond that it is a broken quote.
           maxRecordChars: maxCellChars * Math.min(maxColumns + 1, 2001) + maxColumns,
@@ -445,7 +454,7 @@ export async function* readRatings(source: InputSource, options: ReadRatingsOpti
           yield fileProblem('cell-too-long', `Header cell ${longCell + 1} holds ${record.cells[longCell].length} characters; the most a cell may hold is ${maxCellChars}.`, record.row);
           return;
         }
-        const { layout, problems } = resolveColumnLayout(record.cells, record.row);
+        const { layout, problems } = resolveColumnLayout(record.cells, record.row, kind === 'csv');
         if (layout === null) {
           for (const p of problems) yield { type: 'problem', cell: null, problem: { ...p, file } };
           return;

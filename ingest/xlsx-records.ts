@@ -1,11 +1,37 @@
 import ExcelJS from 'exceljs';
-import type { Readable } from 'node:stream';
+import { Transform, type Readable } from 'node:stream';
 import type { SourceRecord } from './csv-records.js';
 import { SourceFailure } from './source-failure.js';
 
 export interface XlsxRecordOptions {
   /** Sheet to read, by name (compared trimmed, case-insensitively); the first sheet when absent. */
   sheet?: string;
+  /** Give up when the workbook reader makes no progress (no bytes read, no row) for this long. */
+  stallTimeoutMs: number;
+}
+
+const UNREADABLE_WORKBOOK =
+  'The .xlsx file could not be read (the workbook is damaged or not an Excel workbook). Save it again from the spreadsheet program, or export it as CSV.';
+
+/**
+ * Pull the next item, failing when nothing moves for `stallTimeoutMs`. Some damaged zip
+ * entries leave exceljs's unzip stage waiting forever; progress is any byte read or row made.
+ */
+async function nextOrStall<T>(iterator: AsyncIterator<T>, progress: { at: number }, stallTimeoutMs: number): Promise<IteratorResult<T>> {
+  let timer: NodeJS.Timeout | undefined;
+  const stalled = new Promise<never>((_, reject) => {
+    const check = (): void => {
+      const idleMs = Date.now() - progress.at;
+      if (idleMs >= stallTimeoutMs) reject(new SourceFailure('file-unreadable', UNREADABLE_WORKBOOK));
+      else timer = setTimeout(check, stallTimeoutMs - idleMs);
+    };
+    timer = setTimeout(check, stallTimeoutMs);
+  });
+  try {
+    return await Promise.race([iterator.next(), stalled]);
+  } finally {
+    clearTimeout(timer);
+  }
 }
 
 function pad2(n: number): string {
@@ -45,7 +71,17 @@ export function xlsxCellText(value: unknown): string {
  * the named sheet is absent and 'file-unreadable' for a damaged workbook.
  */
 export async function* readXlsxRecords(input: Readable, options: XlsxRecordOptions): AsyncGenerator<SourceRecord> {
-  const reader = new ExcelJS.stream.xlsx.WorkbookReader(input, {
+  const progress = { at: Date.now() };
+  const counted = input.pipe(
+    new Transform({
+      transform(chunk, _encoding, done) {
+        progress.at = Date.now();
+        done(null, chunk);
+      },
+    }),
+  );
+  input.on('error', (error) => counted.destroy(error));
+  const reader = new ExcelJS.stream.xlsx.WorkbookReader(counted, {
     worksheets: 'emit',
     sharedStrings: 'cache',
     hyperlinks: 'ignore',
@@ -56,29 +92,39 @@ export async function* readXlsxRecords(input: Readable, options: XlsxRecordOptio
   const wanted = options.sheet?.trim().toLowerCase();
   const seen: string[] = [];
   let found = false;
+  const sheets = reader[Symbol.asyncIterator]();
   try {
-    for await (const worksheet of reader) {
+    for (;;) {
+      const nextSheet = await nextOrStall(sheets, progress, options.stallTimeoutMs);
+      if (nextSheet.done) break;
+      const worksheet = nextSheet.value;
+      progress.at = Date.now();
       const name = String((worksheet as unknown as { name?: string }).name ?? '');
       seen.push(name);
+      const rows = worksheet[Symbol.asyncIterator]();
       if (wanted !== undefined && name.trim().toLowerCase() !== wanted) {
         // Drain sheets that are not read so the zip stream moves on.
-        for await (const _row of worksheet) void _row;
+        while (!(await nextOrStall(rows, progress, options.stallTimeoutMs)).done) progress.at = Date.now();
         continue;
       }
       found = true;
-      for await (const row of worksheet) {
-        const values = row.values as unknown[];
+      for (;;) {
+        const next = await nextOrStall(rows, progress, options.stallTimeoutMs);
+        if (next.done) break;
+        const values = next.value.values as unknown[];
         const cells: string[] = new Array(Math.max(0, values.length - 1));
         for (let i = 1; i < values.length; i++) cells[i - 1] = xlsxCellText(values[i]);
-        yield { row: row.number, cells };
+        yield { row: next.value.number, cells };
+        progress.at = Date.now();
       }
       break;
     }
   } catch (error) {
     if (error instanceof SourceFailure) throw error;
-    throw new SourceFailure('file-unreadable', 'The .xlsx file could not be read (the workbook is damaged or not an Excel workbook). Save it again from the spreadsheet program, or export it as CSV.');
+    throw new SourceFailure('file-unreadable', UNREADABLE_WORKBOOK);
   } finally {
     input.destroy();
+    counted.destroy();
   }
   if (!found) {
     const names = seen.map((s) => `"${s}"`).join(', ');
