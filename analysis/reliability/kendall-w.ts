@@ -34,8 +34,10 @@ export interface KendallWResult {
 export interface KendallWOptions {
   /** Number of random permutations (0 = none, the default). */
   permutations?: number;
-  /** Seed of the permutation generator; required when permutations > 0. */
+  /** Seed of the built-in permutation generator; this or `random` is required when permutations > 0. */
   seed?: number;
+  /** A seeded uniform [0, 1) generator of the caller's own, used instead of `seed`. */
+  random?: () => number;
 }
 
 /** Ratings are recorded to a few decimals; differences below this share of the scale are rounding. */
@@ -44,7 +46,7 @@ const TIE_RELATIVE_TOLERANCE = 1e-9;
 /** `scores[judge][object]`: each judge's values (or ranks) for the same objects in the same order. */
 export function kendallW(scores: readonly (readonly number[])[], options: KendallWOptions = {}): KendallWResult {
   const permutations = options.permutations ?? 0;
-  if (permutations > 0 && options.seed === undefined) throw new Error('kendallW: a seed is needed for permutation p-values');
+  if (permutations > 0 && options.seed === undefined && options.random === undefined) throw new Error('kendallW: a seed is needed for permutation p-values');
   const nObjects = scores.length > 0 ? scores[0].length : 0;
   if (scores.some((row) => row.length !== nObjects)) throw new Error('kendallW: every judge must score the same objects');
   const excludedJudges: number[] = [];
@@ -73,7 +75,7 @@ export function kendallW(scores: readonly (readonly number[])[], options: Kendal
   const chiSquare = m * (n - 1) * W;
   let permutationPValue: number | null = null;
   if (permutations > 0) {
-    const random = seededRandom(options.seed as number);
+    const random = options.random ?? seededRandom(options.seed as number);
     const shuffled = rankRows.map((row) => row.slice());
     // S values are sums of squares of half-integers: compare with a relative guard against rounding.
     const threshold = observedS * (1 - 1e-12);

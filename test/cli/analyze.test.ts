@@ -198,6 +198,27 @@ describe('analyze: files with problems and odd data', () => {
   });
 });
 
+describe('analyze the sample files', () => {
+  const sampleDir = join(import.meta.dirname, '..', '..', 'sample-data');
+  it('reads the long CSV and the wide XLSX sample sessions', async () => {
+    for (const name of ['session-S01-long.csv', 'session-S02-wide.xlsx']) {
+      const out = await analyze(join(sampleDir, name));
+      expect(out.exitCode, `${name}: ${out.stderr}`).toBe(0);
+      const parsed = JSON.parse(out.stdout) as AnalyzeJson;
+      expect(parsed.fits.length).toBeGreaterThan(1);
+      expect(new Set(parsed.fits.map((fit) => fit.session)).size).toBe(1);
+      expect(parsed.assessorIndices.length).toBe(parsed.fits.length * parsed.fits[0].assessors);
+    }
+  });
+
+  it('a worksheet that does not exist is a problem, exit 1', async () => {
+    const out = await analyze(join(sampleDir, 'session-S02-wide.xlsx'), { sheet: 'no such sheet' });
+    expect(out.exitCode).toBe(1);
+    expect(out.stderr).toMatch(/^session-S02-wide\.xlsx.*: /m);
+    expect(out.stdout).toBe('');
+  });
+});
+
 describe('analyze through the real command line', () => {
   it('is registered in panel-steward and prints the same JSON', async () => {
     const rows = allObservations.filter((row) => row.session === 'S01');

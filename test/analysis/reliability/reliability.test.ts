@@ -6,6 +6,7 @@ import { describe, expect, it } from 'vitest';
 import { cronbachAlpha } from '../../../analysis/reliability/cronbach-alpha.js';
 import { assessorsNeeded, generalizabilityCoefficients, productVarianceFromMeanSquares } from '../../../analysis/reliability/generalizability.js';
 import { kendallW } from '../../../analysis/reliability/kendall-w.js';
+import { seededRandom } from '../../../analysis/reliability/seeded-random.js';
 import { shroutFleissIcc, type IccForm } from '../../../analysis/reliability/shrout-fleiss-icc.js';
 import { twoWayMeanSquares } from '../../../analysis/reliability/two-way-mean-squares.js';
 import { balancedAnova } from '../../../analysis/indices/balanced-anova.js';
@@ -144,6 +145,9 @@ describe("Kendall's W", () => {
     // Same seed, same answer.
     expect(kendallW(examples.kendallSmall.scores, { permutations, seed: 12345 }).permutationPValue).toBe(result.permutationPValue);
     expect(() => kendallW(examples.kendallSmall.scores, { permutations: 10 })).toThrow(/seed/);
+    // A caller's own seeded generator gives the same draws as the built-in one with that seed.
+    const own = kendallW(examples.kendallSmall.scores, { permutations: 200, random: seededRandom(99) });
+    expect(own.permutationPValue).toBe(kendallW(examples.kendallSmall.scores, { permutations: 200, seed: 99 }).permutationPValue);
   });
 
   it('perfect agreement gives W = 1; a straight-lining judge is excluded and reported', () => {
