@@ -72,7 +72,11 @@ export interface ImportEventsRequest {
   quarantine: boolean;
   settings?: PanelConfigFile;
   now?: () => Date;
+  /** Told when the file has been read and the write transaction begins, and when it has committed. */
+  onPhase?: (phase: ImportPhase) => void;
 }
+
+export type ImportPhase = 'writing' | 'committed';
 
 /** Events are staged in batches of this many; the only per-file JS memory besides name maps. */
 const STAGE_BATCH = 4096;
@@ -459,7 +463,8 @@ export async function importRatingEvents(db: Database, request: ImportEventsRequ
 
     const nowIso = (request.now ?? (() => new Date()))().toISOString();
     try {
-      return db
+      request.onPhase?.('writing');
+      const committed = db
         .transaction((): ImportReport => {
           const written = writeImport(db, {
             request: resolved, nowIso, stage, held, sessions, attributes, assessors, products, sessionInfo, scaleOf, counts, addProblem,
@@ -485,6 +490,8 @@ export async function importRatingEvents(db: Database, request: ImportEventsRequ
           return report;
         })
         .immediate();
+      request.onPhase?.('committed');
+      return committed;
     } catch (error) {
       if (error instanceof RejectImport) return reject();
       throw error;

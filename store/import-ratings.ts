@@ -8,10 +8,10 @@ import { createReadStream } from 'node:fs';
 import type { Database } from 'better-sqlite3';
 import type { ImportSource, ScaleRange } from '../domain/ratings.js';
 import { readRatings, type InputSource } from '../ingest/read-ratings.js';
-import { findEarlierImport, importRatingEvents, scaleForNewAttribute, storedScales, unchangedReport, type ImportReport } from './import-core.js';
+import { findEarlierImport, importRatingEvents, scaleForNewAttribute, storedScales, unchangedReport, type ImportPhase, type ImportReport } from './import-core.js';
 import type { PanelConfigFile } from './panel-config.js';
 
-export type { ImportCounts, ImportOutcome, ImportReport } from './import-core.js';
+export type { ImportCounts, ImportOutcome, ImportPhase, ImportReport } from './import-core.js';
 export type { InputSource } from '../ingest/read-ratings.js';
 
 export interface ImportRequest {
@@ -30,6 +30,8 @@ export interface ImportRequest {
   /** Panel settings file: scales, anchors, product roles. */
   settings?: PanelConfigFile;
   now?: () => Date;
+  /** Progress: the file has been read and validated ('writing'), the import is stored ('committed'). */
+  onPhase?: (phase: ImportPhase) => void;
 }
 
 /** An input source for a file on disk. */
@@ -63,6 +65,7 @@ export async function importRatings(db: Database, request: ImportRequest): Promi
     quarantine: request.quarantine,
     settings: request.settings,
     now: request.now,
+    onPhase: request.onPhase,
   };
   const earlier = findEarlierImport(db, request.panel, sha256);
   if (earlier) return unchangedReport(db, eventsRequest, earlier);
