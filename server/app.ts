@@ -21,6 +21,7 @@ import { createViewRenderer, type NavSection } from './plugins/views.js';
 import { apiRoutes } from './routes/api.js';
 import { importPageRoutes } from './routes/import-pages.js';
 import { loginRoutes } from './routes/login.js';
+import { monitorRoutes } from './routes/monitor.js';
 import { panelPageRoutes } from './routes/panel-pages.js';
 import { serviceRoutes } from './routes/service.js';
 import { uploadPageRoutes } from './routes/upload-page.js';
@@ -110,6 +111,7 @@ export async function buildApp(options: { db: Database; config?: Partial<AppConf
   await app.register(importPageRoutes);
   await app.register(uploadPageRoutes);
   await app.register(apiRoutes);
+  await app.register(monitorRoutes);
   // ---- end of route modules ----
 
   await app.ready();

@@ -316,6 +316,11 @@ export class RefitService {
     return getRefitJob(this.db, jobId)!;
   }
 
+  /** 'worker-threads' when fits run in the piscina pool. */
+  get runnerMode(): FitRunner['mode'] {
+    return this.runner.mode;
+  }
+
   job(jobId: number): RefitJob | null {
     return getRefitJob(this.db, jobId);
   }

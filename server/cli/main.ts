@@ -11,6 +11,8 @@ import { registerServeCommand } from './serve-command.js';
 import { registerImportCommand } from './import-command.js';
 import { registerExportCommand } from './export-command.js';
 import { registerBackupCommands } from './backup-command.js';
+import { registerRefitCommand } from './refit-command.js';
+import { registerFlagsCommand } from './flags-command.js';
 
 const program = new Command();
 program
@@ -25,6 +27,8 @@ registerServeCommand(program);
 registerImportCommand(program);
 registerExportCommand(program);
 registerBackupCommands(program);
+registerRefitCommand(program);
+registerFlagsCommand(program);
 
 try {
   await program.parseAsync(process.argv);

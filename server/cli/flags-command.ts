@@ -1,0 +1,63 @@
+/**
+ * `panel-steward flags --panel NAME [--db PATH] [--since SESSION] --format json`: the panel's
+ * current flags. When the stored flags are older than the data (an import since the last refit),
+ * what changed is refitted first, with a note on stderr, so the answer always matches the data.
+ */
+import type { Command } from 'commander';
+import type { Flag } from '../../domain/flags.js';
+import { openStore } from '../../store/open-store.js';
+import { findPanel, listSessionVersions } from '../../store/fits-sessions.js';
+import { listCurrentFlagObjects, loadFlagBuild } from '../../store/monitor-flags.js';
+import { createFitPool } from '../fit-pool.js';
+import { panelDataSignature, refitPanel } from '../refit.js';
+import { CliError, resolveDbPath } from './cli-error.js';
+
+/** One line per flag for people: severity, kind, who/what, where it starts, the sentence. */
+export function formatFlagsText(flags: Flag[]): string {
+  if (flags.length === 0) return 'No flags. (No flag is not proof of good performance: it means no test crossed its threshold.)\n';
+  const lines = flags.map((f) => {
+    const where = [f.assessor, f.attribute, f.product].filter((x) => x !== null).join(' / ') || 'panel';
+    return `${f.severity.padEnd(5)} ${f.kind.padEnd(18)} ${where.padEnd(28)} from ${f.firstSession}: ${f.message}`;
+  });
+  return `${lines.join('\n')}\n${flags.length} flags: evidence for review, not verdicts.\n`;
+}
+
+export function registerFlagsCommand(program: Command): void {
+  program
+    .command('flags')
+    .description("Print a panel's current flags (evidence for review, not verdicts).")
+    .requiredOption('--panel <name>', 'panel name')
+    .option('--db <path>', 'store file (default: PANEL_STEWARD_DB or data/panel-steward.db)')
+    .option('--since <session>', 'only flags whose evidence starts at or after this session')
+    .option('--format <format>', 'json or text', 'text')
+    .action(async (options: { panel: string; db?: string; since?: string; format: string }) => {
+      if (options.format !== 'json' && options.format !== 'text') {
+        throw new CliError(`panel-steward flags: --format must be json or text, not "${options.format}".`, 2);
+      }
+      const db = openStore(resolveDbPath(options.db));
+      try {
+        const panel = findPanel(db, options.panel);
+        if (!panel) throw new CliError(`panel-steward flags: No panel named "${options.panel}" in this store.`, 2);
+        const signature = panelDataSignature(listSessionVersions(db, panel.id));
+        if (loadFlagBuild(db, panel.id)?.dataSignature !== signature) {
+          process.stderr.write('Flags are older than the data: recomputing what changed first.\n');
+          const runner = createFitPool();
+          try {
+            await refitPanel(db, options.panel, { runner });
+          } finally {
+            await runner.close();
+          }
+        }
+        let flags: Flag[];
+        try {
+          flags = listCurrentFlagObjects(db, options.panel, options.since) ?? [];
+        } catch (error) {
+          if (error instanceof RangeError) throw new CliError(`panel-steward flags: ${error.message}`, 2);
+          throw error;
+        }
+        process.stdout.write(options.format === 'json' ? `${JSON.stringify(flags, null, 2)}\n` : formatFlagsText(flags));
+      } finally {
+        db.close();
+      }
+    });
+}

@@ -1,0 +1,138 @@
+/**
+ * Assembles what the monitor pages need from the store and the analysis functions: the panel
+ * history, the thresholds, chart designs sized like the flag engine's act level, monitored
+ * series, the refit status. Route handlers call these, then a report/ view builder.
+ */
+import type { Database } from 'better-sqlite3';
+import { sizedLimits } from '../../analysis/flags/drift-flags.js';
+import { validateThresholds, type PanelThresholds } from '../../analysis/flags/index.js';
+import { monitorSeries, type ChartDesigns, type SegmentOptions } from '../../analysis/monitor/chart.js';
+import {
+  buildAssessorSeries,
+  indexLookup,
+  restartSessionsFor,
+  seriesValue,
+  summarySeries,
+  type IndexSeriesKind,
+  type PanelHistory,
+} from '../../analysis/monitor/series.js';
+import type { MonitoredSeriesInput } from '../../report/monitor-overview-view.js';
+import type { RefitStatusView } from '../../report/monitor-common.js';
+import { findPanel, listSessionVersions, type PanelRow } from '../../store/fits-sessions.js';
+import { loadFlagBuild } from '../../store/monitor-flags.js';
+import { latestRefitJob } from '../../store/monitor-jobs.js';
+import { loadPanelThresholds } from '../../store/monitor-settings.js';
+import { AppError } from '../errors.js';
+import { buildPanelHistory, panelDataSignature } from '../refit.js';
+
+export function requireMonitorPanel(db: Database, panelName: string): PanelRow {
+  const panel = findPanel(db, panelName);
+  if (!panel) throw new AppError('PANEL_NOT_FOUND', { panel: panelName.slice(0, 200) });
+  return panel;
+}
+
+/** The panel's thresholds with defaults filled in (stored ones were validated when saved). */
+export function panelThresholds(db: Database, panelId: number): PanelThresholds {
+  return validateThresholds(loadPanelThresholds(db, panelId)?.thresholds ?? {}).thresholds;
+}
+
+/**
+ * Chart designs for a set of nCharts charts, sized as the flag engine sizes its act level
+ * (ARL0 = K × sessions per year / tolerated false alarms per year, methods §3.4), so what the
+ * chart shows beyond its limits is what can raise an act flag.
+ */
+export function chartDesigns(thresholds: PanelThresholds, nCharts: number): { designs: ChartDesigns; baseline: SegmentOptions['baseline'] } {
+  const c = thresholds.charts;
+  const act = sizedLimits(Math.max(1, nCharts), c.sessionsPerYear, c.actFalseAlarmsPerYear, c.ewmaLambda, c.cusumK);
+  return {
+    designs: {
+      ewma: { lambda: c.ewmaLambda, L: Number(act.ewmaL.toFixed(3)) },
+      cusum: { k: c.cusumK, h: Number(act.cusumH.toFixed(3)) },
+      rules: c.westernElectricWatch ? [1, 2, 3, 4] : [1],
+    },
+    baseline: { fullValues: c.baselineSessions, minimumValues: c.minBaselineSessions },
+  };
+}
+
+export function refitStatus(db: Database, panelId: number): RefitStatusView {
+  const job = latestRefitJob(db, panelId);
+  const build = loadFlagBuild(db, panelId);
+  return {
+    status: job?.status ?? null,
+    nDone: job?.nDone ?? 0,
+    nTasks: job?.nTasks ?? 0,
+    message: job?.message ?? null,
+    flagsBuiltAt: build?.builtAt ?? null,
+    isStale: build?.dataSignature !== panelDataSignature(listSessionVersions(db, panelId)),
+  };
+}
+
+export interface MonitorContext {
+  panel: PanelRow;
+  history: PanelHistory;
+  thresholds: PanelThresholds;
+  assessors: string[];
+  attributes: string[];
+}
+
+export function loadMonitorContext(db: Database, panelName: string): MonitorContext {
+  const panel = requireMonitorPanel(db, panelName);
+  const history = buildPanelHistory(db, panel.id);
+  const assessors = [...indexLookup(history).keys()].sort();
+  return { panel, history, thresholds: panelThresholds(db, panel.id), assessors, attributes: history.attributes.map((a) => a.name) };
+}
+
+/** Level offsets of one assessor, one series per attribute (for the summary series). */
+function levelSeriesByAttribute(history: PanelHistory, assessor: string) {
+  const lookup = indexLookup(history).get(assessor);
+  return history.attributes.map((a) =>
+    history.sessions.map((s) => {
+      const row = lookup?.get(a.name)?.get(s.label);
+      return { session: s.label, date: s.date, value: row ? seriesValue('level', row) : null };
+    }),
+  );
+}
+
+/** The assessor's summary series (median z over attributes) and its monitored segments. */
+export function monitoredSummary(history: PanelHistory, assessor: string, designs: ChartDesigns, baseline: SegmentOptions['baseline']): MonitoredSeriesInput {
+  const options: SegmentOptions = { baseline, restartSessions: restartSessionsFor(history, assessor) };
+  const series = summarySeries(levelSeriesByAttribute(history, assessor), options);
+  return { series, segments: monitorSeries(series, designs, options) };
+}
+
+export const MEASURE_LABELS: Record<IndexSeriesKind, { label: string; yLabel: string }> = {
+  level: { label: 'Level offset', yLabel: 'offset (scale points)' },
+  repeatability: { label: 'Repeatability', yLabel: 'log(s_a / s_rest)' },
+  discrimination: { label: 'Discrimination', yLabel: 'log F (products)' },
+  agreement: { label: 'Agreement', yLabel: 'atanh r (with the rest)' },
+  scaling: { label: 'Scaling', yLabel: 'log β (scale use)' },
+};
+
+/** The five index series of one assessor and attribute, monitored. */
+export function monitoredMeasures(history: PanelHistory, assessor: string, attribute: string, designs: ChartDesigns, baseline: SegmentOptions['baseline']) {
+  const options: SegmentOptions = { baseline, restartSessions: restartSessionsFor(history, assessor) };
+  const one = { ...history, attributes: history.attributes.filter((a) => a.name === attribute) };
+  return buildAssessorSeries(one)
+    .filter((s) => s.assessor === assessor)
+    .map((s) => ({
+      key: s.kind,
+      ...MEASURE_LABELS[s.kind],
+      withSmoothCharts: s.kind === 'level',
+      series: s.points,
+      segments: monitorSeries(s.points, designs, options),
+    }));
+}
+
+/** Sessions with indices and ratings behind them, per assessor. */
+export function assessorSampleSizes(history: PanelHistory): Map<string, { nSessions: number; nRatings: number }> {
+  const out = new Map<string, { sessions: Set<string>; nRatings: number }>();
+  for (const result of history.results) {
+    for (const row of result.indices) {
+      let entry = out.get(row.assessor);
+      if (!entry) out.set(row.assessor, (entry = { sessions: new Set(), nRatings: 0 }));
+      entry.sessions.add(row.session);
+      entry.nRatings += row.nRatings;
+    }
+  }
+  return new Map([...out].map(([assessor, e]) => [assessor, { nSessions: e.sessions.size, nRatings: e.nRatings }]));
+}

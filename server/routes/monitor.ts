@@ -1,0 +1,397 @@
+/**
+ * Monitor pages, their JSON twins, the flags API and background refits (issue 4).
+ * Registered on the root instance (skip-override) so that `app.refitService` is visible to the
+ * import routes, which schedule a refit after an import that changed sessions.
+ */
+import type { FastifyInstance, FastifyReply, FastifyRequest } from 'fastify';
+import { Type, type Static } from '@sinclair/typebox';
+import type { Database } from 'better-sqlite3';
+import { PanelThresholdsSchema, validateThresholds } from '../../analysis/flags/index.js';
+import { buildAssessorMonitorView } from '../../report/monitor-assessor-view.js';
+import { monitorHref } from '../../report/monitor-common.js';
+import { buildEventsView } from '../../report/monitor-events-view.js';
+import { buildFlagsListView, buildRetrainingView, parseFlagFilter } from '../../report/monitor-flags-view.js';
+import { buildMonitorOverviewView } from '../../report/monitor-overview-view.js';
+import { buildSettingsView, type ThresholdFieldInput } from '../../report/monitor-settings-view.js';
+import { listSessionVersions } from '../../store/fits-sessions.js';
+import { getFlag, listCurrentFlagObjects, listFlags, reviewFlag } from '../../store/monitor-flags.js';
+import { addPanelEvent, addRetraining, deletePanelEvent, listPanelEvents, listRetraining, PANEL_EVENT_KINDS, updateRetraining, type PanelEventKind } from '../../store/monitor-events.js';
+import { getRefitJob, failInterruptedRefitJobs, latestRefitJob } from '../../store/monitor-jobs.js';
+import { savePanelThresholds } from '../../store/monitor-settings.js';
+import { AppError } from '../errors.js';
+import { createFitPool, type FitRunner } from '../fit-pool.js';
+import { jsonView, registerPage, sendPage } from '../plugins/pages.js';
+import { RefitService } from '../refit.js';
+import {
+  assessorSampleSizes,
+  chartDesigns,
+  loadMonitorContext,
+  monitoredMeasures,
+  monitoredSummary,
+  panelThresholds,
+  refitStatus,
+  requireMonitorPanel,
+} from './monitor-data.js';
+
+declare module 'fastify' {
+  interface FastifyInstance {
+    /** Background refits; `schedule(panel, reason)` returns at once with the queued job. */
+    refitService: RefitService;
+  }
+}
+
+export interface MonitorRoutesOptions {
+  /** The fit runner (default: a worker-thread pool); tests may pass an in-thread one. */
+  runner?: FitRunner;
+}
+
+const PanelParams = Type.Object({ panel: Type.String({ minLength: 1, maxLength: 200 }) });
+type PanelParams = Static<typeof PanelParams>;
+const SinceQuery = Type.Object({ since: Type.Optional(Type.String({ minLength: 1, maxLength: 200 })) });
+type SinceQuery = Static<typeof SinceQuery>;
+
+const MAX_NOTE = 1000;
+
+function text(body: unknown, field: string, maxLength = MAX_NOTE): string {
+  const value = (body as Record<string, unknown> | undefined)?.[field];
+  const last = Array.isArray(value) ? value[value.length - 1] : value;
+  return typeof last === 'string' ? last.trim().slice(0, maxLength) : '';
+}
+
+function isIsoDate(value: string): boolean {
+  return /^\d{4}-\d{2}-\d{2}$/.test(value) && !Number.isNaN(Date.parse(`${value}T00:00:00Z`));
+}
+
+/** Every leaf of the thresholds schema with its value, default and description. */
+function thresholdFields(thresholds: unknown, defaults: unknown): ThresholdFieldInput[] {
+  const out: ThresholdFieldInput[] = [];
+  const walk = (schema: { properties?: Record<string, unknown> }, value: unknown, fallback: unknown, prefix: string) => {
+    for (const [key, child] of Object.entries(schema.properties ?? {})) {
+      const node = child as { type?: string; description?: string; properties?: Record<string, unknown> };
+      const path = prefix ? `${prefix}.${key}` : key;
+      const v = (value as Record<string, unknown>)[key];
+      const d = (fallback as Record<string, unknown>)[key];
+      if (node.type === 'object') walk(node, v, d, path);
+      else {
+        out.push({
+          path,
+          kind: node.type === 'boolean' ? 'boolean' : node.type === 'integer' ? 'integer' : 'number',
+          value: v as number | boolean,
+          defaultValue: d as number | boolean,
+          description: node.description ?? '',
+        });
+      }
+    }
+  };
+  walk(PanelThresholdsSchema as { properties?: Record<string, unknown> }, thresholds, defaults, '');
+  return out;
+}
+
+/** Form fields (dotted names) back into a thresholds object; numbers parsed, booleans from "true". */
+function thresholdsFromForm(body: unknown, fields: ThresholdFieldInput[]): Record<string, unknown> {
+  const out: Record<string, unknown> = {};
+  for (const field of fields) {
+    const raw = text(body, field.path, 100);
+    const value = field.kind === 'boolean' ? raw === 'true' : raw === '' ? Number.NaN : Number(raw);
+    const parts = field.path.split('.');
+    let node = out;
+    for (const part of parts.slice(0, -1)) node = (node[part] ??= {}) as Record<string, unknown>;
+    node[parts[parts.length - 1]] = value;
+  }
+  return out;
+}
+
+async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesOptions): Promise<void> {
+  const db: Database = app.db;
+  const runner = options.runner ?? createFitPool();
+  failInterruptedRefitJobs(db);
+  const service = new RefitService(db, runner, {
+    onError: (error, job) => app.log.error({ err: error, jobId: job.id }, 'refit failed'),
+  });
+  app.decorate('refitService', service);
+  app.addHook('onClose', async () => {
+    await service.whenIdle();
+    await runner.close();
+  });
+  app.navSections.push(
+    { label: 'Monitor', scope: 'panel', href: (panel) => monitorHref(panel), order: 40 },
+    { label: 'Flags', scope: 'panel', href: (panel) => monitorHref(panel, 'flags'), order: 41 },
+    { label: 'Retraining', scope: 'panel', href: (panel) => monitorHref(panel, 'retraining'), order: 42 },
+  );
+
+  /** Pages read stored results; when they are older than the ratings, a refit is queued. */
+  const scheduleIfStale = (panelName: string, panelId: number) => {
+    const status = refitStatus(db, panelId);
+    if (status.isStale && status.status !== 'queued' && status.status !== 'running') service.schedule(panelName, 'stale results');
+  };
+
+  /**
+   * A page at a fixed path under the panel (HTML, with a CSRF token for its forms) and its
+   * `.json` twin, both from the same view. (registerPage reads the format from a final path
+   * parameter; these paths end in a fixed word.)
+   */
+  const registerFormPage = <View extends object>(url: string, template: string, build: (request: FastifyRequest) => View) => {
+    app.get(url, async (request, reply) => {
+      const queryStart = request.url.indexOf('?');
+      const jsonHref = `${request.url.split('?')[0]}.json${queryStart === -1 ? '' : request.url.slice(queryStart)}`;
+      return sendPage(app, request, reply, { template, view: build(request), jsonHref, withCsrf: true });
+    });
+    app.get(`${url}.json`, async (request, reply) => reply.type('application/json; charset=utf-8').send(jsonView(build(request))));
+  };
+
+  const back = (reply: FastifyReply, location: string) => reply.redirect(location, 303);
+
+  // ---- overview ----
+  registerFormPage('/panels/:panel/monitor', 'monitor', (request) => {
+    const ctx = loadMonitorContext(db, (request.params as PanelParams).panel);
+    scheduleIfStale(ctx.panel.name, ctx.panel.id);
+    const { designs, baseline } = chartDesigns(ctx.thresholds, ctx.assessors.length);
+    const sizes = assessorSampleSizes(ctx.history);
+    return buildMonitorOverviewView({
+      panel: ctx.panel.name,
+      sessions: ctx.history.sessions,
+      nAttributes: ctx.attributes.length,
+      assessors: ctx.assessors.map((assessor) => ({
+        assessor,
+        ...(sizes.get(assessor) ?? { nSessions: 0, nRatings: 0 }),
+        summary: monitoredSummary(ctx.history, assessor, designs, baseline),
+      })),
+      openFlags: listFlags(db, ctx.panel.id, { status: 'open' }).map((r) => r.flag),
+      events: ctx.history.events,
+      designs,
+      refit: refitStatus(db, ctx.panel.id),
+    });
+  });
+
+  // ---- one assessor ----
+  registerPage(app, {
+    url: '/panels/:panel/monitor/assessors/:assessor',
+    template: 'monitor-assessor',
+    build: ({ params, query }) => {
+      const ctx = loadMonitorContext(db, params.panel);
+      if (!ctx.assessors.includes(params.assessor)) {
+        throw new AppError('NOT_FOUND', { path: `${monitorHref(ctx.panel.name)}/assessors/${params.assessor}`.slice(0, 200) });
+      }
+      const requested = typeof query.attribute === 'string' ? query.attribute : null;
+      const attribute = requested && ctx.attributes.includes(requested) ? requested : (ctx.attributes[0] ?? null);
+      const summaryDesign = chartDesigns(ctx.thresholds, ctx.assessors.length);
+      const attributeDesign = chartDesigns(ctx.thresholds, ctx.assessors.length * Math.max(1, ctx.attributes.length));
+      return buildAssessorMonitorView({
+        panel: ctx.panel.name,
+        assessor: params.assessor,
+        sessions: ctx.history.sessions,
+        attributes: ctx.attributes,
+        attribute,
+        nSessions: assessorSampleSizes(ctx.history).get(params.assessor)?.nSessions ?? 0,
+        summary: monitoredSummary(ctx.history, params.assessor, summaryDesign.designs, summaryDesign.baseline),
+        measures: attribute === null ? [] : monitoredMeasures(ctx.history, params.assessor, attribute, attributeDesign.designs, attributeDesign.baseline),
+        flags: listFlags(db, ctx.panel.id, { status: 'open', assessor: params.assessor }).map((r) => r.flag),
+        events: ctx.history.events,
+        // Per-attribute charts: limits sized for the assessor × attribute chart set; the summary charts use their own.
+        designs: attributeDesign.designs,
+      });
+    },
+  });
+
+  // ---- flags list and review ----
+  registerFormPage('/panels/:panel/monitor/flags', 'monitor-flags', (request) => {
+    const { panel: name } = request.params as PanelParams;
+    const panel = requireMonitorPanel(db, name);
+    return buildFlagsListView({
+      panel: panel.name,
+      records: listFlags(db, panel.id),
+      filter: parseFlagFilter(request.query as Record<string, string>),
+    });
+  });
+
+  app.post<{ Params: PanelParams & { flagId: string } }>(
+    '/panels/:panel/monitor/flags/:flagId/review',
+    { preHandler: app.csrfProtection },
+    async (request, reply) => {
+      const panel = requireMonitorPanel(db, request.params.panel);
+      const flagId = Number.parseInt(request.params.flagId, 10);
+      const status = text(request.body, 'status');
+      const note = text(request.body, 'note');
+      if (status !== 'dismissed' && status !== 'open') throw new AppError('BAD_REQUEST', { detail: 'the review status must be "dismissed" or "open".' });
+      if (status === 'dismissed' && note === '') throw new AppError('BAD_REQUEST', { detail: 'dismissing a flag needs a note saying why.' });
+      if (!Number.isInteger(flagId) || !getFlag(db, panel.id, flagId)) throw new AppError('NOT_FOUND', { path: request.url.slice(0, 200) });
+      reviewFlag(db, panel.id, flagId, status, note);
+      return back(reply, `${monitorHref(panel.name, 'flags')}#flag-${flagId}`);
+    },
+  );
+
+  // ---- retraining ----
+  registerFormPage('/panels/:panel/monitor/retraining', 'monitor-retraining', (request) => {
+    const panel = requireMonitorPanel(db, (request.params as PanelParams).panel);
+    return buildRetrainingView({ panel: panel.name, records: listFlags(db, panel.id), retraining: listRetraining(db, panel.id) });
+  });
+
+  app.post<{ Params: PanelParams }>('/panels/:panel/monitor/retraining', { preHandler: app.csrfProtection }, async (request, reply) => {
+    const panel = requireMonitorPanel(db, request.params.panel);
+    const assessor = text(request.body, 'assessor', 200);
+    const status = text(request.body, 'status');
+    const date = text(request.body, 'date', 20);
+    if (assessor === '') throw new AppError('BAD_REQUEST', { detail: 'the assessor is missing.' });
+    if (status !== 'planned' && status !== 'done') throw new AppError('BAD_REQUEST', { detail: 'the retraining status must be "planned" or "done".' });
+    if (!isIsoDate(date)) throw new AppError('BAD_REQUEST', { detail: 'the date must be a calendar date (YYYY-MM-DD).' });
+    const flagKeys = text(request.body, 'flagKeys', 100_000).split('\n').map((k) => k.trim()).filter(Boolean);
+    addRetraining(db, panel.id, { assessor, status, date, note: text(request.body, 'note'), flagKeys });
+    return back(reply, monitorHref(panel.name, 'retraining'));
+  });
+
+  app.post<{ Params: PanelParams & { id: string } }>('/panels/:panel/monitor/retraining/:id', { preHandler: app.csrfProtection }, async (request, reply) => {
+    const panel = requireMonitorPanel(db, request.params.panel);
+    const status = text(request.body, 'status');
+    const date = text(request.body, 'date', 20);
+    if (status !== 'planned' && status !== 'done') throw new AppError('BAD_REQUEST', { detail: 'the retraining status must be "planned" or "done".' });
+    if (date !== '' && !isIsoDate(date)) throw new AppError('BAD_REQUEST', { detail: 'the date must be a calendar date (YYYY-MM-DD).' });
+    const found = updateRetraining(db, panel.id, Number.parseInt(request.params.id, 10), { status, date: date || undefined });
+    if (!found) throw new AppError('NOT_FOUND', { path: request.url.slice(0, 200) });
+    service.schedule(panel.name, 'retraining recorded');
+    return back(reply, monitorHref(panel.name, 'retraining'));
+  });
+
+  // ---- events ----
+  registerFormPage('/panels/:panel/monitor/events', 'monitor-events', (request) => {
+    const panel = requireMonitorPanel(db, (request.params as PanelParams).panel);
+    const ctx = loadMonitorContext(db, panel.name);
+    return buildEventsView({
+      panel: panel.name,
+      events: listPanelEvents(db, panel.id),
+      sessions: ctx.history.sessions.map((s) => s.label),
+      assessors: ctx.assessors,
+    });
+  });
+
+  app.post<{ Params: PanelParams }>('/panels/:panel/monitor/events', { preHandler: app.csrfProtection }, async (request, reply) => {
+    const panel = requireMonitorPanel(db, request.params.panel);
+    const kind = text(request.body, 'kind') as PanelEventKind;
+    const session = text(request.body, 'session', 200);
+    const assessor = text(request.body, 'assessor', 200);
+    if (!PANEL_EVENT_KINDS.includes(kind)) throw new AppError('BAD_REQUEST', { detail: 'the event must be retraining, control-batch or note.' });
+    if (!listSessionVersions(db, panel.id).some((s) => s.label === session)) throw new AppError('BAD_REQUEST', { detail: 'choose a session of this panel.' });
+    addPanelEvent(db, panel.id, { kind, session, assessor: assessor === '' ? null : assessor, note: text(request.body, 'note') });
+    service.schedule(panel.name, 'event recorded');
+    return back(reply, monitorHref(panel.name, 'events'));
+  });
+
+  app.post<{ Params: PanelParams & { id: string } }>('/panels/:panel/monitor/events/:id/delete', { preHandler: app.csrfProtection }, async (request, reply) => {
+    const panel = requireMonitorPanel(db, request.params.panel);
+    if (!deletePanelEvent(db, panel.id, Number.parseInt(request.params.id, 10))) throw new AppError('NOT_FOUND', { path: request.url.slice(0, 200) });
+    service.schedule(panel.name, 'event removed');
+    return back(reply, monitorHref(panel.name, 'events'));
+  });
+
+  // ---- thresholds ----
+  const settingsView = (panelName: string, panelId: number, problems: { path: string; message: string }[], saved: boolean) => {
+    const thresholds = panelThresholds(db, panelId);
+    const defaults = validateThresholds({}).thresholds;
+    return buildSettingsView({ panel: panelName, fields: thresholdFields(thresholds, defaults), thresholds, problems, saved });
+  };
+
+  registerFormPage('/panels/:panel/monitor/settings', 'monitor-settings', (request) => {
+    const panel = requireMonitorPanel(db, (request.params as PanelParams).panel);
+    return settingsView(panel.name, panel.id, [], (request.query as { saved?: string }).saved === '1');
+  });
+
+  const saveThresholds = (request: FastifyRequest, reply: FastifyReply, panelName: string, panelId: number, given: unknown) => {
+    const { thresholds, problems } = validateThresholds(given);
+    if (problems.length > 0) {
+      // Nothing saved: the page shows the thresholds still in force and what was wrong.
+      return sendPage(app, request, reply, {
+        template: 'monitor-settings',
+        view: settingsView(panelName, panelId, problems, false),
+        jsonHref: null,
+        withCsrf: true,
+        status: 422,
+      });
+    }
+    savePanelThresholds(db, panelId, thresholds);
+    service.schedule(panelName, 'thresholds changed');
+    return back(reply, `${monitorHref(panelName, 'settings')}?saved=1`);
+  };
+
+  app.post<{ Params: PanelParams }>('/panels/:panel/monitor/settings', { preHandler: app.csrfProtection }, async (request, reply) => {
+    const panel = requireMonitorPanel(db, request.params.panel);
+    const fields = thresholdFields(panelThresholds(db, panel.id), validateThresholds({}).thresholds);
+    return saveThresholds(request, reply, panel.name, panel.id, thresholdsFromForm(request.body, fields));
+  });
+
+  app.post<{ Params: PanelParams }>('/panels/:panel/monitor/settings/json', { preHandler: app.csrfProtection }, async (request, reply) => {
+    const panel = requireMonitorPanel(db, request.params.panel);
+    let given: unknown;
+    try {
+      given = JSON.parse(text(request.body, 'json', 64 * 1024));
+    } catch {
+      given = null; // validateThresholds says "must be a JSON object"
+    }
+    return saveThresholds(request, reply, panel.name, panel.id, given);
+  });
+
+  // ---- API ----
+  app.get<{ Params: PanelParams; Querystring: SinceQuery }>(
+    '/api/panels/:panel/flags',
+    { schema: { params: PanelParams, querystring: SinceQuery } },
+    async (request, reply) => {
+      const panel = requireMonitorPanel(db, request.params.panel);
+      scheduleIfStale(panel.name, panel.id);
+      const status = refitStatus(db, panel.id);
+      let flags;
+      try {
+        flags = listCurrentFlagObjects(db, panel.name, request.query.since) ?? [];
+      } catch (error) {
+        if (error instanceof RangeError) throw new AppError('BAD_REQUEST', { detail: error.message });
+        throw error;
+      }
+      // The body is exactly the array of flags (as the CLI prints); freshness goes in headers.
+      reply.header('X-Flags-Built-At', status.flagsBuiltAt ?? 'never');
+      reply.header('X-Flags-Stale', status.isStale ? 'true' : 'false');
+      return reply.type('application/json; charset=utf-8').send(JSON.stringify(flags));
+    },
+  );
+
+  app.get<{ Params: PanelParams }>('/api/panels/:panel/thresholds', { schema: { params: PanelParams } }, async (request) => {
+    const panel = requireMonitorPanel(db, request.params.panel);
+    return { ok: true, thresholds: panelThresholds(db, panel.id) };
+  });
+
+  app.put<{ Params: PanelParams }>('/api/panels/:panel/thresholds', { schema: { params: PanelParams } }, async (request, reply) => {
+    const panel = requireMonitorPanel(db, request.params.panel);
+    const { thresholds, problems } = validateThresholds(request.body);
+    if (problems.length > 0) {
+      return reply.code(422).send({
+        ok: false,
+        status: 422,
+        code: 'BAD_REQUEST',
+        error: 'The thresholds are not valid; nothing was saved.',
+        errors: problems.map((p) => ({ message: p.message, column: p.path })),
+      });
+    }
+    savePanelThresholds(db, panel.id, thresholds);
+    const job = service.schedule(panel.name, 'thresholds changed');
+    return { ok: true, thresholds, job };
+  });
+
+  app.get<{ Params: PanelParams }>('/api/panels/:panel/refit', { schema: { params: PanelParams } }, async (request) => {
+    const panel = requireMonitorPanel(db, request.params.panel);
+    return { ok: true, job: latestRefitJob(db, panel.id), status: refitStatus(db, panel.id) };
+  });
+
+  app.post<{ Params: PanelParams }>('/api/panels/:panel/refit', { schema: { params: PanelParams } }, async (request, reply) => {
+    const panel = requireMonitorPanel(db, request.params.panel);
+    const job = service.schedule(panel.name, 'requested');
+    return reply.code(202).send({ ok: true, job, statusHref: `/api/panels/${encodeURIComponent(panel.name)}/refit/${job.id}` });
+  });
+
+  app.get<{ Params: PanelParams & { jobId: string } }>('/api/panels/:panel/refit/:jobId', async (request) => {
+    const panel = requireMonitorPanel(db, request.params.panel);
+    const job = getRefitJob(db, Number.parseInt(request.params.jobId, 10));
+    if (!job || job.panelId !== panel.id) throw new AppError('NOT_FOUND', { path: request.url.split('?')[0].slice(0, 200) });
+    return { ok: true, job };
+  });
+}
+
+// Decorations (refitService) and the onClose hook belong to the root instance.
+(monitorRoutesPlugin as unknown as Record<symbol, boolean>)[Symbol.for('skip-override')] = true;
+
+export const monitorRoutes = monitorRoutesPlugin;

@@ -1,0 +1,172 @@
+/**
+ * The monitor service: pages and their JSON twins carry the stored numbers, the flags API gives
+ * exactly the stored flags, reviews and settings go through CSRF-protected forms, and a refit
+ * requested over HTTP returns at once while the worker pool does the work.
+ */
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { Flag } from '../../domain/flags.js';
+import { FLAG_KINDS } from '../../domain/flags.js';
+import { createFitPool } from '../../server/fit-pool.js';
+import { refitPanel } from '../../server/refit.js';
+import { findPanel } from '../../store/fits-sessions.js';
+import { loadSessionIndices } from '../../store/fits-results.js';
+import { listFlags, replaceCurrentFlags } from '../../store/monitor-flags.js';
+import { csrfFrom, makeTestApp, type TestApp } from '../http/http-helpers.js';
+import { importRatings, smallPanel } from './helpers.js';
+
+let t: TestApp;
+const panel = smallPanel({ nWeeks: 10, nAssessors: 6, faults: [{ kind: 'lenient', assessor: 'A02', size: 2.5 }] });
+const name = panel.panelName;
+const enc = encodeURIComponent(name);
+
+beforeAll(async () => {
+  t = await makeTestApp();
+  await importRatings(t.db, panel);
+  const runner = createFitPool({ mode: 'in-thread' });
+  await refitPanel(t.db, name, { runner });
+  await runner.close();
+}, 120_000);
+afterAll(async () => t.close());
+
+describe('flags API', () => {
+  it('answers the current flags as an array of Flag objects with exactly the contract fields', async () => {
+    const response = await t.app.inject({ url: `/api/panels/${enc}/flags` });
+    expect(response.statusCode).toBe(200);
+    expect(response.headers['x-flags-stale']).toBe('false');
+    const flags = response.json() as Flag[];
+    expect(Array.isArray(flags)).toBe(true);
+    const panelId = findPanel(t.db, name)!.id;
+    expect(flags).toEqual(listFlags(t.db, panelId).map((r) => r.flag));
+    expect(flags.length).toBeGreaterThan(0);
+    for (const f of flags) {
+      expect(Object.keys(f)).toEqual(['kind', 'assessor', 'product', 'attribute', 'firstSession', 'severity', 'evidence', 'message']);
+      expect(FLAG_KINDS).toContain(f.kind);
+      expect(['watch', 'act']).toContain(f.severity);
+      expect(typeof f.evidence.n).toBe('number');
+    }
+    // The planted lenient assessor is among them.
+    expect(flags.some((f) => f.kind === 'lenient' && f.assessor === 'A02')).toBe(true);
+  });
+
+  it('filters with ?since= by session order and rejects an unknown session', async () => {
+    const panelId = findPanel(t.db, name)!.id;
+    const since = panel.sessions[5].label;
+    const response = await t.app.inject({ url: `/api/panels/${enc}/flags?since=${encodeURIComponent(since)}` });
+    expect(response.json()).toEqual(listFlags(t.db, panelId, { sinceSession: since }).map((r) => r.flag));
+    const bad = await t.app.inject({ url: `/api/panels/${enc}/flags?since=nope` });
+    expect(bad.statusCode).toBe(400);
+    expect(bad.json().ok).toBe(false);
+  });
+
+  it('answers 404 for an unknown panel', async () => {
+    const response = await t.app.inject({ url: '/api/panels/none/flags' });
+    expect(response.statusCode).toBe(404);
+  });
+});
+
+describe('monitor pages', () => {
+  it('overview: per-assessor sample sizes and flag counts, no ranking, the review notice', async () => {
+    const html = await t.app.inject({ url: `/panels/${enc}/monitor` });
+    expect(html.statusCode).toBe(200);
+    expect(html.body).toContain('evidence for review, not verdicts');
+    expect(html.body).toContain('not proof of good performance');
+    expect(html.body).toContain('<svg');
+    const json = (await t.app.inject({ url: `/panels/${enc}/monitor.json` })).json();
+    expect(json.ok).toBe(true);
+    const codes = json.assessors.map((a: { assessor: string }) => a.assessor);
+    expect(codes).toEqual([...codes].sort());
+    const indices = loadSessionIndices(t.db, findPanel(t.db, name)!.id);
+    for (const a of json.assessors) {
+      const own = indices.filter((ix) => ix.assessor === a.assessor);
+      expect(a.nSessions).toBe(new Set(own.map((ix) => ix.session)).size);
+      expect(a.nRatings).toBe(own.reduce((s, ix) => s + ix.nRatings, 0));
+    }
+    const openFlags = listFlags(t.db, findPanel(t.db, name)!.id, { status: 'open' }).map((r) => r.flag);
+    const a02 = json.assessors.find((a: { assessor: string }) => a.assessor === 'A02');
+    expect(a02.nAct).toBe(openFlags.filter((f) => f.assessor === 'A02' && f.severity === 'act').length);
+  });
+
+  it('assessor page: the level-offset series carries the stored offsets', async () => {
+    const attribute = panel.attributes[1].name;
+    const url = `/panels/${enc}/monitor/assessors/A02`;
+    const html = await t.app.inject({ url: `${url}?attribute=${encodeURIComponent(attribute)}` });
+    expect(html.statusCode).toBe(200);
+    expect(html.body).toContain('EWMA');
+    const json = (await t.app.inject({ url: `${url}.json?attribute=${encodeURIComponent(attribute)}` })).json();
+    expect(json.attribute).toBe(attribute);
+    const level = json.measures.find((m: { key: string }) => m.key === 'level');
+    const stored = loadSessionIndices(t.db, findPanel(t.db, name)!.id).filter((ix) => ix.assessor === 'A02' && ix.attribute === attribute);
+    const plotted = level.charts[0].series[0].points.map((p: { session: string; value: number }) => [p.session, p.value]);
+    expect(plotted).toEqual(stored.filter((ix) => ix.offset !== null).map((ix) => [ix.session, ix.offset]));
+    expect(level.nValues).toBe(stored.filter((ix) => ix.offset !== null).length);
+    // 10 sessions: fewer than the 20 wanted for final limits → provisional (dashed) limits.
+    expect(json.summary.baselineStatus).toBe('provisional');
+    expect(html.body).toContain('stroke-dasharray');
+    expect(json.flags.some((f: { kind: string }) => f.kind === 'lenient')).toBe(true);
+  });
+
+  it('an unknown assessor is a 404', async () => {
+    expect((await t.app.inject({ url: `/panels/${enc}/monitor/assessors/ZZ9` })).statusCode).toBe(404);
+  });
+
+  it('flags page filters by kind and severity; a flag is dismissed with a note through the CSRF form', async () => {
+    const page = await t.app.inject({ url: `/panels/${enc}/monitor/flags?kind=lenient` });
+    expect(page.statusCode).toBe(200);
+    const json = (await t.app.inject({ url: `/panels/${enc}/monitor/flags.json?kind=lenient` })).json();
+    expect(json.flags.every((f: { kind: string }) => f.kind === 'lenient')).toBe(true);
+    const target = json.flags[0];
+    const { token, cookie } = csrfFrom(page);
+    const noToken = await t.app.inject({ method: 'POST', url: target.reviewAction, payload: { status: 'dismissed', note: 'x' }, headers: { cookie } });
+    expect(noToken.statusCode).toBe(403);
+    const dismissed = await t.app.inject({
+      method: 'POST',
+      url: target.reviewAction,
+      headers: { cookie, 'content-type': 'application/x-www-form-urlencoded' },
+      payload: new URLSearchParams({ _csrf: token, status: 'dismissed', note: 'Known: new panellist, in training.' }).toString(),
+    });
+    expect(dismissed.statusCode).toBe(303);
+    const after = listFlags(t.db, findPanel(t.db, name)!.id).find((r) => r.id === target.id)!;
+    expect(after.status).toBe('dismissed');
+    expect(after.reviewNote).toBe('Known: new panellist, in training.');
+  });
+
+  it('settings: every threshold with its documentation; invalid input saves nothing (422)', async () => {
+    const page = await t.app.inject({ url: `/panels/${enc}/monitor/settings` });
+    expect(page.statusCode).toBe(200);
+    const json = (await t.app.inject({ url: `/panels/${enc}/monitor/settings.json` })).json();
+    const fields = json.groups.flatMap((g: { fields: unknown[] }) => g.fields);
+    expect(fields.length).toBeGreaterThan(30);
+    expect(fields.every((f: { description: string }) => f.description.length > 10)).toBe(true);
+    const { token, cookie } = csrfFrom(page);
+    const bad = await t.app.inject({
+      method: 'POST',
+      url: json.jsonAction,
+      headers: { cookie, 'content-type': 'application/x-www-form-urlencoded' },
+      payload: new URLSearchParams({ _csrf: token, json: '{"fdrLevel": 3}' }).toString(),
+    });
+    expect(bad.statusCode).toBe(422);
+    expect(bad.body).toContain('fdrLevel');
+    const api = await t.app.inject({ url: `/api/panels/${enc}/thresholds` });
+    expect(api.json().thresholds.fdrLevel).toBe(0.05);
+  });
+});
+
+describe('background refit', () => {
+  it('runs in the worker pool: the request returns while the job is queued, and its status is visible', async () => {
+    expect(t.app.refitService.runnerMode).toBe('worker-threads');
+    // Make the stored flags stale so the job has work (a rebuild of the flags).
+    replaceCurrentFlags(t.db, findPanel(t.db, name)!.id, [], { dataSignature: 'outdated', thresholdsHash: 'outdated' });
+    const started = await t.app.inject({ method: 'POST', url: `/api/panels/${enc}/refit` });
+    expect(started.statusCode).toBe(202);
+    const { job, statusHref } = started.json();
+    expect(job.status).toBe('queued');
+    let status = job.status;
+    for (let i = 0; i < 600 && status !== 'done' && status !== 'failed'; i++) {
+      await new Promise((resolve) => setTimeout(resolve, 100));
+      status = (await t.app.inject({ url: statusHref })).json().job.status;
+    }
+    expect(status).toBe('done');
+    const flags = (await t.app.inject({ url: `/api/panels/${enc}/flags` })).json();
+    expect(flags.length).toBeGreaterThan(0);
+  }, 90_000);
+});
