@@ -14,6 +14,13 @@ export interface CellTable {
   products: string[];
   /** values[assessor][product] = the assessor's ratings of the product (absent key = empty cell). */
   values: Map<string, Map<string, number[]>>;
+  /** m_ap, computed once (same keys as `values`). */
+  cellMeans: Map<string, Map<string, number>>;
+  /** M_p, computed once. */
+  panelMeans: Map<string, number>;
+  /** Per assessor: Σ_p Σ_r (y_apr − m_ap)² and its df Σ_p (n_ap − 1). */
+  withinSumOfSquares: Map<string, number>;
+  withinDf: Map<string, number>;
 }
 
 export function buildCellTable(observations: readonly Observation[]): CellTable {
@@ -42,7 +49,33 @@ export function buildCellTable(observations: readonly Observation[]): CellTable 
     if (cell) cell.push(observation.value);
     else row.set(observation.product, [observation.value]);
   }
-  return { session, attribute, assessors, products, values };
+  const cellMeans = new Map<string, Map<string, number>>();
+  const withinSumOfSquares = new Map<string, number>();
+  const withinDf = new Map<string, number>();
+  for (const [assessor, row] of values) {
+    const means = new Map<string, number>();
+    let sumOfSquares = 0;
+    let df = 0;
+    for (const [product, cell] of row) {
+      const m = mean(cell);
+      means.set(product, m);
+      for (const value of cell) sumOfSquares += (value - m) ** 2;
+      df += cell.length - 1;
+    }
+    cellMeans.set(assessor, means);
+    withinSumOfSquares.set(assessor, sumOfSquares);
+    withinDf.set(assessor, df);
+  }
+  const panelMeans = new Map<string, number>();
+  for (const product of products) {
+    const means: number[] = [];
+    for (const assessor of assessors) {
+      const m = cellMeans.get(assessor)!.get(product);
+      if (m !== undefined) means.push(m);
+    }
+    panelMeans.set(product, mean(means));
+  }
+  return { session, attribute, assessors, products, values, cellMeans, panelMeans, withinSumOfSquares, withinDf };
 }
 
 /** Products the assessor rated, in table order. */
@@ -53,8 +86,7 @@ export function productsRatedBy(table: CellTable, assessor: string): string[] {
 
 /** m_ap, or null for an empty cell. */
 export function cellMean(table: CellTable, assessor: string, product: string): number | null {
-  const cell = table.values.get(assessor)?.get(product);
-  return cell ? mean(cell) : null;
+  return table.cellMeans.get(assessor)?.get(product) ?? null;
 }
 
 /** Cell means of product p for every assessor who rated it, optionally leaving one assessor out. */
@@ -62,16 +94,15 @@ export function cellMeansOfProduct(table: CellTable, product: string, leaveOut?:
   const means: number[] = [];
   for (const assessor of table.assessors) {
     if (assessor === leaveOut) continue;
-    const cell = table.values.get(assessor)?.get(product);
-    if (cell) means.push(mean(cell));
+    const m = table.cellMeans.get(assessor)!.get(product);
+    if (m !== undefined) means.push(m);
   }
   return means;
 }
 
 /** M_p = mean over assessors of m_ap (null if nobody rated p). */
 export function panelMean(table: CellTable, product: string): number | null {
-  const means = cellMeansOfProduct(table, product);
-  return means.length > 0 ? mean(means) : null;
+  return table.panelMeans.get(product) ?? null;
 }
 
 /**

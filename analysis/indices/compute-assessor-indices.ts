@@ -28,7 +28,7 @@ export function computeAssessorIndices(observations: readonly Observation[], opt
   return table.assessors.map((assessor, assessorIndex) => {
     const oneWay = assessorAnova(table, assessor);
     const level = pairedLevelTest(table, assessor);
-    const repeatability = repeatabilityTest(table, assessor);
+    const repeatability = repeatabilityTest(table, assessor, oneWay);
     const agreement = agreementCorrelation(table, assessor);
     const disagreement = disagreementTest(anova, assessorIndex);
     const scaling = scalingCoefficient(table, assessor, anova, options);

@@ -34,12 +34,9 @@ export function assessorAnova(table: CellTable, assessor: string): AssessorAnova
   const cells = products.map((product) => row!.get(product)!);
   const nRatings = cells.reduce((sum, cell) => sum + cell.length, 0);
   const nProducts = products.length;
-  const withinDf = nRatings - nProducts;
-  let withinSumOfSquares = 0;
-  const cellMeans = cells.map((cell) => mean(cell));
-  cells.forEach((cell, index) => {
-    for (const value of cell) withinSumOfSquares += (value - cellMeans[index]) ** 2;
-  });
+  const withinDf = table.withinDf.get(assessor) ?? 0;
+  const withinSumOfSquares = table.withinSumOfSquares.get(assessor) ?? 0;
+  const cellMeans = products.map((product) => table.cellMeans.get(assessor)!.get(product)!);
   const withinMeanSquare = withinDf > 0 ? withinSumOfSquares / withinDf : null;
   const base = { withinSumOfSquares, withinDf, withinMeanSquare, nProducts, nRatings };
   const none = { F: null, dfNumerator: null, dfDenominator: null, pValue: null };

@@ -1,5 +1,5 @@
 import { fUpperTail } from '../distributions/index.js';
-import { assessorAnova } from './discrimination.js';
+import { assessorAnova, type AssessorAnova } from './discrimination.js';
 import type { CellTable } from './cell-table.js';
 import type { IndexReason } from './types.js';
 
@@ -24,15 +24,13 @@ export interface RepeatabilityTest {
  * Needs ν_a ≥ 2 (methods' minimum) and a rest of panel with replicate spread.
  * Caution (Box 1953): the variance-ratio test is sensitive to non-normality; read p as a screen.
  */
-export function repeatabilityTest(table: CellTable, assessor: string): RepeatabilityTest {
-  const own = assessorAnova(table, assessor);
+export function repeatabilityTest(table: CellTable, assessor: string, own: AssessorAnova = assessorAnova(table, assessor)): RepeatabilityTest {
   let restSumOfSquares = 0;
   let restDf = 0;
   for (const other of table.assessors) {
     if (other === assessor) continue;
-    const anova = assessorAnova(table, other);
-    restSumOfSquares += anova.withinSumOfSquares;
-    restDf += anova.withinDf;
+    restSumOfSquares += table.withinSumOfSquares.get(other)!;
+    restDf += table.withinDf.get(other)!;
   }
   const restMeanSquare = restDf > 0 ? restSumOfSquares / restDf : null;
   const base = { meanSquare: own.withinMeanSquare, df: own.withinDf, restMeanSquare, restDf };
