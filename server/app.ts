@@ -70,8 +70,11 @@ export async function buildApp(options: { db: Database; config?: Partial<AppConf
     throw new Error(`Listening on ${config.host} (reachable from other computers) needs an access token of at least 16 characters.`);
   }
 
-  const app = Fastify({
+  const app: FastifyInstance = Fastify({
     logger: config.logger,
+    // Requests the router cannot even read (a path like /%zz) get the same error shape as all others.
+    frameworkErrors: (_error, request, reply) =>
+      sendError(app, request, reply, new AppError('BAD_REQUEST', { detail: 'the address has invalid percent-encoding.' })),
     // Panel and session names can be long; the default of 100 characters would turn them into 404s.
     routerOptions: { maxParamLength: 1000 },
     // JSON and form bodies only; uploads stream to disk with their own limit.
