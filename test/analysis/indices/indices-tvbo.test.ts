@@ -11,6 +11,9 @@ import { buildCellTable } from '../../../analysis/indices/cell-table.js';
 import { interactionShare } from '../../../analysis/indices/agreement.js';
 import { pairedLevelTest } from '../../../analysis/indices/level.js';
 import { computeAssessorIndices } from '../../../analysis/indices/compute-assessor-indices.js';
+import { scalingDisagreementPartition } from '../../../analysis/indices/scaling-partition.js';
+import { kendallW } from '../../../analysis/reliability/kendall-w.js';
+import { shroutFleissIcc } from '../../../analysis/reliability/shrout-fleiss-icc.js';
 import { deviationLog, readCache, readFixture, toObservations, type ColumnData } from './fixture-helpers.js';
 import { compareSessionIndices, type ExpectedSessionIndices } from './compare-indices.js';
 
@@ -63,6 +66,25 @@ describeWithData('per-assessor indices vs plain R on TVbo (cache data, committed
     const shares = table.assessors.map((_, index) => interactionShare(anova, index)!);
     expect(shares.reduce((sum, value) => sum + value, 0)).toBeCloseTo(1, 12);
     expect(indices.reduce((sum, row) => sum + row.scaling!, 0)).toBeCloseTo(8, 12);
+  });
+
+  it('Coloursaturation reliability reproduces methods §7.6 (ICC(3,1) 0.56011, ICC(3,8) 0.91061, partition) except W', () => {
+    const data = cache!.balanced.find((entry) => entry.attribute === 'Coloursaturation')!.data;
+    const anova = balancedAnova(buildCellTable(toObservations(data, 'TVbo', 'Coloursaturation')))!;
+    const matrix = anova.cellMeans[0].map((_, p) => anova.cellMeans.map((row) => row[p]));
+    const icc = shroutFleissIcc(matrix).estimates;
+    expect(icc.find((e) => e.form === 'ICC(3,1)')!.value).toBeCloseTo(0.56011, 5);
+    expect(icc.find((e) => e.form === 'ICC(3,k)')!.value).toBeCloseTo(0.91061, 5);
+    // The notes' W = 0.649376 (tie sums 0 0 0 6 0 6 18 6) came from R's rank() on unrounded cell
+    // means, where equal-on-paper means such as assessor 3's differ in the last bit and their tie is
+    // broken. With the ties kept (R: rank(round(M, 9)), tie sums 0 0 12 6 0 6 36 6) W = 0.6492095.
+    const w = kendallW(anova.cellMeans);
+    expect(w.W).toBeCloseTo(0.6492095, 7);
+    expect(w.W).not.toBeCloseTo(0.649376, 5);
+    const partition = scalingDisagreementPartition(anova)!;
+    expect(partition.scalingSumOfSquares).toBeCloseTo(50.861, 3);
+    expect(partition.disagreementSumOfSquares).toBeCloseTo(103.408, 3);
+    expect(partition.productFCorrected).toBeCloseTo(15.1713, 4);
   });
 
   it('worst deviation from R on TVbo', () => {
