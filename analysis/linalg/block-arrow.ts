@@ -60,6 +60,7 @@ export function makeBlockArrowWorkspace(layout: BlockArrowLayout): BlockArrowWor
 export function factorBlockArrowInPlace(workspace: BlockArrowWorkspace): boolean {
   const { layout, blocks, couplings, border } = workspace;
   const nB = layout.borderSize;
+  const nonzero = new Int32Array(nB);
   for (let b = 0; b < blocks.length; b++) {
     const nb = layout.blockSizes[b];
     const block = blocks[b];
@@ -67,14 +68,29 @@ export function factorBlockArrowInPlace(workspace: BlockArrowWorkspace): boolean
     if (nB === 0) continue;
     const coupling = couplings[b];
     for (let column = 0; column < nB; column++) forwardSolveInPlace(block, nb, coupling, column, nB);
-    // Schur complement update of the lower triangle of the border: A_B -= W_bᵀ W_b.
+    // Schur complement update of the lower triangle of the border: A_B -= W_bᵀ W_b, one rank-1
+    // update per row of W_b over its nonzeros only (rows of a nested term are mostly zero).
     for (let k = 0; k < nb; k++) {
       const rowK = k * nB;
-      for (let i = 0; i < nB; i++) {
+      let count = 0;
+      for (let i = 0; i < nB; i++) if (coupling[rowK + i] !== 0) nonzero[count++] = i;
+      if (count === 0) continue;
+      if (count === nB) {
+        for (let i = 0; i < nB; i++) {
+          const wki = coupling[rowK + i];
+          const rowI = i * nB;
+          for (let j = 0; j <= i; j++) border[rowI + j] -= wki * coupling[rowK + j];
+        }
+        continue;
+      }
+      for (let a = 0; a < count; a++) {
+        const i = nonzero[a];
         const wki = coupling[rowK + i];
-        if (wki === 0) continue;
         const rowI = i * nB;
-        for (let j = 0; j <= i; j++) border[rowI + j] -= wki * coupling[rowK + j];
+        for (let b2 = 0; b2 <= a; b2++) {
+          const j = nonzero[b2];
+          border[rowI + j] -= wki * coupling[rowK + j];
+        }
       }
     }
   }

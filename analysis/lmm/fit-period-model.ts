@@ -15,6 +15,7 @@ import { fitFromObjective, type LmmDiagnostics, type LmmFit } from './fit.js';
 import { checkOneGroup, checkResponse } from './fit-session-model.js';
 import { buildModelFrame } from './model-frame.js';
 import { minimizeBounded } from './optimise.js';
+import { periodMomentStart } from './period-start.js';
 
 export interface PeriodModelFit {
   json: FitJson;
@@ -50,7 +51,18 @@ export function fitPeriodModel(observations: Observation[], options: PeriodModel
     throw new LmmFitError('too-few-observations', `${frame.nObservations} ratings of ${attribute} are too few for ${frame.nFixed} products`);
   }
   const objective = makeRemlObjective(frame);
-  const fit = fitFromObjective(objective, { startTheta: randomTerms.map(() => 0.5), randomEffectTerms: ['assessor'] });
+  const termIndex = (name: string): Int32Array => frame.terms[randomTerms.findIndex((term) => term.join(':') === name)].index;
+  const cells = {
+    values,
+    assessor: termIndex('assessor'),
+    product: frame.fixedIndex,
+    session: termIndex('session'),
+    nAssessors,
+    nProducts: frame.nFixed,
+    nSessions,
+  };
+  const momentStart = periodMomentStart(cells, withProductSession);
+  const fit = fitFromObjective(objective, { startTheta: momentStart ?? randomTerms.map(() => 0.5), randomEffectTerms: ['assessor'] });
   if (nAssessors < 3) fit.diagnostics.messages.push(`too few assessors (${nAssessors}): the assessor variance is poorly determined`);
 
   let productSessionLrt: PeriodModelFit['productSessionLrt'] = null;
@@ -65,7 +77,8 @@ export function fitPeriodModel(observations: Observation[], options: PeriodModel
       const result = objective.valueAndGradient(expand(theta));
       return { value: result.value, gradient: result.gradient.filter((_, k) => k !== index) };
     };
-    const start = [...fit.theta].filter((_, k) => k !== index).map((value) => Math.max(value, 0.05));
+    const reducedMomentStart = momentStart ? periodMomentStart(cells, false) : null;
+    const start = reducedMomentStart ?? [...fit.theta].filter((_, k) => k !== index).map((value) => Math.max(value, 0.05));
     const reduced = minimizeBounded((theta) => objective.evaluate(expand(theta)), start, {}, withGradient);
     const likelihoodRatio = Math.max(reduced.value - fit.criterion, 0);
     productSessionLrt = { likelihoodRatio, pValue: boundaryLrtPValue(likelihoodRatio) };

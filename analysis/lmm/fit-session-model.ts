@@ -58,11 +58,14 @@ export function fitSessionModel(observations: Observation[]): SessionModelFit {
   }
   const objective = makeRemlObjective(frame);
   const anova = frame.nFixed > 1 ? balancedAnova(values, frame.terms[0].index, frame.fixedIndex, nAssessors, frame.nFixed) : null;
-  const fastPath = anova ? fastPathTheta(anova, withInteraction) : null;
+  const closedForm = anova ? balancedClosedForm(anova, withInteraction) : null;
 
   let fit: LmmFit;
-  if (anova && fastPath) {
-    fit = confirmFastPath(objective, fastPath, closedFormProductTest(anova));
+  let fastPath = false;
+  if (anova && closedForm) {
+    const confirmed = confirmClosedForm(objective, closedForm, closedFormProductTest(anova, closedForm));
+    fit = confirmed.fit;
+    fastPath = confirmed.confirmed;
   } else {
     fit = fitFromObjective(objective, { startTheta: startTheta(anova, withInteraction), randomEffectTerms: [ASSESSOR] });
   }
@@ -90,49 +93,95 @@ export function fitSessionModel(observations: Observation[]): SessionModelFit {
     productMeans: fit.productMeans.map((mean) => ({ ...mean })),
     assessorEffects: (fit.randomEffects[ASSESSOR] ?? []).map((effect) => ({ assessor: effect.level, blup: effect.blup, condSD: effect.condSD })),
   };
-  return { json, diagnostics: { ...fit.diagnostics, balancedFastPath: fastPath !== null }, withInteraction, fit };
+  return { json, diagnostics: { ...fit.diagnostics, balancedFastPath: fastPath }, withInteraction, fit };
 }
 
-/** θ from the ANOVA estimates when all are positive, else null. */
-function fastPathTheta(anova: BalancedAnova, withInteraction: boolean): Float64Array | null {
+interface ClosedForm {
+  theta: Float64Array;
+  /** Denominator mean square and its df of the product F-test. */
+  denominatorMeanSquare: number;
+  denominatorDf: number;
+}
+
+/**
+ * The REML solution of a balanced session in closed form (methods notes §1.2–1.3): the ANOVA
+ * estimates when all are positive; with one negative estimate, that component at 0 and the
+ * ANOVA estimates of the model without it (its sum of squares pooled into the line below).
+ * Null when no closed form applies (two negative estimates, or a pooled estimate not positive).
+ */
+function balancedClosedForm(anova: BalancedAnova, withInteraction: boolean): ClosedForm | null {
   const { nReplicates: n, nProducts: p } = anova;
+  const ssA = anova.msAssessor * anova.dfAssessor;
+  const ssAP = anova.msInteraction * anova.dfInteraction;
   if (withInteraction) {
     const residual = anova.msError;
+    if (!(residual > 0)) return null;
     const interaction = (anova.msInteraction - anova.msError) / n;
     const assessor = (anova.msAssessor - anova.msInteraction) / (n * p);
-    if (!(residual > 0 && interaction > 0 && assessor > 0)) return null;
-    return Float64Array.of(Math.sqrt(assessor / residual), Math.sqrt(interaction / residual));
+    if (interaction > 0 && assessor > 0) {
+      return {
+        theta: Float64Array.of(Math.sqrt(assessor / residual), Math.sqrt(interaction / residual)),
+        denominatorMeanSquare: anova.msInteraction,
+        denominatorDf: anova.dfInteraction,
+      };
+    }
+    if (!(interaction > 0) && assessor > 0) {
+      // Interaction at 0: error and interaction lines pooled.
+      const dfPooled = anova.dfInteraction + anova.dfError;
+      const pooled = (ssAP + anova.msError * anova.dfError) / dfPooled;
+      const pooledAssessor = (anova.msAssessor - pooled) / (n * p);
+      if (!(pooledAssessor > 0)) return null;
+      return { theta: Float64Array.of(Math.sqrt(pooledAssessor / pooled), 0), denominatorMeanSquare: pooled, denominatorDf: dfPooled };
+    }
+    if (interaction > 0 && !(assessor > 0)) {
+      // Assessor at 0: assessor and interaction lines pooled.
+      const dfPooled = anova.dfAssessor + anova.dfInteraction;
+      const pooled = (ssA + ssAP) / dfPooled;
+      const pooledInteraction = (pooled - residual) / n;
+      if (!(pooledInteraction > 0)) return null;
+      return { theta: Float64Array.of(0, Math.sqrt(pooledInteraction / residual)), denominatorMeanSquare: pooled, denominatorDf: dfPooled };
+    }
+    return null;
   }
   if (n !== 1) return null;
   const residual = anova.msInteraction;
+  if (!(residual > 0)) return null;
   const assessor = (anova.msAssessor - anova.msInteraction) / p;
-  if (!(residual > 0 && assessor > 0)) return null;
-  return Float64Array.of(Math.sqrt(assessor / residual));
+  if (assessor > 0) {
+    return { theta: Float64Array.of(Math.sqrt(assessor / residual)), denominatorMeanSquare: residual, denominatorDf: anova.dfInteraction };
+  }
+  const dfPooled = anova.dfAssessor + anova.dfInteraction;
+  return { theta: Float64Array.of(0), denominatorMeanSquare: (ssA + ssAP) / dfPooled, denominatorDf: dfPooled };
 }
 
-function closedFormProductTest(anova: BalancedAnova): ProductTest {
-  const F = anova.msProduct / anova.msInteraction;
-  const denDf = anova.dfInteraction;
+function closedFormProductTest(anova: BalancedAnova, closedForm: ClosedForm): ProductTest {
+  const F = anova.msProduct / closedForm.denominatorMeanSquare;
+  const denDf = closedForm.denominatorDf;
   return { F, numDf: anova.dfProduct, denDf, pValue: fUpperTail(F, anova.dfProduct, denDf), nuPerContrast: [denDf], messages: [] };
 }
 
-/** Confirms the ANOVA solution is stationary (one quasi-Newton check), then assembles with the closed-form test. */
-function confirmFastPath(objective: RemlObjective, theta: Float64Array, productTest: ProductTest): LmmFit {
-  const optimum = minimizeBounded(objective.evaluate, theta, { maxComponentsForFaceSearch: 0 }, objective.valueAndGradient);
+/**
+ * Confirms the closed-form solution is a constrained minimum (one quasi-Newton check of the
+ * projected gradient). If the optimiser moves away from it, the general inference is used.
+ */
+function confirmClosedForm(objective: RemlObjective, closedForm: ClosedForm, productTest: ProductTest): { fit: LmmFit; confirmed: boolean } {
+  const optimum = minimizeBounded(objective.evaluate, closedForm.theta, { maxComponentsForFaceSearch: 0 }, objective.valueAndGradient);
+  const confirmed = optimum.converged && optimum.theta.every((value, k) => Math.abs(value - closedForm.theta[k]) <= 1e-6 * Math.max(1, closedForm.theta[k]));
   const gradientMaxAbs = Math.max(0, ...[...optimum.projectedGradient].map(Math.abs));
-  return assembleFit(
+  const fit = assembleFit(
     objective,
     {
-      theta: optimum.theta,
+      theta: confirmed ? closedForm.theta : optimum.theta,
       iterations: optimum.iterations,
       evaluations: optimum.evaluations,
       converged: optimum.converged,
       gradientMaxAbs,
-      optimizer: `balanced-anova+${OPTIMIZER_NAME}`,
+      optimizer: confirmed ? `balanced-anova+${OPTIMIZER_NAME}` : OPTIMIZER_NAME,
       messages: optimum.messages,
     },
-    { productTest, randomEffectTerms: [ASSESSOR] },
+    { productTest: confirmed ? productTest : undefined, randomEffectTerms: [ASSESSOR] },
   );
+  return { fit, confirmed };
 }
 
 /** ANOVA-type start values, kept away from the boundary so every direction is explored. */

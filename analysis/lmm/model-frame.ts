@@ -91,7 +91,9 @@ export function buildModelFrame(input: ModelFrameInput): ModelFrame {
   const terms: RandomTerm[] = input.randomTerms.map((factors) => {
     const columns = factors.map(column);
     const labels = new Array<string>(n);
-    for (let i = 0; i < n; i++) labels[i] = columns.length === 1 ? columns[0][i] : columns.map((values) => values[i]).join(':');
+    if (columns.length === 1) for (let i = 0; i < n; i++) labels[i] = columns[0][i];
+    else if (columns.length === 2) for (let i = 0; i < n; i++) labels[i] = `${columns[0][i]}:${columns[1][i]}`;
+    else for (let i = 0; i < n; i++) labels[i] = columns.map((values) => values[i]).join(':');
     const levels = [...new Set(labels)].sort(compareLevels);
     const levelIndex = new Map(levels.map((level, index) => [level, index]));
     return { name: factors.join(':'), factors: [...factors], levels, index: Int32Array.from(labels, (label) => levelIndex.get(label)!) };
@@ -238,7 +240,12 @@ function layoutPositions(
   const order: Array<[number, number]> = [];
   const blockSizes: number[] = [];
   if (blockingFactor !== null) {
-    const blockTerms = terms.map((term, k) => k).filter((k) => terms[k].factors.includes(blockingFactor));
+    // Largest nested term first: its own ZᵀZ block is diagonal, so it causes no fill and its
+    // rows of W_b = L_b⁻¹ C_b stay as sparse as its coupling rows.
+    const blockTerms = terms
+      .map((term, k) => k)
+      .filter((k) => terms[k].factors.includes(blockingFactor))
+      .sort((a, b) => terms[b].levels.length - terms[a].levels.length || a - b);
     const blockValues = [...new Set(blockTerms.flatMap((k) => factorValueOfLevel[k][blockingFactor]))].sort(compareLevels);
     const membersOfBlock = new Map<string, Array<[number, number]>>(blockValues.map((value) => [value, []]));
     for (const k of blockTerms) {
