@@ -141,8 +141,10 @@ class RowReader {
   private readonly scales = new Map<string, ScaleRange | null | 'unchecked'>();
   private readonly nColumns: number;
   private readonly valueColumns: { index: number; attribute: string | null }[];
-  private lastDateText: string | null = null;
-  private lastDate: ReturnType<typeof parseSessionDate> | null = null;
+  /** Parsed dates by text: a file has few distinct session dates. */
+  private readonly dates = new Map<string, ReturnType<typeof parseSessionDate>>();
+  /** Reused per row (cleared at the start of readRow). */
+  private readonly keyProblems: InputProblem[] = [];
   nMissing = 0;
   nDataRows = 0;
 
@@ -162,6 +164,22 @@ class RowReader {
 
   private text(cell: string | undefined): string {
     return cellText(cell, this.csv);
+  }
+
+  private parseDate(text: string): ReturnType<typeof parseSessionDate> {
+    let parsed = this.dates.get(text);
+    if (parsed === undefined) {
+      parsed = parseSessionDate(text);
+      if (this.dates.size < 10_000) this.dates.set(text, parsed);
+    }
+    return parsed;
+  }
+
+  private requiredText(cells: readonly string[], role: 'session' | 'assessor' | 'product' | 'attribute', row: number, problems: InputProblem[]): string {
+    const column = this.layout.index[role]!;
+    const value = this.text(cells[column]);
+    if (value === '') problems.push(this.problem('missing-value', row, this.layout.headers[column], `The ${role} is missing; every row needs one.`, ''));
+    return value;
   }
 
   problem(code: ProblemCode, row: number | null, column: string | null, message: string, value?: string | null): InputProblem {
@@ -224,13 +242,11 @@ class RowReader {
     }
 
     // Key cells. Problems here reject the whole row; they are collected first.
-    let keyProblems: InputProblem[] | null = null;
-    const keyProblem = (p: InputProblem): void => {
-      (keyProblems ??= []).push(p);
-    };
+    const keyProblems = this.keyProblems;
+    keyProblems.length = 0;
     for (let i = 0; i < cells.length && i < this.nColumns; i++) {
       if (cells[i].length > this.maxCellChars) {
-        keyProblem(
+        keyProblems.push(
           this.problem('cell-too-long', row, headers[i], `This cell holds ${cells[i].length} characters; the most a cell may hold is ${this.maxCellChars}.`, cells[i].slice(0, 80)),
         );
       }
@@ -238,49 +254,40 @@ class RowReader {
     for (const i of layout.unnamedColumns) {
       const text = cells[i];
       if (text !== undefined && text.trim() !== '' && text.length <= this.maxCellChars) {
-        keyProblem(this.problem('header-unknown-column', row, `column ${i + 1}`, `Column ${i + 1} has no header but this row has a value in it; give the column a name or empty the cell.`, text));
+        keyProblems.push(this.problem('header-unknown-column', row, `column ${i + 1}`, `Column ${i + 1} has no header but this row has a value in it; give the column a name or empty the cell.`, text));
       }
     }
     const ix = layout.index;
-    const required = (role: 'session' | 'assessor' | 'product' | 'attribute'): string => {
-      const value = this.text(cells[ix[role]!]);
-      if (value === '') keyProblem(this.problem('missing-value', row, headers[ix[role]!], `The ${role} is missing; every row needs one.`, ''));
-      return value;
-    };
-    const session = required('session');
-    const assessor = required('assessor');
-    const product = required('product');
+    const session = this.requiredText(cells, 'session', row, keyProblems);
+    const assessor = this.requiredText(cells, 'assessor', row, keyProblems);
+    const product = this.requiredText(cells, 'product', row, keyProblems);
 
     const dateText = this.text(cells[ix.date!]);
     let date = '';
     if (dateText === '') {
-      keyProblem(this.problem('missing-value', row, headers[ix.date!], 'The session date is missing; write it as YYYY-MM-DD.', ''));
+      keyProblems.push(this.problem('missing-value', row, headers[ix.date!], 'The session date is missing; write it as YYYY-MM-DD.', ''));
     } else {
-      if (dateText !== this.lastDateText) {
-        this.lastDateText = dateText;
-        this.lastDate = parseSessionDate(dateText);
-      }
-      const parsed = this.lastDate!;
+      const parsed = this.parseDate(dateText);
       if (parsed.ok) date = parsed.value;
-      else keyProblem(this.problem(parsed.code, row, headers[ix.date!], parsed.message, dateText));
+      else keyProblems.push(this.problem(parsed.code, row, headers[ix.date!], parsed.message, dateText));
     }
 
     const replicateText = this.text(cells[ix.replicate!]);
     let replicate = 0;
     if (replicateText === '') {
-      keyProblem(this.problem('missing-value', row, headers[ix.replicate!], 'The replicate is missing; replicates are numbered 1, 2, 3, …', ''));
+      keyProblems.push(this.problem('missing-value', row, headers[ix.replicate!], 'The replicate is missing; replicates are numbered 1, 2, 3, …', ''));
     } else {
       const parsed = parseReplicate(replicateText);
       if (parsed.ok) replicate = parsed.value;
-      else keyProblem(this.problem(parsed.code, row, headers[ix.replicate!], parsed.message, replicateText));
+      else keyProblems.push(this.problem(parsed.code, row, headers[ix.replicate!], parsed.message, replicateText));
     }
 
     const codeText = ix.code === undefined ? '' : this.text(cells[ix.code]);
     const code = codeText === '' ? null : codeText;
-    const longAttribute = layout.form === 'long' ? required('attribute') : null;
+    const longAttribute = layout.form === 'long' ? this.requiredText(cells, 'attribute', row, keyProblems) : null;
 
-    if (keyProblems !== null) {
-      this.rejectRow(keyProblems, cells, { session, dateText, assessor, product, replicateText, longAttribute, code }, out);
+    if (keyProblems.length > 0) {
+      this.rejectRow([...keyProblems], cells, { session, dateText, assessor, product, replicateText, longAttribute, code }, out);
       return;
     }
 
@@ -428,7 +435,7 @@ export async function* readRatings(source: InputSource, options: ReadRatingsOpti
   const maxColumns = options.maxColumns ?? DEFAULT_MAX_COLUMNS;
   const maxCellChars = options.maxCellChars ?? DEFAULT_MAX_CELL_CHARS;
   let decimalMark: DecimalMark = '.';
-  const records: AsyncGenerator<SourceRecord> =
+  const records: AsyncGenerator<SourceRecord[]> =
     kind === 'xlsx'
       ? readXlsxRecords(byteStream(source), { sheet: options.sheet, stallTimeoutMs: options.stallTimeoutMs ?? DEFAULT_STALL_TIMEOUT_MS })
       : readCsvRecords('bytes' in source ? sliceBytes(source.bytes) : byteStream(source), {
@@ -442,35 +449,32 @@ export async function* readRatings(source: InputSource, options: ReadRatingsOpti
   let reader: RowReader | null = null;
   const out: ReadEvent[] = [];
   try {
-    for await (const record of records) {
-      if (reader === null) {
-        if (isBlankRecord(record.cells)) continue;
-        if (record.cells.length > maxColumns) {
-          yield fileProblem('too-many-columns', `The header row has ${record.cells.length} columns; the most this reader accepts is ${maxColumns}.`, record.row);
-          return;
+    for await (const batch of records) {
+      for (const record of batch) {
+        if (reader === null) {
+          if (isBlankRecord(record.cells)) continue;
+          if (record.cells.length > maxColumns) {
+            yield fileProblem('too-many-columns', `The header row has ${record.cells.length} columns; the most this reader accepts is ${maxColumns}.`, record.row);
+            return;
+          }
+          const longCell = record.cells.findIndex((c) => c.length > maxCellChars);
+          if (longCell !== -1) {
+            yield fileProblem('cell-too-long', `Header cell ${longCell + 1} holds ${record.cells[longCell].length} characters; the most a cell may hold is ${maxCellChars}.`, record.row);
+            return;
+          }
+          const { layout, problems } = resolveColumnLayout(record.cells, record.row, kind === 'csv');
+          if (layout === null) {
+            for (const p of problems) yield { type: 'problem', cell: null, problem: { ...p, file } };
+            return;
+          }
+          reader = new RowReader(file, layout, decimalMark, kind === 'csv', options);
+          if (layout.form === 'wide') reader.checkHeaderScales(record.row, out);
+        } else if (!isBlankRecord(record.cells)) {
+          reader.readRow(record, out);
         }
-        const longCell = record.cells.findIndex((c) => c.length > maxCellChars);
-        if (longCell !== -1) {
-          yield fileProblem('cell-too-long', `Header cell ${longCell + 1} holds ${record.cells[longCell].length} characters; the most a cell may hold is ${maxCellChars}.`, record.row);
-          return;
-        }
-        const { layout, problems } = resolveColumnLayout(record.cells, record.row, kind === 'csv');
-        if (layout === null) {
-          for (const p of problems) yield { type: 'problem', cell: null, problem: { ...p, file } };
-          return;
-        }
-        reader = new RowReader(file, layout, decimalMark, kind === 'csv', options);
-        if (layout.form === 'wide') {
-          reader.checkHeaderScales(record.row, out);
-          for (const event of out) yield event;
-          out.length = 0;
-        }
-        continue;
+        for (let i = 0; i < out.length; i++) yield out[i];
+        out.length = 0;
       }
-      if (isBlankRecord(record.cells)) continue;
-      reader.readRow(record, out);
-      for (let i = 0; i < out.length; i++) yield out[i];
-      out.length = 0;
     }
   } catch (error) {
     if (error instanceof SourceFailure) {

@@ -65,12 +65,12 @@ export function xlsxCellText(value: unknown): string {
 }
 
 /**
- * Stream the rows of one worksheet of an .xlsx workbook with exceljs's streaming reader.
+ * Stream the rows of one worksheet (as batches of one) of an .xlsx workbook with exceljs's streaming reader.
  * Row numbers are the sheet's own (header = the first non-empty row); missing rows are
  * skipped, as a spreadsheet shows them empty. Throws SourceFailure('sheet-missing') when
  * the named sheet is absent and 'file-unreadable' for a damaged workbook.
  */
-export async function* readXlsxRecords(input: Readable, options: XlsxRecordOptions): AsyncGenerator<SourceRecord> {
+export async function* readXlsxRecords(input: Readable, options: XlsxRecordOptions): AsyncGenerator<SourceRecord[]> {
   const progress = { at: Date.now() };
   const counted = input.pipe(
     new Transform({
@@ -114,7 +114,7 @@ export async function* readXlsxRecords(input: Readable, options: XlsxRecordOptio
         const values = next.value.values as unknown[];
         const cells: string[] = new Array(Math.max(0, values.length - 1));
         for (let i = 1; i < values.length; i++) cells[i - 1] = xlsxCellText(values[i]);
-        yield { row: next.value.number, cells };
+        yield [{ row: next.value.number, cells }];
         progress.at = Date.now();
       }
       break;

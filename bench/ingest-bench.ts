@@ -1,0 +1,129 @@
+/**
+ * Parsing benchmark (ingest only, no database): throughput and peak memory of readRatings
+ * for 1e5 and 1e6 ratings in long and wide form, each size read in a fresh child process so
+ * that its peak RSS is its own. Also times bare csv-parse on the same long file, the floor
+ * any csv-parse-based reader sits on.
+ *
+ *   npx tsx bench/ingest-bench.ts            # all sizes, prints a markdown table
+ *   npx tsx bench/ingest-bench.ts 100000     # one size
+ */
+import { spawnSync } from 'node:child_process';
+import { createReadStream, createWriteStream, mkdtempSync, rmSync, statSync } from 'node:fs';
+import { cpus, tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { parse } from 'csv-parse';
+import { readRatings } from '../ingest/read-ratings.js';
+
+const ATTRIBUTES = ['crunchy', 'salty', 'sweet', 'sour', 'bitter', 'oily', 'hard', 'moist', 'roasted', 'smoky'];
+const ASSESSORS = 12;
+const PRODUCTS = 6;
+const REPLICATES = 2;
+
+/** Write nRatings invented ratings (a panel year: sessions × assessors × products × reps × attributes). */
+async function writeFile(path: string, form: 'long' | 'wide', nRatings: number): Promise<void> {
+  const out = createWriteStream(path);
+  const write = (s: string): Promise<void> | void => {
+    if (!out.write(s)) return new Promise((resolve) => out.once('drain', () => resolve()));
+  };
+  await write(
+    form === 'long'
+      ? 'session,date,assessor,product,replicate,attribute,value\n'
+      : `session,date,assessor,product,replicate,${ATTRIBUTES.join(',')}\n`,
+  );
+  const perSession = ASSESSORS * PRODUCTS * REPLICATES * ATTRIBUTES.length;
+  let written = 0;
+  let buffer = '';
+  for (let session = 0; written < nRatings; session++) {
+    const day = new Date(Date.UTC(2020, 0, 6) + session * 7 * 86_400_000).toISOString().slice(0, 10);
+    for (let k = 0; k < perSession / ATTRIBUTES.length && written < nRatings; k++) {
+      const assessor = `A${(k % ASSESSORS) + 1}`;
+      const product = `P${(Math.floor(k / ASSESSORS) % PRODUCTS) + 1}`;
+      const replicate = Math.floor(k / (ASSESSORS * PRODUCTS)) + 1;
+      const key = `W${session + 1},${day},${assessor},${product},${replicate}`;
+      if (form === 'long') {
+        for (let a = 0; a < ATTRIBUTES.length && written < nRatings; a++, written++) {
+          buffer += `${key},${ATTRIBUTES[a]},${((written * 7919) % 101) / 10}\n`;
+        }
+      } else {
+        const values = ATTRIBUTES.map((_, a) => ((written + a) * 7919 % 101) / 10);
+        written += ATTRIBUTES.length;
+        buffer += `${key},${values.join(',')}\n`;
+      }
+      if (buffer.length > 1 << 16) {
+        await write(buffer);
+        buffer = '';
+      }
+    }
+  }
+  await write(buffer);
+  await new Promise<void>((resolve, reject) => out.end((error?: Error | null) => (error ? reject(error) : resolve())));
+}
+
+interface ChildResult {
+  nRatings: number;
+  nProblems: number;
+  seconds: number;
+  peakRssMb: number;
+}
+
+/** Runs inside the child: read the file, report counts, time and peak RSS. */
+async function child(mode: string, path: string): Promise<void> {
+  const start = process.hrtime.bigint();
+  let nRatings = 0;
+  let nProblems = 0;
+  if (mode === 'csv-parse') {
+    const parser = createReadStream(path).pipe(parse({ relax_column_count: true }));
+    for await (const _record of parser) nRatings++;
+    nRatings--; // header
+  } else {
+    for await (const event of readRatings({ path }, { fileName: 'bench.csv', scaleFor: () => ({ min: 0, max: 10 }) })) {
+      if (event.type === 'rating') nRatings++;
+      else if (event.type === 'problem') nProblems++;
+    }
+  }
+  const seconds = Number(process.hrtime.bigint() - start) / 1e9;
+  // maxRSS is in kilobytes.
+  const result: ChildResult = { nRatings, nProblems, seconds, peakRssMb: process.resourceUsage().maxRSS / 1024 };
+  process.stdout.write(JSON.stringify(result));
+}
+
+function runChild(mode: string, path: string): ChildResult {
+  const self = fileURLToPath(import.meta.url);
+  const run = spawnSync(process.execPath, ['--import', 'tsx', self, '--child', mode, path], { encoding: 'utf8', maxBuffer: 1 << 20 });
+  if (run.status !== 0) throw new Error(`child failed: ${run.stderr}`);
+  return JSON.parse(run.stdout) as ChildResult;
+}
+
+async function main(): Promise<void> {
+  const sizes = process.argv[2] ? [Number(process.argv[2])] : [100_000, 1_000_000];
+  const dir = mkdtempSync(join(tmpdir(), 'ingest-bench-'));
+  const rows: string[] = [];
+  try {
+    for (const n of sizes) {
+      for (const form of ['long', 'wide'] as const) {
+        const path = join(dir, `${form}-${n}.csv`);
+        await writeFile(path, form, n);
+        const sizeMb = statSync(path).size / 1e6;
+        const modes = form === 'long' ? ['readRatings', 'csv-parse'] : ['readRatings'];
+        for (const mode of modes) {
+          const r = runChild(mode, path);
+          if (mode === 'readRatings' && (r.nRatings !== n || r.nProblems !== 0)) throw new Error(`expected ${n} ratings, got ${r.nRatings} (${r.nProblems} problems)`);
+          const perSecond = r.nRatings / r.seconds;
+          rows.push(
+            `| ${n.toExponential(0).replace('e+', 'e')} | ${form} | ${mode === 'csv-parse' ? 'bare csv-parse (records)' : 'readRatings'} | ${sizeMb.toFixed(1)} | ${r.seconds.toFixed(2)} | ${Math.round(perSecond).toLocaleString('en-US')} | ${r.peakRssMb.toFixed(0)} |`,
+          );
+        }
+      }
+    }
+  } finally {
+    rmSync(dir, { recursive: true, force: true });
+  }
+  console.log(`Node ${process.version}, ${cpus().length} × ${cpus()[0]?.model ?? 'cpu'}`);
+  console.log('| ratings | form | reader | file MB | seconds | ratings/s | peak RSS MB |');
+  console.log('| ---: | --- | --- | ---: | ---: | ---: | ---: |');
+  for (const row of rows) console.log(row);
+}
+
+if (process.argv[2] === '--child') await child(process.argv[3], process.argv[4]);
+else await main();
