@@ -100,7 +100,7 @@ describe('fuzzing the JSON endpoints', () => {
         const response = await t.app.inject({ method: verb, url: path + query, headers: hdrs, payload: hasBody ? payload : undefined });
         // The client resolves dot segments first (/api/%2e%2e is sent as /), so what counts as a
         // JSON endpoint is decided on the path the service receives.
-        const receivedPath = new URL(path, 'http://localhost').pathname;
+        const receivedPath = new URL(`http://localhost${path}`).pathname;
         const isJsonEndpoint = receivedPath.startsWith('/api') || receivedPath.endsWith('.json') || receivedPath.endsWith('.csv');
         if (verb === 'HEAD' || !isJsonEndpoint) {
           nInputsTried += 1;
