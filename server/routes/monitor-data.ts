@@ -4,9 +4,10 @@
  * series, the refit status. Route handlers call these, then a report/ view builder.
  */
 import type { Database } from 'better-sqlite3';
-import { sizedLimits } from '../../analysis/flags/drift-flags.js';
 import { validateThresholds, type PanelThresholds } from '../../analysis/flags/index.js';
-import { monitorSeries, type ChartDesigns, type SegmentOptions } from '../../analysis/monitor/chart.js';
+import { monitorSeries, targetArl0ForChartSet, type ChartDesigns, type SegmentOptions } from '../../analysis/monitor/chart.js';
+import { cusumIntervalForArl0 } from '../../analysis/monitor/cusum.js';
+import { ewmaLimitForArl0 } from '../../analysis/monitor/ewma.js';
 import {
   buildAssessorSeries,
   indexLookup,
@@ -36,14 +37,34 @@ export function panelThresholds(db: Database, panelId: number): PanelThresholds 
   return validateThresholds(loadPanelThresholds(db, panelId)?.thresholds ?? {}).thresholds;
 }
 
+/** Markov-chain states for sizing display limits: enough for 3 digits of L and h (methods §3.4). */
+const SIZING_STATES = 101;
+const sizingCache = new Map<string, { ewmaL: number; cusumH: number }>();
+
+/** EWMA L and CUSUM h for a target in-control ARL (memoised: the bisections solve Markov chains). */
+function sizedLimits(lambda: number, k: number, targetArl0: number): { ewmaL: number; cusumH: number } {
+  // Two significant digits of the target are plenty for a display and let the cache work.
+  const magnitude = 10 ** (Math.floor(Math.log10(targetArl0)) - 1);
+  const target = Math.round(targetArl0 / magnitude) * magnitude;
+  const key = `${lambda}|${k}|${target}`;
+  let limits = sizingCache.get(key);
+  if (!limits) {
+    limits = { ewmaL: ewmaLimitForArl0(lambda, target, SIZING_STATES), cusumH: cusumIntervalForArl0(k, target, SIZING_STATES) };
+    sizingCache.set(key, limits);
+  }
+  return limits;
+}
+
 /**
- * Chart designs for a set of nCharts charts, sized as the flag engine sizes its act level
- * (ARL0 = K × sessions per year / tolerated false alarms per year, methods §3.4), so what the
- * chart shows beyond its limits is what can raise an act flag.
+ * Chart designs for a set of nCharts charts, with limits for the act level's false-alarm budget
+ * (ARL0 = K × sessions per year / tolerated false alarms per year, methods §3.4), so a point
+ * beyond the drawn limits is the kind of evidence an act flag needs. The flag engine applies its
+ * own refinements (baseline-estimation allowance); the flags, not the charts, are the verdict-free
+ * summary of what fired.
  */
 export function chartDesigns(thresholds: PanelThresholds, nCharts: number): { designs: ChartDesigns; baseline: SegmentOptions['baseline'] } {
   const c = thresholds.charts;
-  const act = sizedLimits(Math.max(1, nCharts), c.sessionsPerYear, c.actFalseAlarmsPerYear, c.ewmaLambda, c.cusumK);
+  const act = sizedLimits(c.ewmaLambda, c.cusumK, targetArl0ForChartSet(Math.max(1, nCharts), c.sessionsPerYear, c.actFalseAlarmsPerYear));
   return {
     designs: {
       ewma: { lambda: c.ewmaLambda, L: Number(act.ewmaL.toFixed(3)) },
