@@ -158,7 +158,7 @@ export const DEFAULT_FAULT_SIZES: Record<FlagKind, number> = {
   drift: 0.08, // level change per weekly session
   inconsistent: 2.5, // replicate-noise SD multiplier
   'non-discriminating': 0.1, // scaling coefficient (profile flattened)
-  disagreement: 1.2, // SD of an extra persistent assessor×product term
+  disagreement: 1, // SD of an extra persistent assessor×product term, in units of the attribute's product spread
   reversed: 1, // scaling coefficient becomes −size
   'scale-compression': 0.45, // scaling coefficient
   'scale-expansion': 1.9, // scaling coefficient
@@ -374,6 +374,7 @@ export function generatePanel(options: PanelScenarioOptions): GeneratedPanel {
   const frng = createRandom(streamSeed(opts.seed, 1));
   const specs: FaultSpec[] =
     options.faults === 'none' ? [] : options.faults === 'demo' ? demoFaults(nWeeks, nAssessors) : options.faults;
+  const attributeSpreads = attributeNames.map((_, j) => attributeSpread(products, j));
   const spreadOrder = attributeNames
     .map((name, j) => ({ name, spread: attributeSpread(products, j) }))
     .sort((x, y) => y.spread - x.spread)
@@ -399,7 +400,22 @@ export function generatePanel(options: PanelScenarioOptions): GeneratedPanel {
   const extraDisagreement = new Map<string, number[][]>(); // fault index -> [product][attribute]
   truth.forEach((fault, k) => {
     if (fault.kind === 'disagreement') {
-      extraDisagreement.set(String(k), products.map(() => attributeNames.map(() => fault.size! * frng.normal())));
+      // Per attribute: a random deviation per product, made uncorrelated with the true profile (so
+      // it is disagreement, not a change of scale use) and scaled to size × the attribute's product
+      // spread, so it is equally visible where products differ a lot and where they differ little.
+      const byAttribute = attributeNames.map((_, j) => {
+        const profile = products.map((p) => p.profile[j]);
+        const profileMean = profile.reduce((x, y) => x + y, 0) / profile.length;
+        const centred = profile.map((x) => x - profileMean);
+        const draw = products.map(() => frng.normal());
+        const drawMean = draw.reduce((x, y) => x + y, 0) / draw.length;
+        const d = draw.map((x) => x - drawMean);
+        const projection = d.reduce((acc, x, i) => acc + x * centred[i], 0) / centred.reduce((acc, x) => acc + x * x, 0);
+        const orthogonal = d.map((x, i) => x - projection * centred[i]);
+        const sd = Math.sqrt(orthogonal.reduce((acc, x) => acc + x * x, 0) / (orthogonal.length - 1));
+        return orthogonal.map((x) => (fault.size! * attributeSpreads[j] * x) / sd);
+      });
+      extraDisagreement.set(String(k), products.map((_, pi) => attributeNames.map((__, j) => byAttribute[j][pi])));
     }
   });
 
@@ -761,7 +777,7 @@ function describeFault(f: PlantedFault): string {
     case 'non-discriminating':
       return `${f.assessor} compresses product differences to ${f.size} of the panel's on ${on} ${from}.`;
     case 'disagreement':
-      return `${f.assessor} adds product-specific disagreement (SD ${f.size}) on ${on} ${from}.`;
+      return `${f.assessor} adds product-specific disagreement (SD ${f.size} × the products' spread) on ${on} ${from}.`;
     case 'reversed':
       return `${f.assessor} ranks products in reverse on ${on} ${from}.`;
     case 'scale-compression':

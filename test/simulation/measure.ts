@@ -128,7 +128,7 @@ export function reportMarkdown(report: SimulationReport, commit: string): string
   lines.push(
     `Act-level flags on clean assessors: ${report.cleanActFlags.length} in ${report.cleanAssessorYears.toFixed(1)} clean assessor-years = ` +
       `**${report.cleanActPer10AssessorYears.toFixed(2)} per 10 clean assessor-years** (goal ≤ 1). Watch-level flags on clean assessors: ${report.cleanWatchFlagCount}. ` +
-      `Act-level unstable-product flags on products with no planted step: ${report.stableProductActFlags.length}.`,
+      `Act-level unstable-product flags that match no planted step: ${report.stableProductActFlags.length}.`,
   );
   lines.push('');
   lines.push('Drift (linear, from mid-period): sessions from the first drifting session (= 1) to the first drift flag, the engine re-run after every session:');

@@ -33,7 +33,7 @@ function designA(seed: number): SimulationScenario {
     { kind: 'inconsistent', assessor: 'A03', size: 2.5 },
     { kind: 'reversed', assessor: 'A04' },
     { kind: 'scale-expansion', assessor: 'A05', size: 1.9 },
-    { kind: 'disagreement', assessor: 'A06', size: 1.2 },
+    { kind: 'disagreement', assessor: 'A06', size: 1 },
     { kind: 'unstable-product', product: 'T01', fromSession: mid, size: 1.5 },
     // One-session data faults, two of each, on the faulty assessors above.
     { kind: 'swapped-codes', assessor: 'A01', fromSession: 9 },
@@ -66,7 +66,7 @@ function designB(seed: number, nWeeks: number): SimulationScenario {
     { kind: 'drift', assessor: 'A02', fromSession: mid, size: 0.1 },
     { kind: 'non-discriminating', assessor: 'A03', size: 0.1 },
     { kind: 'scale-compression', assessor: 'A04', size: 0.45 },
-    { kind: 'disagreement', assessor: 'A05', size: 1.2 },
+    { kind: 'disagreement', assessor: 'A05', size: 1 },
     { kind: 'unstable-product', product: 'T02', fromSession: mid, size: 1.5 },
     { kind: 'swapped-codes', assessor: 'A01', fromSession: 6 },
     { kind: 'swapped-codes', assessor: 'A02', fromSession: mid - 3 },

@@ -47,13 +47,18 @@ describe('flagFindsFault', () => {
     expect(flagFindsFault(flag({ kind: 'swapped-codes', assessor: 'A03', product: 'T02', firstSession: 'S05' }), swapped)).toBe(true);
     expect(flagFindsFault(flag({ kind: 'swapped-codes', assessor: 'A03', product: 'REF', firstSession: 'S05' }), swapped)).toBe(true);
     expect(flagFindsFault(flag({ kind: 'swapped-codes', assessor: 'A03', product: 'T03', firstSession: 'S05' }), swapped)).toBe(false);
+    expect(flagFindsFault(flag({ kind: 'swapped-codes', assessor: 'A03', product: 'REF, T02', firstSession: 'S05' }), swapped)).toBe(true);
+    expect(flagFindsFault(flag({ kind: 'swapped-codes', assessor: 'A03', product: 'T03, T04', firstSession: 'S05' }), swapped)).toBe(false);
     expect(flagFindsFault(flag({ kind: 'swapped-codes', assessor: 'A03', product: 'T02', firstSession: 'S06' }), swapped)).toBe(false);
   });
 
   it('an unstable product needs a flag naming that product', () => {
     expect(flagFindsFault(flag({ kind: 'unstable-product', product: 'T01', attribute: 'sourness', firstSession: 'S06' }), unstable)).toBe(true);
     expect(flagFindsFault(flag({ kind: 'unstable-product', product: 'T02', attribute: 'sourness' }), unstable)).toBe(false);
-    expect(flagFindsFault(flag({ kind: 'unstable-product', attribute: 'sourness' }), unstable)).toBe(false);
+    // The period model's product:session test names the attribute only.
+    expect(flagFindsFault(flag({ kind: 'unstable-product', attribute: 'sourness' }), unstable)).toBe(true);
+    expect(flagFindsFault(flag({ kind: 'unstable-product', attribute: 'sweetness' }), unstable)).toBe(false);
+    expect(flagFindsFault(flag({ kind: 'unstable-product' }), unstable)).toBe(false);
   });
 });
 

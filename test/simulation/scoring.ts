@@ -18,10 +18,16 @@ export function flagFindsFault(flag: Flag, fault: PlantedFault): boolean {
   if (flag.kind !== fault.kind) return false;
   if (fault.assessor !== null && flag.assessor !== fault.assessor) return false;
   if (fault.product !== null && flag.product !== null) {
-    const products = [fault.product, fault.otherProduct].filter((p): p is string => p !== null);
-    if (!products.includes(flag.product)) return false;
+    const planted = [fault.product, fault.otherProduct].filter((p): p is string => p !== null);
+    // A swap flag may name both products in one field ("T02, T06").
+    const named = fault.kind === 'swapped-codes' ? flag.product.split(/,\s*/) : [flag.product];
+    if (!named.some((p) => planted.includes(p))) return false;
   }
-  if (fault.kind === 'unstable-product' && flag.product === null) return false;
+  // A product-less instability flag (the period model's product:session test) finds a planted
+  // step only through a planted attribute.
+  if (fault.kind === 'unstable-product' && flag.product === null && (flag.attribute === null || fault.attributes === null || !fault.attributes.includes(flag.attribute))) {
+    return false;
+  }
   if (fault.attributes !== null && flag.attribute !== null && !fault.attributes.includes(flag.attribute)) return false;
   if (ONE_SESSION_KINDS.has(fault.kind) && flag.firstSession !== fault.firstSession) return false;
   return true;
@@ -45,7 +51,7 @@ export interface PanelScore {
   cleanWatchFlags: Flag[];
   /** Clean assessor-years observed (clean assessors × weeks / 52). */
   cleanAssessorYears: number;
-  /** Act-level unstable-product flags on products with no planted step. */
+  /** Act-level unstable-product flags that find no planted step (wrong product or attribute). */
   stableProductActFlags: Flag[];
 }
 
@@ -64,13 +70,13 @@ export function scorePanel(flags: readonly Flag[], truth: readonly PlantedFault[
     if (matching.some((flag) => flag.severity === 'act')) tally.foundAct++;
   }
   const clean = new Set(cleanAssessors);
-  const plantedProducts = new Set(truth.filter((f) => f.kind === 'unstable-product').map((f) => f.product));
+  const planted = truth.filter((f) => f.kind === 'unstable-product');
   return {
     byKind,
     cleanActFlags: flags.filter((f) => f.severity === 'act' && f.assessor !== null && clean.has(f.assessor)),
     cleanWatchFlags: flags.filter((f) => f.severity === 'watch' && f.assessor !== null && clean.has(f.assessor)),
     cleanAssessorYears: (cleanAssessors.length * nWeeks) / 52,
-    stableProductActFlags: flags.filter((f) => f.kind === 'unstable-product' && f.severity === 'act' && !plantedProducts.has(f.product)),
+    stableProductActFlags: flags.filter((f) => f.kind === 'unstable-product' && f.severity === 'act' && !planted.some((fault) => flagFindsFault(f, fault))),
   };
 }
 
