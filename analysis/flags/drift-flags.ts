@@ -9,19 +9,23 @@
 import type { Flag, FlagSeverity } from '../../domain/flags.js';
 import { standardiseSegments, targetArl0ForChartSet, type SegmentOptions, type SeriesPoint } from '../monitor/chart.js';
 import { cusumChart, cusumIntervalForArl0 } from '../monitor/cusum.js';
-import { ewmaChart, ewmaLimitForArl0 } from '../monitor/ewma.js';
+import { ewmaChart } from '../monitor/ewma.js';
+import { ewmaLimitForUnconditionalArl0 } from '../monitor/unconditional.js';
 import { individualsChart } from '../monitor/shewhart.js';
-import { buildAssessorSeries, restartSessionsFor, summarySeries } from '../monitor/series.js';
+import { buildAssessorSeries, median, restartSessionsFor, summarySeries } from '../monitor/series.js';
 import type { FlagContext } from './context.js';
 import { points, sessionsText } from './format.js';
 
-/** States of the Markov chains used for sizing inside buildFlags: 101 keeps sizing fast; L differs from 301 states by < 0.1 % (checked in the tests). */
-const SIZING_STATES = 101;
+/** States of the CUSUM chain used to size the change-point CUSUM inside buildFlags (fast; ARL0 within ~2 % of 400 states). */
+const SIZING_STATES = 61;
 
-export interface ChartLimits {
-  ewmaL: number;
-  cusumH: number;
-  targetArl0: number;
+/** Targets for one chart set: ARL0 = K × sessions per year / tolerated false alarms per year (methods §3.4). */
+export interface ChartSizing {
+  lambda: number;
+  k: number;
+  actTargetArl0: number;
+  watchTargetArl0: number;
+  nCharts: number;
 }
 
 /** Target ARL0 rounded to two significant digits so that the memoised sizing is reused across panels. */
@@ -30,91 +34,97 @@ function roundTarget(arl0: number): number {
   return Math.round(arl0 / magnitude) * magnitude;
 }
 
-export function sizedLimits(nCharts: number, sessionsPerYear: number, falseAlarmsPerYear: number, lambda: number, k: number): ChartLimits {
-  const targetArl0 = roundTarget(targetArl0ForChartSet(nCharts, sessionsPerYear, falseAlarmsPerYear));
+export function chartSizing(nCharts: number, sessionsPerYear: number, actFalseAlarmsPerYear: number, watchFalseAlarmsPerYear: number, lambda: number, k: number): ChartSizing {
   return {
-    ewmaL: ewmaLimitForArl0(lambda, targetArl0, SIZING_STATES),
-    cusumH: cusumIntervalForArl0(k, targetArl0, SIZING_STATES),
-    targetArl0,
+    lambda,
+    k,
+    nCharts,
+    actTargetArl0: roundTarget(targetArl0ForChartSet(nCharts, sessionsPerYear, actFalseAlarmsPerYear)),
+    watchTargetArl0: roundTarget(targetArl0ForChartSet(nCharts, sessionsPerYear, watchFalseAlarmsPerYear)),
   };
 }
 
 export interface ChartSignal {
   severity: FlagSeverity;
   direction: 'up' | 'down';
-  chart: 'EWMA' | 'CUSUM' | 'Western Electric';
+  chart: 'EWMA' | 'Western Electric';
   signalSession: string;
-  /** Estimated start of the change (CUSUM estimate t − N + 1), else the signal session. */
+  /** Estimated start of the change (tabular CUSUM estimate t − N + 1), else the signal session. */
   changeSession: string;
   statistic: number;
   limit: number;
+  /** EWMA limit width L used at the reported level. */
+  limitWidth: number;
+  targetArl0: number;
   rules?: number[];
-  baseline: { centre: number; spreadSd: number; nReference: number; provisional: boolean; startSession: string };
+  baseline: { centre: number; spreadSd: number; nReference: number; provisional: boolean; startSession: string; pooledSpreadFloorSd: number | null };
   /** Mean of the last (up to) four values minus the centre, in series units. */
   recentShift: number;
   nPoints: number;
-  limits: { act: ChartLimits; watch: ChartLimits };
 }
 
-/** First act-level (else watch-level) signal in the series' current segment, or null. */
+/** The current (last) segment's baseline spread, or null. */
+export function currentSpread(series: readonly SeriesPoint[], options: SegmentOptions): number | null {
+  const segments = standardiseSegments(series, options);
+  return segments[segments.length - 1]?.baseline.spreadSd ?? null;
+}
+
+/**
+ * First act-level (else watch-level) EWMA signal in the series' current segment, or null.
+ * Limits: exact EWMA limits with L sized for the unconditional ARL0 over the baseline's estimation
+ * error (analysis/monitor/unconditional.ts). With `spreadFloorSd` (a panel-pooled spread of
+ * comparable series) the spread used is max(own σ̂, floor), which removes the short-σ̂ tail that
+ * otherwise dominates false alarms. The tabular CUSUM supplies the change-point estimate.
+ */
 export function evaluateChart(
   series: readonly SeriesPoint[],
   options: SegmentOptions,
-  limits: { act: ChartLimits; watch: ChartLimits },
-  lambda: number,
-  k: number,
+  sizing: ChartSizing,
   westernElectric: boolean,
   /** Act also needs |recent shift| ≥ this (series units); smaller shifts are reported as watch. */
   minimumActShift = 0,
+  spreadFloorSd: number | null = null,
 ): ChartSignal | null {
   const segments = standardiseSegments(series, options);
   const segment = segments[segments.length - 1];
   if (!segment || segment.points.length === 0 || segment.baseline.centre === null || segment.baseline.spreadSd === null) return null;
-  const z = segment.points.map((p) => p.z);
-  const ewma = ewmaChart(z, { lambda, L: 1 });
-  // The estimated centre is off by about σ/√N for the whole segment, a persistent shift that the
-  // nominal limits ignore; widening the EWMA variance by 1/N (and the CUSUM by the same factor)
-  // keeps the false-alarm rate near the sized one with a 20-value baseline (ours; see Jensen et al.
-  // 2006 for the size of the effect). Checked by simulation in the tests.
-  const centreVariance = 1 / segment.baseline.nReference;
-  // The tabular CUSUM has no such simple correction (the centre error accumulates at every step):
-  // in a simulation of 4000 clean 52-session series with a 20-value baseline it gave ~50 times
-  // the sized false-alarm rate, so it supplies the change-point estimate and the display only.
-  const useCusumSignals = false;
-  const cusum = cusumChart(z, { k, h: Infinity });
+  const centre = segment.baseline.centre;
+  const spreadSd = Math.max(segment.baseline.spreadSd, spreadFloorSd ?? 0);
+  const z = segment.points.map((p) => (p.value - centre) / spreadSd);
+  const nReference = segment.baseline.nReference;
+  const floorRatio = spreadFloorSd !== null && spreadFloorSd > 0 ? 1 : 0;
+  const ewma = ewmaChart(z, { lambda: sizing.lambda, L: 1 });
+  const changeH = cusumIntervalForArl0(sizing.k, sizing.watchTargetArl0, SIZING_STATES);
+  const cusum = cusumChart(z, { k: sizing.k, h: changeH });
   const provisional = segment.baseline.status === 'provisional';
   const recent = segment.points.slice(-4);
-  const recentShift = recent.reduce((s, p) => s + p.value, 0) / recent.length - segment.baseline.centre;
-  const baseline = {
-    centre: segment.baseline.centre,
-    spreadSd: segment.baseline.spreadSd,
-    nReference: segment.baseline.nReference,
-    provisional,
-    startSession: segment.startSession,
-  };
-  const cusumChangePoint = (hLimit: number): string | null => {
-    for (let t = 0; t < z.length; t++) {
-      const p = cusum.points[t];
-      if (p.upper > hLimit) return segment.points[t - p.nUpper + 1].session;
-      if (p.lower > hLimit) return segment.points[t - p.nLower + 1].session;
-    }
-    return null;
+  const recentShift = recent.reduce((s, p) => s + p.value, 0) / recent.length - centre;
+  const baseline = { centre, spreadSd, nReference, provisional, startSession: segment.startSession, pooledSpreadFloorSd: spreadFloorSd };
+  const changeSession = (): string | null => {
+    const signal = cusum.firstSignal;
+    return signal ? segment.points[signal.changePointIndex].session : null;
   };
   for (const level of ['act', 'watch'] as const) {
-    const { ewmaL, cusumH } = limits[level];
-    for (let t = 0; t < z.length; t++) {
-      const e = ewma.points[t];
-      const c = cusum.points[t];
-      let found: Pick<ChartSignal, 'chart' | 'direction' | 'statistic' | 'limit'> | null = null;
-      const ewmaLimit = ewmaL * Math.sqrt(e.limit * e.limit + centreVariance);
-      if (Math.abs(e.statistic) > ewmaLimit) found = { chart: 'EWMA', direction: e.statistic > 0 ? 'up' : 'down', statistic: e.statistic, limit: ewmaLimit };
-      else if (useCusumSignals && c.upper > cusumH) found = { chart: 'CUSUM', direction: 'up', statistic: c.upper, limit: cusumH };
-      else if (useCusumSignals && c.lower > cusumH) found = { chart: 'CUSUM', direction: 'down', statistic: c.lower, limit: cusumH };
-      if (!found) continue;
-      const severity: FlagSeverity = level === 'act' && !provisional && Math.abs(recentShift) >= minimumActShift ? 'act' : 'watch';
-      const changeSession = cusumChangePoint(limits.watch.cusumH) ?? segment.points[t].session;
-      return { ...found, severity, signalSession: segment.points[t].session, changeSession, baseline, recentShift, nPoints: z.length, limits };
-    }
+    const targetArl0 = level === 'act' ? sizing.actTargetArl0 : sizing.watchTargetArl0;
+    const limitWidth = ewmaLimitForUnconditionalArl0(sizing.lambda, targetArl0, nReference, floorRatio);
+    const t = ewma.points.findIndex((e) => Math.abs(e.statistic) > limitWidth * e.limit);
+    if (t < 0) continue;
+    const e = ewma.points[t];
+    const severity: FlagSeverity = level === 'act' && !provisional && Math.abs(recentShift) >= minimumActShift ? 'act' : 'watch';
+    return {
+      severity,
+      chart: 'EWMA',
+      direction: e.statistic > 0 ? 'up' : 'down',
+      statistic: e.statistic,
+      limit: limitWidth * e.limit,
+      limitWidth,
+      targetArl0,
+      signalSession: segment.points[t].session,
+      changeSession: changeSession() ?? segment.points[t].session,
+      baseline,
+      recentShift,
+      nPoints: z.length,
+    };
   }
   if (westernElectric) {
     const chart = individualsChart(z, [2, 3, 4]);
@@ -126,17 +136,24 @@ export function evaluateChart(
         direction: z[t] > 0 ? 'up' : 'down',
         statistic: z[t],
         limit: 0,
+        limitWidth: 0,
+        targetArl0: 0,
         rules: chart[t].rules,
         signalSession: segment.points[t].session,
         changeSession: segment.points[t].session,
         baseline,
         recentShift,
         nPoints: z.length,
-        limits,
       };
     }
   }
   return null;
+}
+
+/** Median of the defined values, or null when fewer than 3 (too few to pool). */
+export function pooledSpread(spreads: readonly (number | null)[]): number | null {
+  const defined = spreads.filter((v): v is number => v !== null && v > 0);
+  return defined.length >= 3 ? median(defined) : null;
 }
 
 export function driftFlags(ctx: FlagContext): Flag[] {
@@ -144,34 +161,41 @@ export function driftFlags(ctx: FlagContext): Flag[] {
   const nAssessors = ctx.assessors.length;
   const nAttributes = ctx.history.attributes.length;
   if (nAssessors === 0 || nAttributes === 0) return [];
-  const summaryLimits = {
-    act: sizedLimits(nAssessors, c.sessionsPerYear, c.actFalseAlarmsPerYear, c.ewmaLambda, c.cusumK),
-    watch: sizedLimits(nAssessors, c.sessionsPerYear, c.watchFalseAlarmsPerYear, c.ewmaLambda, c.cusumK),
-  };
-  const attributeLimits = {
-    act: sizedLimits(nAssessors * nAttributes, c.sessionsPerYear, c.actFalseAlarmsPerYear, c.ewmaLambda, c.cusumK),
-    watch: sizedLimits(nAssessors * nAttributes, c.sessionsPerYear, c.watchFalseAlarmsPerYear, c.ewmaLambda, c.cusumK),
-  };
+  const summarySizing = chartSizing(nAssessors, c.sessionsPerYear, c.actFalseAlarmsPerYear, c.watchFalseAlarmsPerYear, c.ewmaLambda, c.cusumK);
+  const attributeSizing = chartSizing(nAssessors * nAttributes, c.sessionsPerYear, c.actFalseAlarmsPerYear, c.watchFalseAlarmsPerYear, c.ewmaLambda, c.cusumK);
   const levelSeries = buildAssessorSeries(ctx.history, ['level']);
   const byAssessor = new Map<string, typeof levelSeries>();
   for (const series of levelSeries) byAssessor.set(series.assessor, [...(byAssessor.get(series.assessor) ?? []), series]);
+  const optionsFor = (assessor: string): SegmentOptions => ({
+    baseline: { fullValues: c.baselineSessions, minimumValues: c.minBaselineSessions },
+    restartSessions: restartSessionsFor(ctx.history, assessor),
+  });
+  // Panel-pooled spreads: per attribute over assessors, and over the assessors' summary series.
+  const spreadsByAttribute = new Map<string, (number | null)[]>();
+  const summaries = new Map<string, SeriesPoint[]>();
+  for (const [assessor, seriesList] of byAssessor) {
+    const options = optionsFor(assessor);
+    for (const series of seriesList) spreadsByAttribute.set(series.attribute, [...(spreadsByAttribute.get(series.attribute) ?? []), currentSpread(series.points, options)]);
+    summaries.set(
+      assessor,
+      summarySeries(
+        seriesList.map((s) => s.points),
+        options,
+      ),
+    );
+  }
+  const summaryFloor = pooledSpread([...summaries].map(([assessor, points]) => currentSpread(points, optionsFor(assessor))));
   const out: Flag[] = [];
   for (const [assessor, seriesList] of byAssessor) {
-    const options: SegmentOptions = {
-      baseline: { fullValues: c.baselineSessions, minimumValues: c.minBaselineSessions },
-      restartSessions: restartSessionsFor(ctx.history, assessor),
-    };
+    const options = optionsFor(assessor);
     const attributeSignals = seriesList
       .map((series) => ({
         attribute: series.attribute,
-        signal: evaluateChart(series.points, options, attributeLimits, c.ewmaLambda, c.cusumK, false, minimumShift(ctx, series.attribute)),
+        signal: evaluateChart(series.points, options, attributeSizing, false, minimumShift(ctx, series.attribute), pooledSpread(spreadsByAttribute.get(series.attribute) ?? [])),
       }))
       .filter((entry): entry is { attribute: string; signal: ChartSignal } => entry.signal !== null);
-    const summary = summarySeries(
-      seriesList.map((s) => s.points),
-      options,
-    );
-    const summarySignal = evaluateChart(summary, options, summaryLimits, c.ewmaLambda, c.cusumK, c.westernElectricWatch);
+    const summary = summaries.get(assessor) as SeriesPoint[];
+    const summarySignal = evaluateChart(summary, options, summarySizing, c.westernElectricWatch, 0, summaryFloor);
     if (summarySignal) {
       const matching = attributeSignals.filter((a) => a.signal.direction === summarySignal.direction);
       const shifts = seriesList.map((s) => recentLevelShift(s.points, options)).filter((v): v is number => v !== null);
@@ -192,11 +216,12 @@ export function driftFlags(ctx: FlagContext): Flag[] {
           pValue: null,
           qValue: null,
           n: summarySignal.nPoints,
-          threshold: thresholdText(summarySignal, nAssessors, 'per-assessor summary charts'),
+          threshold: thresholdText(summarySignal, summarySizing, 'per-assessor summary charts'),
           signalSession: summarySignal.signalSession,
           lastSession: ctx.history.sessions[ctx.history.sessions.length - 1]?.label,
           direction: summarySignal.direction,
           limit: summarySignal.limit,
+          limitWidth: summarySignal.limitWidth,
           baseline: summarySignal.baseline,
           meanRecentShiftPoints: meanShift,
           attributesSignalling: matching.map((a) => a.attribute),
@@ -220,11 +245,12 @@ export function driftFlags(ctx: FlagContext): Flag[] {
           pValue: null,
           qValue: null,
           n: signal.nPoints,
-          threshold: thresholdText(signal, nAssessors * nAttributes, 'assessor × attribute charts'),
+          threshold: thresholdText(signal, attributeSizing, 'assessor × attribute charts'),
           signalSession: signal.signalSession,
           lastSession: ctx.history.sessions[ctx.history.sessions.length - 1]?.label,
           direction: signal.direction,
           limit: signal.limit,
+          limitWidth: signal.limitWidth,
           baseline: signal.baseline,
           recentShiftPoints: signal.recentShift,
         },
@@ -248,10 +274,9 @@ function recentLevelShift(series: readonly SeriesPoint[], options: SegmentOption
   return recent.reduce((s, p) => s + p.value, 0) / recent.length - segment.baseline.centre;
 }
 
-function thresholdText(signal: ChartSignal, nCharts: number, setName: string): string {
+export function thresholdText(signal: ChartSignal, sizing: ChartSizing, setName: string): string {
   if (signal.chart === 'Western Electric') return `Western Electric rule ${signal.rules?.join(', ')} (watch only)`;
-  const l = signal.severity === 'act' ? signal.limits.act : signal.limits.watch;
   const provisional = signal.baseline.provisional ? '; baseline provisional, so watch at most' : '';
   const guard = signal.severity === 'act' ? '; act also needs a recent shift of at least the lenient/harsh watch offset' : '';
-  return `EWMA limit L = ${l.ewmaL.toFixed(3)} (widened for the estimated centre), sized for ARL0 ${l.targetArl0} across ${nCharts} ${setName}${provisional}${guard}`;
+  return `EWMA (λ = ${sizing.lambda}) limit L = ${signal.limitWidth.toFixed(3)}, sized for an in-control ARL of ${signal.targetArl0} sessions averaged over the baseline's estimation error, across ${sizing.nCharts} ${setName}${provisional}${guard}`;
 }

@@ -60,7 +60,8 @@ export const PanelThresholdsSchema = Type.Object(
       lrtWatchPValue: probability('Period-model product:session boundary LRT p below this → watch. Methods §3.7a and §6.3 (CP levels on a published test).'),
       lrtActPValue: probability('Period-model LRT p below this → act. Methods §6.3 (CP).'),
       minSessions: count(3, 'Fewest sessions of a recurring product before its effect series is charted. CP.'),
-      stepFalseAlarmsPerYear: positive('Tolerated false step-change signals per year across all recurring product × attribute charts (sizes the CUSUM interval h). Ours, CP.'),
+      stepFalseAlarmsPerYear: positive('Tolerated false act-level step-change signals per year across all recurring product × attribute charts (sizes the EWMA limit). Ours, CP.'),
+      stepWatchFalseAlarmsPerYear: positive('As stepFalseAlarmsPerYear, for watch-level step signals. Ours, CP.'),
     }),
     quality: Type.Object({
       straightLiningWatchRatio: probability('Straight-lining watch: SD over products of the assessor cell means / panel median < this. Methods §5.6 (CP).'),
@@ -105,7 +106,7 @@ export const DEFAULT_THRESHOLDS: PanelThresholds = {
     watchFalseAlarmsPerYear: 1,
     westernElectricWatch: false,
   },
-  productStability: { lrtWatchPValue: 0.05, lrtActPValue: 0.01, minSessions: 8, stepFalseAlarmsPerYear: 0.5 },
+  productStability: { lrtWatchPValue: 0.05, lrtActPValue: 0.01, minSessions: 8, stepFalseAlarmsPerYear: 0.5, stepWatchFalseAlarmsPerYear: 1 },
   quality: {
     straightLiningWatchRatio: 0.2,
     straightLiningActShare: 0.5,
@@ -155,6 +156,7 @@ export function validateThresholds(json: unknown): { thresholds: PanelThresholds
     order('/scaling/watchHigh', t.scaling.watchHigh > 1 && t.scaling.watchLow < 1, 'The watch scaling bounds must enclose 1.');
     order('/charts/minBaselineSessions', t.charts.minBaselineSessions <= t.charts.baselineSessions, 'The minimum baseline must not exceed the full baseline.');
     order('/charts/actFalseAlarmsPerYear', t.charts.actFalseAlarmsPerYear <= t.charts.watchFalseAlarmsPerYear, 'Act limits must tolerate no more false alarms than watch limits.');
+    order('/productStability/stepFalseAlarmsPerYear', t.productStability.stepFalseAlarmsPerYear <= t.productStability.stepWatchFalseAlarmsPerYear, 'Act limits must tolerate no more false alarms than watch limits.');
     order('/productStability/lrtActPValue', t.productStability.lrtActPValue <= t.productStability.lrtWatchPValue, 'The act p-value must not exceed the watch p-value.');
     order('/quality/missingActCompleteness', t.quality.missingActCompleteness <= t.quality.missingWatchCompleteness, 'The act completeness must not exceed the watch completeness.');
     order('/minPooledSessions', t.minPooledSessions <= t.recentSessions, 'The minimum pooled sessions must not exceed the recent-session window.');

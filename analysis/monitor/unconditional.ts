@@ -1,0 +1,90 @@
+/**
+ * EWMA limits sized for the in-control false-alarm rate *averaged over the Phase I estimation
+ * error* (the "unconditional" performance discussed by Jensen et al. 2006 and Quesenberry 1993).
+ * With a baseline of N values, μ̂0 = μ + εσ with ε ~ N(0, 1/N) and σ̂ = uσ with u² ≈ χ²_ν/ν,
+ * ν ≈ 0.62 (N − 1) for the moving-range estimator (we measured 0.61–0.63 by simulation for
+ * N = 8…50; the same constant is commonly quoted for MR̄ [REC]). A chart with limit L on the
+ * standardised values then behaves like a chart on unit-variance data with limit L·u and a
+ * persistent shift −ε, so its false-alarm rate per point is E[1 / ARL(L·u, ε)]. L is chosen so
+ * that this equals 1 / targetArl0. Without this, a 20-value baseline gave about 50 times the
+ * nominal false-alarm rate at ARL0 ≈ 60 000 in our simulation.
+ * ARL(L, δ) comes from the Brook–Evans chain (ewmaArl) on a grid, interpolated in log ARL.
+ */
+import { chiSquareQuantile, normalQuantile } from '../distributions/index.js';
+import { ewmaArl } from './ewma.js';
+import { solveIncreasing } from './solve-monotone.js';
+
+/** Effective degrees of freedom of MR̄/d2 from N values (see header). */
+export function movingRangeDf(nReference: number): number {
+  return 0.62 * (nReference - 1);
+}
+
+const L_GRID = [0.5, 1, 1.5, 2, 2.25, 2.5, 2.75, 3, 3.25, 3.5, 3.75, 4, 4.25, 4.5, 4.75, 5, 5.5, 6, 6.5, 7, 8];
+const SHIFT_GRID = [0, 0.2, 0.4, 0.6, 0.8, 1, 1.2, 1.4, 1.7, 2, 2.5];
+/** 61 states: in-control ARLs within ~2 % of the 301-state values, enough for sizing. */
+const GRID_STATES = 61;
+
+const gridCache = new Map<number, Float64Array[]>();
+
+function logArlGrid(lambda: number): Float64Array[] {
+  let grid = gridCache.get(lambda);
+  if (!grid) {
+    grid = L_GRID.map((L) => Float64Array.from(SHIFT_GRID.map((shift) => Math.log(Math.min(ewmaArl({ lambda, L }, shift, GRID_STATES), 1e12)))));
+    gridCache.set(lambda, grid);
+  }
+  return grid;
+}
+
+function interpolate(grid: readonly number[], value: number): { index: number; fraction: number } {
+  if (value <= grid[0]) return { index: 0, fraction: 0 };
+  if (value >= grid[grid.length - 1]) return { index: grid.length - 2, fraction: 1 };
+  let index = 0;
+  while (grid[index + 1] < value) index++;
+  return { index, fraction: (value - grid[index]) / (grid[index + 1] - grid[index]) };
+}
+
+/** log ARL(L, |shift|) by bilinear interpolation on the grid (beyond the grid: clamped). */
+function logArl(lambda: number, L: number, shift: number): number {
+  const grid = logArlGrid(lambda);
+  const a = interpolate(L_GRID, L);
+  const b = interpolate(SHIFT_GRID, Math.abs(shift));
+  const v00 = grid[a.index][b.index];
+  const v01 = grid[a.index][b.index + 1];
+  const v10 = grid[a.index + 1][b.index];
+  const v11 = grid[a.index + 1][b.index + 1];
+  return (1 - a.fraction) * ((1 - b.fraction) * v00 + b.fraction * v01) + a.fraction * ((1 - b.fraction) * v10 + b.fraction * v11);
+}
+
+const QUADRATURE_POINTS = 24;
+
+/**
+ * E[1/ARL(L·u, ε)] over the estimation error of a baseline of `nReference` values.
+ * `spreadFloor`: when the spread used is max(own σ̂, a panel-pooled σ̂) and the pooled one is
+ * precise, u is effectively max(u, spreadFloor) with spreadFloor ≈ 1 for an ordinary series.
+ */
+export function unconditionalFalseAlarmRate(lambda: number, L: number, nReference: number, spreadFloor = 0): number {
+  const df = movingRangeDf(nReference);
+  const centreSd = 1 / Math.sqrt(nReference);
+  let total = 0;
+  // Equal-probability nodes (midpoint rule on the probability scale) for u and ε.
+  for (let i = 0; i < QUADRATURE_POINTS; i++) {
+    const u = Math.max(spreadFloor, Math.sqrt(chiSquareQuantile((i + 0.5) / QUADRATURE_POINTS, df) / df));
+    for (let j = 0; j < QUADRATURE_POINTS / 2; j++) {
+      const shift = centreSd * normalQuantile((j + 0.5) / QUADRATURE_POINTS);
+      total += Math.exp(-logArl(lambda, L * u, shift));
+    }
+  }
+  return total / (QUADRATURE_POINTS * (QUADRATURE_POINTS / 2));
+}
+
+const limitCache = new Map<string, number>();
+
+/** L whose unconditional in-control ARL (1 / average false-alarm rate) is `targetArl0`; memoised. */
+export function ewmaLimitForUnconditionalArl0(lambda: number, targetArl0: number, nReference: number, spreadFloor = 0): number {
+  const key = `${lambda}|${targetArl0}|${nReference}|${spreadFloor}`;
+  const cached = limitCache.get(key);
+  if (cached !== undefined) return cached;
+  const L = solveIncreasing((width) => 1 / unconditionalFalseAlarmRate(lambda, width, nReference, spreadFloor), targetArl0, 1.5, 7.9, 1e-5);
+  limitCache.set(key, L);
+  return L;
+}

@@ -1,0 +1,36 @@
+/** unstable-product: planted step and period LRT are flagged; stable products are not. */
+import { describe, expect, it } from 'vitest';
+import { buildFlags } from '../../../analysis/flags/build-flags.js';
+import { syntheticHistory } from './helpers/synthetic-history.js';
+
+describe('unstable-product', () => {
+  it('a 1.5-point step of T01 on attr2 from session 21 is flagged act with the change session', () => {
+    for (const seed of [31, 32, 33]) {
+      const history = syntheticHistory({ seed, nSessions: 36, faults: [{ kind: 'unstable-product', product: 'T01', attributes: ['attr2'], fromSession: 20, size: 1.5 }] });
+      const hits = buildFlags(history).filter((f) => f.kind === 'unstable-product');
+      expect(hits.map((f) => [f.product, f.attribute, f.severity])).toEqual([['T01', 'attr2', 'act']]);
+      expect(hits[0].evidence.relativeTo).toBe('reference');
+      expect(Number(hits[0].firstSession.slice(1))).toBeGreaterThanOrEqual(19);
+      expect(Number(String(hits[0].evidence.signalSession).slice(1))).toBeLessThanOrEqual(23);
+      expect(hits[0].message).toMatch(/^Since S\d\d, T01's attr2 relative to REF has been about 1\.\d points higher than in the baseline sessions/);
+    }
+  });
+  it('stable products give no flag (6 seeds)', () => {
+    for (const seed of [1, 2, 3, 4, 5, 6]) {
+      expect(buildFlags(syntheticHistory({ seed, nSessions: 40 })).filter((f) => f.kind === 'unstable-product'), `seed ${seed}`).toEqual([]);
+    }
+  });
+  it('period-model LRT: act below 0.01, watch below 0.05, nothing above', () => {
+    const history = syntheticHistory({ seed: 2, nSessions: 20 });
+    const sessions = history.sessions.slice(-12).map((s) => s.label);
+    history.periodFits = [
+      { attribute: 'attr1', sessions, productSessionVariance: 0.3, lrt: { likelihoodRatio: 9.1, pValue: 0.00128 } },
+      { attribute: 'attr2', sessions, productSessionVariance: 0.1, lrt: { likelihoodRatio: 3.2, pValue: 0.0368 } },
+      { attribute: 'attr3', sessions, productSessionVariance: 0, lrt: { likelihoodRatio: 0, pValue: 1 } },
+    ];
+    const hits = buildFlags(history).filter((f) => f.kind === 'unstable-product');
+    expect(hits.map((f) => [f.attribute, f.severity, f.product])).toEqual([['attr1', 'act', null], ['attr2', 'watch', null]]);
+    expect(hits[0].firstSession).toBe(sessions[0]);
+    expect(typeof hits[0].evidence.kendallW).toBe('number');
+  });
+});
