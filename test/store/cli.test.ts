@@ -96,7 +96,7 @@ describe('the real program', () => {
     const result = spawnSync(process.execPath, ['--import', 'tsx', 'server/cli/main.ts', 'import', bad, '--panel', 'crisps', '--db', join(folder, 's.db'), '--scale', '0:10'], {
       cwd: join(import.meta.dirname, '..', '..'),
       encoding: 'utf8',
-      timeout: 60_000,
+      timeout: 90_000,
     });
     expect(result.status).toBe(1);
     expect(result.stderr).toMatch(/^bad\.csv:2:value: -3 is outside the 0–10 scale/);
@@ -105,9 +105,9 @@ describe('the real program', () => {
     const missing = spawnSync(process.execPath, ['--import', 'tsx', 'server/cli/main.ts', 'import', join(folder, 'gone.csv'), '--panel', 'crisps', '--db', join(folder, 's.db')], {
       cwd: join(import.meta.dirname, '..', '..'),
       encoding: 'utf8',
-      timeout: 60_000,
+      timeout: 90_000,
     });
     expect(missing.status).toBe(2);
     expect(missing.stderr).toBe('gone.csv: no such file.\n');
-  });
+  }, 180_000);
 });

@@ -1,0 +1,124 @@
+/**
+ * Import throughput and peak memory of `importRatings` (reader + store, end to end) for long
+ * CSV files of 10⁵ and 10⁶ ratings. Each run is a fresh process on a fresh store, so peak
+ * RSS is that of one import. Prints a Markdown table for bench/README.md ("## Import (store)").
+ *
+ *   npx tsx bench/import-bench.ts [--runs 3] [--sizes 100000,1000000]
+ */
+import { spawnSync } from 'node:child_process';
+import { existsSync, mkdirSync, rmSync } from 'node:fs';
+import { cpus, tmpdir } from 'node:os';
+import { basename, join } from 'node:path';
+import { fileInput, importRatings } from '../store/import-ratings.js';
+import { openStore } from '../store/open-store.js';
+import { designForRatings, nRatingsOf, writeSyntheticLongCsv } from '../test/store/synthetic-ratings.js';
+
+interface RunResult {
+  ratings: number;
+  totalMs: number;
+  /** CPU time of the process during the import (user + system): less sensitive to a busy machine. */
+  cpuMs: number;
+  readMs: number;
+  writeMs: number;
+  /** CPU time of the write transaction. */
+  writeCpuMs: number;
+  maxRssMb: number;
+  outcome: string;
+}
+
+async function child(store: string, file: string): Promise<void> {
+  const db = openStore(store);
+  const start = performance.now();
+  const cpuStart = process.cpuUsage();
+  let writingAt = 0;
+  let committedAt = 0;
+  let writingCpu = process.cpuUsage();
+  let writeCpuMs = 0;
+  const report = await importRatings(db, {
+    panel: 'bench',
+    fileName: basename(file),
+    source: 'cli',
+    input: fileInput(file),
+    scale: { min: 0, max: 10 },
+    quarantine: false,
+    onPhase: (phase) => {
+      if (phase === 'writing') {
+        writingAt = performance.now();
+        writingCpu = process.cpuUsage();
+      } else {
+        committedAt = performance.now();
+        const cpu = process.cpuUsage(writingCpu);
+        writeCpuMs = (cpu.user + cpu.system) / 1000;
+      }
+    },
+  });
+  const end = performance.now();
+  const cpu = process.cpuUsage(cpuStart);
+  db.close();
+  const result: RunResult = {
+    ratings: report.counts.ratings,
+    totalMs: end - start,
+    cpuMs: (cpu.user + cpu.system) / 1000,
+    readMs: writingAt - start,
+    writeMs: committedAt - writingAt,
+    writeCpuMs,
+    maxRssMb: process.resourceUsage().maxRSS / 1024,
+    outcome: report.outcome,
+  };
+  process.stdout.write(`${JSON.stringify(result)}\n`);
+}
+
+const median = (xs: number[]): number => {
+  const s = [...xs].sort((a, b) => a - b);
+  return s.length % 2 ? s[(s.length - 1) / 2] : (s[s.length / 2 - 1] + s[s.length / 2]) / 2;
+};
+
+async function main(): Promise<void> {
+  const args = process.argv.slice(2);
+  if (args[0] === '--child') return child(args[1], args[2]);
+  const option = (name: string, fallback: string): string => {
+    const at = args.indexOf(name);
+    return at >= 0 ? args[at + 1] : fallback;
+  };
+  const runs = Number(option('--runs', '3'));
+  const sizes = option('--sizes', '100000,1000000').split(',').map(Number);
+  const folder = join(tmpdir(), 'panel-steward-import-bench');
+  mkdirSync(folder, { recursive: true });
+  const rows: string[] = [];
+  for (const size of sizes) {
+    const design = designForRatings(size, 42);
+    const file = join(folder, `long-${nRatingsOf(design)}.csv`);
+    if (!existsSync(file)) await writeSyntheticLongCsv(file, design);
+    const results: RunResult[] = [];
+    for (let run = 0; run < runs; run++) {
+      const store = join(folder, `store-${size}-${run}.db`);
+      for (const suffix of ['', '-wal', '-shm']) rmSync(store + suffix, { force: true });
+      const out = spawnSync(process.execPath, ['--import', 'tsx', import.meta.filename, '--child', store, file], { encoding: 'utf8', maxBuffer: 1 << 20 });
+      if (out.status !== 0) throw new Error(out.stderr);
+      results.push(JSON.parse(out.stdout.trim().split('\n').at(-1)!) as RunResult);
+      for (const suffix of ['', '-wal', '-shm']) rmSync(store + suffix, { force: true });
+    }
+    const ratings = results[0].ratings;
+    if (results.some((r) => r.outcome !== 'imported')) throw new Error(`an import did not import: ${JSON.stringify(results)}`);
+    const totalMs = median(results.map((r) => r.totalMs));
+    const cpuMs = median(results.map((r) => r.cpuMs));
+    const perSecond = (ms: number): string => Math.round((ratings / ms) * 1000).toLocaleString('en-US');
+    rows.push(
+      `| ${ratings.toLocaleString('en-US')} | ${runs} | ${(totalMs / 1000).toFixed(2)} | ${perSecond(totalMs)} | ${(cpuMs / 1000).toFixed(2)} | ${perSecond(cpuMs)} | ` +
+        `${(median(results.map((r) => r.readMs)) / 1000).toFixed(2)} | ${(median(results.map((r) => r.writeMs)) / 1000).toFixed(2)} | ${(median(results.map((r) => r.writeCpuMs)) / 1000).toFixed(2)} | ${Math.round(median(results.map((r) => r.maxRssMb)))} |`,
+    );
+  }
+  const load = (await import('node:os')).loadavg()[0].toFixed(1);
+  process.stdout.write(
+    [
+      `${cpus().length} cores (${cpus()[0]?.model ?? 'unknown'}), Node ${process.version}, load average ${load} at the end; medians of ${runs} runs.`,
+      '',
+      '| ratings | runs | wall s | ratings/s (wall) | CPU s | ratings/s (CPU) | read + stage s | write transaction s | write CPU s | peak RSS MB |',
+      '| --- | --- | --- | --- | --- | --- | --- | --- | --- | --- |',
+      ...rows,
+      '',
+    ].join('\n'),
+  );
+}
+
+await main();
