@@ -137,3 +137,23 @@ describe('quarantine', () => {
     expect(countOf(db, 'rating')).toBe(3);
   });
 });
+
+describe('quarantine of sessions with a date conflict', () => {
+  it('holds every cell of the session (in the file or against the store) and stores the other sessions', async () => {
+    await run(['S0,2026-01-01,A1,P1,1,sweet,5']);
+    const report = await run(
+      ['S0,2026-01-02,A1,P1,1,sweet,6', 'S1,2026-01-05,A1,P1,1,sweet,5', 'S1,2026-01-06,A2,P1,1,sweet,6', 'S2,2026-01-12,A1,P1,1,sweet,4'],
+      { quarantine: true },
+    );
+    expect(report.outcome).toBe('quarantined');
+    expect(report.counts).toMatchObject({ sessions: 3, sessionsNew: 1, ratings: 1, quarantined: 3 });
+    expect(report.changedSessions).toEqual(['S2']);
+    expect(listQuarantined(db, 'crisps').map((c) => [c.session, c.rowNumber, c.reasonCode])).toEqual([
+      ['S0', 2, 'session-date-conflict'],
+      ['S1', 3, 'session-date-conflict'],
+      ['S1', 4, 'session-date-conflict'],
+    ]);
+    // The stored S0 is untouched.
+    expect(db.prepare("SELECT r.value, s.session_date AS date FROM rating r JOIN session s ON s.id = r.session_id WHERE s.label = 'S0'").all()).toEqual([{ value: 5, date: '2026-01-01' }]);
+  });
+});

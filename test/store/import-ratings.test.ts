@@ -1,6 +1,7 @@
 /** importRatings end to end through real files (the ingest reader and the store together). */
 import { writeFileSync } from 'node:fs';
 import { join } from 'node:path';
+import ExcelJS from 'exceljs';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { MAX_LISTED_PROBLEMS } from '../../domain/problems.js';
 import { fileInput, importRatings, type ImportRequest } from '../../store/import-ratings.js';
@@ -141,6 +142,30 @@ describe('forms and round trips', () => {
       expect(await exportText(wideDb, 'crisps')).toBe(await exportText(db, 'crisps'));
     } finally {
       wideDb.close();
+    }
+  });
+
+  it('an .xlsx workbook (wide, on a named sheet) gives the same store as the CSV', async () => {
+    const workbook = new ExcelJS.Workbook();
+    workbook.addWorksheet('notes').addRow(['not the ratings']);
+    const sheet = workbook.addWorksheet('ratings');
+    const wideLines = [...syntheticWideLines(design)];
+    sheet.addRow(wideLines[0].split(','));
+    for (const line of wideLines.slice(1)) {
+      const cells = line.split(',');
+      // keys as text, replicate and values as numbers, as a spreadsheet holds them
+      sheet.addRow([cells[0], cells[1], cells[2], cells[3], Number(cells[4]), cells[5], ...cells.slice(6).map(Number)]);
+    }
+    const xlsxPath = join(folder, 'week.xlsx');
+    await workbook.xlsx.writeFile(xlsxPath);
+    const xlsxDb = openStore(join(folder, 'xlsx.db'));
+    try {
+      await importRatings(db, request(file('long.csv', [...syntheticLongLines(design)])));
+      const report = await importRatings(xlsxDb, request(xlsxPath, { sheet: 'ratings' }));
+      expect(report.outcome).toBe('imported');
+      expect(await exportText(xlsxDb, 'crisps')).toBe(await exportText(db, 'crisps'));
+    } finally {
+      xlsxDb.close();
     }
   });
 
