@@ -65,7 +65,7 @@ export interface ImportResultView {
 
 const COUNT_LABELS: [keyof ImportCountsInput, string][] = [
   ['rows', 'Rows read'],
-  ['ratings', 'Ratings stored'],
+  ['ratings', 'Valid ratings read'],
   ['missingCells', 'Empty cells (missing ratings)'],
   ['sessions', 'Sessions in the file'],
   ['sessionsNew', 'New sessions'],

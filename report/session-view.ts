@@ -46,6 +46,8 @@ export interface AttributeRatingsTable {
   rows: AssessorRatingsRow[];
   productMeans: ProductMean[];
   nRatings: number;
+  /** Decimals the ratings are written with (at most 3): the table shows every value alike. */
+  valueDigits: number;
 }
 
 export interface SessionView extends PageViewBase {
@@ -58,6 +60,14 @@ export interface SessionView extends PageViewBase {
   products: ProductRoleInput[];
   attributes: AttributeRatingsTable[];
   csvHref: string;
+}
+
+/** Decimals needed to show a value as recorded (1.25 → 2), capped at 3. */
+function decimalsOf(value: number): number {
+  for (let digits = 0; digits < 3; digits += 1) {
+    if (Math.abs(Number(value.toFixed(digits)) - value) < 1e-9) return digits;
+  }
+  return 3;
 }
 
 function buildAttributeTable(attribute: string, ratings: RatingInput[], scale: AttributeScaleInput | undefined): AttributeRatingsTable {
@@ -93,6 +103,7 @@ function buildAttributeTable(attribute: string, ratings: RatingInput[], scale: A
     rows,
     productMeans,
     nRatings: ratings.length,
+    valueDigits: ratings.reduce((digits, rating) => Math.max(digits, decimalsOf(rating.value)), 0),
   };
 }
 

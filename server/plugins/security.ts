@@ -19,8 +19,8 @@ import { AppError } from '../errors.js';
 
 export const TOKEN_COOKIE = 'panel_steward_session';
 
-/** Paths reachable without the access token: health check, sign-in page, the stylesheet. */
-const OPEN_PATHS = new Set(['/healthz', '/login', '/static/style.css']);
+/** Paths reachable without the access token: health check, sign-in page, stylesheet, icon. */
+const OPEN_PATHS = new Set(['/healthz', '/login', '/static/style.css', '/favicon.ico']);
 
 const LOOPBACK_NAMES = new Set(['localhost', '127.0.0.1', '::1', '[::1]']);
 

@@ -44,11 +44,11 @@ export interface ViewRenderer {
 function formatNumber(value: unknown, digits: unknown): string {
   if (typeof value !== 'number' || !Number.isFinite(value)) return '—';
   const nDigits = typeof digits === 'number' ? digits : 2;
-  return Number.isInteger(value) ? String(value) : value.toFixed(nDigits);
+  return value.toFixed(nDigits);
 }
 
 function registerHelpers(handlebars: typeof Handlebars): void {
-  // {{number value 2}}: fixed digits for non-integers, a dash for null/missing.
+  // {{number value 2}}: fixed digits, a dash for null/missing.
   handlebars.registerHelper('number', (value: unknown, digits: unknown) => formatNumber(value, digits));
   // {{percent value}}: "97.5 %", a dash when undefined.
   handlebars.registerHelper('percent', (value: unknown) =>

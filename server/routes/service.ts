@@ -9,6 +9,9 @@ export async function serviceRoutes(app: FastifyInstance): Promise<void> {
     return { ok: true, status: 'ok', importsWaiting: app.importQueue.size };
   });
 
+  // Browsers ask for it on every site; an empty answer keeps 404s out of the log.
+  app.get('/favicon.ico', async (_request, reply) => reply.code(204).header('Cache-Control', 'public, max-age=86400').send());
+
   const stylesheet = readFileSync(join(app.appConfig.templatesDir, 'static', 'style.css'), 'utf8');
   app.get('/static/style.css', async (_request, reply) =>
     reply.type('text/css; charset=utf-8').header('Cache-Control', 'public, max-age=300').send(stylesheet),

@@ -126,8 +126,10 @@ describe('session page', () => {
       { product: 'P1', mean: 4.5, nRatings: 4 },
       { product: 'P2', mean: 8, nRatings: 3 },
     ]);
+    expect(table.valueDigits).toBe(0);
     const html = (await t.app.inject({ url: '/panels/oat/sessions/W01' })).body;
-    expect(html).toContain('<td class="num">4.50</td>');
+    expect(html).toContain('<td class="num">4.50</td>'); // P1 mean, two decimals
+    expect(html).toMatch(/<th scope="row">A01<\/th><td class="num">3<\/td><td class="num">4<\/td>/); // whole-number ratings as written
     expect(html).toContain('<td class="num">—</td>'); // the missing cell
     expect(html).toContain('href="/panels/oat/sessions/W01.csv"');
   });

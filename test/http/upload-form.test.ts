@@ -37,7 +37,7 @@ describe('upload page', () => {
     });
     expect(response.statusCode).toBe(200);
     expect(response.body).toContain('Imported');
-    expect(response.body).toMatch(/Ratings stored<\/th><td class="num">7<\/td>/);
+    expect(response.body).toMatch(/Valid ratings read<\/th><td class="num">7<\/td>/);
     expect(response.body).toContain('href="/panels/oat/sessions/W01"');
     const imports = (await t.app.inject({ url: '/imports.json' })).json();
     expect(imports.imports[0]).toMatchObject({ source: 'web', fileName: 'week-01.csv', nRatings: 7 });
