@@ -1,2 +1,3 @@
 export { buildFlags, type BuildFlagsOptions } from './build-flags.js';
 export { DEFAULT_THRESHOLDS, PanelThresholdsSchema, validateThresholds, type PanelThresholds, type ThresholdProblem } from './settings.js';
+export { evaluateRetraining, welchOneSided, type RetrainingEvaluation, type RetrainingComparison, type RetrainingIndex, type WelchTest } from './retraining.js';

@@ -20,6 +20,8 @@ export interface SyntheticFault {
   attributes?: string[];
   /** 0-based first affected session (default 0). */
   fromSession?: number;
+  /** 0-based last affected session, inclusive (default: to the end). */
+  toSession?: number;
   size?: number;
 }
 
@@ -58,7 +60,7 @@ export function syntheticHistory(options: SyntheticOptions): PanelHistory {
   const baseLevel = assessors.map(() => attributes.map(() => Math.max(-0.4, Math.min(0.4, rng.normal(0, 0.2)))));
   const productProfile = attributes.map(() => PRODUCTS.map(() => rng.uniform() * 6 + 2));
   const active = (kind: FlagKind, assessor: string | null, attribute: string, s: number) =>
-    faults.filter((f) => f.kind === kind && (assessor === null || f.assessor === assessor) && (f.attributes ?? [attribute]).includes(attribute) && s >= (f.fromSession ?? 0));
+    faults.filter((f) => f.kind === kind && (assessor === null || f.assessor === assessor) && (f.attributes ?? [attribute]).includes(attribute) && s >= (f.fromSession ?? 0) && s <= (f.toSession ?? Infinity));
   const results: SessionAttributeResult[] = [];
   for (let s = 0; s < nSessions; s++) {
     for (let j = 0; j < nAttributes; j++) {
