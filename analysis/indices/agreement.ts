@@ -72,7 +72,7 @@ export function disagreementTest(anova: BalancedAnova | null, assessorIndex: num
   if (anova === null) return { ...none, reasons: ['unbalanced'] };
   if (anova.errorDf === 0) return { ...none, reasons: ['no-replicates'] };
   const { nAssessors: A, nProducts: P, nReplicates: n } = anova;
-  if (A < 3) return { ...none, reasons: ['few-products'] };
+  if (A < 3) return { ...none, reasons: ['few-assessors'] };
   const errorMeanSquare = anova.errorSumOfSquares / anova.errorDf;
   if (!(errorMeanSquare > 0)) return { ...none, reasons: ['no-spread'] };
   const own = anova.cellMeans[assessorIndex];

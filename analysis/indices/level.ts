@@ -62,7 +62,7 @@ export function pairedLevelTest(table: CellTable, assessor: string): LevelTest {
 export function pooledLevelTest(anova: BalancedAnova | null, assessorIndex: number): { t: number | null; df: number | null; pValue: number | null; reasons: IndexReason[] } {
   if (anova === null) return { t: null, df: null, pValue: null, reasons: ['unbalanced'] };
   const { nAssessors: A, nProducts: P, nReplicates: n } = anova;
-  if (A < 3) return { t: null, df: null, pValue: null, reasons: ['few-products'] };
+  if (A < 3) return { t: null, df: null, pValue: null, reasons: ['few-assessors'] };
   const interactionMeanSquare = anova.interactionSumOfSquares / anova.interactionDf;
   if (!(interactionMeanSquare > 0)) return { t: null, df: null, pValue: null, reasons: ['no-spread'] };
   // Balanced: L_a = A/(A − 1) (ȳ_a·· − ȳ···).

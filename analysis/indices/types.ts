@@ -6,6 +6,7 @@
  */
 export type IndexReason =
   | 'few-products'
+  | 'few-assessors'
   | 'no-replicates'
   | 'no-spread'
   | 'panel-not-discriminating'

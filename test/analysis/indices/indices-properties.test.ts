@@ -139,6 +139,19 @@ describe('index properties', () => {
     );
   });
 
+  it('a two-assessor panel has no disagreement test (reason few-assessors) but a discrimination test', () => {
+    const observations: Observation[] = [];
+    for (const assessor of ['A', 'B']) {
+      for (const [p, product] of ['1', '2', '3', '4'].entries()) {
+        for (const replicate of [1, 2]) observations.push({ session: 'S', attribute: 'x', assessor, product, replicate, value: p + replicate * 0.3 + (assessor === 'A' ? 0.1 : 0) });
+      }
+    }
+    const [row] = computeAssessorIndices(observations);
+    expect(row.disagreementF).toBeNull();
+    expect(row.reasons).toContain('few-assessors');
+    expect(row.discriminationF).not.toBeNull();
+  });
+
   it('refuses observations from two sessions or attributes', () => {
     const base: Observation = { session: 'S1', attribute: 'x', assessor: 'A', product: '1', replicate: 1, value: 1 };
     expect(() => computeAssessorIndices([base, { ...base, session: 'S2' }])).toThrow(/one session and one attribute/);
