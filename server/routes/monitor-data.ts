@@ -157,3 +157,9 @@ export function assessorSampleSizes(history: PanelHistory): Map<string, { nSessi
   }
   return new Map([...out].map(([assessor, e]) => [assessor, { nSessions: e.sessions.size, nRatings: e.nRatings }]));
 }
+
+/** Sessions where control-product baselines restart: a new control batch, or a retraining of the assessor (or everyone). */
+export function controlRestartSessions(history: PanelHistory, assessor: string | null): string[] {
+  const batches = history.events.filter((e) => e.kind === 'control-batch').map((e) => e.session);
+  return [...new Set([...batches, ...(assessor === null ? [] : restartSessionsFor(history, assessor))])];
+}

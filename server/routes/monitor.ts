@@ -13,6 +13,13 @@ import { buildEventsView } from '../../report/monitor-events-view.js';
 import { buildFlagsListView, buildRetrainingView, parseFlagFilter } from '../../report/monitor-flags-view.js';
 import { buildMonitorOverviewView } from '../../report/monitor-overview-view.js';
 import { buildSettingsView, type ThresholdFieldInput } from '../../report/monitor-settings-view.js';
+import { buildProductStabilityView, type PeriodWindowInput, type RecurringProductInput } from '../../report/monitor-products-view.js';
+import { buildControlProductView } from '../../report/monitor-control-view.js';
+import { monitorSeries, type SeriesPoint } from '../../analysis/monitor/chart.js';
+import { buildReferenceSeries } from '../../analysis/monitor/series.js';
+import { cochranQ, productRankConcordance, sessionProductEffects } from '../../analysis/monitor/stability.js';
+import { loadPeriodFits } from '../../store/fits-results.js';
+import type { StoredPeriodResult } from '../refit.js';
 import { listSessionVersions } from '../../store/fits-sessions.js';
 import { getFlag, listCurrentFlagObjects, listFlags, reviewFlag } from '../../store/monitor-flags.js';
 import { addPanelEvent, addRetraining, deletePanelEvent, listPanelEvents, listRetraining, PANEL_EVENT_KINDS, updateRetraining, type PanelEventKind } from '../../store/monitor-events.js';
@@ -25,6 +32,7 @@ import { RefitService } from '../refit.js';
 import {
   assessorSampleSizes,
   chartDesigns,
+  controlRestartSessions,
   loadMonitorContext,
   monitoredMeasures,
   monitoredSummary,
@@ -117,6 +125,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
     { label: 'Monitor', scope: 'panel', href: (panel) => monitorHref(panel), order: 40 },
     { label: 'Flags', scope: 'panel', href: (panel) => monitorHref(panel, 'flags'), order: 41 },
     { label: 'Retraining', scope: 'panel', href: (panel) => monitorHref(panel, 'retraining'), order: 42 },
+    { label: 'Products', scope: 'panel', href: (panel) => monitorHref(panel, 'products'), order: 43 },
   );
 
   /** Pages read stored results; when they are older than the ratings, a refit is queued. */
@@ -191,6 +200,95 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
         designs: attributeDesign.designs,
       });
     },
+  });
+
+  // ---- product stability ----
+  const CONF_LEVEL = 0.95;
+  registerFormPage('/panels/:panel/monitor/products', 'monitor-products', (request) => {
+    const ctx = loadMonitorContext(db, (request.params as PanelParams).panel);
+    const requested = (request.query as { attribute?: string }).attribute;
+    const attribute = requested && ctx.attributes.includes(requested) ? requested : (ctx.attributes[0] ?? null);
+    const windows: PeriodWindowInput[] = loadPeriodFits(db, ctx.panel.id)
+      .sort((a, b) => ctx.history.sessions.findIndex((s) => s.label === a.lastSession) - ctx.history.sessions.findIndex((s) => s.label === b.lastSession))
+      .map((p) => {
+        const result = p.result as StoredPeriodResult;
+        const fitted = 'problem' in result ? null : result;
+        return {
+          attribute: p.attribute,
+          firstSession: p.firstSession,
+          lastSession: p.lastSession,
+          nSessions: p.sessions.length,
+          productSessionVariance: fitted ? (fitted.json.variance['product:session'] ?? null) : null,
+          likelihoodRatio: fitted?.lrt?.likelihoodRatio ?? null,
+          pValue: fitted?.lrt?.pValue ?? null,
+          problem: 'problem' in result ? result.problem : null,
+        };
+      });
+    const results = ctx.history.results.filter((r) => r.attribute === attribute);
+    const referenceProduct = ctx.history.referenceProducts[0] ?? null;
+    const effects = results.flatMap((r) => sessionProductEffects(r, referenceProduct, CONF_LEVEL));
+    const minSessions = ctx.thresholds.productStability.minSessions;
+    const recurring: RecurringProductInput[] = [...new Set(effects.map((e) => e.product))]
+      .sort()
+      .map((product) => {
+        const own = effects.filter((e) => e.product === product);
+        return {
+          product,
+          relativeTo: own[0].relativeTo,
+          effects: own.map((e) => ({ session: e.session, effect: e.effect, ciLow: e.ciLow, ciHigh: e.ciHigh, df: e.df })),
+          cochran: cochranQ(own),
+        };
+      })
+      .filter((p) => p.effects.length >= minSessions);
+    const latestWindow = windows.filter((w) => w.attribute === attribute).at(-1);
+    const windowResults = latestWindow
+      ? results.slice(results.findIndex((r) => r.session === latestWindow.firstSession), results.findIndex((r) => r.session === latestWindow.lastSession) + 1)
+      : results;
+    const concordance = productRankConcordance(windowResults);
+    return buildProductStabilityView({
+      panel: ctx.panel.name,
+      attributes: ctx.attributes,
+      attribute,
+      sessions: ctx.history.sessions.map((s) => s.label),
+      windows,
+      referenceProduct,
+      recurring,
+      minSessions,
+      concordance: concordance && {
+        W: concordance.W,
+        chiSquare: concordance.chiSquare,
+        df: concordance.df,
+        pValue: concordance.pValue,
+        products: concordance.products,
+        sessions: concordance.sessions,
+      },
+      confLevel: CONF_LEVEL,
+    });
+  });
+
+  // ---- control (reference) product ----
+  registerFormPage('/panels/:panel/monitor/control', 'monitor-control', (request) => {
+    const ctx = loadMonitorContext(db, (request.params as PanelParams).panel);
+    const requested = (request.query as { attribute?: string }).attribute;
+    const attribute = requested && ctx.attributes.includes(requested) ? requested : (ctx.attributes[0] ?? null);
+    const product = ctx.history.referenceProducts[0] ?? null;
+    const series = buildReferenceSeries(ctx.history).find((s) => s.product === product && s.attribute === attribute);
+    const { designs, baseline } = chartDesigns(ctx.thresholds, ctx.assessors.length);
+    const monitored = (points: SeriesPoint[], assessor: string | null) => {
+      const options = { baseline, restartSessions: controlRestartSessions(ctx.history, assessor) };
+      return { series: points, segments: monitorSeries(points, designs, options) };
+    };
+    return buildControlProductView({
+      panel: ctx.panel.name,
+      product,
+      attributes: ctx.attributes,
+      attribute,
+      sessions: ctx.history.sessions.map((s) => s.label),
+      panelMean: series ? monitored(series.panelMean, null) : null,
+      assessors: series ? series.assessorDeviation.map((d) => ({ assessor: d.assessor, ...monitored(d.points, d.assessor) })) : [],
+      events: ctx.history.events,
+      designs,
+    });
   });
 
   // ---- flags list and review ----

@@ -9,7 +9,7 @@ import { FLAG_KINDS } from '../../domain/flags.js';
 import { createFitPool } from '../../server/fit-pool.js';
 import { refitPanel } from '../../server/refit.js';
 import { findPanel } from '../../store/fits-sessions.js';
-import { loadSessionIndices } from '../../store/fits-results.js';
+import { loadPeriodFits, loadSessionFits, loadSessionIndices } from '../../store/fits-results.js';
 import { listFlags, replaceCurrentFlags } from '../../store/monitor-flags.js';
 import { csrfFrom, makeTestApp, type TestApp } from '../http/http-helpers.js';
 import { importRatings, smallPanel } from './helpers.js';
@@ -169,4 +169,40 @@ describe('background refit', () => {
     const flags = (await t.app.inject({ url: `/api/panels/${enc}/flags` })).json();
     expect(flags.length).toBeGreaterThan(0);
   }, 90_000);
+});
+
+describe('product stability and control product pages', () => {
+  it('product stability: the stored period fits and the session-wise effects of recurring products', async () => {
+    const attribute = panel.attributes[0].name;
+    const html = await t.app.inject({ url: `/panels/${enc}/monitor/products?attribute=${encodeURIComponent(attribute)}` });
+    expect(html.statusCode).toBe(200);
+    expect(html.body).toContain('Kendall');
+    const json = (await t.app.inject({ url: `/panels/${enc}/monitor/products.json?attribute=${encodeURIComponent(attribute)}` })).json();
+    const stored = loadPeriodFits(t.db, findPanel(t.db, name)!.id).filter((p) => p.attribute === attribute);
+    expect(json.history.map((w: { lastSession: string }) => w.lastSession)).toEqual(stored.map((p) => p.lastSession));
+    const latestStored = stored.at(-1)!.result as { json: { variance: Record<string, number> }; lrt: { likelihoodRatio: number; pValue: number } };
+    const latestShown = json.latest.find((w: { attribute: string }) => w.attribute === attribute);
+    expect(latestShown.productSessionVariance).toBe(latestStored.json.variance['product:session']);
+    expect(latestShown.pValue).toBe(latestStored.lrt.pValue);
+    // The demo serves the reference and recurring products every week: effects relative to the reference.
+    expect(json.referenceProduct).not.toBeNull();
+    expect(json.products.length).toBeGreaterThan(0);
+    for (const p of json.products) {
+      expect(p.relativeTo).toBe('reference');
+      expect(p.nSessions).toBeGreaterThanOrEqual(json.minSessions);
+      for (const e of p.effects) expect(e.ciLow).toBeLessThan(e.ciHigh);
+    }
+    expect(json.concordance.W).toBeGreaterThanOrEqual(0);
+    expect(json.concordance.W).toBeLessThanOrEqual(1);
+  });
+
+  it('control product: panel mean per session equals the stored fit product mean', async () => {
+    const attribute = panel.attributes[0].name;
+    const json = (await t.app.inject({ url: `/panels/${enc}/monitor/control.json?attribute=${encodeURIComponent(attribute)}` })).json();
+    expect(json.product).not.toBeNull();
+    const fits = loadSessionFits(t.db, findPanel(t.db, name)!.id, attribute);
+    const plotted = json.panelMean.charts[0].series[0].points.map((p: { session: string; value: number }) => [p.session, p.value]);
+    expect(plotted).toEqual(fits.map((f) => [f.session, f.fit.productMeans.find((m) => m.product === json.product)!.mean]));
+    expect(json.assessors.map((a: { assessor: string }) => a.assessor)).toEqual([...panel.assessors].sort());
+  });
 });
