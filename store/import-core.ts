@@ -214,7 +214,11 @@ class RejectImport extends Error {}
  * Runs one import from a stream of read events. See the module comment for the phases.
  * Never throws for bad input: problems come back in the report (outcome 'rejected').
  */
-export async function importRatingEvents(db: Database, request: ImportEventsRequest, events: AsyncIterable<ImportEvent> | Iterable<ImportEvent>): Promise<ImportReport> {
+export async function importRatingEvents(
+  db: Database,
+  request: ImportEventsRequest,
+  events: AsyncIterable<ImportEvent | ImportEvent[]> | Iterable<ImportEvent | ImportEvent[]>,
+): Promise<ImportReport> {
   const { panel, fileName } = request;
   let sha256 = typeof request.sha256 === 'string' ? request.sha256 : '';
   const counts = emptyCounts();
@@ -385,29 +389,34 @@ export async function importRatingEvents(db: Database, request: ImportEventsRequ
       );
     };
 
-    for await (const event of events) {
-      switch (event.type) {
-        case 'rating':
-          if (event.row > maxRow) maxRow = event.row;
-          batch.push(event);
-          break;
-        case 'missing':
-          if (event.row > maxRow) maxRow = event.row;
-          counts.missingCells += 1;
-          break;
-        case 'problem':
-          if (event.problem.row !== null && event.problem.row > maxRow) maxRow = event.problem.row;
-          if (event.problem.code === 'scale-missing') readerAskedForScales = true;
-          addProblem(event.problem);
-          batch.push(event);
-          break;
-        case 'finding':
-          addFinding(event.finding);
-          break;
-      }
-      if (batch.length >= STAGE_BATCH) {
-        flush(batch);
-        batch = [];
+    for await (const item of events) {
+      // The reader hands over arrays of events (one await per batch); single events work too.
+      const list = Array.isArray(item) ? item : [item];
+      for (let at = 0; at < list.length; at++) {
+        const event = list[at];
+        switch (event.type) {
+          case 'rating':
+            if (event.row > maxRow) maxRow = event.row;
+            batch.push(event);
+            break;
+          case 'missing':
+            if (event.row > maxRow) maxRow = event.row;
+            counts.missingCells += 1;
+            break;
+          case 'problem':
+            if (event.problem.row !== null && event.problem.row > maxRow) maxRow = event.problem.row;
+            if (event.problem.code === 'scale-missing') readerAskedForScales = true;
+            addProblem(event.problem);
+            batch.push(event);
+            break;
+          case 'finding':
+            addFinding(event.finding);
+            break;
+        }
+        if (batch.length >= STAGE_BATCH) {
+          flush(batch);
+          batch = [];
+        }
       }
     }
     flush(batch);

@@ -7,7 +7,7 @@ import { createHash } from 'node:crypto';
 import { createReadStream } from 'node:fs';
 import type { Database } from 'better-sqlite3';
 import type { ImportSource, ScaleRange } from '../domain/ratings.js';
-import { readRatings, type InputSource } from '../ingest/read-ratings.js';
+import { readRatingBatches, type InputSource } from '../ingest/read-ratings.js';
 import { findEarlierImport, importRatingEvents, scaleForNewAttribute, storedScales, unchangedReport, type ImportPhase, type ImportReport } from './import-core.js';
 import type { PanelConfigFile } from './panel-config.js';
 
@@ -73,6 +73,6 @@ export async function importRatings(db: Database, request: ImportRequest): Promi
   // phase takes the stored scales again under the write lock.
   const stored = storedScales(db, request.panel);
   const scaleFor = (attribute: string): ScaleRange | null => stored.get(attribute) ?? scaleForNewAttribute(attribute, request.scale, request.settings) ?? null;
-  const events = readRatings(request.input, { fileName: request.fileName, sheet: request.sheet, scaleFor });
+  const events = readRatingBatches(request.input, { fileName: request.fileName, sheet: request.sheet, scaleFor });
   return importRatingEvents(db, eventsRequest, events);
 }
