@@ -9,7 +9,7 @@
  */
 import { spawnSync } from 'node:child_process';
 import { createReadStream, createWriteStream, mkdtempSync, rmSync, statSync } from 'node:fs';
-import { cpus, tmpdir } from 'node:os';
+import { cpus, loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { parse } from 'csv-parse';
@@ -64,11 +64,17 @@ interface ChildResult {
   nRatings: number;
   nProblems: number;
   seconds: number;
+  /** CPU time of the read (user + system): less sensitive than wall time to other load on the machine. */
+  cpuSeconds: number;
+  /** RSS after start-up and imports, before reading: the baseline the peak is compared with. */
+  baselineRssMb: number;
   peakRssMb: number;
 }
 
 /** Runs inside the child: read the file, report counts, time and peak RSS. */
 async function child(mode: string, path: string): Promise<void> {
+  const baselineRssMb = process.memoryUsage().rss / 2 ** 20;
+  const cpuStart = process.cpuUsage();
   const start = process.hrtime.bigint();
   let nRatings = 0;
   let nProblems = 0;
@@ -83,8 +89,10 @@ async function child(mode: string, path: string): Promise<void> {
     }
   }
   const seconds = Number(process.hrtime.bigint() - start) / 1e9;
+  const cpu = process.cpuUsage(cpuStart);
+  const cpuSeconds = (cpu.user + cpu.system) / 1e6;
   // maxRSS is in kilobytes.
-  const result: ChildResult = { nRatings, nProblems, seconds, peakRssMb: process.resourceUsage().maxRSS / 1024 };
+  const result: ChildResult = { nRatings, nProblems, seconds, cpuSeconds, baselineRssMb, peakRssMb: process.resourceUsage().maxRSS / 1024 };
   process.stdout.write(JSON.stringify(result));
 }
 
@@ -109,9 +117,9 @@ async function main(): Promise<void> {
         for (const mode of modes) {
           const r = runChild(mode, path);
           if (mode === 'readRatings' && (r.nRatings !== n || r.nProblems !== 0)) throw new Error(`expected ${n} ratings, got ${r.nRatings} (${r.nProblems} problems)`);
-          const perSecond = r.nRatings / r.seconds;
+          const rate = (seconds: number): string => Math.round(r.nRatings / seconds).toLocaleString('en-US');
           rows.push(
-            `| ${n.toExponential(0).replace('e+', 'e')} | ${form} | ${mode === 'csv-parse' ? 'bare csv-parse (records)' : 'readRatings'} | ${sizeMb.toFixed(1)} | ${r.seconds.toFixed(2)} | ${Math.round(perSecond).toLocaleString('en-US')} | ${r.peakRssMb.toFixed(0)} |`,
+            `| ${n.toExponential(0).replace('e+', 'e')} | ${form} | ${mode === 'csv-parse' ? 'bare csv-parse (records)' : 'readRatings'} | ${sizeMb.toFixed(1)} | ${r.seconds.toFixed(2)} | ${rate(r.seconds)} | ${r.cpuSeconds.toFixed(2)} | ${rate(r.cpuSeconds)} | ${r.baselineRssMb.toFixed(0)} | ${r.peakRssMb.toFixed(0)} |`,
           );
         }
       }
@@ -119,9 +127,9 @@ async function main(): Promise<void> {
   } finally {
     rmSync(dir, { recursive: true, force: true });
   }
-  console.log(`Node ${process.version}, ${cpus().length} × ${cpus()[0]?.model ?? 'cpu'}`);
-  console.log('| ratings | form | reader | file MB | seconds | ratings/s | peak RSS MB |');
-  console.log('| ---: | --- | --- | ---: | ---: | ---: | ---: |');
+  console.log(`Node ${process.version}, ${cpus().length} × ${cpus()[0]?.model ?? 'cpu'}, load average at end ${loadavg()[0].toFixed(1)}`);
+  console.log('| ratings | form | reader | file MB | wall s | ratings/s (wall) | CPU s | ratings/CPU-s | RSS before MB | peak RSS MB |');
+  console.log('| ---: | --- | --- | ---: | ---: | ---: | ---: | ---: | ---: | ---: |');
   for (const row of rows) console.log(row);
 }
 

@@ -8,8 +8,8 @@ export type ColumnRole = 'session' | 'date' | 'assessor' | 'product' | 'replicat
 export const HEADER_SYNONYMS: Readonly<Record<ColumnRole, readonly string[]>> = {
   session: ['session', 'session id', 'session label', 'session name'],
   date: ['date', 'session date'],
-  assessor: ['assessor', 'panelist', 'panellist', 'judge', 'rater', 'subject', 'assessor code', 'panelist code', 'panellist code'],
-  product: ['product', 'sample', 'product code', 'product name'],
+  assessor: ['assessor', 'panelist', 'panellist', 'judge', 'rater', 'subject', 'assessor code', 'assessor id', 'panelist code', 'panelist id', 'panellist code', 'panellist id'],
+  product: ['product', 'sample', 'product code', 'product id', 'product name', 'sample id', 'sample name'],
   replicate: ['replicate', 'rep', 'repetition', 'replication'],
   attribute: ['attribute', 'descriptor'],
   value: ['value', 'score', 'rating', 'intensity'],

@@ -3,8 +3,10 @@
  * make-fixture-files.ts) reads to the same ratings as the plain long-form CSV.
  */
 import { readFileSync } from 'node:fs';
+import ExcelJS from 'exceljs';
 import { describe, expect, it } from 'vitest';
-import { fixturePath, readAll, readFixture, sortRatings } from './helpers.js';
+import { readRatingBatches, type ReadEvent } from '../../ingest/read-ratings.js';
+import { fixturePath, readAll, readFixture, sortRatings, where } from './helpers.js';
 
 const N_RATINGS = 71; // 72 cells, one left empty in wide form and absent in long form
 
@@ -121,5 +123,41 @@ describe('xlsx cells', () => {
       [4, 'crunchy', 'not-a-number', '#DIV/0!'],
       [5, 'crunchy', 'decimal-shift', '73'],
     ]);
+  });
+});
+
+describe('xlsx layout details', () => {
+  it('header below blank rows, rich text and hyperlink cells, values beyond the header, apostrophes kept as data', async () => {
+    const workbook = new ExcelJS.Workbook();
+    const sheet = workbook.addWorksheet('Panel');
+    sheet.getRow(3).values = ['session', 'date', 'assessor', 'product', 'replicate', 'sweet'];
+    sheet.getRow(4).values = ['W1', '04.03.2025', { richText: [{ text: 'A' }, { text: '07' }] }, { text: 'Ref', hyperlink: 'https://example.invalid' }, 1, 4.25];
+    sheet.getRow(5).values = ['W1', '2025-03-04', "'=x", 'Ref', 2, 5, 'stray'];
+    const bytes = new Uint8Array(await workbook.xlsx.writeBuffer());
+    const r = await readAll({ bytes }, { fileName: 'panel.xlsx' });
+    expect(r.ratingEvents.map((e) => [e.row, e.rating.assessor, e.rating.product, e.rating.date, e.rating.value])).toEqual([[4, 'A07', 'Ref', '2025-03-04', 4.25]]);
+    expect(where(r.problems)).toEqual([[5, null, 'row-field-count']]);
+    expect(r.problems[0].message).toMatch(/beyond the last of the 6 header columns/);
+  });
+
+  it('an apostrophe at the start of an xlsx text cell is data, not an export prefix', async () => {
+    const workbook = new ExcelJS.Workbook();
+    const sheet = workbook.addWorksheet('Panel');
+    sheet.addRow(['session', 'date', 'assessor', 'product', 'replicate', 'sweet']);
+    sheet.addRow(['W1', '2025-03-04', "'=x", 'Ref', 1, 5]);
+    const r = await readAll({ bytes: new Uint8Array(await workbook.xlsx.writeBuffer()) }, { fileName: 'panel.xlsx' });
+    expect(r.ratings.map((x) => x.assessor)).toEqual(["'=x"]);
+  });
+});
+
+describe('readRatingBatches', () => {
+  it.each(['validation-long.csv', 'validation-wide.csv', 'wide.xlsx', 'long-latin1.csv'])('%s: the same events, in order, as readRatings', async (name) => {
+    const options = { fileName: name, scaleFor: () => ({ min: 0, max: 10 }) };
+    const batched: ReadEvent[] = [];
+    for await (const batch of readRatingBatches({ path: fixturePath(name) }, options)) {
+      expect(batch.length).toBeGreaterThan(0);
+      batched.push(...batch);
+    }
+    expect(batched).toEqual((await readFixture(name)).events);
   });
 });
