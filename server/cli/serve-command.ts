@@ -72,10 +72,11 @@ function urlFor(host: string, port: number): string {
 
 /** Starts the service; resolves once it listens. */
 export async function startServer(options: ServeOptions, out: Output = process.stdout): Promise<RunningServer> {
-  const host = options.host ?? process.env.HOST ?? '127.0.0.1';
-  const port = parsePort(options.port ?? process.env.PORT ?? '8080');
+  // An empty variable counts as unset (a shell `HOST= npm start` should not mean "no address").
+  const host = options.host || process.env.HOST || '127.0.0.1';
+  const port = parsePort(options.port || process.env.PORT || '8080');
   const uploadLimitBytes = parseUploadLimit(options.uploadLimitMb);
-  const dbPath = resolveDbPath(options.db);
+  const dbPath = resolveDbPath(options.db || process.env.PANEL_STEWARD_DB || undefined);
   const isLoopback = isLoopbackHost(host);
   const envToken = process.env.PANEL_STEWARD_TOKEN?.trim() || null;
   if (envToken !== null && envToken.length < 16) throw new CliError('PANEL_STEWARD_TOKEN must be at least 16 characters long.', 2);
@@ -113,16 +114,19 @@ export async function startServer(options: ServeOptions, out: Output = process.s
   const actualPort = typeof address === 'object' && address !== null ? address.port : port;
   const url = urlFor(host, actualPort);
 
-  out.write(`panel-steward is serving ${url} (store: ${dbPath})\n`);
+  // One write, the address last, so the whole notice arrives together.
+  const notice: string[] = [];
   if (accessToken !== null) {
-    out.write(
+    notice.push(
       isLoopback
-        ? 'An access token is set (PANEL_STEWARD_TOKEN): every page and API call needs it.\n'
-        : `This address is reachable from other computers, so every page and API call needs the access token.\n`,
+        ? 'An access token is set (PANEL_STEWARD_TOKEN): every page and API call needs it.'
+        : 'This address is reachable from other computers, so every page and API call needs the access token.',
     );
-    if (envToken === null) out.write(`Access token: ${accessToken}\n(Set PANEL_STEWARD_TOKEN to choose your own.)\n`);
-    out.write('Browsers sign in at /login; API clients send "Authorization: Bearer <token>".\n');
+    if (envToken === null) notice.push(`Access token: ${accessToken}`, '(Set PANEL_STEWARD_TOKEN to choose your own.)');
+    notice.push('Browsers sign in at /login; API clients send "Authorization: Bearer <token>".');
   }
+  notice.push(`panel-steward is serving ${url} (store: ${dbPath})`);
+  out.write(`${notice.join('\n')}\n`);
 
   let stopping: Promise<void> | null = null;
   const stop = () => {
