@@ -363,10 +363,12 @@ export async function importRatingEvents(
           if (chunkEvents.length === STAGE_CHUNK_ROWS) stageChunk();
         } else if (event.type === 'problem') {
           const { problem, cell } = event;
-          if (!cell || problem.row === null || !QUARANTINABLE.has(problem.code)) {
+          if (problem.row === null || !QUARANTINABLE.has(problem.code)) {
             unquarantinableErrors += 1;
             continue;
           }
+          // A row's cells travel with its first problem; its further problems carry none.
+          if (!cell) continue;
           for (const rejected of [cell, ...(event.moreCells ?? [])]) holdCell(problem, rejected);
         }
       }

@@ -124,6 +124,18 @@ describe('idempotence, replacement, quarantine', () => {
       { row: 5, col: 'value', code: 'decimal-shift', raw: '73', replicate: '1' },
       { row: 6, col: 'replicate', code: 'replicate-not-positive-integer', raw: '5', replicate: 'x' },
     ]);
+    // A wide row with two bad key cells: all its values held once, under its first problem.
+    const wide = await importRatings(
+      db,
+      request(file('w.csv', ['session,date,assessor,product,replicate,crunchiness,saltiness', 'S2,2026-01-12,A1,P1,1,4,5', 'S2,2026-13-12,A2,P1,0,6,7']), { quarantine: true }),
+    );
+    expect(wide.outcome).toBe('quarantined');
+    expect(wide.totalErrors).toBe(2);
+    expect(wide.counts).toMatchObject({ ratings: 2, quarantined: 2 });
+    expect(db.prepare("SELECT attribute, raw_value AS raw, reason_code AS code FROM quarantine WHERE file_name = 'w.csv' ORDER BY attribute").all()).toEqual([
+      { attribute: 'crunchiness', raw: '6', code: 'invalid-date' },
+      { attribute: 'saltiness', raw: '7', code: 'invalid-date' },
+    ]);
     const header = await importRatings(db, request(file('h.csv', ['session,assessor', 'S1,A1']), { quarantine: true }));
     expect(header.outcome).toBe('rejected');
   });
