@@ -41,12 +41,7 @@ export function fitSessionModel(observations: Observation[]): SessionModelFit {
   const nAssessors = new Set(assessors).size;
   if (nAssessors < 2) throw new LmmFitError('too-few-assessors', `only ${nAssessors} assessor rated ${attribute}: a panel model needs at least 2`);
 
-  const cellCounts = new Map<string, number>();
-  for (let i = 0; i < observations.length; i++) {
-    const key = `${assessors[i]}\u0000${products[i]}`;
-    cellCounts.set(key, (cellCounts.get(key) ?? 0) + 1);
-  }
-  const withInteraction = [...cellCounts.values()].some((count) => count > 1);
+  const withInteraction = hasReplicatedCell(assessors, products);
   const frame = buildModelFrame({
     response: values,
     columns: { assessor: assessors, product: products },
@@ -193,6 +188,18 @@ function startTheta(anova: BalancedAnova | null, withInteraction: boolean): numb
   const clip = (variance: number): number => Math.sqrt(Math.max(variance / residual, 0.01));
   if (!withInteraction) return [clip((anova.msAssessor - anova.msInteraction) / anova.nProducts)];
   return [clip((anova.msAssessor - anova.msInteraction) / (n * anova.nProducts)), clip((anova.msInteraction - anova.msError) / n)];
+}
+
+/** True when some assessor × product cell holds more than one rating. */
+function hasReplicatedCell(assessors: string[], products: string[]): boolean {
+  const byAssessor = new Map<string, Set<string>>();
+  for (let i = 0; i < assessors.length; i++) {
+    let seen = byAssessor.get(assessors[i]);
+    if (!seen) byAssessor.set(assessors[i], (seen = new Set()));
+    if (seen.has(products[i])) return true;
+    seen.add(products[i]);
+  }
+  return false;
 }
 
 export function checkOneGroup(observations: Observation[], perSession = true): { session: string | null; attribute: string } {

@@ -26,7 +26,7 @@ export interface RandomTerm {
   /** R-style label, e.g. "assessor:product". */
   name: string;
   factors: string[];
-  /** Level labels (factor values joined by ':'), sorted. */
+  /** Level labels (factor values joined by ':'), in the order of their factors' sorted levels. */
   levels: string[];
   /** Level index of each observation. */
   index: Int32Array;
@@ -82,33 +82,57 @@ export function buildModelFrame(input: ModelFrameInput): ModelFrame {
     return values;
   };
 
-  const fixedValues = column(input.fixedFactor);
-  const fixedLevels = [...new Set(fixedValues)].sort(compareLevels);
-  const fixedLevelIndex = new Map(fixedLevels.map((level, index) => [level, index]));
-  const fixedIndex = Int32Array.from(fixedValues, (value) => fixedLevelIndex.get(value)!);
+  // Each factor coded once: sorted levels and the level index of every observation.
+  const coded = new Map<string, { levels: string[]; codes: Int32Array }>();
+  const codeFactor = (name: string): { levels: string[]; codes: Int32Array } => {
+    let entry = coded.get(name);
+    if (!entry) {
+      const values = column(name);
+      const levels = [...new Set(values)].sort(compareLevels);
+      const index = new Map(levels.map((level, position) => [level, position]));
+      const codes = new Int32Array(n);
+      for (let i = 0; i < n; i++) codes[i] = index.get(values[i])!;
+      entry = { levels, codes };
+      coded.set(name, entry);
+    }
+    return entry;
+  };
+
+  const fixedCoded = codeFactor(input.fixedFactor);
+  const fixedLevels = fixedCoded.levels;
+  const fixedIndex = fixedCoded.codes;
   const p = fixedLevels.length;
 
+  // Interaction levels are the combinations present, ordered by their factors' level order
+  // (the order is internal: results do not depend on it). factorValueOfLevel[k][factor][level]
+  // is the value of that factor for each level of term k.
+  const factorValueOfLevel: Record<string, string[]>[] = [];
   const terms: RandomTerm[] = input.randomTerms.map((factors) => {
-    const columns = factors.map(column);
-    const labels = new Array<string>(n);
-    if (columns.length === 1) for (let i = 0; i < n; i++) labels[i] = columns[0][i];
-    else if (columns.length === 2) for (let i = 0; i < n; i++) labels[i] = `${columns[0][i]}:${columns[1][i]}`;
-    else for (let i = 0; i < n; i++) labels[i] = columns.map((values) => values[i]).join(':');
-    const levels = [...new Set(labels)].sort(compareLevels);
-    const levelIndex = new Map(levels.map((level, index) => [level, index]));
-    return { name: factors.join(':'), factors: [...factors], levels, index: Int32Array.from(labels, (label) => levelIndex.get(label)!) };
-  });
-
-  // Value of each factor for each level of each term (first observation of the level).
-  const factorValueOfLevel = terms.map((term) => {
-    const byFactor: Record<string, string[]> = {};
-    for (const factor of term.factors) {
-      const values = column(factor);
-      const perLevel = new Array<string>(term.levels.length);
-      for (let i = 0; i < n; i++) perLevel[term.index[i]] ??= values[i];
-      byFactor[factor] = perLevel;
+    const parts = factors.map(codeFactor);
+    const combined = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      let key = 0;
+      for (const part of parts) key = key * part.levels.length + part.codes[i];
+      combined[i] = key;
     }
-    return byFactor;
+    const distinct = [...new Set(combined)].sort((a, b) => a - b);
+    const levelOfKey = new Map(distinct.map((key, level) => [key, level]));
+    const index = new Int32Array(n);
+    for (let i = 0; i < n; i++) index[i] = levelOfKey.get(combined[i])!;
+    const byFactor: Record<string, string[]> = {};
+    factors.forEach((factor) => (byFactor[factor] = new Array<string>(distinct.length)));
+    const labels = distinct.map((key) => {
+      const values: string[] = new Array(parts.length);
+      for (let f = parts.length - 1; f >= 0; f--) {
+        const size = parts[f].levels.length;
+        values[f] = parts[f].levels[key % size];
+        key = Math.floor(key / size);
+      }
+      return values;
+    });
+    labels.forEach((values, level) => factors.forEach((factor, f) => (byFactor[factor][level] = values[f])));
+    factorValueOfLevel.push(byFactor);
+    return { name: factors.join(':'), factors: [...factors], levels: labels.map((values) => values.join(':')), index };
   });
 
   const blockingFactor = chooseBlockingFactor(terms, factorValueOfLevel);

@@ -14,6 +14,7 @@ import { fitPeriodModel } from '../../../analysis/lmm/fit-period-model.js';
 import { fitSessionModel } from '../../../analysis/lmm/fit-session-model.js';
 import { fitVarianceComponents } from '../../../analysis/lmm/fit.js';
 import { buildModelFrame } from '../../../analysis/lmm/model-frame.js';
+import { productContrastRows } from '../../../analysis/lmm/satterthwaite.js';
 import * as tol from '../../helpers/tolerances.js';
 import { loadCases, observationsFromData, readCacheCsv, type ExpectedFit } from './lmm-fixtures.js';
 
@@ -71,6 +72,19 @@ function expectFitMatches(json: FitJson, expected: ExpectedFit): void {
 }
 
 function runCase(expected: ExpectedFit, observations: Observation[]): void {
+  if (expected.productContrast) {
+    it("product contrast rows equal lmerTest's type-III contrasts", () => {
+      const frame = buildModelFrame({
+        response: observations.map((row) => row.value),
+        columns: { assessor: observations.map((row) => row.assessor), product: observations.map((row) => row.product) },
+        fixedFactor: 'product',
+        randomTerms: [['assessor']],
+      });
+      const rows = productContrastRows(frame.xTx, frame.nFixed);
+      expect(rows).toHaveLength(expected.productContrast!.length);
+      rows.forEach((row, r) => row.forEach((value, c) => expect(Math.abs(value - expected.productContrast![r][c])).toBeLessThanOrEqual(1e-12)));
+    });
+  }
   it('criterion at lme4 θ equals its REMLcrit/deviance', () => {
     const ours = criterionAtLme4Theta(observations, expected);
     expect(Math.abs(ours - expected.criterion) / expected.criterion).toBeLessThanOrEqual(tol.CRITERION_AT_FIXED_THETA_RELATIVE);

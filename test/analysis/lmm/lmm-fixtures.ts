@@ -18,6 +18,8 @@ export interface ExpectedFit {
   criterion: number;
   beta: number[];
   productTest?: { F: number; numDf: number; denDf: number; p: number };
+  /** lmerTest's contrast rows for the product term (rows × fixed effects). */
+  productContrast?: number[][];
   productMeans: { product: string; mean: number; se: number }[];
   assessorEffects: { assessor: string; blup: number; condSD: number }[];
   singular: boolean;

@@ -1,0 +1,192 @@
+/**
+ * Model-fitting benchmark (issue 3, "Speed"): panel-steward's mixed-model engine against
+ * lme4 + lmerTest, whole process against whole process, on the same simulated CSV.
+ *
+ *   npx tsx bench/fit-bench.ts [--reps N] [--r-year-reps N] [--skip-r]
+ *
+ * Writes bench/out/fit-bench-year.csv once (seeded: 52 sessions × 10 attributes × 12 assessors ×
+ * 6 products × 2 replicates), then for each task starts fresh processes — this script in worker
+ * mode (`--task T --csv F`) and `Rscript bench/fit-bench.R T F` — and reports the median wall
+ * time of the whole process and the median in-process fitting time each reports.
+ * Tasks: one per-session fit (S01, attr01); all 520 per-session fits (REML + Satterthwaite
+ * product test); one period fit over 12 sessions and over 52 (attr02).
+ */
+import { spawnSync } from 'node:child_process';
+import { mkdirSync, readFileSync, writeFileSync } from 'node:fs';
+import { dirname, join, resolve } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import type { Observation } from '../domain/ratings.js';
+import { fitPeriodModel } from '../analysis/lmm/fit-period-model.js';
+import { fitSessionModel } from '../analysis/lmm/fit-session-model.js';
+
+const here = dirname(fileURLToPath(import.meta.url));
+const TASKS = ['session', 'year', 'period12', 'period52'] as const;
+type Task = (typeof TASKS)[number];
+
+export interface PanelDesign {
+  sessions: number;
+  attributes: number;
+  assessors: number;
+  products: number;
+  replicates: number;
+  seed: number;
+}
+
+export const YEAR_DESIGN: PanelDesign = { sessions: 52, attributes: 10, assessors: 12, products: 6, replicates: 2, seed: 20261202 };
+
+function mulberry32(seed: number): () => number {
+  let state = seed >>> 0;
+  return () => {
+    state = (state + 0x6d2b79f5) >>> 0;
+    let t = state;
+    t = Math.imul(t ^ (t >>> 15), t | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+}
+
+export function simulatePanel(design: PanelDesign): Observation[] {
+  const uniform = mulberry32(design.seed);
+  const normal = (sd: number): number => sd * Math.sqrt(-2 * Math.log(1 - uniform())) * Math.cos(2 * Math.PI * uniform());
+  const rows: Observation[] = [];
+  const pad = (value: number): string => String(value).padStart(2, '0');
+  for (let j = 0; j < design.attributes; j++) {
+    const attribute = `attr${pad(j + 1)}`;
+    // Attribute-specific SDs: assessor level, interaction, residual, session drifts, product instability.
+    const sdAssessor = 0.3 + 0.08 * j;
+    const sdInteraction = j % 3 === 0 ? 0.05 : 0.25 + 0.05 * j;
+    const sdResidual = 0.7 + 0.03 * j;
+    const sdSession = 0.3;
+    const sdAssessorSession = 0.25;
+    const sdProductSession = j % 4 === 0 ? 0 : 0.2;
+    const productEffects = Array.from({ length: design.products }, (_, p) => (p - (design.products - 1) / 2) * (0.2 + 0.05 * j));
+    const assessorEffects = Array.from({ length: design.assessors }, () => normal(sdAssessor));
+    const interaction = Array.from({ length: design.assessors * design.products }, () => normal(sdInteraction));
+    for (let s = 0; s < design.sessions; s++) {
+      const sessionShift = normal(sdSession);
+      const assessorSession = Array.from({ length: design.assessors }, () => normal(sdAssessorSession));
+      const productSession = Array.from({ length: design.products }, () => normal(sdProductSession));
+      for (let a = 0; a < design.assessors; a++) {
+        for (let p = 0; p < design.products; p++) {
+          for (let r = 0; r < design.replicates; r++) {
+            const value =
+              5 + productEffects[p] + assessorEffects[a] + interaction[a * design.products + p] + sessionShift + assessorSession[a] + productSession[p] + normal(sdResidual);
+            rows.push({
+              session: `S${pad(s + 1)}`,
+              assessor: `A${pad(a + 1)}`,
+              product: String(101 + p * 17),
+              replicate: r + 1,
+              attribute,
+              value: Math.round(value * 100) / 100,
+            });
+          }
+        }
+      }
+    }
+  }
+  return rows;
+}
+
+function writeCsv(rows: Observation[], path: string): void {
+  const lines = ['session,assessor,product,replicate,attribute,value'];
+  for (const row of rows) lines.push(`${row.session},${row.assessor},${row.product},${row.replicate},${row.attribute},${row.value}`);
+  writeFileSync(path, `${lines.join('\n')}\n`);
+}
+
+function readCsv(path: string): Observation[] {
+  const lines = readFileSync(path, 'utf8').trim().split('\n');
+  return lines.slice(1).map((line) => {
+    const [session, assessor, product, replicate, attribute, value] = line.split(',');
+    return { session, assessor, product, replicate: Number(replicate), attribute, value: Number(value) };
+  });
+}
+
+/** Worker mode: read the CSV, run one task, print {task, fits, fitMs}. */
+function runTask(task: Task, csvPath: string): void {
+  const rows = readCsv(csvPath);
+  const start = performance.now();
+  let fits = 0;
+  if (task === 'session') {
+    fitSessionModel(rows.filter((row) => row.session === 'S01' && row.attribute === 'attr01'));
+    fits = 1;
+  } else if (task === 'year') {
+    const groups = new Map<string, Observation[]>();
+    for (const row of rows) {
+      const key = `${row.session}\u0000${row.attribute}`;
+      let group = groups.get(key);
+      if (!group) groups.set(key, (group = []));
+      group.push(row);
+    }
+    for (const group of groups.values()) fitSessionModel(group);
+    fits = groups.size;
+  } else {
+    const sessions = task === 'period12' ? 12 : 52;
+    fitPeriodModel(rows.filter((row) => row.attribute === 'attr02' && Number(row.session.slice(1)) <= sessions));
+    fits = 1;
+  }
+  const fitMs = performance.now() - start;
+  process.stdout.write(`${JSON.stringify({ task, fits, fitMs })}\n`);
+}
+
+interface Measurement {
+  wallMs: number;
+  fitMs: number;
+}
+
+function measure(command: string, args: string[]): Measurement {
+  const start = performance.now();
+  const child = spawnSync(command, args, { encoding: 'utf8', maxBuffer: 1 << 24 });
+  const wallMs = performance.now() - start;
+  if (child.status !== 0) throw new Error(`${command} failed: ${child.stderr.slice(0, 2000)}`);
+  const report = JSON.parse(child.stdout.trim().split('\n').pop()!) as { fitMs: number };
+  return { wallMs, fitMs: report.fitMs };
+}
+
+function median(values: number[]): number {
+  const sorted = [...values].sort((a, b) => a - b);
+  const middle = Math.floor(sorted.length / 2);
+  return sorted.length % 2 ? sorted[middle] : (sorted[middle - 1] + sorted[middle]) / 2;
+}
+
+function main(): void {
+  const argv = process.argv.slice(2);
+  const option = (name: string): string | undefined => {
+    const index = argv.indexOf(name);
+    return index >= 0 ? argv[index + 1] : undefined;
+  };
+  const task = option('--task') as Task | undefined;
+  if (task) {
+    runTask(task, option('--csv')!);
+    return;
+  }
+  const reps = Number(option('--reps') ?? 5);
+  const rYearReps = Number(option('--r-year-reps') ?? 3);
+  const skipR = argv.includes('--skip-r');
+  const outDir = join(here, 'out');
+  mkdirSync(outDir, { recursive: true });
+  const csvPath = join(outDir, 'fit-bench-year.csv');
+  writeCsv(simulatePanel(YEAR_DESIGN), csvPath);
+  const self = fileURLToPath(import.meta.url);
+  const rows: string[] = [];
+  rows.push('| task | panel-steward process (ms) | panel-steward fitting (ms) | lme4+lmerTest process (ms) | lme4+lmerTest fitting (ms) | ratio, process | ratio, fitting |');
+  rows.push('| --- | ---: | ---: | ---: | ---: | ---: | ---: |');
+  for (const name of TASKS) {
+    const ours = Array.from({ length: reps }, () => measure(process.execPath, ['--import', 'tsx', self, '--task', name, '--csv', csvPath]));
+    const rReps = name === 'year' ? rYearReps : reps;
+    const reference = skipR ? [] : Array.from({ length: rReps }, () => measure('Rscript', ['--vanilla', join(here, 'fit-bench.R'), name, csvPath]));
+    const ourWall = median(ours.map((m) => m.wallMs));
+    const ourFit = median(ours.map((m) => m.fitMs));
+    const refWall = reference.length ? median(reference.map((m) => m.wallMs)) : Number.NaN;
+    const refFit = reference.length ? median(reference.map((m) => m.fitMs)) : Number.NaN;
+    const format = (value: number): string => (Number.isNaN(value) ? '—' : value.toFixed(value < 10 ? 1 : 0));
+    const ratio = (a: number, b: number): string => (Number.isNaN(b) ? '—' : `${(b / a).toFixed(1)}×`);
+    rows.push(`| ${name} | ${format(ourWall)} | ${format(ourFit)} | ${format(refWall)} | ${format(refFit)} | ${ratio(ourWall, refWall)} | ${ratio(ourFit, refFit)} |`);
+    process.stderr.write(`${rows[rows.length - 1]}\n`);
+  }
+  const table = rows.join('\n');
+  writeFileSync(join(outDir, 'fit-bench.md'), `${table}\n`);
+  process.stdout.write(`${table}\n`);
+}
+
+// Run only when executed, not when imported for its simulator.
+if (process.argv[1] && resolve(process.argv[1]) === fileURLToPath(import.meta.url)) main();
