@@ -141,6 +141,9 @@ class RowReader {
   private readonly maxCellChars: number;
   private readonly scaleFor: ReadRatingsOptions['scaleFor'];
   private readonly scales = new Map<string, ScaleRange | null | 'unchecked'>();
+  private readonly maxAttributes: number;
+  /** A problem that ends the reading (set while reading a row; the caller stops after that row). */
+  fatal: InputProblem | null = null;
   private readonly nColumns: number;
   private readonly valueColumns: { index: number; attribute: string | null }[];
   /** Parsed dates by text: a file has few distinct session dates. */
@@ -156,6 +159,7 @@ class RowReader {
     this.decimalMark = decimalMark;
     this.csv = csv;
     this.maxCellChars = options.maxCellChars ?? DEFAULT_MAX_CELL_CHARS;
+    this.maxAttributes = options.maxColumns ?? DEFAULT_MAX_COLUMNS;
     this.scaleFor = options.scaleFor;
     this.nColumns = layout.headers.length;
     this.valueColumns =
@@ -194,6 +198,16 @@ class RowReader {
   private scaleOf(attribute: string, row: number, column: string, out: ReadEvent[]): ScaleRange | null | 'unchecked' {
     let scale = this.scales.get(attribute);
     if (scale === undefined) {
+      if (this.scales.size >= this.maxAttributes && this.fatal === null) {
+        // Bounds memory (and calls to scaleFor) for a long-form file with a new attribute on every row.
+        this.fatal = this.problem(
+          'too-many-columns',
+          row,
+          column,
+          `The file names more than ${this.maxAttributes} different attributes; the most this reader accepts is ${this.maxAttributes}. Check the attribute column.`,
+          attribute,
+        );
+      }
       scale = this.scaleFor(attribute);
       this.scales.set(attribute, scale);
       if (scale === null) {
@@ -484,6 +498,11 @@ export async function* readRatingBatches(source: InputSource, options: ReadRatin
           if (layout.form === 'wide') reader.checkHeaderScales(record.row, out);
         } else if (!isBlankRecord(record.cells)) {
           reader.readRow(record, out);
+          if (reader.fatal !== null) {
+            out.push({ type: 'problem', cell: null, problem: reader.fatal });
+            yield out;
+            return;
+          }
         }
       }
       // xlsx hands over one row at a time: collect a few before handing them on.
@@ -510,7 +529,7 @@ export async function* readRatingBatches(source: InputSource, options: ReadRatin
   }
 
   if (reader === null) {
-    yield [fileProblem('file-empty', 'The file has no header row (it holds only empty lines); it needs a header row and at least one row of ratings.')];
+    yield [fileProblem('file-empty', 'The file has no header row (it is blank); it needs a header row and at least one row of ratings.')];
     return;
   }
   if (reader.nDataRows === 0) {

@@ -153,6 +153,16 @@ describe('header rules', () => {
   });
 });
 
+describe('attribute count in long form', () => {
+  it('more different attributes than maxColumns ends the reading at the row that adds one too many', async () => {
+    const rows = Array.from({ length: 30 }, (_, i) => `S,2025-01-01,a,p,1,attr${i + 1},5`);
+    const r = await readText(`session,date,assessor,product,replicate,attribute,value\n${rows.join('\n')}\n`, { maxColumns: 20 });
+    expect(r.ratings).toHaveLength(21);
+    expect(where(r.problems)).toEqual([[22, 'attribute', 'too-many-columns']]);
+    expect(r.problems[0].message).toMatch(/more than 20 different attributes/);
+  });
+});
+
 describe('file-level problems', () => {
   it.each([
     ['an empty file', '', 'file-empty', null],
