@@ -141,6 +141,20 @@ describe('idempotence, replacement, quarantine', () => {
   });
 });
 
+describe('several imports at once on one connection (as the service runs them)', () => {
+  it('each is whole and none sees the other\'s staging', async () => {
+    const paths = [0, 1, 2, 3].map((i) =>
+      file(`part-${i}.csv`, [HEADER, ...Array.from({ length: 300 }, (_, k) => `S${i},2026-02-0${i + 1},A${k % 12},P${Math.floor(k / 12) % 5},${1 + Math.floor(k / 60)},crunchiness,${(k % 11) / 1.1}`)]),
+    );
+    // The same file twice among them: one of the two finds the other's sessions already stored.
+    const reports = await Promise.all([...paths, paths[0]].map((path) => importRatings(db, request(path))));
+    expect(reports.map((r) => r.ok)).toEqual([true, true, true, true, true]);
+    expect(countOf(db, 'rating')).toBe(4 * 300);
+    expect(reports.filter((r) => r.outcome === 'unchanged')).toHaveLength(1);
+    expect(db.prepare("SELECT count(*) AS n FROM sqlite_temp_master WHERE type = 'table'").get()).toEqual({ n: 0 });
+  });
+});
+
 describe('forms and round trips', () => {
   const design: SyntheticDesign = { sessions: 3, assessors: 4, products: 3, replicates: 2, attributes: 4, seed: 7 };
 
