@@ -18,6 +18,7 @@ import { fileURLToPath } from 'node:url';
 import type { Observation } from '../domain/ratings.js';
 import { fitPeriodModel } from '../analysis/lmm/fit-period-model.js';
 import { fitSessionModel } from '../analysis/lmm/fit-session-model.js';
+import { seededRandom } from '../analysis/reliability/seeded-random.js';
 
 const here = dirname(fileURLToPath(import.meta.url));
 const TASKS = ['session', 'year', 'period12', 'period52'] as const;
@@ -34,19 +35,8 @@ export interface PanelDesign {
 
 export const YEAR_DESIGN: PanelDesign = { sessions: 52, attributes: 10, assessors: 12, products: 6, replicates: 2, seed: 20261202 };
 
-function mulberry32(seed: number): () => number {
-  let state = seed >>> 0;
-  return () => {
-    state = (state + 0x6d2b79f5) >>> 0;
-    let t = state;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
-
 export function simulatePanel(design: PanelDesign): Observation[] {
-  const uniform = mulberry32(design.seed);
+  const uniform = seededRandom(design.seed);
   const normal = (sd: number): number => sd * Math.sqrt(-2 * Math.log(1 - uniform())) * Math.cos(2 * Math.PI * uniform());
   const rows: Observation[] = [];
   const pad = (value: number): string => String(value).padStart(2, '0');

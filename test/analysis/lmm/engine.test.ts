@@ -24,17 +24,11 @@ import { fitFromObjective } from '../../../analysis/lmm/fit.js';
 import { buildModelFrame } from '../../../analysis/lmm/model-frame.js';
 import { combineSatterthwaiteDf } from '../../../analysis/lmm/satterthwaite.js';
 import { boundaryLrtPValue } from '../../../analysis/distributions/index.js';
+import { seededRandom } from '../../../analysis/reliability/seeded-random.js';
 
-/** Seeded normal deviates (mulberry32 + Box–Muller) for invented test data. */
+/** Seeded normal deviates (Box–Muller on the project's seeded uniform) for invented test data. */
 function normalGenerator(seed: number): (sd?: number) => number {
-  let state = seed >>> 0;
-  const uniform = (): number => {
-    state = (state + 0x6d2b79f5) >>> 0;
-    let t = state;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
+  const uniform = seededRandom(seed);
   return (sd = 1) => sd * Math.sqrt(-2 * Math.log(1 - uniform())) * Math.cos(2 * Math.PI * uniform());
 }
 
