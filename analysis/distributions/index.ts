@@ -5,6 +5,8 @@
  * Abramowitz & Stegun (1964) 26.6.2 and 26.7.1 (equation numbers from memory).
  */
 import jstatModule from 'jstat';
+import { inverseRegularizedIncompleteBeta, regularizedIncompleteBeta } from './incomplete-beta.js';
+import { inverseRegularizedGammaP, regularizedGammaQ } from './incomplete-gamma.js';
 
 const { jStat } = jstatModule;
 
@@ -14,7 +16,7 @@ export function fUpperTail(f: number, df1: number, df2: number): number {
   if (f <= 0) return 1;
   if (f === Infinity) return 0;
   const x = df2 / (df2 + df1 * f);
-  return clampProbability(jStat.ibeta(x, df2 / 2, df1 / 2));
+  return clampProbability(regularizedIncompleteBeta(x, df2 / 2, df1 / 2));
 }
 
 /** Two-sided P(|t_df| >= |t|) = I_x(df/2, 1/2), x = df/(df + t^2). */
@@ -22,7 +24,7 @@ export function tTwoSidedP(t: number, df: number): number {
   if (Number.isNaN(t) || !(df > 0)) return Number.NaN;
   if (!Number.isFinite(t)) return 0;
   const x = df / (df + t * t);
-  return clampProbability(jStat.ibeta(x, df / 2, 0.5));
+  return clampProbability(regularizedIncompleteBeta(x, df / 2, 0.5));
 }
 
 /** One-sided upper P(t_df >= t). */
@@ -51,19 +53,26 @@ export function normalQuantile(probability: number, params: { mean: number; sd: 
 
 /** Quantile t such that P(t_df <= t) = probability. */
 export function tQuantile(probability: number, df: number): number {
-  return jStat.studentt.inv(probability, df);
+  if (!(probability > 0)) return -Infinity;
+  if (!(probability < 1)) return Infinity;
+  if (probability === 0.5) return 0;
+  // P(|t| >= q) = I_x(df/2, 1/2) with x = df/(df + q^2): invert for the two-sided tail.
+  const twoSidedTail = 2 * Math.min(probability, 1 - probability);
+  const x = inverseRegularizedIncompleteBeta(twoSidedTail, df / 2, 0.5);
+  const magnitude = Math.sqrt((df * (1 - x)) / x);
+  return probability < 0.5 ? -magnitude : magnitude;
 }
 
 /** Quantile f such that P(F(df1, df2) <= f) = probability (real-valued df allowed). */
 export function fQuantile(probability: number, df1: number, df2: number): number {
   // Invert through the beta distribution for accuracy: if X ~ Beta(df1/2, df2/2) then F = (X/df1)/((1-X)/df2).
-  const x = jStat.ibetainv(probability, df1 / 2, df2 / 2);
+  const x = inverseRegularizedIncompleteBeta(probability, df1 / 2, df2 / 2);
   return (x / df1) / ((1 - x) / df2);
 }
 
 /** Quantile c such that P(chi2_df <= c) = probability. */
 export function chiSquareQuantile(probability: number, df: number): number {
-  return jStat.chisquare.inv(probability, df);
+  return 2 * inverseRegularizedGammaP(probability, df / 2);
 }
 
 /**
@@ -74,31 +83,6 @@ export function chiSquareQuantile(probability: number, df: number): number {
 export function boundaryLrtPValue(likelihoodRatio: number): number {
   if (!(likelihoodRatio > 0)) return 1;
   return 0.5 * chiSquareUpperTail(likelihoodRatio, 1);
-}
-
-/** Q(a, x) = 1 - P(a, x); series for x < a + 1 (then Q = 1 - P), continued fraction otherwise (Numerical Recipes style). */
-function regularizedGammaQ(a: number, x: number): number {
-  if (x < a + 1) return 1 - jStat.lowRegGamma(a, x);
-  // Lentz's continued fraction for Q(a, x): accurate deep in the upper tail.
-  const logPrefactor = -x + a * Math.log(x) - jStat.gammaln(a);
-  const tiny = 1e-300;
-  let b = x + 1 - a;
-  let c = 1 / tiny;
-  let d = 1 / b;
-  let h = d;
-  for (let i = 1; i < 10_000; i++) {
-    const an = -i * (i - a);
-    b += 2;
-    d = an * d + b;
-    if (Math.abs(d) < tiny) d = tiny;
-    c = b + an / c;
-    if (Math.abs(c) < tiny) c = tiny;
-    d = 1 / d;
-    const delta = d * c;
-    h *= delta;
-    if (Math.abs(delta - 1) < 1e-15) break;
-  }
-  return Math.exp(logPrefactor) * h;
 }
 
 function clampProbability(p: number): number {

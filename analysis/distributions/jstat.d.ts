@@ -6,6 +6,7 @@ declare module 'jstat' {
     ibeta(x: number, a: number, b: number): number;
     ibetainv(p: number, a: number, b: number): number;
     gammap(a: number, x: number): number;
+    gammapinv(p: number, a: number): number;
     gammaln(x: number): number;
     lowRegGamma(a: number, x: number): number;
     normal: Dist2;
