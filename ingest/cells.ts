@@ -109,6 +109,12 @@ export function parseSessionDate(text: string): CellResult<string> {
       code: 'invalid-date',
       message: `Date "${text}" is ambiguous (day/month or month/day); write it as YYYY-MM-DD.`,
     };
+  } else if (/^\d{5}(?:\.\d+)?$/.test(text)) {
+    return {
+      ok: false,
+      code: 'invalid-date',
+      message: `"${text}" looks like a spreadsheet date number; format the date column as a date (or as text YYYY-MM-DD).`,
+    };
   } else {
     return { ok: false, code: 'invalid-date', message: `"${text}" is not a date; write it as YYYY-MM-DD (or DD.MM.YYYY).` };
   }

@@ -108,6 +108,9 @@ describe('parseSessionDate', () => {
   ])('%s is refused', (text) => {
     expect(parseSessionDate(text)).toMatchObject({ ok: false, code: 'invalid-date' });
   });
+  it('says when a date looks like a spreadsheet date number', () => {
+    expect(parseSessionDate('45720')).toMatchObject({ ok: false, message: expect.stringMatching(/spreadsheet date number/) });
+  });
 });
 
 describe('spreadsheet-safe text', () => {
