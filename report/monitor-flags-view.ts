@@ -1,4 +1,5 @@
 /** The flags list (filter by kind, severity, status) and the retraining list (open act flags by assessor). */
+import type { RetrainingEvaluation } from '../analysis/flags/retraining.js';
 import { FLAG_KINDS, type Flag, type FlagKind, type FlagSeverity } from '../domain/flags.js';
 import { assessorMonitorHref, evidenceItems, monitorCrumbs, monitorHref, REVIEW_NOTICE, type EvidenceItem } from './monitor-common.js';
 import type { PageViewBase } from './page-common.js';
@@ -123,14 +124,56 @@ export interface RetrainingRecordInput {
   date: string;
   note: string;
   flagKeys: string[];
-  outcome: unknown | null;
+  outcome: RetrainingEvaluation | null;
+}
+
+/** The before/after evidence of a retraining, as a sentence and one row per index compared. */
+export interface RetrainingOutcomeView {
+  decision: 'close' | 'keep' | 'wait';
+  message: string;
+  eventSession: string;
+  rows: {
+    index: string;
+    description: string;
+    kinds: string;
+    nBefore: number;
+    meanBefore: number | null;
+    nAfter: number;
+    meanAfter: number | null;
+    t: number | null;
+    df: number | null;
+    pValue: number | null;
+    improved: boolean;
+  }[];
+}
+
+export function retrainingOutcomeView(outcome: RetrainingEvaluation | null): RetrainingOutcomeView | null {
+  if (!outcome) return null;
+  return {
+    decision: outcome.decision,
+    message: outcome.message,
+    eventSession: outcome.eventSession,
+    rows: outcome.comparisons.map((c) => ({
+      index: c.index,
+      description: c.description,
+      kinds: c.kinds.join(', '),
+      nBefore: c.before.values.length,
+      meanBefore: c.before.mean,
+      nAfter: c.after.values.length,
+      meanAfter: c.after.mean,
+      t: c.test?.t ?? null,
+      df: c.test?.df ?? null,
+      pValue: c.test?.pValue ?? null,
+      improved: c.improved,
+    })),
+  };
 }
 
 export interface RetrainingGroup {
   assessor: string;
   assessorHref: string;
   flags: FlagItem[];
-  records: (RetrainingRecordInput & { outcomeItems: EvidenceItem[]; updateAction: string })[];
+  records: (RetrainingRecordInput & { outcomeView: RetrainingOutcomeView | null; updateAction: string })[];
   /** Keys of the open act flags, posted with a new record to link them. */
   flagKeysValue: string;
   addAction: string;
@@ -158,7 +201,7 @@ export function buildRetrainingView(input: { panel: string; records: readonly Fl
         .filter((r) => r.assessor === assessor)
         .map((r) => ({
           ...r,
-          outcomeItems: r.outcome && typeof r.outcome === 'object' ? evidenceItems(r.outcome as Flag['evidence']) : [],
+          outcomeView: retrainingOutcomeView(r.outcome),
           updateAction: `${base}/${r.id}`,
         })),
       flagKeysValue: flags.map((f) => f.key).join('\n'),

@@ -31,13 +31,13 @@ import {
   saveSessionResults,
   type WindowSignature,
 } from '../store/fits-results.js';
-import { loadFlagBuild, replaceCurrentFlags } from '../store/monitor-flags.js';
-import { listPanelEvents } from '../store/monitor-events.js';
+import { closeFlagsByKey, loadFlagBuild, replaceCurrentFlags } from '../store/monitor-flags.js';
+import { listPanelEvents, listRetraining, updateRetraining } from '../store/monitor-events.js';
 import { loadPanelThresholds } from '../store/monitor-settings.js';
 import { createRefitJob, getRefitJob, markRefitJob, type RefitJob } from '../store/monitor-jobs.js';
 import type { FitRunner } from './fit-pool.js';
 import type { ImportFinding, PanelHistory, PeriodFitSummary, SessionAttributeResult } from '../analysis/monitor/series.js';
-import type { PeriodFitResult, RatedObservation } from './workers/fit-task-types.js';
+import type { PeriodFitResult, RatedObservation, RetrainingToEvaluate } from './workers/fit-task-types.js';
 
 /** Recorded with every stored result; bump when a change in analysis/ changes stored numbers. */
 export const ANALYSIS_VERSION = 'analysis-1';
@@ -206,23 +206,34 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
     }),
   );
 
-  // 3. Flags, when the data, the thresholds or the stored results changed.
+  // 3. Flags (and the retraining evaluations), when anything they read has changed: the data,
+  //    the thresholds, the events (baseline restarts) or the retraining records.
   const dataSignature = panelDataSignature(sessions);
   const thresholds = loadPanelThresholds(db, panel.id)?.thresholds ?? null;
-  const thresholdsHash = hashJson(thresholds);
+  const retrainingDone = retrainingToEvaluate(db, panel.id, sessions);
+  const inputsHash = hashJson({
+    thresholds,
+    events: listPanelEvents(db, panel.id).map((e) => [e.kind, e.session, e.assessor]),
+    retraining: retrainingDone,
+  });
   const lastBuild = loadFlagBuild(db, panel.id);
   const needFlags =
     options.scope === 'all' ||
     targets.length > 0 ||
     periodJobs.length > 0 ||
     lastBuild?.dataSignature !== dataSignature ||
-    lastBuild?.thresholdsHash !== thresholdsHash;
+    lastBuild?.thresholdsHash !== inputsHash;
   let nFlags = lastBuild?.nFlags ?? 0;
   if (needFlags) {
     const history = buildPanelHistory(db, panel.id, windowSessions);
-    const { flags } = await options.runner.run({ type: 'flags', history, thresholds });
-    replaceCurrentFlags(db, panel.id, flags, { dataSignature, thresholdsHash });
-    nFlags = flags.length;
+    const result = await options.runner.run({ type: 'flags', history, thresholds, retraining: retrainingDone });
+    replaceCurrentFlags(db, panel.id, result.flags, { dataSignature, thresholdsHash: inputsHash });
+    const linkedKeys = new Map(listRetraining(db, panel.id).map((r) => [r.id, r.flagKeys]));
+    for (const { id, evaluation } of result.retraining) {
+      updateRetraining(db, panel.id, id, { outcome: evaluation });
+      if (evaluation.decision === 'close') closeFlagsByKey(db, panel.id, linkedKeys.get(id) ?? [], evaluation.message);
+    }
+    nFlags = result.flags.length;
     options.onProgress?.({ phase: 'flags', done: 1, total: 1, label: 'flags' });
   }
   return {
@@ -234,6 +245,18 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
     dataSignature,
     durationMs: performance.now() - startedMs,
   };
+}
+
+/**
+ * Retraining records marked done, with the first session on or after their date (the sessions
+ * from there on are "after"). Records whose date is after the last session wait for data.
+ */
+function retrainingToEvaluate(db: Database, panelId: number, sessions: readonly SessionVersionRow[]): RetrainingToEvaluate[] {
+  return listRetraining(db, panelId).flatMap((r) => {
+    if (r.status !== 'done') return [];
+    const first = sessions.find((s) => s.date >= r.date);
+    return first ? [{ id: r.id, assessor: r.assessor, eventSession: first.label }] : [];
+  });
 }
 
 /** What a stored period fit holds: the period task's result, or the sentence saying why there is none. */

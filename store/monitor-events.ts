@@ -1,5 +1,6 @@
 /** Panel events (retraining, new control batch, notes) and retraining records with their linked flags. */
 import type { Database } from 'better-sqlite3';
+import type { RetrainingEvaluation } from '../analysis/flags/retraining.js';
 
 export type PanelEventKind = 'retraining' | 'control-batch' | 'note';
 export const PANEL_EVENT_KINDS: readonly PanelEventKind[] = ['retraining', 'control-batch', 'note'];
@@ -52,7 +53,7 @@ export interface RetrainingRecord {
   note: string;
   flagKeys: string[];
   /** The before/after evaluation, once made. */
-  outcome: unknown | null;
+  outcome: RetrainingEvaluation | null;
   createdAt: string;
   updatedAt: string;
 }

@@ -217,3 +217,9 @@ export function listCurrentFlagObjects(db: Database, panelName: string, sinceSes
   if (!panel) return null;
   return listFlags(db, panel.id, { sinceSession }).map((record) => record.flag);
 }
+
+/** Close the open flags with these keys (a retraining judged successful), with the evidence as the note. */
+export function closeFlagsByKey(db: Database, panelId: number, keys: readonly string[], note: string, reviewedAt = new Date().toISOString()): number {
+  const close = db.prepare("UPDATE flag SET status = 'closed', review_note = ?, reviewed_at = ? WHERE panel_id = ? AND flag_key = ? AND status = 'open'");
+  return db.transaction(() => keys.reduce((n, key) => n + close.run(note, reviewedAt, panelId, key).changes, 0))();
+}

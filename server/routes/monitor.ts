@@ -334,6 +334,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
     if (!isIsoDate(date)) throw new AppError('BAD_REQUEST', { detail: 'the date must be a calendar date (YYYY-MM-DD).' });
     const flagKeys = text(request.body, 'flagKeys', 100_000).split('\n').map((k) => k.trim()).filter(Boolean);
     addRetraining(db, panel.id, { assessor, status, date, note: text(request.body, 'note'), flagKeys });
+    if (status === 'done') service.schedule(panel.name, 'retraining recorded');
     return back(reply, monitorHref(panel.name, 'retraining'));
   });
 

@@ -7,6 +7,7 @@ import type { Flag } from '../../domain/flags.js';
 import type { Observation, ScaleRange } from '../../domain/ratings.js';
 import type { AssessorSessionIndices } from '../../analysis/indices/types.js';
 import type { PanelHistory } from '../../analysis/monitor/series.js';
+import type { RetrainingEvaluation } from '../../analysis/flags/index.js';
 
 export type RatedObservation = Observation & { code: string | null };
 
@@ -60,8 +61,16 @@ export interface PeriodTaskResult {
   problem: string | null;
 }
 
+/** A retraining recorded as done, to be judged from the sessions from `eventSession` on. */
+export interface RetrainingToEvaluate {
+  id: number;
+  assessor: string;
+  eventSession: string;
+}
+
 export interface FlagsTask {
   type: 'flags';
+  retraining: RetrainingToEvaluate[];
   history: PanelHistory;
   /** The panel's thresholds (validated), or null for the defaults. */
   thresholds: unknown;
@@ -69,6 +78,7 @@ export interface FlagsTask {
 
 export interface FlagsTaskResult {
   flags: Flag[];
+  retraining: { id: number; evaluation: RetrainingEvaluation }[];
 }
 
 export type FitTask = SessionTask | PeriodTask | FlagsTask;

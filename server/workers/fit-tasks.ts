@@ -2,7 +2,7 @@
  * The work a fit worker does, as plain functions (run in a piscina worker thread, or in-thread).
  * Pure analysis: observations in, results out; no database, no clock.
  */
-import { buildFlags, validateThresholds } from '../../analysis/flags/index.js';
+import { buildFlags, evaluateRetraining, validateThresholds } from '../../analysis/flags/index.js';
 import { computeAssessorIndices } from '../../analysis/indices/compute-assessor-indices.js';
 import { LmmFitError } from '../../analysis/lmm/errors.js';
 import { fitPeriodModel } from '../../analysis/lmm/fit-period-model.js';
@@ -67,7 +67,10 @@ export function runPeriodTask(task: PeriodTask): PeriodTaskResult {
 export function runFlagsTask(task: FlagsTask): FlagsTaskResult {
   // Stored thresholds were validated when saved; validating again fills in defaults added since.
   const { thresholds } = validateThresholds(task.thresholds ?? {});
-  return { flags: buildFlags(task.history, thresholds) };
+  return {
+    flags: buildFlags(task.history, thresholds),
+    retraining: task.retraining.map((r) => ({ id: r.id, evaluation: evaluateRetraining(task.history, r.assessor, r.eventSession, thresholds) })),
+  };
 }
 
 export function runFitTask<T extends FitTask>(task: T): FitTaskResult<T> {

@@ -11,6 +11,7 @@ import { refitPanel } from '../../server/refit.js';
 import { findPanel } from '../../store/fits-sessions.js';
 import { loadPeriodFits, loadSessionFits, loadSessionIndices } from '../../store/fits-results.js';
 import { listFlags, replaceCurrentFlags } from '../../store/monitor-flags.js';
+import { listRetraining } from '../../store/monitor-events.js';
 import { csrfFrom, makeTestApp, type TestApp } from '../http/http-helpers.js';
 import { importRatings, smallPanel } from './helpers.js';
 
@@ -205,4 +206,52 @@ describe('product stability and control product pages', () => {
     expect(plotted).toEqual(fits.map((f) => [f.session, f.fit.productMeans.find((m) => m.product === json.product)!.mean]));
     expect(json.assessors.map((a: { assessor: string }) => a.assessor)).toEqual([...panel.assessors].sort());
   });
+});
+
+describe('retraining and events forms', () => {
+  it('retraining list: open act flags grouped by assessor; recording a retraining links them', async () => {
+    const page = await t.app.inject({ url: `/panels/${enc}/monitor/retraining` });
+    expect(page.statusCode).toBe(200);
+    const json = (await t.app.inject({ url: `/panels/${enc}/monitor/retraining.json` })).json();
+    const panelId = findPanel(t.db, name)!.id;
+    const openAct = listFlags(t.db, panelId, { status: 'open', severity: 'act' }).filter((r) => r.flag.assessor !== null);
+    expect(json.groups.map((g: { assessor: string }) => g.assessor)).toEqual([...new Set(openAct.map((r) => r.flag.assessor))].sort());
+    const group = json.groups[0];
+    const { token, cookie } = csrfFrom(page);
+    const posted = await t.app.inject({
+      method: 'POST',
+      url: group.addAction,
+      headers: { cookie, 'content-type': 'application/x-www-form-urlencoded' },
+      payload: new URLSearchParams({ _csrf: token, assessor: group.assessor, status: 'planned', date: '2026-04-01', note: 'Reference tasting', flagKeys: group.flagKeysValue }).toString(),
+    });
+    expect(posted.statusCode).toBe(303);
+    const record = listRetraining(t.db, panelId).find((r) => r.assessor === group.assessor)!;
+    expect(record.status).toBe('planned');
+    expect(record.flagKeys).toEqual(group.flags.map((f: { key: string }) => f.key).sort());
+    const badDate = await t.app.inject({
+      method: 'POST',
+      url: group.addAction,
+      headers: { cookie, 'content-type': 'application/x-www-form-urlencoded' },
+      payload: new URLSearchParams({ _csrf: token, assessor: group.assessor, status: 'planned', date: 'next week' }).toString(),
+    });
+    expect(badDate.statusCode).toBe(400);
+  });
+
+  it('events: a new control batch is recorded and a refit is queued', async () => {
+    const page = await t.app.inject({ url: `/panels/${enc}/monitor/events` });
+    const { token, cookie } = csrfFrom(page);
+    const session = panel.sessions[6].label;
+    const posted = await t.app.inject({
+      method: 'POST',
+      url: `/panels/${enc}/monitor/events`,
+      headers: { cookie, 'content-type': 'application/x-www-form-urlencoded' },
+      payload: new URLSearchParams({ _csrf: token, kind: 'control-batch', session, assessor: '', note: 'Batch 2' }).toString(),
+    });
+    expect(posted.statusCode).toBe(303);
+    const json = (await t.app.inject({ url: `/panels/${enc}/monitor/events.json` })).json();
+    expect(json.events.map((e: { kind: string; session: string; assessor: string | null }) => [e.kind, e.session, e.assessor])).toEqual([['control-batch', session, null]]);
+    const refit = (await t.app.inject({ url: `/api/panels/${enc}/refit` })).json();
+    expect(refit.job.reason).toBe('event recorded');
+    await t.app.refitService.whenIdle();
+  }, 60_000);
 });
