@@ -21,9 +21,9 @@ describe('flag detection on simulated panels', () => {
   }, 1_800_000);
 
   it('plants every flag kind on several panels and fits every session', () => {
-    for (const tally of report.byKind) expect(tally.planted, tally.kind).toBeGreaterThanOrEqual(3);
+    for (const tally of report.byKind) expect(tally.planted, tally.kind).toBeGreaterThanOrEqual(5);
     expect(report.panels.every((p) => p.nUnfitted === 0)).toBe(true);
-    expect(report.cleanAssessorYears).toBeGreaterThan(25);
+    expect(report.cleanAssessorYears).toBeGreaterThan(50);
   });
 
   it.each([...FLAG_KINDS])('finds ≥ 95 %% of planted %s faults at watch or act', (kind) => {
@@ -38,8 +38,12 @@ describe('flag detection on simulated panels', () => {
   });
 
   it('flags every planted drift within the simulated period', () => {
-    expect(report.driftDelays.length).toBeGreaterThanOrEqual(6);
-    for (const d of report.driftDelays) expect(d.sessionsToFirstFlag, `${d.panel} ${d.assessor}`).not.toBeNull();
+    expect(report.driftDelays.length).toBeGreaterThanOrEqual(10);
+    for (const d of report.driftDelays) {
+      expect(d.sessionsToFirstFlag, `${d.panel} ${d.assessor}`).not.toBeNull();
+      // The delay is only meaningful when the drift flag was not already there before the drift.
+      expect(d.flaggedBeforeStart, `${d.panel} ${d.assessor}`).toBe(false);
+    }
     expect(report.medianDriftDelaySessions).not.toBeNull();
   });
 });

@@ -88,5 +88,16 @@ function designB(seed: number, nWeeks: number): SimulationScenario {
 
 /** The fixed suite: two designs × several seeds (deterministic). */
 export function simulationScenarios(): SimulationScenario[] {
-  return [designA(101), designB(202, 26), designA(303), designB(404, 39), designA(505), designB(606, 30)];
+  return [
+    designA(101),
+    designB(202, 26),
+    designA(303),
+    designB(404, 39),
+    designA(505),
+    designB(606, 30),
+    designA(707),
+    designB(808, 35),
+    designA(909),
+    designB(1010, 28),
+  ];
 }
