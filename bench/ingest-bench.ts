@@ -13,6 +13,7 @@ import { cpus, loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { parse } from 'csv-parse';
+import ExcelJS from 'exceljs';
 import { readRatings } from '../ingest/read-ratings.js';
 
 const ATTRIBUTES = ['crunchy', 'salty', 'sweet', 'sour', 'bitter', 'oily', 'hard', 'moist', 'roasted', 'smoky'];
@@ -60,6 +61,26 @@ async function writeFile(path: string, form: 'long' | 'wide', nRatings: number):
   await new Promise<void>((resolve, reject) => out.end((error?: Error | null) => (error ? reject(error) : resolve())));
 }
 
+/** The wide CSV as an .xlsx workbook (exceljs streaming writer; numbers as numbers, dates as dates). */
+async function writeXlsx(csvPath: string, xlsxPath: string): Promise<void> {
+  const workbook = new ExcelJS.stream.xlsx.WorkbookWriter({ filename: xlsxPath, useSharedStrings: true });
+  const sheet = workbook.addWorksheet('Ratings');
+  let header = true;
+  for await (const record of createReadStream(csvPath).pipe(parse())) {
+    const cells = record as string[];
+    if (header) {
+      sheet.addRow(cells).commit();
+      header = false;
+      continue;
+    }
+    const [y, m, d] = cells[1].split('-').map(Number);
+    const row = sheet.addRow([cells[0], new Date(Date.UTC(y, m - 1, d)), cells[2], cells[3], Number(cells[4]), ...cells.slice(5).map(Number)]);
+    row.getCell(2).numFmt = 'yyyy-mm-dd';
+    row.commit();
+  }
+  await workbook.commit();
+}
+
 interface ChildResult {
   nRatings: number;
   nProblems: number;
@@ -83,7 +104,7 @@ async function child(mode: string, path: string): Promise<void> {
     for await (const _record of parser) nRatings++;
     nRatings--; // header
   } else {
-    for await (const event of readRatings({ path }, { fileName: 'bench.csv', scaleFor: () => ({ min: 0, max: 10 }) })) {
+    for await (const event of readRatings({ path }, { fileName: path.endsWith('.xlsx') ? 'bench.xlsx' : 'bench.csv', scaleFor: () => ({ min: 0, max: 10 }) })) {
       if (event.type === 'rating') nRatings++;
       else if (event.type === 'problem') nProblems++;
     }
@@ -109,9 +130,10 @@ async function main(): Promise<void> {
   const rows: string[] = [];
   try {
     for (const n of sizes) {
-      for (const form of ['long', 'wide'] as const) {
-        const path = join(dir, `${form}-${n}.csv`);
-        await writeFile(path, form, n);
+      for (const form of ['long', 'wide', 'wide-xlsx'] as const) {
+        const path = join(dir, form === 'wide-xlsx' ? `wide-${n}.xlsx` : `${form}-${n}.csv`);
+        if (form === 'wide-xlsx') await writeXlsx(join(dir, `wide-${n}.csv`), path);
+        else await writeFile(path, form, n);
         const sizeMb = statSync(path).size / 1e6;
         const modes = form === 'long' ? ['readRatings', 'csv-parse'] : ['readRatings'];
         for (const mode of modes) {
