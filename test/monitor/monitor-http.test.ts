@@ -10,7 +10,7 @@ import { createFitPool } from '../../server/fit-pool.js';
 import { refitPanel } from '../../server/refit.js';
 import { findPanel } from '../../store/fits-sessions.js';
 import { loadPeriodFits, loadSessionFits, loadSessionIndices } from '../../store/fits-results.js';
-import { listFlags, replaceCurrentFlags } from '../../store/monitor-flags.js';
+import { listFlags, replaceCurrentFlags, reviewFlag } from '../../store/monitor-flags.js';
 import { listRetraining } from '../../store/monitor-events.js';
 import { csrfFrom, makeTestApp, type TestApp } from '../http/http-helpers.js';
 import { importRatings, smallPanel } from './helpers.js';
@@ -210,12 +210,15 @@ describe('product stability and control product pages', () => {
 
 describe('retraining and events forms', () => {
   it('retraining list: open act flags grouped by assessor; recording a retraining links them', async () => {
+    // Reopen what an earlier test dismissed, so the planted lenient flag is on the list.
+    for (const r of listFlags(t.db, findPanel(t.db, name)!.id, { status: 'dismissed' })) reviewFlag(t.db, findPanel(t.db, name)!.id, r.id, 'open', 'reopened');
     const page = await t.app.inject({ url: `/panels/${enc}/monitor/retraining` });
     expect(page.statusCode).toBe(200);
     const json = (await t.app.inject({ url: `/panels/${enc}/monitor/retraining.json` })).json();
     const panelId = findPanel(t.db, name)!.id;
     const openAct = listFlags(t.db, panelId, { status: 'open', severity: 'act' }).filter((r) => r.flag.assessor !== null);
     expect(json.groups.map((g: { assessor: string }) => g.assessor)).toEqual([...new Set(openAct.map((r) => r.flag.assessor))].sort());
+    expect(json.groups.length).toBeGreaterThan(0);
     const group = json.groups[0];
     const { token, cookie } = csrfFrom(page);
     const posted = await t.app.inject({
