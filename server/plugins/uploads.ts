@@ -26,6 +26,8 @@ export interface ReceivedFile {
 export interface UploadBody {
   fields: Record<string, string>;
   file: ReceivedFile | null;
+  /** An optional panel settings file (JSON: scales, anchors, product roles). */
+  settingsFile: ReceivedFile | null;
 }
 
 /** Raw-body content types accepted in place of a multipart form. */
@@ -41,6 +43,8 @@ export const RAW_UPLOAD_TYPES = [
 /** Multipart overhead allowed on top of the file limit before the Content-Length check refuses. */
 const MULTIPART_OVERHEAD_BYTES = 64 * 1024;
 const MAX_FIELD_BYTES = 16 * 1024;
+/** A panel settings file is a few kilobytes; anything near this is not one. */
+const MAX_SETTINGS_BYTES = 1024 * 1024;
 const MAX_FILE_NAME_CHARS = 200;
 
 /**
@@ -109,27 +113,30 @@ function asUploadError(error: unknown): unknown {
 
 async function readParts(request: FastifyRequest, limitBytes: number, tmpDir: string): Promise<UploadBody> {
   const fields: Record<string, string> = {};
-  let file: ReceivedFile | null = null;
+  const files: { file: ReceivedFile | null; settings: ReceivedFile | null } = { file: null, settings: null };
   const parts = request.parts({ limits: { fileSize: limitBytes, fieldSize: MAX_FIELD_BYTES, fields: 50, parts: 60 } });
   for await (const part of parts) {
     if (part.type === 'field') {
       fields[part.fieldname] = typeof part.value === 'string' ? part.value : String(part.value);
       continue;
     }
-    // Only one file is read; others are drained and ignored. A browser sends an empty part with
-    // no file name when the person chose no file: that counts as no file.
-    if (part.fieldname !== 'file' || file !== null || !part.filename) {
+    // One ratings file ("file") and one settings file ("settings") are read; other parts are
+    // drained and ignored. A browser sends an empty part with no file name when the person chose
+    // no file: that counts as no file.
+    const slot = part.fieldname === 'file' || part.fieldname === 'settings' ? part.fieldname : null;
+    if (slot === null || files[slot] !== null || !part.filename) {
       part.file.resume();
       continue;
     }
-    const fileName = cleanFileName(part.filename, 'upload.csv');
+    const slotLimitBytes = slot === 'settings' ? Math.min(limitBytes, MAX_SETTINGS_BYTES) : limitBytes;
+    const fileName = cleanFileName(part.filename, slot === 'settings' ? 'settings.json' : 'upload.csv');
     const path = await newTempPath(request, tmpDir, fileName);
     const counter = { nBytes: 0 };
-    await pipeline(part.file, byteLimiter(limitBytes, counter), createWriteStream(path));
+    await pipeline(part.file, byteLimiter(slotLimitBytes, counter), createWriteStream(path));
     if (part.file.truncated) throw tooLarge(limitBytes);
-    file = { path, fileName, nBytes: counter.nBytes };
+    files[slot] = { path, fileName, nBytes: counter.nBytes };
   }
-  return { fields, file };
+  return { fields, file: files.file, settingsFile: files.settings };
 }
 
 /**

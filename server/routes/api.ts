@@ -11,7 +11,7 @@ import { readPanelSummaries } from '../../store/read-panels.js';
 import { AppError } from '../errors.js';
 import { jsonView } from '../plugins/pages.js';
 import { checkDeclaredLength, receiveMultipart, registerUploadParsers, type ReceivedFile, type UploadBody } from '../plugins/uploads.js';
-import { checkPanelName, importAnswerBody, importStatus, parseImportOptions, runImport } from './import-request.js';
+import { checkPanelName, importAnswerBody, importStatus, parseImportOptions, readSettingsUpload, runImport } from './import-request.js';
 import { requirePanel } from './panel-pages.js';
 
 const PanelParams = Type.Object({ panel: Type.String({ minLength: 1, maxLength: 200 }) });
@@ -63,6 +63,7 @@ export async function apiRoutes(app: FastifyInstance): Promise<void> {
     async (request, reply: FastifyReply) => {
       const panel = checkPanelName(request.params.panel);
       let file: ReceivedFile | null;
+      let settingsFile: ReceivedFile | null = null;
       let optionSource: Record<string, unknown>;
       if (isReceivedFile(request.body)) {
         file = request.body;
@@ -70,6 +71,7 @@ export async function apiRoutes(app: FastifyInstance): Promise<void> {
       } else if (request.isMultipart()) {
         const body = request.body as UploadBody;
         file = body.file;
+        settingsFile = body.settingsFile;
         // Form fields win over query parameters of the same name.
         optionSource = { ...request.query, ...body.fields };
       } else if (request.body !== undefined && request.body !== null) {
@@ -80,7 +82,8 @@ export async function apiRoutes(app: FastifyInstance): Promise<void> {
       }
       if (file === null) throw new AppError('UPLOAD_MISSING_FILE');
       const options = parseImportOptions(optionSource);
-      const report = await runImport(app, { panel, file, source: 'http', options });
+      const settings = settingsFile === null ? undefined : await readSettingsUpload(settingsFile);
+      const report = await runImport(app, { panel, file, source: 'http', options, settings });
       return reply.code(importStatus(report)).send(importAnswerBody(report));
     },
   );

@@ -3,10 +3,12 @@
  * (form fields or query parameters), run `importRatings` through the import queue, and turn
  * the store's ImportReport into an HTTP status.
  */
+import { readFile } from 'node:fs/promises';
 import type { FastifyInstance } from 'fastify';
 import type { ScaleRange } from '../../domain/ratings.js';
 import type { ImportReport } from '../../store/import-core.js';
 import { importRatings } from '../../store/import-ratings.js';
+import { validatePanelConfig, type PanelConfigFile } from '../../store/panel-config.js';
 import { AppError, type ErrorItem } from '../errors.js';
 import type { ReceivedFile } from '../plugins/uploads.js';
 
@@ -86,12 +88,37 @@ export function checkPanelName(raw: unknown): string {
   return name;
 }
 
+/**
+ * Reads an uploaded panel settings file (JSON). Its problems are listed like bad options, each
+ * naming the file and the place in it (as a JSON path in `column`).
+ */
+export async function readSettingsUpload(file: ReceivedFile): Promise<PanelConfigFile> {
+  const text = (await readFile(file.path, 'utf8')).replace(/^\uFEFF/, '');
+  let parsed: unknown;
+  try {
+    parsed = JSON.parse(text);
+  } catch {
+    throw new AppError('UPLOAD_BAD_OPTION', { option: 'settings', detail: `${file.fileName} is not valid JSON.` }, [
+      { file: file.fileName, column: null, message: `${file.fileName} is not valid JSON; a settings file looks like sample-data/panel-settings.json.` },
+    ]);
+  }
+  const { config, problems } = validatePanelConfig(parsed, file.fileName);
+  if (config === null) {
+    throw new AppError(
+      'UPLOAD_BAD_OPTION',
+      { option: 'settings', detail: `${file.fileName} has ${problems.length} problem(s).` },
+      problems.map((problem) => ({ file: problem.file, column: problem.path || null, message: problem.message })),
+    );
+  }
+  return config;
+}
+
 /** Runs the import after every earlier one (one writer at a time). */
 export function runImport(
   app: FastifyInstance,
-  request: { panel: string; file: ReceivedFile; source: 'http' | 'web'; options: ImportOptions },
+  request: { panel: string; file: ReceivedFile; source: 'http' | 'web'; options: ImportOptions; settings?: PanelConfigFile },
 ): Promise<ImportReport> {
-  const { panel, file, source, options } = request;
+  const { panel, file, source, options, settings } = request;
   return app.importQueue.run(() =>
     importRatings(app.db, {
       panel,
@@ -101,6 +128,7 @@ export function runImport(
       scale: options.scale,
       quarantine: options.quarantine,
       sheet: options.sheet,
+      settings,
     }),
   );
 }

@@ -10,7 +10,7 @@ import { readPanelSummaries } from '../../store/read-panels.js';
 import { AppError, formatBytes, toAppError } from '../errors.js';
 import { jsonView, sendPage } from '../plugins/pages.js';
 import { checkDeclaredLength, receiveMultipart, registerUploadParsers, type UploadBody } from '../plugins/uploads.js';
-import { checkPanelName, importStatus, parseImportOptions, runImport } from './import-request.js';
+import { checkPanelName, importStatus, parseImportOptions, readSettingsUpload, runImport } from './import-request.js';
 
 function formValues(fields: Record<string, string>): UploadFormValues {
   return {
@@ -56,7 +56,8 @@ export async function uploadPageRoutes(app: FastifyInstance): Promise<void> {
         const panel = checkPanelName(body.fields.panel);
         if (body.file === null) throw new AppError('UPLOAD_MISSING_FILE');
         const options = parseImportOptions(body.fields);
-        const report = await runImport(app, { panel, file: body.file, source: 'web', options });
+        const settings = body.settingsFile === null ? undefined : await readSettingsUpload(body.settingsFile);
+        const report = await runImport(app, { panel, file: body.file, source: 'web', options, settings });
         return answerPage(importStatus(report), {
           form,
           panelNames: panelNames(),
@@ -70,7 +71,12 @@ export async function uploadPageRoutes(app: FastifyInstance): Promise<void> {
           form,
           panelNames: panelNames(),
           uploadLimitText: limitText,
-          failure: { message: appError.message, errors: appError.errors.filter((item) => item.message !== appError.message) },
+          failure: {
+            message: appError.message,
+            errors: appError.errors
+              .filter((item) => item.message !== appError.message)
+              .map((item) => ({ message: item.column ? `${item.column}: ${item.message}` : item.message })),
+          },
         });
       }
     },
