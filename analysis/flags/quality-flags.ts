@@ -27,132 +27,197 @@ export function qualityFlags(ctx: FlagContext): Flag[] {
   const importedMissing = new Set(ctx.history.importFindings.filter((f) => f.code === 'missing-cells').map((f) => `${f.session ?? ''}\u0000${f.assessor ?? ''}`));
   const out: Flag[] = [];
   const sessions = [...bySession.keys()].sort((a, b) => (ctx.sessionOrder.get(a) ?? 0) - (ctx.sessionOrder.get(b) ?? 0));
+  const qualityKey = JSON.stringify(q);
   for (const session of sessions) {
-    const data = sessionData(session, bySession.get(session) as Rating[], ctx.history.attributes);
-    const productTestP = new Map(data.attributes.map((a) => [a.name, ctx.results.get(resultKey(session, a.name))?.productTestP ?? null]));
-    const base = { product: null, attribute: null, firstSession: session };
-
-    for (const swap of detectSwappedCodes(data, productTestP, { minRelativeGain: q.swapMinRelativeGain, minAttributes: q.swapMinAttributes })) {
-      const codes = swap.codes[0] && swap.codes[1] ? ` (codes ${swap.codes[0]} and ${swap.codes[1]})` : '';
-      out.push({
-        ...base,
-        kind: 'swapped-codes',
-        assessor: swap.assessor,
-        product: `${swap.productA}, ${swap.productB}`,
-        severity: 'watch',
-        evidence: {
-          test: 'profile distance swap check (methods §5.10)',
-          statistic: swap.relativeGain,
-          pValue: null,
-          qValue: null,
-          n: swap.nAttributes,
-          threshold: `relative gain ρ ≥ ${q.swapMinRelativeGain} with each profile closer to the other product's panel profile`,
-          lastSession: session,
-          replicate: swap.replicate,
-          products: [swap.productA, swap.productB],
-          codes: swap.codes,
-        },
-        message: `In session ${session}, ${swap.assessor}'s ratings of ${swap.productA} and ${swap.productB}${codes}, replicate ${swap.replicate}, each matched the other product's panel profile better than their own, so the two samples may have been entered under each other's code.`,
-      });
+    const sessionRatings = bySession.get(session) as Rating[];
+    const productTestP = new Map(ctx.history.attributes.map((a) => [a.name, ctx.results.get(resultKey(session, a.name))?.productTestP ?? null]));
+    const key = [
+      session,
+      recent.has(session),
+      qualityKey,
+      JSON.stringify([...productTestP]),
+      JSON.stringify(ctx.history.attributes),
+      importedMissing.size > 0 ? JSON.stringify([...importedMissing].filter((k) => k.startsWith(`${session}\u0000`))) : '',
+      fingerprint(sessionRatings),
+    ].join('\u0001');
+    const cached = SESSION_CACHE.get(key);
+    if (cached) {
+      out.push(...structuredClone(cached));
+      continue;
     }
-
-    const straight = checkStraightLining(data, productTestP, { watchRatio: q.straightLiningWatchRatio, actShare: q.straightLiningActShare });
-    for (const summary of straight.summaries) {
-      const own = straight.findings.filter((f) => f.assessor === summary.assessor);
-      if (own.length === 0) continue;
-      const flat = own.filter((f) => f.severity === 'act');
-      if (flat.length === 0 && !recent.has(session)) continue;
-      const listed = flat.length > 0 ? flat : own;
-      out.push({
-        ...base,
-        kind: 'straight-lining',
-        assessor: summary.assessor,
-        attribute: listed.length === 1 ? listed[0].attribute : null,
-        severity: flat.length > 0 ? 'act' : 'watch',
-        evidence: {
-          test: 'spread of the assessor cell means over products (methods §5.6)',
-          statistic: listed.length === 1 ? listed[0].spreadSd : null,
-          pValue: null,
-          qValue: null,
-          n: summary.nAttributes,
-          threshold: flat.length > 0 ? 'no variation over products while the panel product test p < 0.05' : `SD over products below ${q.straightLiningWatchRatio} × the panel median`,
-          lastSession: session,
-          sessionLevelAct: summary.sessionAct,
-          attributes: listed.map((f) => ({ attribute: f.attribute, spreadSd: f.spreadSd, panelMedianSpreadSd: f.panelMedianSpreadSd, range: f.range })),
-        },
-        message:
-          flat.length > 0
-            ? `In session ${session}, ${summary.assessor} gave every product the same rating on ${flat.length === 1 ? flat[0].attribute : `${flat.length} of ${summary.nAttributes} attributes`} although the panel separated the products.`
-            : `In session ${session}, ${summary.assessor}'s ratings varied much less between products than the rest of the panel's on ${listed.length === 1 ? listed[0].attribute : `${listed.length} attributes`}.`,
-      });
-    }
-
-    for (const missing of checkMissingCells(data, { watchCompleteness: q.missingWatchCompleteness, actCompleteness: q.missingActCompleteness })) {
-      if (importedMissing.has(`${session}\u0000${missing.assessor}`)) continue;
-      out.push({
-        ...base,
-        kind: 'missing-cells',
-        assessor: missing.assessor,
-        severity: missing.severity,
-        evidence: {
-          test: 'completeness of the assessor in the session (methods §5.5)',
-          statistic: missing.completeness,
-          pValue: null,
-          qValue: null,
-          n: missing.nPlanned,
-          threshold: missing.severity === 'act' ? `completeness < ${q.missingActCompleteness}` : `completeness < ${q.missingWatchCompleteness}`,
-          lastSession: session,
-          nRated: missing.nRated,
-        },
-        message: `In session ${session}, ${missing.assessor} rated ${missing.nRated} of the ${missing.nPlanned} planned product, attribute and replicate cells (${Math.round(missing.completeness * 100)}%).`,
-      });
-    }
-
-    const shifts = checkInRangeDecimalShift(data, { minRange: q.decimalShiftMinRange, robustZ: q.decimalShiftRobustZ });
-    const byAssessor = new Map<string, typeof shifts>();
-    for (const s of shifts) byAssessor.set(s.assessor, [...(byAssessor.get(s.assessor) ?? []), s]);
-    for (const [assessor, list] of byAssessor) {
-      const first = list[0];
-      out.push({
-        ...base,
-        kind: 'decimal-shift',
-        assessor,
-        product: list.every((s) => s.product === first.product) ? first.product : null,
-        attribute: list.every((s) => s.attribute === first.attribute) ? first.attribute : null,
-        severity: 'watch',
-        evidence: {
-          test: 'in-range decimal shift against the other assessors’ median (methods §5.3b)',
-          statistic: first.value,
-          pValue: null,
-          qValue: null,
-          n: list.length,
-          threshold: `|value − median| > ${q.decimalShiftRobustZ} × 1.4826 MAD and value × 10 or ÷ 10 within one robust SD of the median`,
-          lastSession: session,
-          values: list.map((s) => ({ product: s.product, attribute: s.attribute, replicate: s.replicate, value: s.value, suggestedValue: s.suggestedValue, panelMedian: s.panelMedian })),
-        },
-        message: `In session ${session}, ${assessor} rated ${first.product} on ${first.attribute} at ${points(first.value)} where the other assessors' median was ${points(first.panelMedian)}, which would match if the decimal point were moved (${points(first.suggestedValue)})${list.length > 1 ? `, and ${list.length - 1} more such value${list.length > 2 ? 's' : ''}` : ''}.`,
-      });
-    }
-
-    for (const clip of checkClipping(data, { zoneFraction: q.clippingZoneFraction, watchFraction: q.clippingWatchFraction, watchMultiple: q.clippingWatchMultiple, actFraction: q.clippingActFraction })) {
-      out.push({
-        ...base,
-        kind: 'scale-expansion',
-        assessor: clip.assessor,
-        severity: clip.severity,
-        evidence: {
-          test: 'scale-end clipping: share of ratings in the end zones (methods §5.7)',
-          statistic: clip.endShare,
-          pValue: null,
-          qValue: null,
-          n: clip.nRatings,
-          threshold: clip.severity === 'act' ? `share ≥ ${q.clippingActFraction}` : `share ≥ ${q.clippingWatchFraction} and ≥ ${q.clippingWatchMultiple} × panel median (${points(clip.panelMedianEndShare, 2)})`,
-          lastSession: session,
-          panelMedianEndShare: clip.panelMedianEndShare,
-        },
-        message: `In session ${session}, ${Math.round(clip.endShare * 100)}% of ${clip.assessor}'s ratings were at the very ends of the scale, against ${Math.round(clip.panelMedianEndShare * 100)}% for the median assessor.`,
-      });
-    }
+    const before = out.length;
+    sessionFlags(ctx, session, sessionRatings, productTestP, recent, importedMissing, out);
+    remember(key, out.slice(before));
   }
   return out;
+}
+
+/**
+ * Per-session results are memoised (the checks of an old session do not change when new sessions
+ * arrive): keyed by everything they depend on, including a fingerprint of the session's ratings.
+ * Bounded; a pure cache, so results are identical with or without it.
+ */
+const SESSION_CACHE = new Map<string, Flag[]>();
+const SESSION_CACHE_LIMIT = 20_000;
+
+function remember(key: string, flags: Flag[]): void {
+  if (SESSION_CACHE.size >= SESSION_CACHE_LIMIT) SESSION_CACHE.delete(SESSION_CACHE.keys().next().value as string);
+  SESSION_CACHE.set(key, structuredClone(flags));
+}
+
+/** Order-sensitive 53-bit fingerprint of the ratings' identifying fields and values (FNV-1a style). */
+function fingerprint(ratings: readonly Rating[]): string {
+  let h1 = 0x811c9dc5;
+  let h2 = 0x01000193;
+  const mix = (text: string) => {
+    for (let i = 0; i < text.length; i++) {
+      h1 = Math.imul(h1 ^ text.charCodeAt(i), 16777619);
+      h2 = Math.imul(h2 ^ text.charCodeAt(i), 2246822519);
+    }
+  };
+  for (const r of ratings) {
+    mix(r.assessor);
+    mix(r.product);
+    mix(r.attribute);
+    mix(r.code ?? '');
+    mix(String(r.replicate));
+    mix(String(r.value));
+  }
+  return `${ratings.length}:${(h1 >>> 0).toString(36)}:${(h2 >>> 0).toString(36)}`;
+}
+
+function sessionFlags(
+  ctx: FlagContext,
+  session: string,
+  sessionRatings: Rating[],
+  productTestP: Map<string, number | null>,
+  recent: Set<string>,
+  importedMissing: Set<string>,
+  out: Flag[],
+): void {
+  const q = ctx.settings.quality;
+  const data = sessionData(session, sessionRatings, ctx.history.attributes);
+  const base = { product: null, attribute: null, firstSession: session };
+
+  for (const swap of detectSwappedCodes(data, productTestP, { minRelativeGain: q.swapMinRelativeGain, minAttributes: q.swapMinAttributes })) {
+    const codes = swap.codes[0] && swap.codes[1] ? ` (codes ${swap.codes[0]} and ${swap.codes[1]})` : '';
+    out.push({
+      ...base,
+      kind: 'swapped-codes',
+      assessor: swap.assessor,
+      product: `${swap.productA}, ${swap.productB}`,
+      severity: 'watch',
+      evidence: {
+        test: 'profile distance swap check (methods §5.10)',
+        statistic: swap.relativeGain,
+        pValue: null,
+        qValue: null,
+        n: swap.nAttributes,
+        threshold: `relative gain ρ ≥ ${q.swapMinRelativeGain} with each profile closer to the other product's panel profile`,
+        lastSession: session,
+        replicate: swap.replicate,
+        products: [swap.productA, swap.productB],
+        codes: swap.codes,
+      },
+      message: `In session ${session}, ${swap.assessor}'s ratings of ${swap.productA} and ${swap.productB}${codes}, replicate ${swap.replicate}, each matched the other product's panel profile better than their own, so the two samples may have been entered under each other's code.`,
+    });
+  }
+
+  const straight = checkStraightLining(data, productTestP, { watchRatio: q.straightLiningWatchRatio, actShare: q.straightLiningActShare });
+  for (const summary of straight.summaries) {
+    const own = straight.findings.filter((f) => f.assessor === summary.assessor);
+    if (own.length === 0) continue;
+    const flat = own.filter((f) => f.severity === 'act');
+    if (flat.length === 0 && !recent.has(session)) continue;
+    const listed = flat.length > 0 ? flat : own;
+    out.push({
+      ...base,
+      kind: 'straight-lining',
+      assessor: summary.assessor,
+      attribute: listed.length === 1 ? listed[0].attribute : null,
+      severity: flat.length > 0 ? 'act' : 'watch',
+      evidence: {
+        test: 'spread of the assessor cell means over products (methods §5.6)',
+        statistic: listed.length === 1 ? listed[0].spreadSd : null,
+        pValue: null,
+        qValue: null,
+        n: summary.nAttributes,
+        threshold: flat.length > 0 ? 'no variation over products while the panel product test p < 0.05' : `SD over products below ${q.straightLiningWatchRatio} × the panel median`,
+        lastSession: session,
+        sessionLevelAct: summary.sessionAct,
+        attributes: listed.map((f) => ({ attribute: f.attribute, spreadSd: f.spreadSd, panelMedianSpreadSd: f.panelMedianSpreadSd, range: f.range })),
+      },
+      message:
+        flat.length > 0
+          ? `In session ${session}, ${summary.assessor} gave every product the same rating on ${flat.length === 1 ? flat[0].attribute : `${flat.length} of ${summary.nAttributes} attributes`} although the panel separated the products.`
+          : `In session ${session}, ${summary.assessor}'s ratings varied much less between products than the rest of the panel's on ${listed.length === 1 ? listed[0].attribute : `${listed.length} attributes`}.`,
+    });
+  }
+
+  for (const missing of checkMissingCells(data, { watchCompleteness: q.missingWatchCompleteness, actCompleteness: q.missingActCompleteness })) {
+    if (importedMissing.has(`${session}\u0000${missing.assessor}`)) continue;
+    out.push({
+      ...base,
+      kind: 'missing-cells',
+      assessor: missing.assessor,
+      severity: missing.severity,
+      evidence: {
+        test: 'completeness of the assessor in the session (methods §5.5)',
+        statistic: missing.completeness,
+        pValue: null,
+        qValue: null,
+        n: missing.nPlanned,
+        threshold: missing.severity === 'act' ? `completeness < ${q.missingActCompleteness}` : `completeness < ${q.missingWatchCompleteness}`,
+        lastSession: session,
+        nRated: missing.nRated,
+      },
+      message: `In session ${session}, ${missing.assessor} rated ${missing.nRated} of the ${missing.nPlanned} planned product, attribute and replicate cells (${Math.round(missing.completeness * 100)}%).`,
+    });
+  }
+
+  const shifts = checkInRangeDecimalShift(data, { minRange: q.decimalShiftMinRange, robustZ: q.decimalShiftRobustZ });
+  const byAssessor = new Map<string, typeof shifts>();
+  for (const s of shifts) byAssessor.set(s.assessor, [...(byAssessor.get(s.assessor) ?? []), s]);
+  for (const [assessor, list] of byAssessor) {
+    const first = list[0];
+    out.push({
+      ...base,
+      kind: 'decimal-shift',
+      assessor,
+      product: list.every((s) => s.product === first.product) ? first.product : null,
+      attribute: list.every((s) => s.attribute === first.attribute) ? first.attribute : null,
+      severity: 'watch',
+      evidence: {
+        test: 'in-range decimal shift against the other assessors’ median (methods §5.3b)',
+        statistic: first.value,
+        pValue: null,
+        qValue: null,
+        n: list.length,
+        threshold: `|value − median| > ${q.decimalShiftRobustZ} × 1.4826 MAD and value × 10 or ÷ 10 within one robust SD of the median`,
+        lastSession: session,
+        values: list.map((s) => ({ product: s.product, attribute: s.attribute, replicate: s.replicate, value: s.value, suggestedValue: s.suggestedValue, panelMedian: s.panelMedian })),
+      },
+      message: `In session ${session}, ${assessor} rated ${first.product} on ${first.attribute} at ${points(first.value)} where the other assessors' median was ${points(first.panelMedian)}, which would match if the decimal point were moved (${points(first.suggestedValue)})${list.length > 1 ? `, and ${list.length - 1} more such value${list.length > 2 ? 's' : ''}` : ''}.`,
+    });
+  }
+
+  for (const clip of checkClipping(data, { zoneFraction: q.clippingZoneFraction, watchFraction: q.clippingWatchFraction, watchMultiple: q.clippingWatchMultiple, actFraction: q.clippingActFraction })) {
+    out.push({
+      ...base,
+      kind: 'scale-expansion',
+      assessor: clip.assessor,
+      severity: clip.severity,
+      evidence: {
+        test: 'scale-end clipping: share of ratings in the end zones (methods §5.7)',
+        statistic: clip.endShare,
+        pValue: null,
+        qValue: null,
+        n: clip.nRatings,
+        threshold: clip.severity === 'act' ? `share ≥ ${q.clippingActFraction}` : `share ≥ ${q.clippingWatchFraction} and ≥ ${q.clippingWatchMultiple} × panel median (${points(clip.panelMedianEndShare, 2)})`,
+        lastSession: session,
+        panelMedianEndShare: clip.panelMedianEndShare,
+      },
+      message: `In session ${session}, ${Math.round(clip.endShare * 100)}% of ${clip.assessor}'s ratings were at the very ends of the scale, against ${Math.round(clip.panelMedianEndShare * 100)}% for the median assessor.`,
+    });
+  }
 }

@@ -47,7 +47,8 @@ export function checkStraightLining(
   const attributeCount = new Map<string, number>();
   for (const attribute of data.attributes) {
     const means = cellMeans(data, attribute.name);
-    const all = data.ratings.filter((r) => r.attribute === attribute.name).map((r) => r.value);
+    const all: number[] = [];
+    for (const byProduct of data.values.get(attribute.name)?.values() ?? []) for (const vs of byProduct.values()) all.push(...vs);
     const resolution = resolutionOf(all, attribute.scaleMax - attribute.scaleMin);
     const spreads = new Map<string, { sd: number; range: number }>();
     for (const [assessor, row] of means) {
@@ -122,17 +123,20 @@ export interface MissingCellsFinding {
 export function checkMissingCells(data: SessionData, options: { watchCompleteness: number; actCompleteness: number }): MissingCellsFinding[] {
   const nPlanned = data.products.length * data.attributes.length * data.nReplicates;
   if (nPlanned === 0) return [];
-  const rated = new Map<string, Set<string>>();
-  for (const r of data.ratings) {
-    const set = rated.get(r.assessor) ?? new Set<string>();
-    set.add(`${r.product}\u0000${r.attribute}\u0000${r.replicate}`);
-    rated.set(r.assessor, set);
+  // Distinct (product, attribute, replicate) cells per assessor, counted from the replicate table.
+  const rated = new Map<string, number>();
+  for (const byAssessor of data.byReplicate.values()) {
+    for (const [assessor, byProduct] of byAssessor) {
+      let n = 0;
+      for (const replicates of byProduct.values()) n += replicates.size;
+      rated.set(assessor, (rated.get(assessor) ?? 0) + n);
+    }
   }
   const out: MissingCellsFinding[] = [];
-  for (const [assessor, set] of rated) {
-    const completeness = set.size / nPlanned;
+  for (const [assessor, nRated] of rated) {
+    const completeness = nRated / nPlanned;
     const severity = completeness < options.actCompleteness ? 'act' : completeness < options.watchCompleteness ? 'watch' : null;
-    if (severity) out.push({ assessor, severity, completeness, nRated: set.size, nPlanned });
+    if (severity) out.push({ assessor, severity, completeness, nRated, nPlanned });
   }
   return out;
 }

@@ -22,6 +22,8 @@ export interface SessionData {
   /** attribute → assessor → product → replicate → value. */
   byReplicate: Map<string, Map<string, Map<string, Map<number, number>>>>;
   ratings: Rating[];
+  /** Memoised cell means per attribute (filled by cellMeans). */
+  cellMeanCache: Map<string, Map<string, Map<string, number>>>;
 }
 
 export function sessionData(session: string, ratings: readonly Rating[], attributes: readonly QualityAttribute[]): SessionData {
@@ -46,6 +48,7 @@ export function sessionData(session: string, ratings: readonly Rating[], attribu
     values,
     byReplicate,
     ratings: own,
+    cellMeanCache: new Map(),
   };
 }
 
@@ -69,7 +72,10 @@ export function medianOf(values: readonly number[]): number {
 
 /** Cell means m_ap of one attribute: assessor → product → mean. */
 export function cellMeans(data: SessionData, attribute: string): Map<string, Map<string, number>> {
+  const cached = data.cellMeanCache.get(attribute);
+  if (cached) return cached;
   const out = new Map<string, Map<string, number>>();
+  data.cellMeanCache.set(attribute, out);
   for (const [assessor, byProduct] of data.values.get(attribute) ?? []) {
     const row = new Map<string, number>();
     for (const [product, vs] of byProduct) row.set(product, meanOf(vs));

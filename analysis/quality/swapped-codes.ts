@@ -35,22 +35,35 @@ export function detectSwappedCodes(
     return p !== null && p !== undefined && p < 0.05;
   });
   if (discriminating.length < 3) return [];
-  const meansByAttribute = new Map(usable.map((a) => [a.name, cellMeans(data, a.name)]));
+  // Per attribute: cell means, and per product the sum and count of all assessors' cell means, so
+  // that a leave-one-out panel mean is (sum − own)/(count − 1) without rescanning the panel.
+  const tables = usable.map((attribute) => {
+    const means = cellMeans(data, attribute.name);
+    const sum = new Map<string, number>();
+    const count = new Map<string, number>();
+    for (const row of means.values()) {
+      for (const [product, mean] of row) {
+        sum.set(product, (sum.get(product) ?? 0) + mean);
+        count.set(product, (count.get(product) ?? 0) + 1);
+      }
+    }
+    return { attribute, means, sum, count, replicates: data.byReplicate.get(attribute.name) };
+  });
   const findings: SwapFinding[] = [];
   for (const assessor of data.assessors) {
     for (let replicate = 1; replicate <= data.nReplicates; replicate++) {
       // Products this assessor rated in this replicate on every usable attribute.
-      const products = data.products.filter((p) => usable.every((a) => data.byReplicate.get(a.name)?.get(assessor)?.get(p)?.has(replicate)));
+      const products = data.products.filter((p) => tables.every((t) => t.replicates?.get(assessor)?.get(p)?.has(replicate)));
       if (products.length < 4) continue;
       const x: number[][] = products.map(() => []);
       const g: number[][] = products.map(() => []);
       let ok = true;
-      for (const attribute of usable) {
-        const means = meansByAttribute.get(attribute.name) as Map<string, Map<string, number>>;
-        const own = products.map((p) => data.byReplicate.get(attribute.name)?.get(assessor)?.get(p)?.get(replicate) as number);
+      for (const table of tables) {
+        const ownMeans = table.means.get(assessor);
+        const own = products.map((p) => table.replicates?.get(assessor)?.get(p)?.get(replicate) as number);
         const panel = products.map((p) => {
-          const others = [...means.entries()].filter(([other, row]) => other !== assessor && row.has(p)).map(([, row]) => row.get(p) as number);
-          return others.length > 0 ? meanOf(others) : Number.NaN;
+          const others = (table.count.get(p) ?? 0) - 1;
+          return others > 0 ? ((table.sum.get(p) ?? 0) - (ownMeans?.get(p) ?? 0)) / others : Number.NaN;
         });
         if (panel.some(Number.isNaN)) {
           ok = false;
@@ -59,8 +72,8 @@ export function detectSwappedCodes(
         const ownMean = meanOf(own);
         const panelMean = meanOf(panel);
         products.forEach((_, i) => {
-          x[i].push((own[i] - ownMean) / attribute.sd);
-          g[i].push((panel[i] - panelMean) / attribute.sd);
+          x[i].push((own[i] - ownMean) / table.attribute.sd);
+          g[i].push((panel[i] - panelMean) / table.attribute.sd);
         });
       }
       if (!ok) continue;

@@ -1,0 +1,58 @@
+/**
+ * Speed of the flag engine (issue 4: a year of 52 sessions × 10 attributes × 12 assessors, flags
+ * in well under a second). History: seeded synthetic indices (test/analysis/flags/helpers) plus
+ * 62 400 seeded ratings for the data-quality checks. Reports the first call in a fresh process
+ * (includes sizing the chart limits, memoised afterwards), the median of warm calls, and the call
+ * after adding one session. Run: `npx tsx bench/flags-bench.ts`.
+ */
+import { buildFlags } from '../analysis/flags/index.js';
+import type { PanelHistory } from '../analysis/monitor/series.js';
+import { syntheticHistory } from '../test/analysis/flags/helpers/synthetic-history.js';
+import { syntheticRatings } from '../test/analysis/flags/helpers/synthetic-ratings.js';
+
+function yearHistory(nSessions: number, ratingSeed = 9000): PanelHistory {
+  const history = syntheticHistory({
+    seed: 2026,
+    nSessions,
+    nAssessors: 12,
+    nAttributes: 10,
+    faults: [
+      { kind: 'lenient', assessor: 'A03', size: 1.3 },
+      { kind: 'drift', assessor: 'A07', fromSession: 26, size: 0.08 },
+      { kind: 'inconsistent', assessor: 'A10' },
+      { kind: 'unstable-product', product: 'T01', attributes: ['attr2'], fromSession: 26 },
+    ],
+  });
+  history.ratings = history.sessions.flatMap((s, i) =>
+    syntheticRatings({ seed: ratingSeed + i, session: s.label, date: s.date, nAssessors: 12, nAttributes: 10, products: ['REF', 'T01', 'T02', 'T03', 'T04'], nReplicates: 2 }),
+  );
+  return history;
+}
+
+const time = (f: () => unknown): number => {
+  const start = performance.now();
+  f();
+  return performance.now() - start;
+};
+const median = (v: number[]) => [...v].sort((a, b) => a - b)[v.length >> 1];
+
+const year = yearHistory(52);
+const previous = yearHistory(51);
+const cold = time(() => buildFlags(year));
+// New ratings (nothing memoised for them) with the chart sizing already done in this process.
+const freshRatings = yearHistory(52, 50_000);
+const fresh = time(() => buildFlags(freshRatings));
+const warm = median(Array.from({ length: 7 }, () => time(() => buildFlags(year))));
+const withoutRatings = median(Array.from({ length: 7 }, () => time(() => buildFlags({ ...year, ratings: [] }))));
+time(() => buildFlags(previous));
+const incremental = median(Array.from({ length: 5 }, () => time(() => buildFlags(year))));
+const nFlags = buildFlags(year).length;
+
+console.log('| measurement (52 sessions × 10 attributes × 12 assessors, 62 400 ratings) | ms |');
+console.log('| --- | --- |');
+console.log(`| first call in a fresh process (chart sizing included) | ${cold.toFixed(0)} |`);
+console.log(`| new data, chart sizing already memoised in the process | ${fresh.toFixed(0)} |`);
+console.log(`| same history again (per-session data-quality results memoised), median of 7 | ${warm.toFixed(0)} |`);
+console.log(`| warm call without ratings (no data-quality checks), median of 7 | ${withoutRatings.toFixed(0)} |`);
+console.log(`| after adding session 52 to a 51-session history, median of 5 | ${incremental.toFixed(0)} |`);
+console.log(`\n${nFlags} flags; Node ${process.version}.`);
