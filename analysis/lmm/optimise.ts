@@ -6,10 +6,12 @@
  * apart from an interior point, while in γ the slope at 0 says whether the component wants
  * to leave the boundary (Karush–Kuhn–Tucker condition ∂f/∂γ_k ≥ 0 at γ_k = 0).
  * Method: projected quasi-Newton (BFGS on the free variables, Armijo backtracking along the
- * projected path), finite-difference gradients, started from an ANOVA-type guess. With at
+ * projected path) with analytic gradients where the criterion supplies them (differences
+ * otherwise) and a first Hessian from differences of gradients, started from an ANOVA-type guess. With at
  * most three components every boundary face (each subset of components fixed at 0) is also
  * optimised and the lowest criterion wins.
  */
+import { choleskyInPlace, inverseFromCholesky } from '../linalg/dense.js';
 
 export interface OptimiserControl {
   maxIterations: number;
@@ -126,8 +128,9 @@ function searchFace(functions: GammaFunctions, start: Float64Array, fixed: Uint8
   let gradient = current.gradient;
   if (!Number.isFinite(fx)) return { gamma: x, value: fx, gradient, iterations: 0, converged: false, messages: ['the criterion is not finite at the start'] };
   if (fixed.every((flag) => flag === 1)) return { gamma: x, value: fx, gradient, iterations: 0, converged: true, messages: [] };
-  let inverseHessian = diagonalInverse(x);
-  let scaled = false;
+  let inverseHessian = finiteDifferenceInverseHessian(functions, x, gradient, fixed);
+  let scaled = inverseHessian !== null;
+  inverseHessian ??= diagonalInverse(x);
   const messages: string[] = [];
   for (let iteration = 1; iteration <= settings.maxIterations; iteration++) {
     const free = Uint8Array.from(x, (value, i) => (fixed[i] || (value === 0 && gradient[i] > 0) ? 0 : 1));
@@ -218,6 +221,37 @@ function numericGradient(f: (gamma: Float64Array) => number, x: Float64Array, fx
   return result;
 }
 
+/**
+ * Inverse of the Hessian from forward differences of the gradient at the start (k gradient
+ * evaluations): with it the quasi-Newton steps are Newton steps from the first iteration.
+ * Null when the estimate is not positive definite.
+ */
+function finiteDifferenceInverseHessian(functions: GammaFunctions, x: Float64Array, gradient: Float64Array, fixed: Uint8Array): Float64Array | null {
+  const k = x.length;
+  const hessian = new Float64Array(k * k);
+  for (let i = 0; i < k; i++) {
+    if (fixed[i]) {
+      hessian[i * k + i] = 1;
+      continue;
+    }
+    const h = 1e-4 * Math.max(x[i], 1e-2);
+    const probe = x.slice();
+    probe[i] += h;
+    const shifted = functions.fg(probe);
+    if (!Number.isFinite(shifted.value)) return null;
+    for (let j = 0; j < k; j++) if (!fixed[j]) hessian[j * k + i] = (shifted.gradient[j] - gradient[j]) / h;
+  }
+  for (let i = 0; i < k; i++) {
+    for (let j = 0; j < i; j++) {
+      const mean = 0.5 * (hessian[i * k + j] + hessian[j * k + i]);
+      hessian[i * k + j] = mean;
+      hessian[j * k + i] = mean;
+    }
+  }
+  if (!choleskyInPlace(hessian, k)) return null;
+  return inverseFromCholesky(hessian, k);
+}
+
 /** First inverse-Hessian guess: steps of the order of the current value (rescaled after one step). */
 function diagonalInverse(x: Float64Array): Float64Array {
   const k = x.length;
@@ -226,13 +260,37 @@ function diagonalInverse(x: Float64Array): Float64Array {
   return matrix;
 }
 
+/**
+ * Newton direction on the free variables: −(B_FF)⁻¹ g_F with B the Hessian estimate. From the
+ * inverse-Hessian estimate H = B⁻¹ this is the Schur complement H_FF − H_FA H_AA⁻¹ H_AF
+ * (the plain block H_FF would be wrong whenever the bound variables are correlated with the free ones).
+ */
 function newtonDirection(inverseHessian: Float64Array, gradient: Float64Array, free: Uint8Array): Float64Array {
   const k = gradient.length;
   const direction = new Float64Array(k);
-  for (let i = 0; i < k; i++) {
-    if (!free[i]) continue;
+  const freeIndex: number[] = [];
+  const boundIndex: number[] = [];
+  for (let i = 0; i < k; i++) (free[i] ? freeIndex : boundIndex).push(i);
+  const reduced = (i: number, j: number): number => inverseHessian[i * k + j];
+  let correction: ((i: number, j: number) => number) | null = null;
+  if (boundIndex.length > 0 && freeIndex.length > 0) {
+    const m = boundIndex.length;
+    const haa = new Float64Array(m * m);
+    boundIndex.forEach((a, r) => boundIndex.forEach((b, c) => (haa[r * m + c] = inverseHessian[a * k + b])));
+    if (choleskyInPlace(haa, m)) {
+      const haaInverse = inverseFromCholesky(haa, m);
+      correction = (i, j) => {
+        let sum = 0;
+        for (let r = 0; r < m; r++) {
+          for (let c = 0; c < m; c++) sum += inverseHessian[i * k + boundIndex[r]] * haaInverse[r * m + c] * inverseHessian[boundIndex[c] * k + j];
+        }
+        return sum;
+      };
+    }
+  }
+  for (const i of freeIndex) {
     let sum = 0;
-    for (let j = 0; j < k; j++) if (free[j]) sum += inverseHessian[i * k + j] * gradient[j];
+    for (const j of freeIndex) sum += (reduced(i, j) - (correction ? correction(i, j) : 0)) * gradient[j];
     direction[i] = -sum;
   }
   return direction;

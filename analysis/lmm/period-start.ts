@@ -6,8 +6,8 @@
  *   E[MS_A] = σ²_E + nSσ²_AP + nPσ²_AS + nPSσ²_A,  E[MS_S] = σ²_E + nPσ²_AS + nAσ²_PS + nAPσ²_S.
  * In a balanced design with all estimates positive this is the REML solution, so the optimiser
  * only confirms it; otherwise (or with missing cells) it is a start value, clipped away from 0.
- * Returns θ in the order assessor, session, assessor:product, assessor:session[, product:session],
- * or null when some assessor × product × session cell is missing or replicate counts differ.
+ * Returns θ in the order assessor, session, assessor:product, assessor:session[, product:session]
+ * (null when the residual line has no degrees of freedom or no spread).
  */
 export interface PeriodCells {
   values: ArrayLike<number>;
@@ -30,30 +30,54 @@ export function periodMomentStart(cells: PeriodCells, withProductSession: boolea
     counts[cell]++;
     sums[cell] += cells.values[i];
   }
-  const replicates = counts[0];
-  if (replicates === 0 || counts.some((count) => count !== replicates)) return null;
-  const cellMean = Float64Array.from(sums, (sum) => sum / replicates);
+  // Unbalanced data: the same formulas on the cells present, with the mean replicate count
+  // (an approximation, good enough for a start value).
+  let present = 0;
+  for (const count of counts) if (count > 0) present++;
+  if (present === 0) return null;
+  const replicates = n / present;
+  const cellMean = Float64Array.from(sums, (sum, cell) => (counts[cell] > 0 ? sum / counts[cell] : Number.NaN));
   const mA = new Float64Array(A);
   const mP = new Float64Array(P);
   const mS = new Float64Array(S);
   const mAP = new Float64Array(A * P);
   const mAS = new Float64Array(A * S);
   const mPS = new Float64Array(P * S);
+  const nA = new Float64Array(A);
+  const nP = new Float64Array(P);
+  const nS = new Float64Array(S);
+  const nAP = new Float64Array(A * P);
+  const nAS = new Float64Array(A * S);
+  const nPS = new Float64Array(P * S);
   let grand = 0;
   for (let a = 0; a < A; a++) {
     for (let p = 0; p < P; p++) {
       for (let s = 0; s < S; s++) {
         const value = cellMean[(a * P + p) * S + s];
-        grand += value / total;
-        mA[a] += value / (P * S);
-        mP[p] += value / (A * S);
-        mS[s] += value / (A * P);
-        mAP[a * P + p] += value / S;
-        mAS[a * S + s] += value / P;
-        mPS[p * S + s] += value / A;
+        if (Number.isNaN(value)) continue;
+        grand += value / present;
+        mA[a] += value;
+        nA[a]++;
+        mP[p] += value;
+        nP[p]++;
+        mS[s] += value;
+        nS[s]++;
+        mAP[a * P + p] += value;
+        nAP[a * P + p]++;
+        mAS[a * S + s] += value;
+        nAS[a * S + s]++;
+        mPS[p * S + s] += value;
+        nPS[p * S + s]++;
       }
     }
   }
+  const divide = (means: Float64Array, counts: Float64Array): void => means.forEach((sum, index) => (means[index] = counts[index] > 0 ? sum / counts[index] : grand));
+  divide(mA, nA);
+  divide(mP, nP);
+  divide(mS, nS);
+  divide(mAP, nAP);
+  divide(mAS, nAS);
+  divide(mPS, nPS);
   const sumSquares = (values: Float64Array, centre: (index: number) => number): number => {
     let sum = 0;
     values.forEach((value, index) => (sum += (value - centre(index)) ** 2));
