@@ -102,14 +102,20 @@ export function resolveColumnLayout(rawHeaders: readonly string[], headerRow = 1
 
   const form: 'long' | 'wide' = index.attribute !== undefined || index.value !== undefined ? 'long' : 'wide';
   const required: ColumnRole[] = form === 'long' ? [...KEY_ROLES, 'attribute', 'value'] : [...KEY_ROLES];
+  // A wide file whose attribute is called e.g. "intensity" reads as long form; say so.
+  const longBecause = index.attribute === undefined && index.value !== undefined && others.length > 0 ? headers[index.value] : null;
   for (const role of required) {
     if (index[role] === undefined) {
       const synonyms = HEADER_SYNONYMS[role].filter((n) => n !== role).join(', ');
+      const hint =
+        role === 'attribute' && longBecause !== null
+          ? ` Column "${truncateText(longBecause, 40)}" was taken as the value column of the long form; if it is an attribute of a wide-form file, rename it.`
+          : '';
       problems.push({
         code: 'header-missing-column',
         row: headerRow,
         column: role,
-        message: `The header row has no "${role}" column (also accepted: ${synonyms}). ${listFound(headers)}`,
+        message: `The header row has no "${role}" column (also accepted: ${synonyms}). ${listFound(headers)}${hint}`,
         value: null,
       });
     }

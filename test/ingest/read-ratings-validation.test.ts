@@ -135,6 +135,15 @@ describe('header rules', () => {
     ]);
   });
 
+  it('a wide file with an attribute named like the value column is told why it reads as long form', async () => {
+    const r = await readText('session,date,assessor,product,replicate,sweet,Intensity\nS,2025-01-01,a,p,1,1,2\n');
+    expect(where(r.problems)).toEqual([
+      [1, 'attribute', 'header-missing-column'],
+      [1, 'sweet', 'header-unknown-column'],
+    ]);
+    expect(r.problems[0].message).toMatch(/Column "Intensity" was taken as the value column of the long form/);
+  });
+
   it('a header of key columns only has no attributes', async () => {
     const r = await readText('session,date,assessor,product,replicate\nS,2025-01-01,a,p,1\n');
     expect(where(r.problems)).toEqual([[1, 'attribute', 'header-missing-column']]);
