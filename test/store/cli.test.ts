@@ -1,6 +1,6 @@
 /** The import/export/backup commands, called directly and once through a real process. */
 import { spawnSync } from 'node:child_process';
-import { readFileSync, writeFileSync } from 'node:fs';
+import { existsSync, readFileSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { runBackupCommand, runRestoreCommand } from '../../server/cli/backup-command.js';
@@ -90,7 +90,25 @@ describe('export, backup and restore commands', () => {
   });
 });
 
+const BUILT = existsSync(join(import.meta.dirname, '..', '..', 'dist', 'server', 'cli', 'main.js'));
+
 describe('the real program', () => {
+  // `npm test` builds first; a plain `npx vitest run` on a fresh clone has no dist/ yet.
+  it.skipIf(!BUILT)('bin/panel-steward imports, exports and backs up from the build (migrations found from dist/)', () => {
+    const ok = write('ok.csv', [HEADER, 'S1,2026-01-05,A1,P1,1,sweet,5', 'S1,2026-01-05,A1,P2,1,sweet,6.25']);
+    const run = (...args: string[]) => spawnSync(process.execPath, ['bin/panel-steward', ...args], { cwd: join(import.meta.dirname, '..', '..'), encoding: 'utf8', timeout: 90_000 });
+    const db = join(folder, 'bin.db');
+    const imported = run('import', ok, '--panel', 'crisps', '--db', db, '--scale', '0:10');
+    expect(imported.status).toBe(0);
+    expect(imported.stdout).toMatch(/^Imported 2 ratings in 1 session/);
+    const exported = run('export', '--panel', 'crisps', '--db', db, '--format', 'json');
+    expect(exported.status).toBe(0);
+    expect(JSON.parse(exported.stdout).map((r: { value: number }) => r.value)).toEqual([5, 6.25]);
+    const backedUp = run('backup', '--db', db, '--out', join(folder, 'copy.db'));
+    expect(backedUp.status).toBe(0);
+    expect(backedUp.stdout).toMatch(/integrity check passed/);
+  }, 180_000);
+
   it('exits non-zero with the problems on stderr and no stack trace', () => {
     const bad = write('bad.csv', [HEADER, 'S1,2026-01-05,A1,P1,1,sweet,-3']);
     const result = spawnSync(process.execPath, ['--import', 'tsx', 'server/cli/main.ts', 'import', bad, '--panel', 'crisps', '--db', join(folder, 's.db'), '--scale', '0:10'], {
