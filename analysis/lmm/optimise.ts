@@ -128,9 +128,19 @@ function searchFace(functions: GammaFunctions, start: Float64Array, fixed: Uint8
   let gradient = current.gradient;
   if (!Number.isFinite(fx)) return { gamma: x, value: fx, gradient, iterations: 0, converged: false, messages: ['the criterion is not finite at the start'] };
   if (fixed.every((flag) => flag === 1)) return { gamma: x, value: fx, gradient, iterations: 0, converged: true, messages: [] };
-  let inverseHessian = finiteDifferenceInverseHessian(functions, x, gradient, fixed);
-  let scaled = inverseHessian !== null;
-  inverseHessian ??= diagonalInverse(x);
+  let inverseHessian = diagonalInverse(x);
+  let scaled = false;
+  {
+    // A start that is already the answer (balanced closed forms) needs no Hessian.
+    const free = Uint8Array.from(x, (value, i) => (fixed[i] || (value === 0 && gradient[i] > 0) ? 0 : 1));
+    const decrement = -dot(newtonDirection(inverseHessian, gradient, free), gradient);
+    if (!(decrement > settings.newtonDecrementTolerance)) return { gamma: x, value: fx, gradient, iterations: 1, converged: true, messages: [] };
+    const estimate = finiteDifferenceInverseHessian(functions, x, gradient, fixed);
+    if (estimate) {
+      inverseHessian = estimate;
+      scaled = true;
+    }
+  }
   const messages: string[] = [];
   for (let iteration = 1; iteration <= settings.maxIterations; iteration++) {
     const free = Uint8Array.from(x, (value, i) => (fixed[i] || (value === 0 && gradient[i] > 0) ? 0 : 1));
