@@ -89,7 +89,16 @@ export async function* readCsvRecords(bytes: AsyncIterable<Uint8Array>, options:
     if (next.done) break;
     head += next.value;
   }
-  const delimiter = detectDelimiter(head);
+  // A first line "sep=;" (written by some spreadsheet exports) names the delimiter; spreadsheets
+  // hide it, so it is dropped and the header stays row 1.
+  const separatorLine = /^\uFEFF?sep=([,;\t])\r?\n/i.exec(head);
+  let delimiter: ',' | ';' | '\t';
+  if (separatorLine !== null) {
+    delimiter = separatorLine[1] as ',' | ';' | '\t';
+    head = head.slice(separatorLine[0].length);
+  } else {
+    delimiter = detectDelimiter(head);
+  }
   options.onDelimiter?.(delimiter);
 
   const parser = parse({

@@ -149,6 +149,12 @@ describe('header rules', () => {
     expect(where(r.problems)).toEqual([[1, 'attribute', 'header-missing-column']]);
   });
 
+  it('a "sep=;" first line names the delimiter and is not a row', async () => {
+    const r = await readText('sep=;\r\nsession;date;assessor;product;replicate;sweet\r\nS;2025-01-01;a;p;1;4,5\r\nS;2025-01-01;a;p;x;4,5\r\n');
+    expect(r.ratings.map((x) => x.value)).toEqual([4.5]);
+    expect(where(r.problems)).toEqual([[3, 'replicate', 'replicate-not-positive-integer']]);
+  });
+
   it('leading blank lines move the header row down, and rows are counted from the top', async () => {
     const r = await readText('\n\nsession,date,assessor,product,replicate,sweet\nS,2025-01-01,a,p,0,1\n');
     expect(where(r.problems)).toEqual([[4, 'replicate', 'replicate-not-positive-integer']]);
