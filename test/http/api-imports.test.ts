@@ -3,18 +3,10 @@
  * answer is the store's ImportReport, bad input gets a 4xx with the error list, oversized
  * uploads a 413 with a clear message.
  */
-import { afterEach, describe, expect, it } from 'vitest';
-import { formData, longCsv, makeTestApp, postCsv, SMALL_SESSION_ROWS, type TestApp } from './http-helpers.js';
+import { describe, expect, it } from 'vitest';
+import { formData, freshApps, longCsv, postCsv, SMALL_SESSION_ROWS } from './http-helpers.js';
 
-let t: TestApp | null = null;
-async function fresh(config = {}): Promise<TestApp> {
-  t = await makeTestApp(config);
-  return t;
-}
-afterEach(async () => {
-  await t?.close();
-  t = null;
-});
+const fresh = freshApps();
 
 describe('import API', () => {
   it('imports a text/csv body and answers with the import report', async () => {

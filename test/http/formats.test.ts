@@ -5,8 +5,8 @@
  */
 import { readFileSync } from 'node:fs';
 import { join, resolve } from 'node:path';
-import { afterEach, describe, expect, it } from 'vitest';
-import { csrfFrom, makeTestApp, type TestApp } from './http-helpers.js';
+import { describe, expect, it } from 'vitest';
+import { csrfFrom, freshApps } from './http-helpers.js';
 
 const SAMPLES = resolve(import.meta.dirname, '../../sample-data');
 const LONG_CSV = readFileSync(join(SAMPLES, 'session-S01-long.csv'));
@@ -14,15 +14,7 @@ const WIDE_XLSX = readFileSync(join(SAMPLES, 'session-S02-wide.xlsx'));
 const SETTINGS = readFileSync(join(SAMPLES, 'panel-settings.json'));
 const XLSX_TYPE = 'application/vnd.openxmlformats-officedocument.spreadsheetml.sheet';
 
-const apps: TestApp[] = [];
-async function fresh(): Promise<TestApp> {
-  const t = await makeTestApp();
-  apps.push(t);
-  return t;
-}
-afterEach(async () => {
-  for (const t of apps.splice(0)) await t.close();
-});
+const fresh = freshApps();
 
 function upload(fields: Record<string, string>, files: { field: string; name: string; bytes: Buffer; type: string }[]): FormData {
   const form = new FormData();

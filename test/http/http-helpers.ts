@@ -1,6 +1,7 @@
 /** Shared set-up for the HTTP tests: a fresh in-memory store behind a fresh app. */
 import { stringify } from 'csv-stringify/sync';
 import type { FastifyInstance, LightMyRequestResponse } from 'fastify';
+import { afterEach } from 'vitest';
 import { buildApp, type AppConfig } from '../../server/app.js';
 import { openStore, type Database } from '../../store/open-store.js';
 
@@ -20,6 +21,19 @@ export async function makeTestApp(config: Partial<AppConfig> = {}): Promise<Test
       await app.close();
       db.close();
     },
+  };
+}
+
+/** For a test file: `const fresh = freshApps();` then `await fresh(config)` in each test; all closed after each. */
+export function freshApps(): (config?: Partial<AppConfig>) => Promise<TestApp> {
+  const open: TestApp[] = [];
+  afterEach(async () => {
+    for (const t of open.splice(0)) await t.close();
+  });
+  return async (config = {}) => {
+    const t = await makeTestApp(config);
+    open.push(t);
+    return t;
   };
 }
 

@@ -2,22 +2,14 @@
  * Security: headers, output escaping of hostile names, CSV formula neutralisation, the access
  * token off loopback, host and cross-site checks, and error answers without internals.
  */
-import { afterEach, describe, expect, it } from 'vitest';
+import { describe, expect, it } from 'vitest';
 import { buildApp } from '../../server/app.js';
 import { ERROR_REGISTRY } from '../../server/errors.js';
 import { isLoopbackHost } from '../../server/plugins/security.js';
 import { openStore } from '../../store/open-store.js';
-import { csrfFrom, longCsv, makeTestApp, postCsv, quotedLongCsv, type TestApp } from './http-helpers.js';
+import { csrfFrom, freshApps, longCsv, makeTestApp, postCsv, quotedLongCsv } from './http-helpers.js';
 
-let t: TestApp | null = null;
-async function fresh(config = {}): Promise<TestApp> {
-  t = await makeTestApp(config);
-  return t;
-}
-afterEach(async () => {
-  await t?.close();
-  t = null;
-});
+const fresh = freshApps();
 
 const SCRIPT = '<script>alert(1)</script>';
 const TOKEN = 'a-test-token-of-enough-length-0123';
