@@ -15,8 +15,13 @@
  *   value cell of the row: the row's first key problem carries the first non-empty value
  *   cell as `cell` and the row's other non-empty value cells in `moreCells` (wide form);
  *   further problems of the same row carry `cell: null`;
- * - whole-file and header problems carry `cell: null` and end the reading.
+ * - row-shape problems (field count) carry `cell: null`: the row's cells cannot be trusted;
+ * - whole-file and header problems carry `cell: null` and end the reading;
+ * - a row with a problem yields no 'missing' events.
+ * Row numbers count records, so a quoted line break does not start a new row; blank rows
+ * are skipped but counted. A first line "sep=;" is honoured and not counted.
  * Set-level checks (duplicate keys, one session label with two dates) belong to the store.
+ * readRatingBatches gives the same events in arrays, for the import loop.
  */
 import { open } from 'node:fs/promises';
 import { createReadStream } from 'node:fs';
