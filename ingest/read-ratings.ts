@@ -17,7 +17,7 @@
  *   further problems of the same row carry `cell: null`;
  * - row-shape problems (field count) carry `cell: null`: the row's cells cannot be trusted;
  * - whole-file and header problems carry `cell: null` and end the reading;
- * - a row with a problem yields no 'missing' events.
+ * - a row whose keys are bad (or whose shape is wrong) yields no 'missing' events.
  * Row numbers count records, so a quoted line break does not start a new row; blank rows
  * are skipped but counted. A first line "sep=;" is honoured and not counted.
  * Set-level checks (duplicate keys, one session label with two dates) belong to the store.
