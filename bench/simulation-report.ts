@@ -14,7 +14,7 @@ import { measureFlagDetection, reportMarkdown } from '../test/simulation/measure
 const SECTION = '## Flag detection (simulation)';
 
 /** Replaces the section (from its heading to the next "## " heading) or appends it. */
-export function replaceSection(readme: string, section: string): string {
+function replaceSection(readme: string, section: string): string {
   const start = readme.indexOf(SECTION);
   if (start < 0) return `${readme.trimEnd()}${readme.trim() ? '\n\n' : ''}${section.trimEnd()}\n`;
   const next = readme.indexOf('\n## ', start + SECTION.length);
