@@ -27,23 +27,47 @@ export interface SessionData {
 }
 
 export function sessionData(session: string, ratings: readonly Rating[], attributes: readonly QualityAttribute[]): SessionData {
-  const own = ratings.filter((r) => r.session === session);
+  const own: Rating[] = [];
   const values: SessionData['values'] = new Map();
   const byReplicate: SessionData['byReplicate'] = new Map();
+  const assessors = new Set<string>();
+  const products = new Set<string>();
   let nReplicates = 1;
-  for (const r of own) {
-    nReplicates = Math.max(nReplicates, r.replicate);
-    const cell = getOrSet(getOrSet(values, r.attribute, () => new Map()), r.assessor, () => new Map());
-    getOrSet(cell, r.product, () => [] as number[]).push(r.value);
-    const repCell = getOrSet(getOrSet(byReplicate, r.attribute, () => new Map()), r.assessor, () => new Map());
-    getOrSet(repCell, r.product, () => new Map<number, number>()).set(r.replicate, r.value);
+  // Plain get/set rather than getOrSet closures: this runs for every rating of every session.
+  for (const r of ratings) {
+    if (r.session !== session) continue;
+    own.push(r);
+    assessors.add(r.assessor);
+    products.add(r.product);
+    if (r.replicate > nReplicates) nReplicates = r.replicate;
+    let byAssessor = values.get(r.attribute);
+    let repByAssessor = byReplicate.get(r.attribute);
+    if (!byAssessor || !repByAssessor) {
+      byAssessor = new Map();
+      repByAssessor = new Map();
+      values.set(r.attribute, byAssessor);
+      byReplicate.set(r.attribute, repByAssessor);
+    }
+    let byProduct = byAssessor.get(r.assessor);
+    let repByProduct = repByAssessor.get(r.assessor);
+    if (!byProduct || !repByProduct) {
+      byProduct = new Map();
+      repByProduct = new Map();
+      byAssessor.set(r.assessor, byProduct);
+      repByAssessor.set(r.assessor, repByProduct);
+    }
+    const cell = byProduct.get(r.product);
+    if (cell) cell.push(r.value);
+    else byProduct.set(r.product, [r.value]);
+    const repCell = repByProduct.get(r.product);
+    if (repCell) repCell.set(r.replicate, r.value);
+    else repByProduct.set(r.product, new Map([[r.replicate, r.value]]));
   }
-  const present = new Set(own.map((r) => r.attribute));
   return {
     session,
-    attributes: attributes.filter((a) => present.has(a.name)),
-    assessors: [...new Set(own.map((r) => r.assessor))].sort(),
-    products: [...new Set(own.map((r) => r.product))].sort(),
+    attributes: attributes.filter((a) => values.has(a.name)),
+    assessors: [...assessors].sort(),
+    products: [...products].sort(),
     nReplicates,
     values,
     byReplicate,

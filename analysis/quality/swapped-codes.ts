@@ -8,7 +8,7 @@
  * Requirements: ≥ minAttributes attributes with s_j > 0, ≥ 4 products, panel product p < 0.05 in
  * ≥ 3 attributes. Products with similar profiles cannot be told apart (documented limitation).
  */
-import { cellMeans, interactionMeanSquare, meanOf, type SessionData } from './session-data.js';
+import { cellMeans, interactionMeanSquare, type SessionData } from './session-data.js';
 
 export interface SwapFinding {
   assessor: string;
@@ -55,31 +55,50 @@ export function detectSwappedCodes(
       // Products this assessor rated in this replicate on every usable attribute.
       const products = data.products.filter((p) => tables.every((t) => t.replicates?.get(assessor)?.get(p)?.has(replicate)));
       if (products.length < 4) continue;
-      const x: number[][] = products.map(() => []);
-      const g: number[][] = products.map(() => []);
+      // x̃ and g̃ as flat arrays [product × attribute] (this loop runs for every assessor × replicate).
+      const nP = products.length;
+      const nJ = tables.length;
+      const x = new Float64Array(nP * nJ);
+      const g = new Float64Array(nP * nJ);
       let ok = true;
-      for (const table of tables) {
+      for (let j = 0; j < nJ && ok; j++) {
+        const table = tables[j];
         const ownMeans = table.means.get(assessor);
-        const own = products.map((p) => table.replicates?.get(assessor)?.get(p)?.get(replicate) as number);
-        const panel = products.map((p) => {
+        const ownReplicates = table.replicates?.get(assessor);
+        let ownSum = 0;
+        let panelSum = 0;
+        for (let i = 0; i < nP; i++) {
+          const p = products[i];
           const others = (table.count.get(p) ?? 0) - 1;
-          return others > 0 ? ((table.sum.get(p) ?? 0) - (ownMeans?.get(p) ?? 0)) / others : Number.NaN;
-        });
-        if (panel.some(Number.isNaN)) {
-          ok = false;
-          break;
+          if (others <= 0) {
+            ok = false;
+            break;
+          }
+          const own = ownReplicates?.get(p)?.get(replicate) as number;
+          const panel = ((table.sum.get(p) ?? 0) - (ownMeans?.get(p) ?? 0)) / others;
+          x[i * nJ + j] = own;
+          g[i * nJ + j] = panel;
+          ownSum += own;
+          panelSum += panel;
         }
-        const ownMean = meanOf(own);
-        const panelMean = meanOf(panel);
-        products.forEach((_, i) => {
-          x[i].push((own[i] - ownMean) / table.attribute.sd);
-          g[i].push((panel[i] - panelMean) / table.attribute.sd);
-        });
+        if (!ok) break;
+        const sd = table.attribute.sd;
+        for (let i = 0; i < nP; i++) {
+          x[i * nJ + j] = (x[i * nJ + j] - ownSum / nP) / sd;
+          g[i * nJ + j] = (g[i * nJ + j] - panelSum / nP) / sd;
+        }
       }
       if (!ok) continue;
-      const distance = (p: number, q: number) => x[p].reduce((s, v, j) => s + (v - g[q][j]) ** 2, 0);
-      for (let p = 0; p < products.length - 1; p++) {
-        for (let q = p + 1; q < products.length; q++) {
+      const distance = (p: number, q: number): number => {
+        let sum = 0;
+        for (let j = 0; j < nJ; j++) {
+          const d = x[p * nJ + j] - g[q * nJ + j];
+          sum += d * d;
+        }
+        return sum;
+      };
+      for (let p = 0; p < nP - 1; p++) {
+        for (let q = p + 1; q < nP; q++) {
           const dpp = distance(p, p);
           const dqq = distance(q, q);
           const dpq = distance(p, q);
