@@ -161,3 +161,17 @@ describe('readRatingBatches', () => {
     expect(batched).toEqual((await readFixture(name)).events);
   });
 });
+
+describe('xlsx 1904 date system', () => {
+  it('a workbook using the 1904 date system (older Mac files) reads the same calendar dates', async () => {
+    const workbook = new ExcelJS.Workbook();
+    workbook.properties.date1904 = true;
+    const sheet = workbook.addWorksheet('Panel');
+    sheet.addRow(['session', 'date', 'assessor', 'product', 'replicate', 'sweet']);
+    const row = sheet.addRow(['W1', new Date(Date.UTC(2025, 2, 4)), 'A', 'Ref', 1, 5]);
+    row.getCell(2).numFmt = 'yyyy-mm-dd';
+    const r = await readAll({ bytes: new Uint8Array(await workbook.xlsx.writeBuffer()) }, { fileName: 'mac.xlsx' });
+    expect(r.problems).toEqual([]);
+    expect(r.ratings.map((x) => x.date)).toEqual(['2025-03-04']);
+  });
+});
