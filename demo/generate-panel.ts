@@ -334,8 +334,9 @@ export function generatePanel(options: PanelScenarioOptions): GeneratedPanel {
   });
 
   const sessions: GeneratedSession[] = [];
-  // noise[s][a][pi][r][j], sessionTerms etc. are drawn for every assessor and every product of the
-  // catalogue so that the draw order never depends on who was present or what was served.
+  // Session terms and replicate noise ([session][assessor][product][replicate][attribute]) are drawn
+  // for every assessor and every product of the range, so the draw order never depends on who was
+  // present or what was served.
   const sessionShift: number[][] = [];
   const assessorSession: number[][][] = [];
   const productBatch: number[][][] = [];
@@ -376,7 +377,7 @@ export function generatePanel(options: PanelScenarioOptions): GeneratedPanel {
     options.faults === 'none' ? [] : options.faults === 'demo' ? demoFaults(nWeeks, nAssessors) : options.faults;
   const attributeSpreads = attributeNames.map((_, j) => attributeSpread(products, j));
   const spreadOrder = attributeNames
-    .map((name, j) => ({ name, spread: attributeSpread(products, j) }))
+    .map((name, j) => ({ name, spread: attributeSpreads[j] }))
     .sort((x, y) => y.spread - x.spread)
     .map((x) => x.name);
   const truth: PlantedFault[] = specs.map((spec) =>
