@@ -177,3 +177,16 @@ describe('xlsx 1904 date system', () => {
     expect(r.ratings.map((x) => x.date)).toEqual(['2025-03-04']);
   });
 });
+
+describe('stopping early', () => {
+  it.each(['long-comma-lf.csv', 'wide.xlsx', 'long-utf16le-bom.csv'])('%s: a consumer may stop after the first event; reading again works', async (name) => {
+    const options = { fileName: name, scaleFor: () => ({ min: 0, max: 10 }) };
+    for await (const event of readRatingBatches({ path: fixturePath(name) }, options)) {
+      expect(event.length).toBeGreaterThan(0);
+      break;
+    }
+    const again = await readFixture(name);
+    expect(again.problems).toEqual([]);
+    expect(again.ratings).toHaveLength(N_RATINGS);
+  });
+});
