@@ -65,8 +65,12 @@ function hbsFiles(folder: string): string[] {
     .sort();
 }
 
-/** Compiles every template in the folder once. Throws at start-up when one does not compile. */
-export function createViewRenderer(templatesDir: string): ViewRenderer {
+/**
+ * Compiles every template in the folder once. Throws at start-up when one does not compile.
+ * `strict` (tests) makes a template that reads a field its view lacks throw instead of printing
+ * nothing, which is how test/http/template-contract.test.ts checks templates against views.
+ */
+export function createViewRenderer(templatesDir: string, options: { strict?: boolean } = {}): ViewRenderer {
   const handlebars = Handlebars.create();
   registerHelpers(handlebars);
   handlebars.registerPartial('layout', readFileSync(join(templatesDir, 'layouts', 'main.hbs'), 'utf8'));
@@ -76,8 +80,8 @@ export function createViewRenderer(templatesDir: string): ViewRenderer {
   const pages = new Map<string, Handlebars.TemplateDelegate>();
   for (const file of hbsFiles(join(templatesDir, 'pages'))) {
     const source = readFileSync(join(templatesDir, 'pages', file), 'utf8');
-    const template = handlebars.compile(source, { preventIndent: true });
-    template({ chrome: {}, title: '', breadcrumbs: [] }); // compile now: a broken template stops the start
+    const template = handlebars.compile(source, { preventIndent: true, strict: options.strict ?? false });
+    if (!options.strict) template({ chrome: {}, title: '', breadcrumbs: [] }); // compile now: a broken template stops the start
     pages.set(basename(file, '.hbs'), template);
   }
   return {
