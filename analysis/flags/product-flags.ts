@@ -14,7 +14,7 @@
  */
 import type { Flag, FlagSeverity } from '../../domain/flags.js';
 import type { SegmentOptions, SeriesPoint } from '../monitor/chart.js';
-import type { SessionAttributeResult } from '../monitor/series.js';
+import { controlBatchSessions, type SessionAttributeResult } from '../monitor/series.js';
 import { cochranQ, productRankConcordance, sessionProductEffects, type SessionProductEffect } from '../monitor/stability.js';
 import { resultKey, type FlagContext } from './context.js';
 import { chartSizing, currentSpread, evaluateChart, pooledSpread, thresholdText } from './drift-flags.js';
@@ -106,7 +106,7 @@ function stepFlags(ctx: FlagContext): Flag[] {
   const c = ctx.settings.charts;
   const recurring = productEffectSeries(ctx).filter((series) => series.effects.length >= s.minSessions);
   if (recurring.length === 0) return [];
-  const batchChanges = ctx.history.events.filter((e) => e.kind === 'control-batch').map((e) => e.session);
+  const batchChanges = controlBatchSessions(ctx.history);
   const sizing = chartSizing(recurring.length, c.sessionsPerYear, s.stepFalseAlarmsPerYear, s.stepWatchFalseAlarmsPerYear, c.ewmaLambda, c.cusumK);
   const optionsOf = (series: ProductEffectSeries): SegmentOptions => ({
     baseline: { fullValues: c.baselineSessions, minimumValues: Math.max(c.minBaselineSessions, s.minSessions) },

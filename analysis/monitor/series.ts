@@ -131,6 +131,11 @@ export function restartSessionsFor(history: PanelHistory, assessor: string | nul
     .map((e) => e.session);
 }
 
+/** Sessions at which the reference-product charts restart: new control batches (methods §3.6). */
+export function controlBatchSessions(history: PanelHistory): string[] {
+  return history.events.filter((e) => e.kind === 'control-batch').map((e) => e.session);
+}
+
 /**
  * Per-assessor summary series (methods §3.1, CP): each attribute's series is standardised with its
  * own baseline (z), and the summary at a session is the median of the z-values available there.
