@@ -106,3 +106,25 @@ describe('options and settings', () => {
     expect(buildFlags(history).some((f) => f.kind === 'drift' && f.assessor === 'A02')).toBe(false);
   });
 });
+
+describe('robustness', () => {
+  it('empty, one-session and all-undefined histories give no flags and no errors', () => {
+    const empty = { sessions: [], attributes: [], referenceProducts: [], results: [], importFindings: [], events: [] };
+    expect(buildFlags(empty)).toEqual([]);
+    expect(buildFlags(syntheticHistory({ seed: 1, nSessions: 1 }))).toEqual([]);
+    const blank = syntheticHistory({ seed: 2, nSessions: 12 });
+    for (const result of blank.results) {
+      result.productTestP = null;
+      result.indices = result.indices.map((row) => ({
+        ...row,
+        offset: null, offsetT: null, offsetP: null, discriminationF: null, discriminationP: null, repeatabilitySdRatio: null,
+        repeatabilityMSE: null, agreementR: null, scaling: null, scalingP: null, reasons: ['few-products' as const],
+      }));
+    }
+    expect(buildFlags(blank)).toEqual([]);
+  });
+  it('is deterministic', () => {
+    const history = syntheticHistory({ seed: 9, nSessions: 30, faults: [{ kind: 'drift', assessor: 'A01', fromSession: 15, size: 0.1 }] });
+    expect(JSON.stringify(buildFlags(history))).toBe(JSON.stringify(buildFlags(history)));
+  });
+});
