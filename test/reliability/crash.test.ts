@@ -46,7 +46,9 @@ interface ChildRun {
   killed: boolean;
   exitedBy: string;
   /** From "ready" to "writing" and to the end, ms. */
+  /** 0 when the child never got there. */
   writingAtMs: number;
+  committedAtMs: number;
   endMs: number;
   stdout: string;
 }
@@ -61,6 +63,7 @@ function runChild(store: string, file: string, plan: KillPlan): Promise<ChildRun
     let stderr = '';
     let readyAt = 0;
     let writingAt = 0;
+    let committedAt = 0;
     let killed = false;
     const armKill = (): void => {
       if (plan === null) return;
@@ -78,12 +81,21 @@ function runChild(store: string, file: string, plan: KillPlan): Promise<ChildRun
         writingAt = performance.now();
         if (plan?.after === 'writing') armKill();
       }
+      if (committedAt === 0 && stdout.includes('committed\n')) committedAt = performance.now();
     });
     child.stderr.on('data', (chunk: Buffer) => void (stderr += chunk.toString()));
     child.on('error', reject);
     child.on('exit', (code, signal) => {
       if (!killed && code !== 0) reject(new Error(`child failed (${code ?? signal}): ${stderr}`));
-      else resolve({ killed, exitedBy: signal ?? String(code), writingAtMs: writingAt - readyAt, endMs: performance.now() - readyAt, stdout });
+      else
+        resolve({
+          killed,
+          exitedBy: signal ?? String(code),
+          writingAtMs: writingAt && writingAt - readyAt,
+          committedAtMs: committedAt && committedAt - readyAt,
+          endMs: performance.now() - readyAt,
+          stdout,
+        });
     });
   });
 }
@@ -126,8 +138,11 @@ describe('SIGKILL during an import', () => {
     expect(reference.stdout).toMatch(/done imported/);
     const whole = readFingerprint(referencePath);
     expect(whole.print).not.toBe(before.print);
-    const readingMs = reference.writingAtMs;
-    const writingMs = reference.endMs - reference.writingAtMs;
+    // Phase lengths, re-estimated after every round that reached them: on a busy machine they
+    // vary from round to round, and a kill planned from a stale length would miss its phase.
+    let readingMs = reference.writingAtMs;
+    let writingMs = reference.committedAtMs - reference.writingAtMs;
+    const reference0 = { readingMs, writingMs };
 
     const tally = { none: 0, whole: 0, killed: 0, killedWhileReading: 0, killedWhileWriting: 0 };
     const delays: string[] = [];
@@ -142,6 +157,8 @@ describe('SIGKILL during an import', () => {
         round % 2 === 0 ? { after: 'ready', delayMs: Math.round(fraction * readingMs) } : { after: 'writing', delayMs: Math.round(fraction * 1.2 * writingMs) };
       delays.push(`${plan.after}+${plan.delayMs}`);
       const run = await runChild(path, bigFile, plan);
+      if (run.writingAtMs > 0) readingMs = (readingMs + run.writingAtMs) / 2;
+      if (run.committedAtMs > 0) writingMs = (writingMs + run.committedAtMs - run.writingAtMs) / 2;
       if (run.killed) {
         tally.killed += 1;
         if (plan.after === 'ready' && !run.stdout.includes('writing')) tally.killedWhileReading += 1;
@@ -166,7 +183,7 @@ describe('SIGKILL during an import', () => {
     console.log(
       `crash test: ${N_RATINGS} ratings, ${ROUNDS} rounds, ${tally.killed} killed by SIGKILL, ` +
         `(${tally.killedWhileReading} while reading, ${tally.killedWhileWriting} inside the write transaction), ` +
-        `${tally.none} left none, ${tally.whole} left the whole import; uninterrupted: read ${Math.round(readingMs)} ms, write ${Math.round(writingMs)} ms; ` +
+        `${tally.none} left none, ${tally.whole} left the whole import; uninterrupted: read ${Math.round(reference0.readingMs)} ms, write transaction ${Math.round(reference0.writingMs)} ms; ` +
         `kills at ${delays.join(' ')} ms`,
     );
     expect(tally.killed).toBeGreaterThan(0);
