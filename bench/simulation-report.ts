@@ -2,14 +2,16 @@
  * Flag detection on simulated panels (issue 4, "Done when"): runs the suite of
  * test/simulation/scenarios.ts through the real pipeline and writes the results table into the
  * "## Flag detection (simulation)" section of bench/README.md (replacing it, or appending it).
- * Run: `npx tsx bench/simulation-report.ts` (several minutes on two cores).
+ * Run: `npx tsx bench/simulation-report.ts [--period-fits]` (a few minutes on two cores; with
+ * --period-fits several more: the period model with its product:session LRT on one short panel).
  */
 import { execFileSync } from 'node:child_process';
 import { existsSync, readFileSync, writeFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { buildFlags, DEFAULT_THRESHOLDS } from '../analysis/flags/index.js';
-import { measureFlagDetection, reportMarkdown } from '../test/simulation/measure.js';
+import { measureFlagDetection, periodFitParagraph, reportMarkdown } from '../test/simulation/measure.js';
+import { simulationScenarios } from '../test/simulation/scenarios.js';
 
 const SECTION = '## Flag detection (simulation)';
 
@@ -35,6 +37,20 @@ const report = await measureFlagDetection(
   undefined,
   (name) => process.stderr.write(`simulating ${name}\n`),
 );
+// The period model is slow (seconds per window and attribute), so its LRT path is measured on one
+// short panel only, and only when asked: --period-fits.
+let markdown = reportMarkdown(report, commit);
+if (process.argv.includes('--period-fits')) {
+  const windowSessions = 12;
+  const shortPanel = simulationScenarios().filter((s) => s.options.nWeeks <= 26);
+  const withPeriods = await measureFlagDetection(
+    (history) => buildFlags(history, DEFAULT_THRESHOLDS),
+    shortPanel,
+    (name) => process.stderr.write(`simulating ${name} with period fits\n`),
+    { periodWindowSessions: windowSessions, driftDelays: false },
+  );
+  markdown = `${markdown.trimEnd()}\n\n${periodFitParagraph(withPeriods, windowSessions)}\n`;
+}
 const readme = existsSync(readmePath) ? readFileSync(readmePath, 'utf8') : '# Benchmarks\n';
-writeFileSync(readmePath, replaceSection(readme, reportMarkdown(report, commit)));
-console.log(reportMarkdown(report, commit));
+writeFileSync(readmePath, replaceSection(readme, markdown));
+console.log(markdown);

@@ -42,6 +42,7 @@ export async function measureFlagDetection(
   buildFlags: FlagEngine,
   scenarios: SimulationScenario[] = simulationScenarios(),
   onPanel?: (name: string) => void,
+  options: { periodWindowSessions?: number; driftDelays?: boolean } = {},
 ): Promise<SimulationReport> {
   const started = performance.now();
   const total = emptyTallies();
@@ -56,7 +57,7 @@ export async function measureFlagDetection(
   };
   for (const scenario of scenarios) {
     onPanel?.(scenario.name);
-    const run = await runPanel(scenario);
+    const run = await runPanel(scenario, { periodWindowSessions: options.periodWindowSessions });
     const flags = buildFlags(historyUpTo(run));
     const score = scorePanel(flags, run.panel.truth, scenario.cleanAssessors, run.panel.sessions.length, scenario.name);
     addTallies(total, score.byKind);
@@ -73,7 +74,7 @@ export async function measureFlagDetection(
     for (const flag of score.cleanWatchFlags) report.cleanWatchByKind[flag.kind] = (report.cleanWatchByKind[flag.kind] ?? 0) + 1;
     report.cleanAssessorYears += score.cleanAssessorYears;
     report.stableProductActFlags.push(...score.stableProductActFlags.map((flag) => ({ panel: scenario.name, flag })));
-    report.driftDelays.push(...driftDelays(run, buildFlags));
+    if (options.driftDelays ?? true) report.driftDelays.push(...driftDelays(run, buildFlags));
   }
   const found = report.driftDelays.map((d) => d.sessionsToFirstFlag).filter((d): d is number => d !== null);
   return {
@@ -103,6 +104,18 @@ function driftDelays(run: PanelRun, buildFlags: FlagEngine): DriftDelay[] {
 }
 
 const pct = (x: number) => `${(100 * x).toFixed(0)} %`;
+
+/** A paragraph on the run with period-model fits (the product:session LRT) included. */
+export function periodFitParagraph(report: SimulationReport, windowSessions: number): string {
+  const unstable = report.byKind.find((t) => t.kind === 'unstable-product')!;
+  const spurious = report.stableProductActFlags.map(({ flag }) => `${flag.product ?? 'any product'} on ${flag.attribute ?? 'every attribute'}`);
+  return (
+    `With period-model fits on consecutive ${windowSessions}-session windows (product:session boundary LRT; ` +
+    `${report.panels.map((p) => p.name).join(', ')}; ${(report.elapsedMs / 1000).toFixed(0)} s): planted unstable products found ` +
+    `${unstable.found} of ${unstable.planted}; act-level unstable-product flags that match no planted step: ${report.stableProductActFlags.length}` +
+    `${spurious.length ? ` (${spurious.join('; ')})` : ''}; act-level flags on clean assessors: ${report.cleanActFlags.length}.`
+  );
+}
 
 /** The results as a markdown section (for bench/README.md). */
 export function reportMarkdown(report: SimulationReport, commit: string): string {
