@@ -8,13 +8,12 @@
  */
 import type { FitJson } from '../../domain/analysis.js';
 import type { Observation } from '../../domain/ratings.js';
-import { boundaryLrtPValue } from '../distributions/index.js';
+import { boundaryLikelihoodRatioTest } from './boundary-lrt.js';
 import { makeRemlObjective } from './criterion.js';
 import { LmmFitError } from './errors.js';
 import { fitFromObjective, type LmmDiagnostics, type LmmFit } from './fit.js';
 import { checkOneGroup, checkResponse } from './fit-session-model.js';
 import { buildModelFrame } from './model-frame.js';
-import { minimizeBounded } from './optimise.js';
 import { periodMomentStart } from './period-start.js';
 
 export interface PeriodModelFit {
@@ -67,21 +66,10 @@ export function fitPeriodModel(observations: Observation[], options: PeriodModel
 
   let productSessionLrt: PeriodModelFit['productSessionLrt'] = null;
   if (withProductSession) {
-    const index = randomTerms.length - 1;
-    const expand = (theta: ArrayLike<number>): Float64Array => {
-      const full = new Float64Array(randomTerms.length);
-      for (let k = 0, j = 0; k < randomTerms.length; k++) full[k] = k === index ? 0 : theta[j++];
-      return full;
-    };
-    const withGradient = (theta: ArrayLike<number>): { value: number; gradient: Float64Array } => {
-      const result = objective.valueAndGradient(expand(theta));
-      return { value: result.value, gradient: result.gradient.filter((_, k) => k !== index) };
-    };
-    const reducedMomentStart = momentStart ? periodMomentStart(cells, false) : null;
-    const start = reducedMomentStart ?? [...fit.theta].filter((_, k) => k !== index).map((value) => Math.max(value, 0.05));
-    const reduced = minimizeBounded((theta) => objective.evaluate(expand(theta)), start, {}, withGradient);
-    const likelihoodRatio = Math.max(reduced.value - fit.criterion, 0);
-    productSessionLrt = { likelihoodRatio, pValue: boundaryLrtPValue(likelihoodRatio) };
+    const reducedStart = momentStart ? periodMomentStart(cells, false) : null;
+    const lrt = boundaryLikelihoodRatioTest(objective, { theta: fit.theta, criterion: fit.criterion }, 'product:session', reducedStart ?? undefined);
+    if (!lrt.reducedConverged) fit.diagnostics.messages.push('the fit without product:session did not converge: its likelihood ratio is unreliable');
+    productSessionLrt = { likelihoodRatio: lrt.likelihoodRatio, pValue: lrt.pValue };
   }
 
   const variance: FitJson['variance'] = {

@@ -9,6 +9,8 @@
 import { describe, expect, it } from 'vitest';
 import type { FitJson } from '../../../domain/analysis.js';
 import type { Observation } from '../../../domain/ratings.js';
+import { boundaryLrtPValue } from '../../../analysis/distributions/index.js';
+import { boundaryLikelihoodRatioTest } from '../../../analysis/lmm/boundary-lrt.js';
 import { makeRemlObjective } from '../../../analysis/lmm/criterion.js';
 import { fitPeriodModel } from '../../../analysis/lmm/fit-period-model.js';
 import { fitSessionModel } from '../../../analysis/lmm/fit-session-model.js';
@@ -113,6 +115,11 @@ function runCase(expected: ExpectedFit, observations: Observation[]): void {
       expect(result.diagnostics.converged).toBe(true);
       expect(result.diagnostics.singular).toBe(expected.singular);
       expectFitMatches(result.json, expected);
+      if (expected.lrt) {
+        const lrt = boundaryLikelihoodRatioTest(makeRemlObjective(result.fit.frame), { theta: result.fit.theta, criterion: result.fit.criterion }, expected.lrt.term);
+        expectAbsolute(lrt.likelihoodRatio, expected.lrt.likelihoodRatio, tol.LIKELIHOOD_RATIO_ABSOLUTE, `LR ${expected.lrt.term}`);
+        expect(lrt.pValue).toBe(boundaryLrtPValue(lrt.likelihoodRatio));
+      }
     } else {
       const withProductSession = expected.terms.includes('product:session');
       const result = fitPeriodModel(observations, { withProductSession });
