@@ -113,13 +113,22 @@ export async function readSettingsUpload(file: ReceivedFile): Promise<PanelConfi
   return config;
 }
 
-/** Runs the import after every earlier one (one writer at a time). */
-export function runImport(
+/** The refit scheduler the monitor routes add (server/routes/monitor.ts), when they are registered. */
+interface RefitScheduler {
+  schedule(panelName: string, reason: string): unknown;
+}
+
+/**
+ * Runs the import after every earlier one (one writer at a time). When it changed sessions, the
+ * panel's fits are brought up to date in the background; a failure to schedule that is logged
+ * and never spoils the import's answer (the monitor pages queue a refit themselves when stale).
+ */
+export async function runImport(
   app: FastifyInstance,
   request: { panel: string; file: ReceivedFile; source: 'http' | 'web'; options: ImportOptions; settings?: PanelConfigFile },
 ): Promise<ImportReport> {
   const { panel, file, source, options, settings } = request;
-  return app.importQueue.run(() =>
+  const report = await app.importQueue.run(() =>
     importRatings(app.db, {
       panel,
       fileName: file.fileName,
@@ -131,6 +140,15 @@ export function runImport(
       settings,
     }),
   );
+  const refits = (app as unknown as { refitService?: RefitScheduler }).refitService;
+  if (refits !== undefined && report.ok && report.changedSessions.length > 0) {
+    try {
+      refits.schedule(report.panel, `import ${report.importId ?? ''}`.trim());
+    } catch (error) {
+      app.log.warn({ err: error, panel: report.panel }, 'could not schedule a refit after the import');
+    }
+  }
+  return report;
 }
 
 /** HTTP status of an import answer: 200 when something (or nothing new) was stored, 422 when rejected. */

@@ -53,6 +53,16 @@ describe('import API', () => {
     expect(panels.panels[0]).toMatchObject({ name: 'oat', nRatings: 7, nImports: 2 });
   });
 
+  it('asks for the panel's fits to be brought up to date after an import that changed sessions', async () => {
+    const { app } = await fresh();
+    await postCsv(app, 'oat', longCsv(SMALL_SESSION_ROWS));
+    const first = (await app.inject({ url: '/api/panels/oat/refit' })).json();
+    expect(first.job).toMatchObject({ reason: 'import 1' });
+    await postCsv(app, 'oat', longCsv(SMALL_SESSION_ROWS)); // unchanged: no new refit
+    const second = (await app.inject({ url: '/api/panels/oat/refit' })).json();
+    expect(second.job.id).toBe(first.job.id);
+  });
+
   it('rejects a bad file with 422 and the problems by row and column, writing nothing', async () => {
     const { app } = await fresh();
     const rows = SMALL_SESSION_ROWS.map((row) => [...row]);
