@@ -53,7 +53,7 @@ describe('import API', () => {
     expect(panels.panels[0]).toMatchObject({ name: 'oat', nRatings: 7, nImports: 2 });
   });
 
-  it('asks for the panel's fits to be brought up to date after an import that changed sessions', async () => {
+  it('asks for the panel fits to be brought up to date after an import that changed sessions', async () => {
     const { app } = await fresh();
     await postCsv(app, 'oat', longCsv(SMALL_SESSION_ROWS));
     const first = (await app.inject({ url: '/api/panels/oat/refit' })).json();
