@@ -14,7 +14,7 @@ const MAPPING: Record<string, { kind: FlagKind; severity: FlagSeverity; what: st
   'conflicting-duplicate': { kind: 'duplicate', severity: 'act', what: 'a row repeated with different values' },
   'decimal-shift': { kind: 'decimal-shift', severity: 'act', what: 'a value that looks like a misplaced decimal point' },
   'out-of-scale': { kind: 'out-of-scale', severity: 'act', what: 'a value outside the scale' },
-  'missing-cells': { kind: 'missing-cells', severity: 'watch', what: 'missing ratings' },
+  'missing-cells': { kind: 'missing-cells', severity: 'watch', what: 'gaps where products, attributes or replicates were not rated' },
 };
 
 export function findingFlags(ctx: FlagContext): Flag[] {

@@ -98,14 +98,20 @@ describe('planted data-quality problems', () => {
       { code: 'duplicate-row', file: 'week2.csv', row: 31, column: null, message: 'Row repeats row 28.', session: 'S02', assessor: 'A01', product: 'P1', attribute: 'attr2' },
       { code: 'conflicting-duplicate', file: 'week2.csv', row: 40, column: null, message: 'Two different values.', session: 'S02', assessor: 'A02', product: 'P1', attribute: 'attr1' },
       { code: 'identifier-case', file: 'week2.csv', row: 2, column: 'assessor', message: 'a01 vs A01', session: 'S02' },
+      { code: 'missing-cells', file: 'week1.csv', row: null, column: null, message: 'A07 rated 40 of 96 cells.', session: 'S01', assessor: 'A07' },
     ];
-    const flags = buildFlags(historyOf(twoSessions(7), findings));
+    // A07's S01 ratings are also thinned, so the rating-based check would find them: the import
+    // finding is used instead, not both.
+    const ratings = twoSessions(7).filter((r) => !(r.session === 'S01' && r.assessor === 'A07' && r.product !== 'P1'));
+    const flags = buildFlags(historyOf(ratings, findings));
     expect(flags.map((f) => [f.kind, f.severity, f.assessor, f.product, f.attribute])).toEqual([
       ['decimal-shift', 'act', 'A05', 'P3', 'attr2'],
       ['duplicate', 'act', 'A02', 'P1', 'attr1'],
       ['out-of-scale', 'act', 'A04', 'P2', 'attr1'],
       ['duplicate', 'watch', 'A01', 'P1', null],
+      ['missing-cells', 'watch', 'A07', null, null],
     ]);
+    expect(flags[4].firstSession).toBe('S01');
     expect(flags[3].evidence.n).toBe(2);
     expect(flags[3].evidence.rows).toEqual([30, 31]);
     expect(flags[3].message).toBe("In session S02, A01's ratings contained 2 findings of a row repeated with the same value (spreadsheet rows 30, 31).");
