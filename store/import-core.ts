@@ -513,6 +513,9 @@ export async function importRatingEvents(
 }
 
 function successMessage(fileName: string, panel: string, outcome: ImportOutcome, counts: ImportCounts): string {
+  if (outcome === 'unchanged' && counts.sessions === 0) {
+    return `${fileName} holds no ratings (${plural(counts.missingCells, 'empty cell')}); nothing was stored.`;
+  }
   if (outcome === 'unchanged') {
     return `All ${plural(counts.sessions, 'session')} in ${fileName} are already stored in panel "${panel}" with identical ratings; nothing changed.`;
   }

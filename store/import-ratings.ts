@@ -6,6 +6,7 @@
 import { createHash } from 'node:crypto';
 import { createReadStream } from 'node:fs';
 import type { Database } from 'better-sqlite3';
+import type { InputProblem } from '../domain/problems.js';
 import type { ImportSource, ScaleRange } from '../domain/ratings.js';
 import { readRatingBatches, type InputSource } from '../ingest/read-ratings.js';
 import { findEarlierImport, importRatingEvents, scaleForNewAttribute, storedScales, unchangedReport, type ImportPhase, type ImportReport } from './import-core.js';
@@ -55,7 +56,14 @@ export async function hashInput(input: InputSource): Promise<string> {
  * report, `ok: false`); throws only for faults of the store itself.
  */
 export async function importRatings(db: Database, request: ImportRequest): Promise<ImportReport> {
-  const sha256 = await hashInput(request.input);
+  let sha256: string;
+  try {
+    sha256 = await hashInput(request.input);
+  } catch {
+    // Gone or unreadable: the same answer as for any file that cannot be read (no path shown).
+    const problem: InputProblem = { code: 'file-unreadable', file: request.fileName, row: null, column: null, message: 'The file could not be opened for reading.' };
+    return importRatingEvents(db, { ...request, sha256: '' }, [{ type: 'problem', problem, cell: null }]);
+  }
   const eventsRequest = {
     panel: request.panel,
     fileName: request.fileName,

@@ -82,6 +82,15 @@ describe('validation through real files: any problem rejects the whole file and 
     expect(countOf(db, 'rating')).toBe(3);
   });
 
+  it('a file that cannot be opened, and a wide file with no ratings at all', async () => {
+    const gone = await importRatings(db, request(join(folder, 'gone.csv')));
+    expect(gone).toMatchObject({ ok: false, outcome: 'rejected', errors: [{ code: 'file-unreadable', file: 'gone.csv', row: null }] });
+    expect(gone.message).not.toContain(folder);
+    const empty = await importRatings(db, request(file('empty.csv', ['session,date,assessor,product,replicate,sweet,salty', 'S1,2026-01-05,A1,P1,1,,'])));
+    expect(empty).toMatchObject({ ok: true, outcome: 'unchanged', counts: { ratings: 0, missingCells: 2 } });
+    expect(empty.message).toBe('empty.csv holds no ratings (2 empty cells); nothing was stored.');
+  });
+
   it('lists at most the first 100 problems with the total', async () => {
     const lines = [HEADER];
     for (let i = 0; i < 250; i++) lines.push(`S1,2026-01-05,A${i},P1,1,crunchiness,bad`);
