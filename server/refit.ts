@@ -15,8 +15,9 @@ import {
   listSessionVersions,
   listStaleSessions,
   loadCurrentFindings,
-  loadPanelRatings,
+  loadPackedRatings,
   loadSessionRatings,
+  unpackRatings,
   type SessionRatings,
   type SessionVersionRow,
 } from '../store/fits-sessions.js';
@@ -225,8 +226,9 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
     lastBuild?.thresholdsHash !== inputsHash;
   let nFlags = lastBuild?.nFlags ?? 0;
   if (needFlags) {
-    const history = buildPanelHistory(db, panel.id, windowSessions);
-    const result = await options.runner.run({ type: 'flags', history, thresholds, retraining: retrainingDone });
+    const history = buildPanelHistory(db, panel.id, { windowSessions });
+    const ratings = loadPackedRatings(db, panel.id);
+    const result = await options.runner.run({ type: 'flags', history, ratings, thresholds, retraining: retrainingDone });
     replaceCurrentFlags(db, panel.id, result.flags, { dataSignature, thresholdsHash: inputsHash });
     const linkedKeys = new Map(listRetraining(db, panel.id).map((r) => [r.id, r.flagKeys]));
     for (const { id, evaluation } of result.retraining) {
@@ -262,8 +264,16 @@ function retrainingToEvaluate(db: Database, panelId: number, sessions: readonly 
 /** What a stored period fit holds: the period task's result, or the sentence saying why there is none. */
 export type StoredPeriodResult = PeriodFitResult | { problem: string };
 
-/** Everything the flag engine and the monitor pages read, from the store (structured-clone safe). */
-export function buildPanelHistory(db: Database, panelId: number, windowSessions = DEFAULT_WINDOW_SESSIONS): PanelHistory {
+/**
+ * Everything the flag engine and the monitor pages read, from the store (structured-clone safe).
+ * The ratings are left out unless asked for: the refit sends them packed (loadPackedRatings).
+ */
+export function buildPanelHistory(
+  db: Database,
+  panelId: number,
+  options: { windowSessions?: number; withRatings?: boolean } = {},
+): PanelHistory {
+  const windowSessions = options.windowSessions ?? DEFAULT_WINDOW_SESSIONS;
   const sessions = listSessionVersions(db, panelId);
   const attributes = listAttributes(db, panelId);
   const scaleOf = new Map(attributes.map((a) => [a.name, a.scale]));
@@ -306,7 +316,7 @@ export function buildPanelHistory(db: Database, panelId: number, windowSessions 
       .filter((p) => p.role === 'reference')
       .map((p) => p.code),
     results,
-    ratings: loadPanelRatings(db, panelId),
+    ratings: options.withRatings ? unpackRatings(loadPackedRatings(db, panelId)) : undefined,
     importFindings: loadCurrentFindings(db, panelId) as ImportFinding[],
     events: listPanelEvents(db, panelId),
     periodFits,

@@ -103,21 +103,104 @@ export function listStaleSessions(db: Database, panelId: number, analysisVersion
     .all(panelId, analysisVersion) as SessionVersionRow[];
 }
 
-/** Every stored rating of the panel (optionally from a session date on), in session order. */
-export function loadPanelRatings(db: Database, panelId: number, fromDate?: string): Rating[] {
-  return db
+/**
+ * Every stored rating of a panel in columns: name tables plus typed arrays of indices into them.
+ * A year of a large panel is ~10⁵ ratings; as columns it loads without joins and crosses to a
+ * worker thread as a few memory copies instead of 10⁵ cloned objects.
+ */
+export interface PackedRatings {
+  sessions: { label: string; date: string }[];
+  assessors: string[];
+  products: string[];
+  attributes: string[];
+  /** Distinct sample codes; codeIndex −1 = no code. */
+  codes: string[];
+  sessionIndex: Int32Array;
+  assessorIndex: Int32Array;
+  productIndex: Int32Array;
+  attributeIndex: Int32Array;
+  codeIndex: Int32Array;
+  replicate: Int32Array;
+  value: Float64Array;
+}
+
+export function loadPackedRatings(db: Database, panelId: number): PackedRatings {
+  const table = (sql: string) => {
+    const rows = db.prepare(sql).raw().all(panelId) as [number, string][];
+    return { ids: new Map(rows.map(([id], i) => [id, i])), names: rows.map(([, name]) => name) };
+  };
+  const sessionRows = db
+    .prepare('SELECT id, label, session_date FROM session WHERE panel_id = ? ORDER BY session_date, label')
+    .raw()
+    .all(panelId) as [number, string, string][];
+  const sessionOf = new Map(sessionRows.map(([id], i) => [id, i]));
+  const assessors = table('SELECT id, code FROM assessor WHERE panel_id = ? ORDER BY code');
+  const products = table('SELECT id, code FROM product WHERE panel_id = ? ORDER BY code');
+  const attributes = table('SELECT id, name FROM attribute WHERE panel_id = ? ORDER BY name');
+  // Row-id order: deterministic for the same stored data, and no sort of 10⁵ rows.
+  const rows = db
     .prepare(
-      `SELECT s.label AS session, s.session_date AS date, a.code AS assessor, p.code AS product, r.replicate,
-              at.name AS attribute, r.value, r.sample_code AS code
-         FROM rating r
-         JOIN session s ON s.id = r.session_id
-         JOIN attribute at ON at.id = r.attribute_id
-         JOIN assessor a ON a.id = r.assessor_id
-         JOIN product p ON p.id = r.product_id
-        WHERE s.panel_id = ? AND s.session_date >= ?
-        ORDER BY s.session_date, s.label, at.name, a.code, p.code, r.replicate`,
+      `SELECT r.session_id, r.assessor_id, r.product_id, r.attribute_id, r.replicate, r.value, r.sample_code
+         FROM rating r JOIN session s ON s.id = r.session_id WHERE s.panel_id = ? ORDER BY r.id`,
     )
-    .all(panelId, fromDate ?? '') as Rating[];
+    .raw()
+    .all(panelId) as [number, number, number, number, number, number, string | null][];
+  const n = rows.length;
+  const packed: PackedRatings = {
+    sessions: sessionRows.map(([, label, date]) => ({ label, date })),
+    assessors: assessors.names,
+    products: products.names,
+    attributes: attributes.names,
+    codes: [],
+    sessionIndex: new Int32Array(n),
+    assessorIndex: new Int32Array(n),
+    productIndex: new Int32Array(n),
+    attributeIndex: new Int32Array(n),
+    codeIndex: new Int32Array(n),
+    replicate: new Int32Array(n),
+    value: new Float64Array(n),
+  };
+  const codeOf = new Map<string, number>();
+  for (let i = 0; i < n; i++) {
+    const [sessionId, assessorId, productId, attributeId, replicate, value, code] = rows[i];
+    packed.sessionIndex[i] = sessionOf.get(sessionId)!;
+    packed.assessorIndex[i] = assessors.ids.get(assessorId)!;
+    packed.productIndex[i] = products.ids.get(productId)!;
+    packed.attributeIndex[i] = attributes.ids.get(attributeId)!;
+    packed.replicate[i] = replicate;
+    packed.value[i] = value;
+    if (code === null) packed.codeIndex[i] = -1;
+    else {
+      let c = codeOf.get(code);
+      if (c === undefined) {
+        c = packed.codes.length;
+        codeOf.set(code, c);
+        packed.codes.push(code);
+      }
+      packed.codeIndex[i] = c;
+    }
+  }
+  return packed;
+}
+
+/** The packed ratings as Rating objects (in the worker, or for a page that needs them). */
+export function unpackRatings(packed: PackedRatings): Rating[] {
+  const out: Rating[] = new Array(packed.value.length);
+  for (let i = 0; i < out.length; i++) {
+    const session = packed.sessions[packed.sessionIndex[i]];
+    const code = packed.codeIndex[i];
+    out[i] = {
+      session: session.label,
+      date: session.date,
+      assessor: packed.assessors[packed.assessorIndex[i]],
+      product: packed.products[packed.productIndex[i]],
+      replicate: packed.replicate[i],
+      attribute: packed.attributes[packed.attributeIndex[i]],
+      value: packed.value[i],
+      code: code === -1 ? null : packed.codes[code],
+    };
+  }
+  return out;
 }
 
 /** A finding of an import, or a quarantined cell still held (code = the quarantine reason). */

@@ -96,9 +96,9 @@ export interface MonitorContext {
   attributes: string[];
 }
 
-export function loadMonitorContext(db: Database, panelName: string): MonitorContext {
+export function loadMonitorContext(db: Database, panelName: string, options: { withRatings?: boolean } = {}): MonitorContext {
   const panel = requireMonitorPanel(db, panelName);
-  const history = buildPanelHistory(db, panel.id);
+  const history = buildPanelHistory(db, panel.id, { withRatings: options.withRatings });
   const assessors = [...indexLookup(history).keys()].sort();
   return { panel, history, thresholds: panelThresholds(db, panel.id), assessors, attributes: history.attributes.map((a) => a.name) };
 }

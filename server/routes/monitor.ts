@@ -268,7 +268,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
 
   // ---- control (reference) product ----
   registerFormPage('/panels/:panel/monitor/control', 'monitor-control', (request) => {
-    const ctx = loadMonitorContext(db, (request.params as PanelParams).panel);
+    const ctx = loadMonitorContext(db, (request.params as PanelParams).panel, { withRatings: true });
     const requested = (request.query as { attribute?: string }).attribute;
     const attribute = requested && ctx.attributes.includes(requested) ? requested : (ctx.attributes[0] ?? null);
     const product = ctx.history.referenceProducts[0] ?? null;

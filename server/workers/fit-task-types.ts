@@ -8,6 +8,7 @@ import type { Observation, ScaleRange } from '../../domain/ratings.js';
 import type { AssessorSessionIndices } from '../../analysis/indices/types.js';
 import type { PanelHistory } from '../../analysis/monitor/series.js';
 import type { RetrainingEvaluation } from '../../analysis/flags/index.js';
+import type { PackedRatings } from '../../store/fits-sessions.js';
 
 export type RatedObservation = Observation & { code: string | null };
 
@@ -71,7 +72,9 @@ export interface RetrainingToEvaluate {
 export interface FlagsTask {
   type: 'flags';
   retraining: RetrainingToEvaluate[];
+  /** Without ratings: they travel packed in `ratings` and are unpacked in the worker. */
   history: PanelHistory;
+  ratings: PackedRatings;
   /** The panel's thresholds (validated), or null for the defaults. */
   thresholds: unknown;
 }

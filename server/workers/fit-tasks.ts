@@ -7,6 +7,7 @@ import { computeAssessorIndices } from '../../analysis/indices/compute-assessor-
 import { LmmFitError } from '../../analysis/lmm/errors.js';
 import { fitPeriodModel } from '../../analysis/lmm/fit-period-model.js';
 import { fitSessionModel } from '../../analysis/lmm/fit-session-model.js';
+import { unpackRatings } from '../../store/fits-sessions.js';
 import type {
   AttributeOutcome,
   FitTask,
@@ -67,9 +68,10 @@ export function runPeriodTask(task: PeriodTask): PeriodTaskResult {
 export function runFlagsTask(task: FlagsTask): FlagsTaskResult {
   // Stored thresholds were validated when saved; validating again fills in defaults added since.
   const { thresholds } = validateThresholds(task.thresholds ?? {});
+  const history = { ...task.history, ratings: unpackRatings(task.ratings) };
   return {
-    flags: buildFlags(task.history, thresholds),
-    retraining: task.retraining.map((r) => ({ id: r.id, evaluation: evaluateRetraining(task.history, r.assessor, r.eventSession, thresholds) })),
+    flags: buildFlags(history, thresholds),
+    retraining: task.retraining.map((r) => ({ id: r.id, evaluation: evaluateRetraining(history, r.assessor, r.eventSession, thresholds) })),
   };
 }
 

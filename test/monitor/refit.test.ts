@@ -9,7 +9,8 @@ import { computeAssessorIndices } from '../../analysis/indices/compute-assessor-
 import { fitSessionModel } from '../../analysis/lmm/fit-session-model.js';
 import { createFitPool, type FitRunner } from '../../server/fit-pool.js';
 import { panelDataSignature, periodWindows, refitPanel, RefitService } from '../../server/refit.js';
-import { findPanel, listSessionVersions } from '../../store/fits-sessions.js';
+import { findPanel, listSessionVersions, loadPackedRatings, unpackRatings } from '../../store/fits-sessions.js';
+import type { Rating } from '../../domain/ratings.js';
 import { loadPeriodFits, loadSessionFits, loadSessionIndices } from '../../store/fits-results.js';
 import { listFlags, loadFlagBuild } from '../../store/monitor-flags.js';
 import { savePanelThresholds } from '../../store/monitor-settings.js';
@@ -46,6 +47,18 @@ describe('periodWindows', () => {
     expect(periodWindows(labels(24), 12)).toHaveLength(2);
     expect(periodWindows(labels(5), 12)).toEqual([[1, 2, 3, 4, 5]]);
     expect(periodWindows(labels(2), 12)).toEqual([]);
+  });
+});
+
+describe('packed ratings', () => {
+  it('unpack(pack(stored ratings)) gives back exactly the imported ratings', async () => {
+    const panel = smallPanel();
+    await importRatings(db, panel);
+    const packed = loadPackedRatings(db, findPanel(db, panel.panelName)!.id);
+    expect(packed.value).toBeInstanceOf(Float64Array);
+    const key = (r: Rating) => [r.session, r.attribute, r.assessor, r.product, r.replicate].join('|');
+    const sorted = (rs: Rating[]) => [...rs].sort((a, b) => key(a).localeCompare(key(b)));
+    expect(sorted(unpackRatings(packed))).toEqual(sorted(panel.ratings));
   });
 });
 
