@@ -31,7 +31,7 @@ export interface PeriodModelOptions {
 const BASE_TERMS: string[][] = [['assessor'], ['session'], ['assessor', 'product'], ['assessor', 'session']];
 
 export function fitPeriodModel(observations: Observation[], options: PeriodModelOptions = {}): PeriodModelFit {
-  const withProductSession = options.withProductSession ?? true;
+  let withProductSession = options.withProductSession ?? true;
   const { attribute } = checkOneGroup(observations, false);
   const values = observations.map((row) => row.value);
   checkResponse(values);
@@ -44,7 +44,11 @@ export function fitPeriodModel(observations: Observation[], options: PeriodModel
   const nSessions = new Set(columns.session).size;
   if (nAssessors < 2) throw new LmmFitError('too-few-assessors', `only ${nAssessors} assessor rated ${attribute}: a panel model needs at least 2`);
   if (nSessions < 2) throw new LmmFitError('too-few-sessions', `only ${nSessions} session has ratings of ${attribute}: a period model needs at least 2`);
-  const randomTerms = withProductSession ? [...BASE_TERMS, ['product', 'session']] : BASE_TERMS;
+  // With one product, assessor:product and product:session would duplicate assessor and session.
+  const oneProduct = new Set(columns.product).size < 2;
+  if (oneProduct) withProductSession = false;
+  const baseTerms = oneProduct ? BASE_TERMS.filter((term) => !term.includes('product')) : BASE_TERMS;
+  const randomTerms = withProductSession ? [...baseTerms, ['product', 'session']] : baseTerms;
   const frame = buildModelFrame({ response: values, columns, fixedFactor: 'product', randomTerms });
   if (frame.nObservations <= frame.nFixed) {
     throw new LmmFitError('too-few-observations', `${frame.nObservations} ratings of ${attribute} are too few for ${frame.nFixed} products`);
@@ -60,7 +64,7 @@ export function fitPeriodModel(observations: Observation[], options: PeriodModel
     nProducts: frame.nFixed,
     nSessions,
   };
-  const momentStart = periodMomentStart(cells, withProductSession);
+  const momentStart = oneProduct ? null : periodMomentStart(cells, withProductSession);
   const fit = fitFromObjective(objective, { startTheta: momentStart ?? randomTerms.map(() => 0.5), randomEffectTerms: ['assessor'] });
   if (nAssessors < 3) fit.diagnostics.messages.push(`too few assessors (${nAssessors}): the assessor variance is poorly determined`);
 
@@ -74,7 +78,7 @@ export function fitPeriodModel(observations: Observation[], options: PeriodModel
 
   const variance: FitJson['variance'] = {
     assessor: fit.variances['assessor'],
-    'assessor:product': fit.variances['assessor:product'],
+    'assessor:product': oneProduct ? null : fit.variances['assessor:product'],
     residual: fit.residualVariance,
     session: fit.variances['session'],
     'assessor:session': fit.variances['assessor:session'],

@@ -41,7 +41,8 @@ export function fitSessionModel(observations: Observation[]): SessionModelFit {
   const nAssessors = new Set(assessors).size;
   if (nAssessors < 2) throw new LmmFitError('too-few-assessors', `only ${nAssessors} assessor rated ${attribute}: a panel model needs at least 2`);
 
-  const withInteraction = hasReplicatedCell(assessors, products);
+  // With one product the interaction would duplicate the assessor term (not identifiable).
+  const withInteraction = hasReplicatedCell(assessors, products) && new Set(products).size > 1;
   const frame = buildModelFrame({
     response: values,
     columns: { assessor: assessors, product: products },

@@ -150,6 +150,9 @@ describe('awkward data', () => {
     expect(result.json.productTest).toEqual({ F: null, numDf: 0, denDf: null, p: null });
     expect(result.json.variance.residual).toBeGreaterThan(0);
     expect(result.json.assessorEffects).toHaveLength(6);
+    // The interaction would duplicate the assessor term: it is left out.
+    expect(result.withInteraction).toBe(false);
+    expect(result.json.variance['assessor:product']).toBeNull();
   });
 
   it('two assessors: fitted with a note that the assessor variance is poorly determined', () => {
