@@ -18,8 +18,9 @@ import {
 } from './generate-panel.js';
 
 /**
- * The demo: 40 weekly sessions (about nine months, ending before the project's first release so
- * no date is in the future), 12 assessors, 5 products per session, 2 replicates, 10 attributes.
+ * The demo: 40 weekly sessions from 2025-09-01 to 2026-06-01 (about nine months, fixed dates so the
+ * demo is the same on every machine and no session lies in the future), 12 assessors, 5 products
+ * per session, 2 replicates, 10 attributes.
  */
 export const DEMO_OPTIONS: PanelScenarioOptions = {
   seed: 20250901,
