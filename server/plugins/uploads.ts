@@ -98,17 +98,23 @@ export async function receiveMultipart(request: FastifyRequest, limitBytes: numb
   }
 }
 
+/** A client that goes away mid-upload: its request, not the server, is at fault. */
+const INTERRUPTED_CODES = new Set(['ECONNRESET', 'ECONNABORTED', 'ERR_STREAM_PREMATURE_CLOSE', 'FST_REQ_FILE_TOO_LARGE_PREMATURE']);
+
 /**
  * The form parser's own errors ("Unexpected end of multipart data", "Malformed part header")
  * carry no status and no system error code: they describe the request, so they become a 400.
  * File-system errors (ENOSPC, EACCES: they have a code) stay server errors.
  */
-function asUploadError(error: unknown): unknown {
+function asUploadError(error: unknown, what = 'the multipart form'): unknown {
   if (error instanceof AppError) return error;
   const { code, statusCode, message } = (error ?? {}) as { code?: unknown; statusCode?: unknown; message?: unknown };
+  if (typeof code === 'string' && INTERRUPTED_CODES.has(code)) {
+    return new AppError('BAD_REQUEST', { detail: 'the upload was interrupted before the whole file arrived.' });
+  }
   if (statusCode !== undefined || (typeof code === 'string' && code !== '')) return error;
   const detail = typeof message === 'string' ? message.slice(0, 200) : 'malformed form data';
-  return new AppError('BAD_REQUEST', { detail: `the multipart form could not be read (${detail}).` });
+  return new AppError('BAD_REQUEST', { detail: `${what} could not be read (${detail}).` });
 }
 
 async function readParts(request: FastifyRequest, limitBytes: number, tmpDir: string): Promise<UploadBody> {
@@ -158,7 +164,10 @@ export async function registerUploadParsers(app: FastifyInstance): Promise<void>
           done(null, body);
         }),
       )
-      .catch((error: unknown) => done(error instanceof Error ? error : new Error(String(error)), undefined));
+      .catch((error: unknown) => {
+        const failure = asUploadError(error, 'the request body');
+        done(failure instanceof Error ? failure : new Error(String(failure)), undefined);
+      });
   });
 }
 
