@@ -1,5 +1,5 @@
 export { buildFlags, type BuildFlagsOptions } from './build-flags.js';
 export { DEFAULT_THRESHOLDS, PanelThresholdsSchema, validateThresholds, type PanelThresholds, type ThresholdProblem } from './settings.js';
 export { evaluateRetraining, welchOneSided, type RetrainingEvaluation, type RetrainingComparison, type RetrainingIndex, type WelchTest } from './retraining.js';
-export { productEffectSeries, type ProductEffectSeries } from './product-flags.js';
+export { productEffectSeriesOf, type ProductEffectSeries } from './product-flags.js';
 export { evaluateChart, chartSizing, type ChartSizing, type ChartSignal } from './drift-flags.js';

@@ -14,9 +14,10 @@
  */
 import type { Flag, FlagSeverity } from '../../domain/flags.js';
 import type { SegmentOptions, SeriesPoint } from '../monitor/chart.js';
-import { controlBatchSessions, type SessionAttributeResult } from '../monitor/series.js';
+import { controlBatchSessions, type PanelHistory, type SessionAttributeResult } from '../monitor/series.js';
 import { cochranQ, productRankConcordance, sessionProductEffects, type SessionProductEffect } from '../monitor/stability.js';
-import { resultKey, type FlagContext } from './context.js';
+import { buildContext, resultKey, type FlagContext } from './context.js';
+import type { PanelThresholds } from './settings.js';
 import { chartSizing, currentSpread, evaluateChart, pooledSpread, thresholdText } from './drift-flags.js';
 import { points, pValueText } from './format.js';
 
@@ -153,4 +154,9 @@ function stepFlags(ctx: FlagContext): Flag[] {
     });
   }
   return out;
+}
+
+/** Session-wise product-effect series of a panel history (for the product-stability charts). */
+export function productEffectSeriesOf(history: PanelHistory, settings: PanelThresholds): ProductEffectSeries[] {
+  return productEffectSeries(buildContext(history, settings));
 }

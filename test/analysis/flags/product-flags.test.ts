@@ -1,6 +1,8 @@
 /** unstable-product: planted step and period LRT are flagged; stable products are not. */
 import { describe, expect, it } from 'vitest';
 import { buildFlags } from '../../../analysis/flags/build-flags.js';
+import { productEffectSeriesOf } from '../../../analysis/flags/product-flags.js';
+import { DEFAULT_THRESHOLDS } from '../../../analysis/flags/settings.js';
 import { syntheticHistory } from './helpers/synthetic-history.js';
 
 describe('unstable-product', () => {
@@ -41,5 +43,18 @@ describe('unstable-product', () => {
     expect(hits.map((f) => [f.attribute, f.severity, f.product])).toEqual([['attr1', 'act', null], ['attr2', 'watch', null]]);
     expect(hits[0].firstSession).toBe(sessions[0]);
     expect(typeof hits[0].evidence.kendallW).toBe('number');
+  });
+});
+
+describe('product-effect series', () => {
+  it('are differences from the reference product when it is served in every session', () => {
+    const history = syntheticHistory({ seed: 5, nSessions: 10, nAttributes: 2 });
+    const series = productEffectSeriesOf(history, DEFAULT_THRESHOLDS);
+    expect(series.map((s) => `${s.attribute}/${s.product}`)).toEqual(['attr1/T01', 'attr1/T02', 'attr1/T03', 'attr1/T04', 'attr2/T01', 'attr2/T02', 'attr2/T03', 'attr2/T04']);
+    const first = history.results[0].fit.productMeans;
+    const ref = first.find((m) => m.product === 'REF')!.mean;
+    expect(series[0].points[0].value).toBeCloseTo(first.find((m) => m.product === 'T01')!.mean - ref, 12);
+    expect(series[0].relativeTo).toBe('reference');
+    expect(series[0].effects).toHaveLength(10);
   });
 });
