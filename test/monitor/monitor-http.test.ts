@@ -12,7 +12,8 @@ import { findPanel } from '../../store/fits-sessions.js';
 import { loadPeriodFits, loadSessionFits, loadSessionIndices } from '../../store/fits-results.js';
 import { listFlags, replaceCurrentFlags, reviewFlag } from '../../store/monitor-flags.js';
 import { listRetraining } from '../../store/monitor-events.js';
-import { csrfFrom, makeTestApp, type TestApp } from '../http/http-helpers.js';
+import { csrfFrom, makeTestApp, postCsv, type TestApp } from '../http/http-helpers.js';
+import { toLongCsv } from '../../demo/generate-panel.js';
 import { importRatings, smallPanel } from './helpers.js';
 
 let t: TestApp;
@@ -257,4 +258,29 @@ describe('retraining and events forms', () => {
     expect(refit.job.reason).toBe('event recorded');
     await t.app.refitService.whenIdle();
   }, 60_000);
+});
+
+describe('import through the service', () => {
+  it('an import that changes sessions queues a refit; the fits are stored with the data versions', async () => {
+    const other = await makeTestApp();
+    try {
+      const small = smallPanel({ nWeeks: 4, seed: 21 });
+      const csv = toLongCsv(small);
+      const imported = await postCsv(other.app, 'imported', csv);
+      expect(imported.statusCode).toBeLessThan(300);
+      const job = (await other.app.inject({ url: '/api/panels/imported/refit' })).json().job;
+      expect(job.reason).toMatch(/^import/);
+      await other.app.refitService.whenIdle();
+      const panelId = findPanel(other.db, 'imported')!.id;
+      const fits = loadSessionFits(other.db, panelId);
+      expect(fits).toHaveLength(4 * small.attributes.length);
+      expect(new Set(fits.map((f) => f.dataVersion))).toEqual(new Set([1]));
+      expect((await other.app.inject({ url: '/api/panels/imported/refit' })).json().job.status).toBe('done');
+      // The same file again changes nothing and queues nothing new.
+      await postCsv(other.app, 'imported', csv);
+      expect((await other.app.inject({ url: '/api/panels/imported/refit' })).json().job.id).toBe(job.id);
+    } finally {
+      await other.close();
+    }
+  }, 120_000);
 });
