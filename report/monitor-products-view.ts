@@ -5,7 +5,8 @@
  * product ranks over the latest window. All numbers come in computed; this only arranges them.
  */
 import { buildControlChart, type ChartView } from './charts/control-chart.js';
-import { monitorCrumbs, monitorHref } from './monitor-common.js';
+import type { Flag } from '../domain/flags.js';
+import { evidenceItems, monitorCrumbs, monitorHref, type EvidenceItem } from './monitor-common.js';
 import type { PageViewBase } from './page-common.js';
 
 export interface PeriodWindowInput {
@@ -47,6 +48,8 @@ export interface ProductStabilityInput {
   minSessions: number;
   concordance: { W: number | null; chiSquare: number | null; df: number; pValue: number | null; products: string[]; sessions: string[] } | null;
   confLevel: number;
+  /** Current unstable-product flags of the attribute (step changes, period LRT). */
+  flags: Flag[];
 }
 
 export interface ProductStabilityView extends PageViewBase {
@@ -63,6 +66,7 @@ export interface ProductStabilityView extends PageViewBase {
   minSessions: number;
   concordance: ProductStabilityInput['concordance'];
   lrtNote: string;
+  flags: { severity: string; product: string | null; firstSession: string; message: string; evidence: EvidenceItem[] }[];
 }
 
 export function buildProductStabilityView(input: ProductStabilityInput): ProductStabilityView {
@@ -108,6 +112,7 @@ export function buildProductStabilityView(input: ProductStabilityInput): Product
     }),
     minSessions: input.minSessions,
     concordance: input.concordance,
+    flags: input.flags.map((f) => ({ severity: f.severity, product: f.product, firstSession: f.firstSession, message: f.message, evidence: evidenceItems(f.evidence) })),
     lrtNote:
       'The test of product:session is the boundary likelihood-ratio test of the period model (REML, with and without the term): p = ½·P(χ²₁ ≥ LR) (Self & Liang 1987). With few sessions it tends to be conservative.',
   };

@@ -17,7 +17,8 @@ import { buildProductStabilityView, type PeriodWindowInput, type RecurringProduc
 import { buildControlProductView } from '../../report/monitor-control-view.js';
 import { monitorSeries, type SeriesPoint } from '../../analysis/monitor/chart.js';
 import { buildReferenceSeries } from '../../analysis/monitor/series.js';
-import { cochranQ, productRankConcordance, sessionProductEffects } from '../../analysis/monitor/stability.js';
+import { cochranQ, productRankConcordance } from '../../analysis/monitor/stability.js';
+import { productEffectSeriesOf } from '../../analysis/flags/product-flags.js';
 import { loadPeriodFits } from '../../store/fits-results.js';
 import type { StoredPeriodResult } from '../refit.js';
 import { listSessionVersions } from '../../store/fits-sessions.js';
@@ -203,6 +204,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
   });
 
   // ---- product stability ----
+  /** sessionProductEffects' default confidence level (analysis/monitor/stability.ts). */
   const CONF_LEVEL = 0.95;
   registerFormPage('/panels/:panel/monitor/products', 'monitor-products', (request) => {
     const ctx = loadMonitorContext(db, (request.params as PanelParams).panel);
@@ -225,21 +227,18 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
         };
       });
     const results = ctx.history.results.filter((r) => r.attribute === attribute);
-    const referenceProduct = ctx.history.referenceProducts[0] ?? null;
-    const effects = results.flatMap((r) => sessionProductEffects(r, referenceProduct, CONF_LEVEL));
+    // The flag engine's own effect series (same reference-product choice as the step detector).
+    const effectSeries = productEffectSeriesOf(ctx.history, ctx.thresholds).filter((p) => p.attribute === attribute);
+    const referenceProduct = effectSeries[0]?.referenceProduct ?? null;
     const minSessions = ctx.thresholds.productStability.minSessions;
-    const recurring: RecurringProductInput[] = [...new Set(effects.map((e) => e.product))]
-      .sort()
-      .map((product) => {
-        const own = effects.filter((e) => e.product === product);
-        return {
-          product,
-          relativeTo: own[0].relativeTo,
-          effects: own.map((e) => ({ session: e.session, effect: e.effect, ciLow: e.ciLow, ciHigh: e.ciHigh, df: e.df })),
-          cochran: cochranQ(own),
-        };
-      })
-      .filter((p) => p.effects.length >= minSessions);
+    const recurring: RecurringProductInput[] = effectSeries
+      .filter((p) => p.effects.length >= minSessions)
+      .map((p) => ({
+        product: p.product,
+        relativeTo: p.relativeTo,
+        effects: p.effects.map((e) => ({ session: e.session, effect: e.effect, ciLow: e.ciLow, ciHigh: e.ciHigh, df: e.df })),
+        cochran: cochranQ(p.effects),
+      }));
     const latestWindow = windows.filter((w) => w.attribute === attribute).at(-1);
     const windowResults = latestWindow
       ? results.slice(results.findIndex((r) => r.session === latestWindow.firstSession), results.findIndex((r) => r.session === latestWindow.lastSession) + 1)
@@ -263,6 +262,9 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
         sessions: concordance.sessions,
       },
       confLevel: CONF_LEVEL,
+      flags: listFlags(db, ctx.panel.id, { kind: 'unstable-product' })
+        .filter((r) => r.flag.attribute === attribute || r.flag.attribute === null)
+        .map((r) => r.flag),
     });
   });
 

@@ -150,6 +150,20 @@ describe('monitor pages', () => {
     expect(bad.body).toContain('fdrLevel');
     const api = await t.app.inject({ url: `/api/panels/${enc}/thresholds` });
     expect(api.json().thresholds.fdrLevel).toBe(0.05);
+
+    // A valid change through the form field is saved (other fields keep their values) and rebuilds the flags.
+    const form = new URLSearchParams({ _csrf: token });
+    for (const f of fields as { path: string; value: number | boolean; kind: string }[]) {
+      if (f.kind === 'boolean') form.append(f.path, String(f.value));
+      else form.append(f.path, f.path === 'fdrLevel' ? '0.1' : String(f.value));
+    }
+    const saved = await t.app.inject({ method: 'POST', url: json.formAction, headers: { cookie, 'content-type': 'application/x-www-form-urlencoded' }, payload: form.toString() });
+    expect(saved.statusCode).toBe(303);
+    const after = (await t.app.inject({ url: `/api/panels/${enc}/thresholds` })).json().thresholds;
+    expect(after.fdrLevel).toBe(0.1);
+    expect(after.level).toEqual(api.json().thresholds.level);
+    expect((await t.app.inject({ url: `/api/panels/${enc}/refit` })).json().job.reason).toBe('thresholds changed');
+    await t.app.refitService.whenIdle();
   });
 });
 
