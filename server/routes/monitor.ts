@@ -118,9 +118,11 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
     onError: (error, job) => app.log.error({ err: error, jobId: job.id }, 'refit failed'),
   });
   app.decorate('refitService', service);
+  // Shutdown: stopping the pool rejects the fits still queued, so a long refit ends at once as
+  // "failed" (its earlier results stay; the next start refits what is stale); then the store may close.
   app.addHook('onClose', async () => {
-    await service.whenIdle();
     await runner.close();
+    await service.whenIdle();
   });
   app.navSections.push(
     { label: 'Monitor', scope: 'panel', href: (panel) => monitorHref(panel), order: 40 },

@@ -298,3 +298,21 @@ describe('import through the service', () => {
     }
   }, 120_000);
 });
+
+describe('shutdown', () => {
+  it('closing the service during a refit ends it as failed without waiting for every fit', async () => {
+    const other = await makeTestApp();
+    const big = smallPanel({ nWeeks: 12, seed: 33 });
+    await importRatings(other.db, big);
+    const job = other.app.refitService.schedule(big.panelName, 'test');
+    await new Promise((resolve) => setTimeout(resolve, 200));
+    const started = performance.now();
+    await other.app.close();
+    const closedMs = performance.now() - started;
+    const status = other.app.refitService.job(job.id)!.status;
+    other.db.close();
+    // The refit (36 session fits, then 3 period fits of 12 sessions at 1–3 s each) was cut short.
+    expect(status).toBe('failed');
+    expect(closedMs).toBeLessThan(5000);
+  }, 120_000);
+});
