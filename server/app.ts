@@ -23,6 +23,7 @@ import { importPageRoutes } from './routes/import-pages.js';
 import { loginRoutes } from './routes/login.js';
 import { monitorRoutes } from './routes/monitor.js';
 import { panelPageRoutes } from './routes/panel-pages.js';
+import { quarantineRoutes } from './routes/quarantine.js';
 import { serviceRoutes } from './routes/service.js';
 import { uploadPageRoutes } from './routes/upload-page.js';
 
@@ -114,6 +115,7 @@ export async function buildApp(options: { db: Database; config?: Partial<AppConf
   await app.register(importPageRoutes);
   await app.register(uploadPageRoutes);
   await app.register(apiRoutes);
+  await app.register(quarantineRoutes);
   await app.register(monitorRoutes);
   // ---- end of route modules ----
 

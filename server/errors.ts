@@ -26,6 +26,8 @@ export const ERROR_REGISTRY = {
     message: 'This content type is not accepted here. Send multipart/form-data with a "file" field, or a text/csv body.',
   },
   IMPORT_REJECTED: { status: 422, message: '{detail}' },
+  QUARANTINE_NOT_FOUND: { status: 404, message: 'There is no quarantined cell with number {cellId}.' },
+  QUARANTINE_REFUSED: { status: 409, message: '{detail}' },
   AUTH_REQUIRED: {
     status: 401,
     message: 'This service needs its access token. Send "Authorization: Bearer <token>", or sign in at /login.',

@@ -32,6 +32,8 @@ export interface PageOptions<View extends object> {
   build: (page: PageRequest) => View | Promise<View>;
   /** Optional CSV download of the same data. */
   csv?: (page: PageRequest) => CsvDownload | Promise<CsvDownload>;
+  /** Whether the HTML page holds forms (and so needs a CSRF token). */
+  hasForms?: (view: View) => boolean;
 }
 
 /** Sends an HTML page: the view plus navigation, JSON link and (for forms) a CSRF token. */
@@ -93,7 +95,12 @@ export function registerPage<View extends object>(app: FastifyInstance, options:
     if (format === 'json') return reply.type('application/json; charset=utf-8').send(jsonView(view));
     const path = request.url.split('?')[0];
     const jsonPath = path === '/' ? '/.json' : `${path}.json`;
-    return sendPage(app, request, reply, { template: options.template, view, jsonHref: withQuery(jsonPath, request) });
+    return sendPage(app, request, reply, {
+      template: options.template,
+      view,
+      jsonHref: withQuery(jsonPath, request),
+      withCsrf: options.hasForms?.(view) ?? false,
+    });
   };
 
   if (lastParam === null) {

@@ -1,6 +1,6 @@
 /** The imports list (optionally of one panel) and one import with findings, problems and quarantine. */
 import type { FastifyInstance } from 'fastify';
-import { buildImportsView, buildImportView } from '../../report/imports-view.js';
+import { buildImportsView, buildImportView, type ImportView } from '../../report/imports-view.js';
 import { countImports, readImportDetail, readImportQuarantine, readImportRows } from '../../store/read-imports.js';
 import { AppError } from '../errors.js';
 import { registerPage } from '../plugins/pages.js';
@@ -30,6 +30,8 @@ export async function importPageRoutes(app: FastifyInstance): Promise<void> {
   registerPage(app, {
     url: '/imports/:importId',
     template: 'import',
+    // held cells get a small release/discard form each
+    hasForms: (view: ImportView) => view.quarantine.some((cell) => cell.status === 'held'),
     build: ({ params }) => {
       const text = params.importId;
       const importId = /^\d{1,12}$/.test(text) ? Number(text) : NaN;
