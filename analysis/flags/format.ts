@@ -1,12 +1,7 @@
-/** Number formatting for flag messages: fixed decimals, a real minus sign avoided for screen readers. */
+/** Number formatting for flag messages: fixed decimals, never "-0.0". */
 export function points(value: number, decimals = 1): string {
   const rounded = Number(value.toFixed(decimals));
   return (Object.is(rounded, -0) ? 0 : rounded).toFixed(decimals);
-}
-
-export function signedPoints(value: number, decimals = 1): string {
-  const text = points(Math.abs(value), decimals);
-  return value >= 0 ? `+${text}` : `-${text}`;
 }
 
 export function pValueText(p: number): string {

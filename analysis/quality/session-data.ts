@@ -33,7 +33,7 @@ export function sessionData(session: string, ratings: readonly Rating[], attribu
   const assessors = new Set<string>();
   const products = new Set<string>();
   let nReplicates = 1;
-  // Plain get/set rather than getOrSet closures: this runs for every rating of every session.
+  // Plain get/set without helper closures: this runs for every rating of every session.
   for (const r of ratings) {
     if (r.session !== session) continue;
     own.push(r);
@@ -74,12 +74,6 @@ export function sessionData(session: string, ratings: readonly Rating[], attribu
     ratings: own,
     cellMeanCache: new Map(),
   };
-}
-
-export function getOrSet<K, V>(map: Map<K, V>, key: K, make: () => V): V {
-  let value = map.get(key);
-  if (value === undefined) map.set(key, (value = make()));
-  return value;
 }
 
 export function meanOf(values: readonly number[]): number {
