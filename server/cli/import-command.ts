@@ -69,6 +69,10 @@ export function openStoreForCli(dbOption: string | undefined): Database {
   try {
     return openStore(resolveDbPath(dbOption));
   } catch (error) {
+    // File-system errors name the path; say what to check instead.
+    if (error instanceof Error && 'code' in error && typeof error.code === 'string' && error.code.startsWith('E')) {
+      throw new CliError(`The store could not be opened (${error.code}): check that the folder of --db (or PANEL_STEWARD_DB) can be written.`);
+    }
     const detail = error instanceof Error ? error.message : String(error);
     throw new CliError(`The store could not be opened: ${detail}`);
   }

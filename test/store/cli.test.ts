@@ -63,6 +63,10 @@ describe('import command', () => {
     expect(() => parseScaleOption('10:0')).toThrow(CliError);
     expect(parseScaleOption('-5:5.5')).toEqual({ min: -5, max: 5.5 });
     await expect(runImportCommand(join(folder, 'none.csv'), { panel: 'p', db: join(folder, 's.db') }, output())).rejects.toThrow('none.csv: no such file.');
+    const blocker = write('not-a-folder', ['x']);
+    await expect(runImportCommand(write('b.csv', [HEADER]), { panel: 'p', db: join(blocker, 's.db') }, output())).rejects.toThrow(
+      /^The store could not be opened \(E[A-Z]+\): check that the folder of --db/,
+    );
     const settings = write('panel.json', ['{"scale": {"min": "0"}}']);
     await expect(runImportCommand(write('a.csv', [HEADER]), { panel: 'p', db: join(folder, 's.db'), settings }, output())).rejects.toThrow(/panel\.json: \/scale\/min: /);
   });
