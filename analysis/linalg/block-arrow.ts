@@ -67,17 +67,30 @@ export function factorBlockArrowInPlace(workspace: BlockArrowWorkspace): boolean
     if (!choleskyInPlace(block, nb)) return false;
     if (nB === 0) continue;
     const coupling = couplings[b];
-    for (let column = 0; column < nB; column++) forwardSolveInPlace(block, nb, coupling, column, nB);
+    // W_b = L_b⁻¹ C_b row by row: row_i = (C_i − Σ_{k<i} L_ik row_k) / L_ii (contiguous updates,
+    // zero multipliers skipped: the first, largest nested term has a diagonal block).
+    for (let i = 0; i < nb; i++) {
+      const rowI = i * nB;
+      for (let k = 0; k < i; k++) {
+        const lik = block[i * nb + k];
+        if (lik === 0) continue;
+        const rowK = k * nB;
+        for (let j = 0; j < nB; j++) coupling[rowI + j] -= lik * coupling[rowK + j];
+      }
+      const inverseDiagonal = 1 / block[i * nb + i];
+      for (let j = 0; j < nB; j++) coupling[rowI + j] *= inverseDiagonal;
+    }
     // Schur complement update of the lower triangle of the border: A_B -= W_bᵀ W_b, one rank-1
-    // update per row of W_b over its nonzeros only (rows of a nested term are mostly zero).
+    // update per row of W_b; mostly-zero rows (those of a nested term) over their nonzeros only.
     for (let k = 0; k < nb; k++) {
       const rowK = k * nB;
       let count = 0;
       for (let i = 0; i < nB; i++) if (coupling[rowK + i] !== 0) nonzero[count++] = i;
       if (count === 0) continue;
-      if (count === nB) {
+      if (2 * count > nB) {
         for (let i = 0; i < nB; i++) {
           const wki = coupling[rowK + i];
+          if (wki === 0) continue;
           const rowI = i * nB;
           for (let j = 0; j <= i; j++) border[rowI + j] -= wki * coupling[rowK + j];
         }
