@@ -69,6 +69,8 @@ export interface QuarantineInput {
 }
 
 export interface ImportView extends PageViewBase {
+  /** The panel imported into (also gives the page its panel navigation). */
+  panel: string;
   import: ImportListItem;
   /** The answer given when the import ran; null if the stored copy cannot be read. */
   result: ImportResultView | null;
@@ -116,6 +118,7 @@ export function buildImportView(input: {
       { label: 'Imports', href: `/imports?panel=${encodeURIComponent(row.panel)}` },
       { label: `Import ${row.importId}`, href: null },
     ],
+    panel: row.panel,
     import: listItem(row),
     result: parseStoredAnswer(row, input.reportJson),
     quarantine: input.quarantine.map((cell) => ({ ...cell })),

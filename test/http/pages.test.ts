@@ -192,6 +192,7 @@ describe('imports pages', () => {
     const page = (await t.app.inject({ url: `/imports/${report.importId}.json` })).json();
     expect(page.import).toMatchObject({ importId: report.importId, panel: 'oat', fileName: 'test.csv', source: 'http', outcome: 'quarantined' });
     expect(page.import).not.toHaveProperty('reportJson');
+    expect(page.panel).toBe('oat');
     expect(page.result.counts.find((c: { key: string }) => c.key === 'quarantined').value).toBe(report.counts.quarantined);
     expect(page.quarantine.length).toBe(report.counts.quarantined);
     expect(page.quarantine[0]).toMatchObject({ rowNumber: 3, column: 'value', assessor: 'A01', product: 'P1', attribute: 'sweetness', rawValue: '12', status: 'held' });
