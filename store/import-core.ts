@@ -508,7 +508,8 @@ export async function importRatingEvents(
       throw error;
     }
   } finally {
-    db.exec(`DROP TABLE IF EXISTS ${stage}; DROP TABLE IF EXISTS ${held};`);
+    // The connection may have been closed meanwhile (shutdown); its temp tables went with it.
+    if (db.open) db.exec(`DROP TABLE IF EXISTS ${stage}; DROP TABLE IF EXISTS ${held};`);
   }
 }
 
