@@ -66,6 +66,8 @@ export interface RemlObjective {
   valueAndGradient(theta: ArrayLike<number>): { value: number; gradient: Float64Array };
   /** (R_Xᵀ R_X)⁻¹ at θ: cov(β̂) = σ² × this. */
   unscaledCovBeta(theta: ArrayLike<number>): Float64Array;
+  /** parts(θ) and unscaledCovBeta(θ) from one factorisation. */
+  partsAndCovBeta(theta: ArrayLike<number>): { parts: CriterionParts; unscaledCovBeta: Float64Array };
 }
 
 export function makeRemlObjective(frame: ModelFrame, options: { reml?: boolean } = {}): RemlObjective {
@@ -257,6 +259,11 @@ export function makeRemlObjective(frame: ModelFrame, options: { reml?: boolean }
     unscaledCovBeta(theta: ArrayLike<number>): Float64Array {
       if (!factor(theta)) throw new Error('the mixed-model equations are singular at these parameters');
       return inverseFromCholesky(rx, p);
+    },
+    partsAndCovBeta(theta: ArrayLike<number>): { parts: CriterionParts; unscaledCovBeta: Float64Array } {
+      const criterion = parts(theta);
+      if (!Number.isFinite(criterion.deviance)) throw new Error('the mixed-model equations are singular at these parameters');
+      return { parts: criterion, unscaledCovBeta: inverseFromCholesky(rx, p) };
     },
   };
 }

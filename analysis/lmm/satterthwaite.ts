@@ -59,9 +59,15 @@ export function varparCovariance(objective: RemlObjective, theta: Float64Array, 
     return point;
   };
   // h(θ) = log|L|² (+ log|R_X|²) + pwrss/σ̂²: the θ-dependent part of the deviance at fixed σ̂.
-  const h = (point: Float64Array): { value: number; pwrss: number } => {
-    const parts = objective.parts(point);
-    return { value: parts.logDetL + (objective.reml ? parts.logDetRX : 0) + parts.pwrss / sigma2, pwrss: parts.pwrss };
+  const fromParts = (parts: { logDetL: number; logDetRX: number; pwrss: number }): { value: number; pwrss: number } => ({
+    value: parts.logDetL + (objective.reml ? parts.logDetRX : 0) + parts.pwrss / sigma2,
+    pwrss: parts.pwrss,
+  });
+  const h = (point: Float64Array): { value: number; pwrss: number } => fromParts(objective.parts(point));
+  // The one-coordinate points serve both the Hessian and the Jacobian of cov(β̂).
+  const withCov = (point: Float64Array): { value: number; pwrss: number; cov: Float64Array } => {
+    const both = objective.partsAndCovBeta(point);
+    return { ...fromParts(both.parts), cov: both.unscaledCovBeta };
   };
   const steps = freeComponents.map((k) => Math.max(1e-3 * theta[k], 1e-5));
   const centre = h(theta);
@@ -71,11 +77,11 @@ export function varparCovariance(objective: RemlObjective, theta: Float64Array, 
   // Central differences; the θ-dependent part is smooth and cheap to evaluate accurately, so a
   // step of 1e-4 relative leaves truncation (~1e-8) and rounding (~1e-7 relative) errors far below
   // the 1e-3 tolerance on the df.
-  const plus: Array<{ value: number; pwrss: number }> = [];
-  const minus: Array<{ value: number; pwrss: number }> = [];
+  const plus: Array<{ value: number; pwrss: number; cov: Float64Array }> = [];
+  const minus: Array<{ value: number; pwrss: number; cov: Float64Array }> = [];
   for (let i = 0; i < m; i++) {
-    plus.push(h(at([[i, steps[i]]])));
-    minus.push(h(at([[i, -steps[i]]])));
+    plus.push(withCov(at([[i, steps[i]]])));
+    minus.push(withCov(at([[i, -steps[i]]])));
     hessian[i * dimension + i] = (plus[i].value - 2 * centre.value + minus[i].value) / (steps[i] * steps[i]);
     pwrssGradient[i] = (plus[i].pwrss - minus[i].pwrss) / (2 * steps[i]);
     for (let j = 0; j < i; j++) {
@@ -106,14 +112,13 @@ export function varparCovariance(objective: RemlObjective, theta: Float64Array, 
     }
   });
 
-  const unscaled = (point: Float64Array): Float64Array => objective.unscaledCovBeta(point);
   const jacobians: Float64Array[] = [];
   for (let i = 0; i < m; i++) {
-    const up = unscaled(at([[i, steps[i]]]));
-    const down = unscaled(at([[i, -steps[i]]]));
+    const up = plus[i].cov;
+    const down = minus[i].cov;
     jacobians.push(Float64Array.from(up, (value, index) => (sigma2 * (value - down[index])) / (2 * steps[i])));
   }
-  const atOptimum = unscaled(theta);
+  const atOptimum = objective.unscaledCovBeta(theta);
   jacobians.push(Float64Array.from(atOptimum, (value) => 2 * sigma * value));
   return { freeComponents, covariance, jacobians, hessianEigenvalues: eigen.values };
 }
