@@ -7,7 +7,8 @@
  * Writes bench/out/fit-bench-year.csv once (seeded: 52 sessions × 10 attributes × 12 assessors ×
  * 6 products × 2 replicates), then for each task starts fresh processes — this script in worker
  * mode (`--task T --csv F`) and `Rscript bench/fit-bench.R T F` — and reports the median wall
- * time of the whole process and the median in-process fitting time each reports.
+ * time of the whole process and the median in-process fitting time (wall and CPU) each reports;
+ * CPU time is the steadier figure on a shared machine.
  * Tasks: one per-session fit (S01, attr01); all 520 per-session fits (REML + Satterthwaite
  * product test); one period fit over 12 sessions and over 52 (attr02).
  */
@@ -94,6 +95,7 @@ function readCsv(path: string): Observation[] {
 /** Worker mode: read the CSV, run one task, print {task, fits, fitMs}. */
 function runTask(task: Task, csvPath: string): void {
   const rows = readCsv(csvPath);
+  const cpuStart = process.cpuUsage();
   const start = performance.now();
   let fits = 0;
   if (task === 'session') {
@@ -115,12 +117,15 @@ function runTask(task: Task, csvPath: string): void {
     fits = 1;
   }
   const fitMs = performance.now() - start;
-  process.stdout.write(`${JSON.stringify({ task, fits, fitMs })}\n`);
+  const cpu = process.cpuUsage(cpuStart);
+  const fitCpuMs = (cpu.user + cpu.system) / 1000;
+  process.stdout.write(`${JSON.stringify({ task, fits, fitMs, fitCpuMs })}\n`);
 }
 
 interface Measurement {
   wallMs: number;
   fitMs: number;
+  fitCpuMs: number;
 }
 
 function measure(command: string, args: string[]): Measurement {
@@ -128,8 +133,8 @@ function measure(command: string, args: string[]): Measurement {
   const child = spawnSync(command, args, { encoding: 'utf8', maxBuffer: 1 << 24 });
   const wallMs = performance.now() - start;
   if (child.status !== 0) throw new Error(`${command} failed: ${child.stderr.slice(0, 2000)}`);
-  const report = JSON.parse(child.stdout.trim().split('\n').pop()!) as { fitMs: number };
-  return { wallMs, fitMs: report.fitMs };
+  const report = JSON.parse(child.stdout.trim().split('\n').pop()!) as { fitMs: number; fitCpuMs: number };
+  return { wallMs, fitMs: report.fitMs, fitCpuMs: report.fitCpuMs };
 }
 
 function median(values: number[]): number {
@@ -158,8 +163,10 @@ function main(): void {
   writeCsv(simulatePanel(YEAR_DESIGN), csvPath);
   const self = fileURLToPath(import.meta.url);
   const rows: string[] = [];
-  rows.push('| task | panel-steward process (ms) | panel-steward fitting (ms) | lme4+lmerTest process (ms) | lme4+lmerTest fitting (ms) | ratio, process | ratio, fitting |');
-  rows.push('| --- | ---: | ---: | ---: | ---: | ---: | ---: |');
+  rows.push(
+    '| task | panel-steward process (ms) | panel-steward fitting (ms) | panel-steward fitting CPU (ms) | lme4+lmerTest process (ms) | lme4+lmerTest fitting (ms) | lme4+lmerTest fitting CPU (ms) | ratio, process | ratio, fitting CPU |',
+  );
+  rows.push('| --- | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: |');
   for (const name of TASKS) {
     const ours = Array.from({ length: reps }, () => measure(process.execPath, ['--import', 'tsx', self, '--task', name, '--csv', csvPath]));
     const rReps = name === 'year' ? rYearReps : reps;
@@ -168,9 +175,13 @@ function main(): void {
     const ourFit = median(ours.map((m) => m.fitMs));
     const refWall = reference.length ? median(reference.map((m) => m.wallMs)) : Number.NaN;
     const refFit = reference.length ? median(reference.map((m) => m.fitMs)) : Number.NaN;
+    const ourCpu = median(ours.map((m) => m.fitCpuMs));
+    const refCpu = reference.length ? median(reference.map((m) => m.fitCpuMs)) : Number.NaN;
     const format = (value: number): string => (Number.isNaN(value) ? '—' : value.toFixed(value < 10 ? 1 : 0));
     const ratio = (a: number, b: number): string => (Number.isNaN(b) ? '—' : `${(b / a).toFixed(1)}×`);
-    rows.push(`| ${name} | ${format(ourWall)} | ${format(ourFit)} | ${format(refWall)} | ${format(refFit)} | ${ratio(ourWall, refWall)} | ${ratio(ourFit, refFit)} |`);
+    rows.push(
+      `| ${name} | ${format(ourWall)} | ${format(ourFit)} | ${format(ourCpu)} | ${format(refWall)} | ${format(refFit)} | ${format(refCpu)} | ${ratio(ourWall, refWall)} | ${ratio(ourCpu, refCpu)} |`,
+    );
     process.stderr.write(`${rows[rows.length - 1]}\n`);
   }
   const table = rows.join('\n');
