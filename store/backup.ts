@@ -50,16 +50,27 @@ function describeCopy(path: string): { nPanels: number; nRatings: number; proble
  * with `integrity_check`. Writes to a temporary name first so a failed backup never leaves a
  * half-written file under the requested name. Refuses to overwrite an existing file.
  */
-export async function backupStore(db: Database, outPath: string, options: { pagesPerStep?: number } = {}): Promise<BackupResult> {
+export interface BackupOptions {
+  /** Pages copied per step; between steps the event loop (and other connections) run. */
+  pagesPerStep?: number;
+  /** Called after every step (tests use it to write from another connection mid-copy). */
+  onStep?: (progress: { totalPages: number; remainingPages: number }) => void;
+}
+
+export async function backupStore(db: Database, outPath: string, options: BackupOptions = {}): Promise<BackupResult> {
   if (existsSync(outPath)) throw new BackupError(`The backup file ${basename(outPath)} already exists; choose another name.`);
   mkdirSync(dirname(outPath), { recursive: true });
   const partial = join(dirname(outPath), `.${basename(outPath)}.partial`);
   rmSync(partial, { force: true });
   let totalPages: number;
   try {
-    // Pages copied per step; between steps the event loop (and other connections) run.
     const pagesPerStep = options.pagesPerStep ?? 100;
-    ({ totalPages } = await db.backup(partial, { progress: () => pagesPerStep }));
+    ({ totalPages } = await db.backup(partial, {
+      progress: (progress) => {
+        options.onStep?.(progress);
+        return pagesPerStep;
+      },
+    }));
   } catch (error) {
     rmSync(partial, { force: true });
     throw new BackupError(`The backup could not be written: ${error instanceof Error ? error.message : String(error)}.`);

@@ -24,32 +24,38 @@ afterEach(() => {
 });
 
 describe('online backup', () => {
-  it('gives a consistent copy while another connection keeps committing imports', async () => {
+  it('gives a consistent copy while another connection commits multi-row transactions', async () => {
     const writer = openStore(join(folder, 'live.db'));
     const perSession = (conn: Database) =>
       conn.prepare('SELECT s.label, count(r.id) AS n FROM session s LEFT JOIN rating r ON r.session_id = s.id GROUP BY s.id ORDER BY s.label').all() as { label: string; n: number }[];
-    // Small steps so the copy takes many event-loop turns; the writer commits between them.
+    // One import-like transaction from the other connection: an import row, a session, 72 ratings.
+    const commitSession = writer.transaction((i: number) => {
+      const panelId = (writer.prepare("SELECT id FROM panel WHERE name = 'crisps'").get() as { id: number }).id;
+      const importId = Number(
+        writer
+          .prepare("INSERT INTO import (panel_id, file_name, content_sha256, source, started_at, outcome) VALUES (?, ?, ?, 'cli', ?, 'imported')")
+          .run(panelId, `extra-${i}.csv`, `hash-${i}`, new Date().toISOString()).lastInsertRowid,
+      );
+      const sessionId = Number(writer.prepare("INSERT INTO session (panel_id, label, session_date, import_id) VALUES (?, ?, '2027-01-04', ?)").run(panelId, `X${i}`, importId).lastInsertRowid);
+      writer
+        .prepare(
+          `INSERT INTO rating (session_id, assessor_id, product_id, attribute_id, replicate, value, import_id)
+           SELECT ?, a.id, p.id, t.id, 1, 5, ? FROM assessor a, product p, attribute t WHERE t.name = 'crunchiness'`,
+        )
+        .run(sessionId, importId);
+    });
+    // Small steps so the copy takes many steps; the other connection commits during the first
+    // ones (each commit makes SQLite restart the copy, which then finishes on a quiet store).
     let commits = 0;
-    let writing = true;
-    const writeLoop = (async () => {
-      for (let i = 0; i < 15 && writing; i++) {
-        const lines = ['session,date,assessor,product,replicate,attribute,value'];
-        for (let a = 1; a <= 12; a++) for (let p = 1; p <= 6; p++) lines.push(`X${String(i).padStart(2, '0')},2027-01-${String(i + 1).padStart(2, '0')},A${a},P${p},1,crunchiness,${(a + p) % 10}`);
-        const path = join(folder, `extra-${i}.csv`);
-        writeFileSync(path, lines.join('\n'));
-        const report = await importRatings(writer, { panel: 'crisps', fileName: `extra-${i}.csv`, source: 'cli', input: fileInput(path), scale: { min: 0, max: 10 }, quarantine: false });
-        expect(report.outcome).toBe('imported');
-        commits += 1;
-        await new Promise((resolve) => setImmediate(resolve));
-      }
-    })();
     const out = join(folder, 'copy.db');
-    const result = await backupStore(db, out, { pagesPerStep: 2 });
-    const commitsDuringBackup = commits;
-    writing = false;
-    await writeLoop;
+    const result = await backupStore(db, out, {
+      pagesPerStep: 2,
+      onStep: () => {
+        if (commits < 5) commitSession(commits++);
+      },
+    });
     writer.close();
-    expect(commitsDuringBackup).toBeGreaterThan(0);
+    expect(commits).toBe(5);
     const copy = new BetterSqlite3(out, { readonly: true });
     try {
       expect(integrityCheck(copy)).toEqual(['ok']);
@@ -57,6 +63,7 @@ describe('online backup', () => {
       // A committed state: every session whole (1440 base, 72 extra), imports and sessions agree.
       const sessions = perSession(copy);
       for (const s of sessions) expect(s.n).toBe(s.label.startsWith('X') ? 72 : 1440);
+      expect(sessions.filter((s) => s.label.startsWith('X'))).toHaveLength(5);
       const nImports = (copy.prepare("SELECT count(*) AS n FROM import WHERE outcome = 'imported'").get() as { n: number }).n;
       expect(nImports).toBe(1 + sessions.filter((s) => s.label.startsWith('X')).length);
       expect(result.nRatings).toBe(sessions.reduce((sum, s) => sum + s.n, 0));
