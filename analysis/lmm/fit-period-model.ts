@@ -8,13 +8,14 @@
  */
 import type { FitJson } from '../../domain/analysis.js';
 import type { Observation } from '../../domain/ratings.js';
+import { fUpperTail } from '../distributions/index.js';
 import { boundaryLikelihoodRatioTest } from './boundary-lrt.js';
 import { makeRemlObjective } from './criterion.js';
 import { LmmFitError } from './errors.js';
-import { fitFromObjective, type LmmDiagnostics, type LmmFit } from './fit.js';
+import { confirmClosedForm, fitFromObjective, type LmmDiagnostics, type LmmFit } from './fit.js';
 import { checkOneGroup, checkResponse } from './fit-session-model.js';
 import { buildModelFrame } from './model-frame.js';
-import { periodMomentStart } from './period-start.js';
+import { balancedPeriodSolution, periodMomentStart } from './period-start.js';
 
 export interface PeriodModelFit {
   json: FitJson;
@@ -65,7 +66,15 @@ export function fitPeriodModel(observations: Observation[], options: PeriodModel
     nSessions,
   };
   const momentStart = oneProduct ? null : periodMomentStart(cells, withProductSession);
-  const fit = fitFromObjective(objective, { startTheta: momentStart ?? randomTerms.map(() => 0.5), randomEffectTerms: ['assessor'] });
+  // Balanced with all components positive: closed form (confirmed by the optimiser); else REML.
+  const closedForm = oneProduct ? null : balancedPeriodSolution(cells, withProductSession);
+  let fit: LmmFit | null = null;
+  if (closedForm) {
+    const productTest = { F: closedForm.F, numDf: closedForm.numDf, denDf: closedForm.denDf, pValue: fUpperTail(closedForm.F, closedForm.numDf, closedForm.denDf), nuPerContrast: [closedForm.denDf], messages: [] };
+    const confirmed = confirmClosedForm(objective, closedForm.theta, productTest, ['assessor']);
+    fit = confirmed.fit;
+  }
+  fit ??= fitFromObjective(objective, { startTheta: momentStart ?? randomTerms.map(() => 0.5), randomEffectTerms: ['assessor'] });
   if (nAssessors < 3) fit.diagnostics.messages.push(`too few assessors (${nAssessors}): the assessor variance is poorly determined`);
 
   let productSessionLrt: PeriodModelFit['productSessionLrt'] = null;

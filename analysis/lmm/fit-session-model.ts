@@ -9,11 +9,10 @@ import type { FitJson } from '../../domain/analysis.js';
 import type { Observation } from '../../domain/ratings.js';
 import { fUpperTail } from '../distributions/index.js';
 import { balancedAnova, type BalancedAnova } from './balanced-anova.js';
-import { makeRemlObjective, type RemlObjective } from './criterion.js';
+import { makeRemlObjective } from './criterion.js';
 import { LmmFitError } from './errors.js';
-import { assembleFit, fitFromObjective, OPTIMIZER_NAME, type LmmDiagnostics, type LmmFit } from './fit.js';
+import { confirmClosedForm, fitFromObjective, type LmmDiagnostics, type LmmFit } from './fit.js';
 import { buildModelFrame } from './model-frame.js';
-import { minimizeBounded } from './optimise.js';
 import type { ProductTest } from './satterthwaite.js';
 
 export interface SessionModelDiagnostics extends LmmDiagnostics {
@@ -59,7 +58,7 @@ export function fitSessionModel(observations: Observation[]): SessionModelFit {
   let fit: LmmFit;
   let fastPath = false;
   if (anova && closedForm) {
-    const confirmed = confirmClosedForm(objective, closedForm, closedFormProductTest(anova, closedForm));
+    const confirmed = confirmClosedForm(objective, closedForm.theta, closedFormProductTest(anova, closedForm), [ASSESSOR]);
     fit = confirmed.fit;
     fastPath = confirmed.confirmed;
   } else {
@@ -154,30 +153,6 @@ function closedFormProductTest(anova: BalancedAnova, closedForm: ClosedForm): Pr
   const F = anova.msProduct / closedForm.denominatorMeanSquare;
   const denDf = closedForm.denominatorDf;
   return { F, numDf: anova.dfProduct, denDf, pValue: fUpperTail(F, anova.dfProduct, denDf), nuPerContrast: [denDf], messages: [] };
-}
-
-/**
- * Confirms the closed-form solution is a constrained minimum (one quasi-Newton check of the
- * projected gradient). If the optimiser moves away from it, the general inference is used.
- */
-function confirmClosedForm(objective: RemlObjective, closedForm: ClosedForm, productTest: ProductTest): { fit: LmmFit; confirmed: boolean } {
-  const optimum = minimizeBounded(objective.evaluate, closedForm.theta, { maxComponentsForFaceSearch: 0 }, objective.valueAndGradient);
-  const confirmed = optimum.converged && optimum.theta.every((value, k) => Math.abs(value - closedForm.theta[k]) <= 1e-6 * Math.max(1, closedForm.theta[k]));
-  const gradientMaxAbs = Math.max(0, ...[...optimum.projectedGradient].map(Math.abs));
-  const fit = assembleFit(
-    objective,
-    {
-      theta: confirmed ? closedForm.theta : optimum.theta,
-      iterations: optimum.iterations,
-      evaluations: optimum.evaluations,
-      converged: optimum.converged,
-      gradientMaxAbs,
-      optimizer: confirmed ? `balanced-anova+${OPTIMIZER_NAME}` : OPTIMIZER_NAME,
-      messages: optimum.messages,
-    },
-    { productTest: confirmed ? productTest : undefined, randomEffectTerms: [ASSESSOR] },
-  );
-  return { fit, confirmed };
 }
 
 /** ANOVA-type start values, kept away from the boundary so every direction is explored. */

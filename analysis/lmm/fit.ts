@@ -176,3 +176,33 @@ export function fitVarianceComponents(input: ModelFrameInput, options: FitOption
   const objective = makeRemlObjective(frame, { reml: options.reml ?? true });
   return fitFromObjective(objective, options);
 }
+
+/**
+ * Confirms a closed-form solution (balanced ANOVA) is a constrained minimum with one quasi-Newton
+ * check of the projected gradient, and assembles it with the closed-form product test. If the
+ * optimiser moves away from it, the optimiser's answer and the general inference are used.
+ */
+export function confirmClosedForm(
+  objective: RemlObjective,
+  theta: ArrayLike<number>,
+  productTest: ProductTest,
+  randomEffectTerms?: string[],
+): { fit: LmmFit; confirmed: boolean } {
+  const start = Float64Array.from(theta);
+  const optimum = minimizeBounded(objective.evaluate, start, { maxComponentsForFaceSearch: 0 }, objective.valueAndGradient);
+  const confirmed = optimum.converged && optimum.theta.every((value, k) => Math.abs(value - start[k]) <= 1e-6 * Math.max(1, start[k]));
+  const fit = assembleFit(
+    objective,
+    {
+      theta: confirmed ? start : optimum.theta,
+      iterations: optimum.iterations,
+      evaluations: optimum.evaluations,
+      converged: optimum.converged,
+      gradientMaxAbs: Math.max(0, ...[...optimum.projectedGradient].map(Math.abs)),
+      optimizer: confirmed ? `balanced-anova+${OPTIMIZER_NAME}` : OPTIMIZER_NAME,
+      messages: optimum.messages,
+    },
+    { productTest: confirmed ? productTest : undefined, randomEffectTerms },
+  );
+  return { fit, confirmed };
+}

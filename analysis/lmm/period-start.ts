@@ -19,7 +19,16 @@ export interface PeriodCells {
   nSessions: number;
 }
 
-export function periodMomentStart(cells: PeriodCells, withProductSession: boolean): number[] | null {
+interface PeriodAnova {
+  balanced: boolean;
+  ms: { P: number; AP: number; PS: number };
+  df: { P: number; AP: number; PS: number; residual: number };
+  /** assessor, session, assessor:product, assessor:session[, product:session] */
+  variances: number[];
+  residual: number;
+}
+
+function periodAnova(cells: PeriodCells, withProductSession: boolean): PeriodAnova | null {
   const { nAssessors: A, nProducts: P, nSessions: S } = cells;
   const total = A * P * S;
   const counts = new Int32Array(total);
@@ -35,6 +44,7 @@ export function periodMomentStart(cells: PeriodCells, withProductSession: boolea
   let present = 0;
   for (const count of counts) if (count > 0) present++;
   if (present === 0) return null;
+  const balanced = present === total && counts.every((count) => count === counts[0]);
   const replicates = n / present;
   const cellMean = Float64Array.from(sums, (sum, cell) => (counts[cell] > 0 ? sum / counts[cell] : Number.NaN));
   const mA = new Float64Array(A);
@@ -109,8 +119,51 @@ export function periodMomentStart(cells: PeriodCells, withProductSession: boolea
   const vPS = withProductSession ? (msPS - residual) / (r * A) : 0;
   const vA = (ssA / dfA - residual - r * S * vAP - r * P * vAS) / (r * P * S);
   const vS = (ssS / dfS - residual - r * P * vAS - r * A * vPS) / (r * A * P);
-  const theta = (variance: number): number => Math.sqrt(Math.max(variance / residual, 1e-4));
-  const start = [theta(vA), theta(vS), theta(vAP), theta(vAS)];
-  if (withProductSession) start.push(theta(vPS));
-  return start;
+  const variances = [vA, vS, vAP, vAS];
+  if (withProductSession) variances.push(vPS);
+  return {
+    balanced,
+    ms: { P: ssP / (P - 1), AP: msAP, PS: msPS },
+    df: { P: P - 1, AP: dfAP, PS: dfPS, residual: dfResidual },
+    variances,
+    residual,
+  };
 }
+
+export function periodMomentStart(cells: PeriodCells, withProductSession: boolean): number[] | null {
+  const anova = periodAnova(cells, withProductSession);
+  if (!anova) return null;
+  return anova.variances.map((variance) => Math.sqrt(Math.max(variance / anova.residual, 1e-4)));
+}
+
+
+
+export interface BalancedPeriodSolution {
+  /** The exact ANOVA θ (all components positive). */
+  theta: number[];
+  F: number;
+  numDf: number;
+  denDf: number;
+}
+
+/**
+ * Balanced period design (every assessor × product × session cell with the same count) with all
+ * ANOVA estimates positive: the REML solution and the product test in closed form. The product
+ * contrasts have variance ∝ E[MS_PS] + E[MS_AP] − E[MS_res] (∝ E[MS_AP] without product:session),
+ * so F = MS_P / (MS_PS + MS_AP − MS_res) with Satterthwaite's (1946) df
+ * (MS_PS + MS_AP − MS_res)² / (MS_PS²/df_PS + MS_AP²/df_AP + MS_res²/df_res) (methods notes §1.6);
+ * without product:session, F = MS_P / MS_AP on df_AP. Null otherwise.
+ */
+export function balancedPeriodSolution(cells: PeriodCells, withProductSession: boolean): BalancedPeriodSolution | null {
+  const anova = periodAnova(cells, withProductSession);
+  if (!anova || !anova.balanced) return null;
+  const { ms, df, variances, residual } = anova;
+  if (!variances.every((variance) => variance > 0)) return null;
+  const theta = variances.map((variance) => Math.sqrt(variance / residual));
+  if (!withProductSession) return { theta, F: ms.P / ms.AP, numDf: df.P, denDf: df.AP };
+  const denominator = ms.PS + ms.AP - residual;
+  if (!(denominator > 0)) return null;
+  const denDf = denominator ** 2 / (ms.PS ** 2 / df.PS + ms.AP ** 2 / df.AP + residual ** 2 / df.residual);
+  return { theta, F: ms.P / denominator, numDf: df.P, denDf };
+}
+

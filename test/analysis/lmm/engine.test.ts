@@ -119,6 +119,34 @@ describe('balanced fast path', () => {
   });
 });
 
+describe('balanced period fast path', () => {
+  it('equals the general optimiser and its numerical Satterthwaite test', () => {
+    const normal = normalGenerator(99);
+    const rows: Observation[] = [];
+    const assessorShift = Array.from({ length: 6 }, () => normal(0.6));
+    const interaction = Array.from({ length: 24 }, () => normal(0.4));
+    for (let s = 0; s < 5; s++) {
+      const sessionShift = normal(0.5);
+      const productSession = Array.from({ length: 4 }, () => normal(0.4));
+      const assessorSession = Array.from({ length: 6 }, () => normal(0.4));
+      for (let a = 0; a < 6; a++) {
+        for (let p = 0; p < 4; p++) {
+          for (let r = 0; r < 2; r++) {
+            const value = 5 + 0.5 * p + assessorShift[a] + interaction[a * 4 + p] + sessionShift + productSession[p] + assessorSession[a] + normal(0.7);
+            rows.push({ session: `S${s}`, attribute: 'sweet', assessor: `A${a}`, product: `P${p}`, replicate: r + 1, value });
+          }
+        }
+      }
+    }
+    const fast = fitPeriodModel(rows);
+    expect(fast.diagnostics.optimizer).toMatch(/^balanced-anova/);
+    const general = fitFromObjective(makeRemlObjective(fast.fit.frame), { randomEffectTerms: ['assessor'] });
+    expect(Math.abs(general.criterion - fast.json.remlCriterion)).toBeLessThan(1e-7);
+    expect(fast.json.productTest.F! / general.productTest.F!).toBeCloseTo(1, 5);
+    expect(fast.json.productTest.denDf! / general.productTest.denDf!).toBeCloseTo(1, 4);
+  });
+});
+
 describe("lmerTest's combination of per-contrast df (get_Fstat_ddf, lmerTest 3.1-3 source)", () => {
   it('one contrast: its df; equal df: their mean; any df ≤ 2: 2; otherwise 2E/(E − q)', () => {
     expect(combineSatterthwaiteDf([12.5])).toBe(12.5);
