@@ -110,15 +110,27 @@ export function buildModelFrame(input: ModelFrameInput): ModelFrame {
   const terms: RandomTerm[] = input.randomTerms.map((factors) => {
     const parts = factors.map(codeFactor);
     const combined = new Float64Array(n);
+    let keySpace = 1;
+    for (const part of parts) keySpace *= part.levels.length;
     for (let i = 0; i < n; i++) {
       let key = 0;
       for (const part of parts) key = key * part.levels.length + part.codes[i];
       combined[i] = key;
     }
-    const distinct = [...new Set(combined)].sort((a, b) => a - b);
-    const levelOfKey = new Map(distinct.map((key, level) => [key, level]));
     const index = new Int32Array(n);
-    for (let i = 0; i < n; i++) index[i] = levelOfKey.get(combined[i])!;
+    let distinct: number[];
+    if (keySpace <= Math.max(1 << 16, 8 * n)) {
+      // Small key space (the usual case): a lookup table instead of a hash map.
+      const levelOfKey = new Int32Array(keySpace).fill(-1);
+      for (let i = 0; i < n; i++) levelOfKey[combined[i]] = 0;
+      distinct = [];
+      for (let key = 0; key < keySpace; key++) if (levelOfKey[key] === 0) levelOfKey[key] = distinct.push(key) - 1;
+      for (let i = 0; i < n; i++) index[i] = levelOfKey[combined[i]];
+    } else {
+      distinct = [...new Set(combined)].sort((a, b) => a - b);
+      const levelOfKey = new Map(distinct.map((key, level) => [key, level]));
+      for (let i = 0; i < n; i++) index[i] = levelOfKey.get(combined[i])!;
+    }
     const byFactor: Record<string, string[]> = {};
     factors.forEach((factor) => (byFactor[factor] = new Array<string>(distinct.length)));
     const labels = distinct.map((key) => {
