@@ -70,7 +70,17 @@ function periodFlags(ctx: FlagContext): Flag[] {
   for (const period of ctx.history.periodFits ?? []) {
     if (!period.lrt || period.sessions.length === 0) continue;
     const p = period.lrt.pValue;
-    const severity: FlagSeverity | null = p < s.lrtActPValue ? 'act' : p < s.lrtWatchPValue ? 'watch' : null;
+    const attribute = ctx.history.attributes.find((a) => a.name === period.attribute);
+    const scaleRange = attribute ? attribute.scaleMax - attribute.scaleMin : Number.NaN;
+    const productSessionSd = Math.sqrt(Math.max(0, period.productSessionVariance));
+    // A significant LRT alone is not enough: months of data detect trivially small batch variation.
+    const sdFraction = productSessionSd / scaleRange;
+    const severity: FlagSeverity | null =
+      p < s.lrtActPValue && sdFraction >= s.lrtActMinSdFraction
+        ? 'act'
+        : p < s.lrtWatchPValue && sdFraction >= s.lrtWatchMinSdFraction
+          ? 'watch'
+          : null;
     if (!severity) continue;
     const results = period.sessions.map((label) => ctx.results.get(resultKey(label, period.attribute))).filter((r): r is SessionAttributeResult => r !== undefined);
     const concordance = productRankConcordance(results);
@@ -89,7 +99,11 @@ function periodFlags(ctx: FlagContext): Flag[] {
         pValue: p,
         qValue: null,
         n: period.sessions.length,
-        threshold: severity === 'act' ? `p < ${s.lrtActPValue}` : `p < ${s.lrtWatchPValue}`,
+        threshold:
+          severity === 'act'
+            ? `p < ${s.lrtActPValue} and product:session SD ≥ ${s.lrtActMinSdFraction} × scale range`
+            : `p < ${s.lrtWatchPValue} and product:session SD ≥ ${s.lrtWatchMinSdFraction} × scale range`,
+        productSessionSdScaleFraction: sdFraction,
         lastSession: last,
         productSessionVariance: period.productSessionVariance,
         kendallW: concordance?.W ?? null,

@@ -59,6 +59,8 @@ export const PanelThresholdsSchema = Type.Object(
     productStability: Type.Object({
       lrtWatchPValue: probability('Period-model product:session boundary LRT p below this → watch. Methods §3.7a and §6.3 (CP levels on a published test).'),
       lrtActPValue: probability('Period-model LRT p below this → act. Methods §6.3 (CP).'),
+      lrtWatchMinSdFraction: probability('Period-model flag needs a product:session SD of at least this fraction of the scale range for watch: with months of data the LRT detects batch-to-batch variation far too small to matter (a simulated clean panel with product:session SD 0.08 on a 0–10 scale gave p < 0.01 on 7 of 10 attributes). Ours, CP.'),
+      lrtActMinSdFraction: probability('As lrtWatchMinSdFraction, for act. Ours, CP (5 % of the scale, the same size guard as drift and product steps).'),
       minSessions: count(3, 'Fewest sessions of a recurring product before its effect series is charted. CP.'),
       stepFalseAlarmsPerYear: positive('Tolerated false act-level step-change signals per year across all recurring product × attribute charts (sizes the EWMA limit). Ours, CP.'),
       stepWatchFalseAlarmsPerYear: positive('As stepFalseAlarmsPerYear, for watch-level step signals. Ours, CP.'),
@@ -106,7 +108,7 @@ export const DEFAULT_THRESHOLDS: PanelThresholds = {
     watchFalseAlarmsPerYear: 1,
     westernElectricWatch: false,
   },
-  productStability: { lrtWatchPValue: 0.05, lrtActPValue: 0.01, minSessions: 8, stepFalseAlarmsPerYear: 0.5, stepWatchFalseAlarmsPerYear: 1 },
+  productStability: { lrtWatchPValue: 0.05, lrtActPValue: 0.01, lrtWatchMinSdFraction: 0.02, lrtActMinSdFraction: 0.05, minSessions: 8, stepFalseAlarmsPerYear: 0.5, stepWatchFalseAlarmsPerYear: 1 },
   quality: {
     straightLiningWatchRatio: 0.2,
     straightLiningActShare: 0.5,
@@ -158,6 +160,7 @@ export function validateThresholds(json: unknown): { thresholds: PanelThresholds
     order('/charts/actFalseAlarmsPerYear', t.charts.actFalseAlarmsPerYear <= t.charts.watchFalseAlarmsPerYear, 'Act limits must tolerate no more false alarms than watch limits.');
     order('/productStability/stepFalseAlarmsPerYear', t.productStability.stepFalseAlarmsPerYear <= t.productStability.stepWatchFalseAlarmsPerYear, 'Act limits must tolerate no more false alarms than watch limits.');
     order('/productStability/lrtActPValue', t.productStability.lrtActPValue <= t.productStability.lrtWatchPValue, 'The act p-value must not exceed the watch p-value.');
+    order('/productStability/lrtActMinSdFraction', t.productStability.lrtActMinSdFraction >= t.productStability.lrtWatchMinSdFraction, 'The act size guard must not be smaller than the watch size guard.');
     order('/quality/missingActCompleteness', t.quality.missingActCompleteness <= t.quality.missingWatchCompleteness, 'The act completeness must not exceed the watch completeness.');
     order('/minPooledSessions', t.minPooledSessions <= t.recentSessions, 'The minimum pooled sessions must not exceed the recent-session window.');
   }

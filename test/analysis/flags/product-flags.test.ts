@@ -44,6 +44,19 @@ describe('unstable-product', () => {
     expect(hits[0].firstSession).toBe(sessions[0]);
     expect(typeof hits[0].evidence.kendallW).toBe('number');
   });
+  it('period-model LRT: a significant but tiny product:session SD is not flagged, a moderate one only watched', () => {
+    const history = syntheticHistory({ seed: 3, nSessions: 20 });
+    const sessions = history.sessions.slice(-12).map((s) => s.label);
+    history.periodFits = [
+      // SD 0.08 on a 0–10 scale: the clean batch variation of the simulation suite (0.8 % of the range).
+      { attribute: 'attr1', sessions, productSessionVariance: 0.0064, lrt: { likelihoodRatio: 12, pValue: 0.00027 } },
+      // SD 0.3 (3 % of the range) with p < 0.01: above the watch guard, below the act guard.
+      { attribute: 'attr2', sessions, productSessionVariance: 0.09, lrt: { likelihoodRatio: 12, pValue: 0.00027 } },
+    ];
+    const hits = buildFlags(history).filter((f) => f.kind === 'unstable-product' && f.evidence.test.startsWith('boundary'));
+    expect(hits.map((f) => [f.attribute, f.severity])).toEqual([['attr2', 'watch']]);
+    expect(hits[0].evidence.productSessionSdScaleFraction).toBeCloseTo(0.03, 12);
+  });
 });
 
 describe('product-effect series', () => {
