@@ -102,15 +102,20 @@ function runTask(task: Task, csvPath: string): void {
     fitSessionModel(rows.filter((row) => row.session === 'S01' && row.attribute === 'attr01'));
     fits = 1;
   } else if (task === 'year') {
-    const groups = new Map<string, Observation[]>();
+    const bySession = new Map<string, Map<string, Observation[]>>();
     for (const row of rows) {
-      const key = `${row.session}\u0000${row.attribute}`;
-      let group = groups.get(key);
-      if (!group) groups.set(key, (group = []));
+      let byAttribute = bySession.get(row.session);
+      if (!byAttribute) bySession.set(row.session, (byAttribute = new Map()));
+      let group = byAttribute.get(row.attribute);
+      if (!group) byAttribute.set(row.attribute, (group = []));
       group.push(row);
     }
-    for (const group of groups.values()) fitSessionModel(group);
-    fits = groups.size;
+    for (const byAttribute of bySession.values()) {
+      for (const group of byAttribute.values()) {
+        fitSessionModel(group);
+        fits++;
+      }
+    }
   } else {
     const sessions = task === 'period12' ? 12 : 52;
     fitPeriodModel(rows.filter((row) => row.attribute === 'attr02' && Number(row.session.slice(1)) <= sessions));

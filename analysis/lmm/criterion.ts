@@ -84,8 +84,22 @@ export function makeRemlObjective(frame: ModelFrame, options: { reml?: boolean }
   const degreesOfFreedom = reml ? n - p : n;
   if (degreesOfFreedom <= 0) throw new Error('too few observations for the fixed effects');
 
+  // The last θ factorised: assembling a result right after the optimiser's last evaluation at the
+  // same θ reuses the factor instead of recomputing it.
+  const lastTheta = new Float64Array(nTheta).fill(Number.NaN);
+  let lastFactorOk = false;
+
   function factor(theta: ArrayLike<number>): boolean {
     if (theta.length !== nTheta) throw new Error(`expected ${nTheta} relative SDs, got ${theta.length}`);
+    let same = true;
+    for (let k = 0; k < nTheta; k++) if (lastTheta[k] !== theta[k]) same = false;
+    if (same) return lastFactorOk;
+    for (let k = 0; k < nTheta; k++) lastTheta[k] = theta[k];
+    lastFactorOk = factorUncached(theta);
+    return lastFactorOk;
+  }
+
+  function factorUncached(theta: ArrayLike<number>): boolean {
     for (let i = 0; i < q; i++) lambda[i] = theta[frame.termOfPosition[i]];
     for (let b = 0; b < layout.blockSizes.length; b++) {
       const nb = layout.blockSizes[b];

@@ -119,7 +119,7 @@ export function buildModelFrame(input: ModelFrameInput): ModelFrame {
     }
     const index = new Int32Array(n);
     let distinct: number[];
-    if (keySpace <= Math.max(1 << 16, 8 * n)) {
+    if (keySpace <= 4 * n + 4096) {
       // Small key space (the usual case): a lookup table instead of a hash map.
       const levelOfKey = new Int32Array(keySpace).fill(-1);
       for (let i = 0; i < n; i++) levelOfKey[combined[i]] = 0;
