@@ -1,6 +1,7 @@
 import { parse, type CsvError } from 'csv-parse';
 import { Readable } from 'node:stream';
 import { pipeline } from 'node:stream/promises';
+import Papa from 'papaparse';
 import { decodeText } from './decode-text.js';
 import { SourceFailure } from './source-failure.js';
 
@@ -11,7 +12,7 @@ export interface SourceRecord {
 }
 
 export interface CsvRecordOptions {
-  /** Largest record csv-parse will hold, in characters; bounds memory for a never-closed quote. */
+  /** Largest record held while it is incomplete, in characters; bounds memory for a never-closed quote. */
   maxRecordChars: number;
   /** Told the delimiter once it is known, before the first record. */
   onDelimiter?: (delimiter: string) => void;
@@ -46,6 +47,13 @@ export function detectDelimiter(headerText: string): ',' | ';' | '\t' {
   return ',';
 }
 
+/** The record separator: the first line break of the header text (as CSV readers auto-detect it). */
+export function detectNewline(headerText: string): '\n' | '\r' | '\r\n' {
+  const at = headerText.search(/[\r\n]/);
+  if (at === -1 || headerText[at] === '\n') return '\n';
+  return headerText[at + 1] === '\n' ? '\r\n' : '\r';
+}
+
 async function* prepend(head: string, rest: AsyncIterator<string>): AsyncGenerator<string> {
   if (head.length > 0) yield head;
   for (;;) {
@@ -77,30 +85,17 @@ function describeCsvError(error: CsvError, row: number): SourceFailure {
 }
 
 /**
- * Stream the records of a CSV text file, in batches, (any supported encoding, comma/semicolon/tab,
- * LF or CRLF). Blank lines come through as records of empty cells so that row numbers
- * match a spreadsheet. Throws SourceFailure for encoding and quoting faults.
+ * csv-parse over `first` and the rest of the text: the reader for files whose quoting papaparse
+ * finds malformed. With relax_quotes it keeps a quote inside a cell as text ("a"b, 12" plate)
+ * and names the row of a never-closed quote. `rowsBefore` records were handed over already.
  */
-export async function* readCsvRecords(bytes: AsyncIterable<Uint8Array>, options: CsvRecordOptions): AsyncGenerator<SourceRecord[]> {
-  const text = decodeText(bytes)[Symbol.asyncIterator]();
-  let head = '';
-  while (head.indexOf('\n') === -1 && head.length < HEADER_SNIFF_CHARS) {
-    const next = await text.next();
-    if (next.done) break;
-    head += next.value;
-  }
-  // A first line "sep=;" (written by some spreadsheet exports) names the delimiter; spreadsheets
-  // hide it, so it is dropped and the header stays row 1.
-  const separatorLine = /^\uFEFF?sep=([,;\t])\r?\n/i.exec(head);
-  let delimiter: ',' | ';' | '\t';
-  if (separatorLine !== null) {
-    delimiter = separatorLine[1] as ',' | ';' | '\t';
-    head = head.slice(separatorLine[0].length);
-  } else {
-    delimiter = detectDelimiter(head);
-  }
-  options.onDelimiter?.(delimiter);
-
+async function* readWithCsvParse(
+  first: string,
+  rest: AsyncIterator<string>,
+  delimiter: string,
+  rowsBefore: number,
+  options: CsvRecordOptions,
+): AsyncGenerator<SourceRecord[]> {
   const parser = parse({
     delimiter,
     // Keep blank lines so record count = spreadsheet row; field count is checked by the caller.
@@ -112,7 +107,7 @@ export async function* readCsvRecords(bytes: AsyncIterable<Uint8Array>, options:
     bom: true,
     cast: false,
   });
-  const input = Readable.from(prepend(head, text), { objectMode: false, encoding: 'utf8' });
+  const input = Readable.from(prepend(first, rest), { objectMode: false, encoding: 'utf8' });
   let inputFailure: unknown = null;
   const piping = pipeline(input, parser).catch((error: unknown) => {
     inputFailure = error;
@@ -138,7 +133,7 @@ export async function* readCsvRecords(bytes: AsyncIterable<Uint8Array>, options:
     failure ??= error;
     signal();
   });
-  let row = 0;
+  let row = rowsBefore;
   try {
     for (;;) {
       signalled = false;
@@ -163,7 +158,7 @@ export async function* readCsvRecords(bytes: AsyncIterable<Uint8Array>, options:
       // Records still buffered in the stream are dropped with the error, so take the
       // parser's own count of records before the fault rather than ours.
       const parsedBefore = (error as CsvError & { records?: unknown }).records;
-      throw describeCsvError(error as CsvError, (typeof parsedBefore === 'number' ? Math.max(parsedBefore, row) : row) + 1);
+      throw describeCsvError(error as CsvError, (typeof parsedBefore === 'number' ? Math.max(rowsBefore + parsedBefore, row) : row) + 1);
     }
     throw error;
   } finally {
@@ -172,4 +167,115 @@ export async function* readCsvRecords(bytes: AsyncIterable<Uint8Array>, options:
     await piping;
   }
   if (inputFailure instanceof SourceFailure) throw inputFailure;
+}
+
+/**
+ * Stream the records of a CSV text file, in batches, (any supported encoding, comma/semicolon/tab,
+ * LF or CRLF). Blank lines come through as records of empty cells so that row numbers
+ * match a spreadsheet. Throws SourceFailure for encoding and quoting faults.
+ */
+export async function* readCsvRecords(bytes: AsyncIterable<Uint8Array>, options: CsvRecordOptions): AsyncGenerator<SourceRecord[]> {
+  const text = decodeText(bytes)[Symbol.asyncIterator]();
+  let head = '';
+  while (head.indexOf('\n') === -1 && head.length < HEADER_SNIFF_CHARS) {
+    const next = await text.next();
+    if (next.done) break;
+    head += next.value;
+  }
+  // A first line "sep=;" (written by some spreadsheet exports) names the delimiter; spreadsheets
+  // hide it, so it is dropped and the header stays row 1.
+  const separatorLine = /^\uFEFF?sep=([,;\t])\r?\n/i.exec(head);
+  let delimiter: ',' | ';' | '\t';
+  if (separatorLine !== null) {
+    delimiter = separatorLine[1] as ',' | ';' | '\t';
+    head = head.slice(separatorLine[0].length);
+  } else {
+    delimiter = detectDelimiter(head);
+  }
+  options.onDelimiter?.(delimiter);
+
+  if (head.charCodeAt(0) === 0xfeff) head = head.slice(1);
+  const newline = detectNewline(head);
+  const parser = new Papa.Parser({ delimiter, newline, quoteChar: '"' });
+  // papaparse lets white space stand between a closing quote and the delimiter or line break
+  // ("a"  ,); csv-parse keeps such a cell as text. Text with that pattern goes to csv-parse
+  // (a false alarm inside a quoted cell only costs speed).
+  const looseClosingQuote = new RegExp(`"${newline === '\r\n' ? '(?!\r\n)' : ''}[^\\S\n]+(?:${delimiter}|\n|$)`);
+
+  // Text is parsed as it arrives; the record cut off at the end of what has arrived so far
+  // (`pending`) is parsed again with the next text. Text is gathered until there is at least
+  // as much new text as pending, so a long record (a quoted cell with line breaks, an
+  // unclosed quote) is re-read a logarithmic number of times, not once per chunk.
+  let pending = head;
+  let done = false;
+  let inputFailure: unknown = null;
+  let row = 0;
+  try {
+    while (!done && inputFailure === null) {
+      let input = pending;
+      let added = 0;
+      while (added === 0 || added < pending.length) {
+        let next: IteratorResult<string>;
+        try {
+          next = await text.next();
+        } catch (error) {
+          // Hand over the records before the fault first, as a streaming parser would.
+          inputFailure = error;
+          break;
+        }
+        if (next.done) {
+          done = true;
+          break;
+        }
+        input += next.value;
+        added += next.value.length;
+      }
+      if (input.length === 0) break;
+      if (input.indexOf('"') !== -1 && looseClosingQuote.test(input)) {
+        if (inputFailure !== null) throw inputFailure;
+        yield* readWithCsvParse(input, text, delimiter, row, options);
+        return;
+      }
+      const result = parser.parse(input, 0, !done);
+      // A fault in the record cut off at the end may only be the cut (a closing quote whose line
+      // break has not arrived yet); that record is parsed again with more text.
+      let cutRecordFault = false;
+      for (const error of result.errors) {
+        if (!done && error.row >= result.data.length) {
+          cutRecordFault = true;
+          continue;
+        }
+        if (inputFailure !== null) throw inputFailure;
+        // Malformed quoting: csv-parse reads the rest from this record on, as it read every
+        // file before, with its relaxed quote rules.
+        yield* readWithCsvParse(input, text, delimiter, row, options);
+        return;
+      }
+      const data = result.data;
+      let nRecords = data.length;
+      // A line break at the very end closes the last record; it does not open an empty one.
+      if (done && nRecords > 0 && input.endsWith(newline)) {
+        const last = data[nRecords - 1];
+        if (last.length === 1 && last[0] === '') nRecords--;
+      }
+      for (let at = 0; at < nRecords; at += BATCH_RECORDS) {
+        const end = Math.min(nRecords, at + BATCH_RECORDS);
+        const batch: SourceRecord[] = new Array(end - at);
+        for (let i = at; i < end; i++) batch[i - at] = { row: ++row, cells: data[i] };
+        yield batch;
+      }
+      if (done) break;
+      pending = input.slice(result.meta.cursor);
+      if (pending.length > options.maxRecordChars && cutRecordFault && inputFailure === null) {
+        yield* readWithCsvParse(pending, text, delimiter, row, options);
+        return;
+      }
+      if (pending.length > options.maxRecordChars) {
+        throw new SourceFailure('cell-too-long', `Row ${row + 1} is too long to be a row of ratings (probably an unclosed quote or a huge cell).`, row + 1);
+      }
+    }
+  } finally {
+    await text.return?.(undefined);
+  }
+  if (inputFailure !== null) throw inputFailure;
 }
