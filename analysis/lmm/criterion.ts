@@ -64,6 +64,12 @@ export interface RemlObjective {
    * Henderson's mixed-model equations, e.g. Searle, Casella & McCulloch 1992, ch. 6 [chapter from memory]).
    */
   valueAndGradient(theta: ArrayLike<number>): { value: number; gradient: Float64Array };
+  /**
+   * The pieces of the gradient at θ: tr T_kk and ‖u_k‖² per term. For any fixed σ,
+   * ∂(log|L|² + log|R_X|² + pwrss/σ²)/∂γ_k = (q_k − tr T_kk − ‖u_k‖²/σ²)/γ_k and
+   * ∂pwrss/∂γ_k = −‖u_k‖²/γ_k. Null where the factorisation fails.
+   */
+  gradientPieces(theta: ArrayLike<number>): { parts: CriterionParts; traceT: Float64Array; modeSquares: Float64Array } | null;
   /** (R_Xᵀ R_X)⁻¹ at θ: cov(β̂) = σ² × this. */
   unscaledCovBeta(theta: ArrayLike<number>): Float64Array;
   /** parts(θ) and unscaledCovBeta(θ) from one factorisation. */
@@ -222,9 +228,20 @@ export function makeRemlObjective(frame: ModelFrame, options: { reml?: boolean }
   const termSizes = frame.terms.map((term) => term.levels.length);
 
   function valueAndGradient(theta: ArrayLike<number>): { value: number; gradient: Float64Array } {
-    const criterion = parts(theta);
     const gradient = new Float64Array(nTheta).fill(Number.NaN);
-    if (!Number.isFinite(criterion.deviance)) return { value: Infinity, gradient };
+    const pieces = gradientPieces(theta);
+    if (!pieces) return { value: Infinity, gradient };
+    const sigma2 = pieces.parts.pwrss / degreesOfFreedom;
+    for (let k = 0; k < nTheta; k++) {
+      const gamma = theta[k] * theta[k];
+      if (gamma > 0) gradient[k] = (termSizes[k] - pieces.traceT[k] - pieces.modeSquares[k] / sigma2) / gamma;
+    }
+    return { value: pieces.parts.deviance, gradient };
+  }
+
+  function gradientPieces(theta: ArrayLike<number>): { parts: CriterionParts; traceT: Float64Array; modeSquares: Float64Array } | null {
+    const criterion = parts(theta);
+    if (!Number.isFinite(criterion.deviance)) return null;
     const width = p + 1;
     const beta = Float64Array.from(cBeta);
     backSolveTransposeInPlace(rx, p, beta);
@@ -247,7 +264,6 @@ export function makeRemlObjective(frame: ModelFrame, options: { reml?: boolean }
         inverseDiagonal[i] += sum;
       }
     }
-    const sigma2 = criterion.pwrss / degreesOfFreedom;
     const traceT = new Float64Array(nTheta);
     const modeSquares = new Float64Array(nTheta);
     for (let i = 0; i < q; i++) {
@@ -255,11 +271,7 @@ export function makeRemlObjective(frame: ModelFrame, options: { reml?: boolean }
       traceT[k] += inverseDiagonal[i];
       modeSquares[k] += modes[i] * modes[i];
     }
-    for (let k = 0; k < nTheta; k++) {
-      const gamma = theta[k] * theta[k];
-      if (gamma > 0) gradient[k] = (termSizes[k] - traceT[k] - modeSquares[k] / sigma2) / gamma;
-    }
-    return { value: criterion.deviance, gradient };
+    return { parts: criterion, traceT, modeSquares };
   }
 
   return {
@@ -267,6 +279,7 @@ export function makeRemlObjective(frame: ModelFrame, options: { reml?: boolean }
     reml,
     nTheta,
     valueAndGradient,
+    gradientPieces,
     evaluate: (theta) => parts(theta).deviance,
     parts,
     solve,

@@ -14,8 +14,9 @@
  * - one row: ddf = ν_1; equal ν (within 1e-8): their mean; any ν_m ≤ 2: 2;
  *   else E = Σ ν_m/(ν_m − 2), ddf = 2E/(E − q).
  *
- * Differences from lmerTest: the derivatives in θ are central differences (lmerTest: numDeriv
- * with four Richardson steps), the mixed ones from 2 extra points each, the σ derivatives analytic, and components at 0 are
+ * Differences from lmerTest: the second derivatives in θ are central differences of the analytic
+ * gradient (lmerTest: numDeriv's Richardson extrapolation on the deviance), the first derivatives
+ * and the σ derivatives analytic, and components at 0 are
  * left out (at θ_k = 0 the deviance is even in θ_k, so lmerTest's Hessian has no cross terms
  * with θ_k and ∂cov(β̂)/∂θ_k = 0: leaving it out gives the same numbers).
  */
@@ -58,40 +59,40 @@ export function varparCovariance(objective: RemlObjective, theta: Float64Array, 
     for (const [index, delta] of shifts) point[freeComponents[index]] += delta;
     return point;
   };
-  // h(θ) = log|L|² (+ log|R_X|²) + pwrss/σ̂²: the θ-dependent part of the deviance at fixed σ̂.
-  const fromParts = (parts: { logDetL: number; logDetRX: number; pwrss: number }): { value: number; pwrss: number } => ({
-    value: parts.logDetL + (objective.reml ? parts.logDetRX : 0) + parts.pwrss / sigma2,
-    pwrss: parts.pwrss,
-  });
-  const h = (point: Float64Array): { value: number; pwrss: number } => fromParts(objective.parts(point));
-  // The one-coordinate points serve both the Hessian and the Jacobian of cov(β̂).
-  const withCov = (point: Float64Array): { value: number; pwrss: number; cov: Float64Array } => {
-    const both = objective.partsAndCovBeta(point);
-    return { ...fromParts(both.parts), cov: both.unscaledCovBeta };
+  const termSizes = objective.frame.terms.map((term) => term.levels.length);
+  // ∂h/∂θ_i of h(θ) = log|L|² (+ log|R_X|²) + pwrss/σ̂², the θ-dependent part of the deviance at
+  // fixed σ̂, analytic (criterion.gradientPieces).
+  const hGradient = (point: Float64Array): Float64Array => {
+    const pieces = objective.gradientPieces(point);
+    if (!pieces) throw new Error('the mixed-model equations are singular near the estimates');
+    return Float64Array.from(freeComponents, (k) => (2 * (termSizes[k] - pieces.traceT[k] - pieces.modeSquares[k] / sigma2)) / point[k]);
   };
-  const steps = freeComponents.map((k) => Math.max(1e-3 * theta[k], 1e-5));
-  const centre = h(theta);
+  const steps = freeComponents.map((k) => Math.max(1e-4 * theta[k], 1e-6));
+  const centre = objective.gradientPieces(theta);
+  if (!centre) throw new Error('the mixed-model equations are singular at the estimates');
 
   const hessian = new Float64Array(dimension * dimension);
   const pwrssGradient = new Float64Array(m);
-  // Central differences; the θ-dependent part is smooth and cheap to evaluate accurately, so a
-  // step of 1e-4 relative leaves truncation (~1e-8) and rounding (~1e-7 relative) errors far below
-  // the 1e-3 tolerance on the df.
-  const plus: Array<{ value: number; pwrss: number; cov: Float64Array }> = [];
-  const minus: Array<{ value: number; pwrss: number; cov: Float64Array }> = [];
+  // Hessian of h by central differences of its analytic gradient (one factorisation per point;
+  // the same points give the Jacobian of cov(β̂)); ∂pwrss/∂θ_i = −2‖u_i‖²/θ_i, analytic.
+  const jacobians: Float64Array[] = [];
   for (let i = 0; i < m; i++) {
-    plus.push(withCov(at([[i, steps[i]]])));
-    minus.push(withCov(at([[i, -steps[i]]])));
-    hessian[i * dimension + i] = (plus[i].value - 2 * centre.value + minus[i].value) / (steps[i] * steps[i]);
-    pwrssGradient[i] = (plus[i].pwrss - minus[i].pwrss) / (2 * steps[i]);
+    const up = at([[i, steps[i]]]);
+    const down = at([[i, -steps[i]]]);
+    const gradientUp = hGradient(up);
+    const covUp = objective.unscaledCovBeta(up);
+    const gradientDown = hGradient(down);
+    const covDown = objective.unscaledCovBeta(down);
+    for (let j = 0; j < m; j++) hessian[j * dimension + i] = (gradientUp[j] - gradientDown[j]) / (2 * steps[i]);
+    jacobians.push(Float64Array.from(covUp, (value, index) => (sigma2 * (value - covDown[index])) / (2 * steps[i])));
+    const k = freeComponents[i];
+    pwrssGradient[i] = (-2 * centre.modeSquares[k]) / theta[k];
+  }
+  for (let i = 0; i < m; i++) {
     for (let j = 0; j < i; j++) {
-      const pp = h(at([[i, steps[i]], [j, steps[j]]])).value;
-      const mm = h(at([[i, -steps[i]], [j, -steps[j]]])).value;
-      // f(x+e_i+e_j) + f(x−e_i−e_j) − f(x+e_i) − f(x−e_i) − f(x+e_j) − f(x−e_j) + 2 f(x) = 2 h_i h_j f_ij + O(h⁴)
-      const value =
-        (pp + mm - plus[i].value - minus[i].value - plus[j].value - minus[j].value + 2 * centre.value) / (2 * steps[i] * steps[j]);
-      hessian[i * dimension + j] = value;
-      hessian[j * dimension + i] = value;
+      const mean = 0.5 * (hessian[i * dimension + j] + hessian[j * dimension + i]);
+      hessian[i * dimension + j] = mean;
+      hessian[j * dimension + i] = mean;
     }
   }
   // σ derivatives of pwrss/σ² + (n − p) log(2πσ²), analytic.
@@ -100,7 +101,7 @@ export function varparCovariance(objective: RemlObjective, theta: Float64Array, 
     hessian[i * dimension + m] = value;
     hessian[m * dimension + i] = value;
   }
-  hessian[m * dimension + m] = (6 * centre.pwrss) / (sigma2 * sigma2) - (2 * degrees) / sigma2;
+  hessian[m * dimension + m] = (6 * centre.parts.pwrss) / (sigma2 * sigma2) - (2 * degrees) / sigma2;
 
   const eigen = symmetricEigen(hessian, dimension);
   const covariance = new Float64Array(dimension * dimension);
@@ -112,12 +113,6 @@ export function varparCovariance(objective: RemlObjective, theta: Float64Array, 
     }
   });
 
-  const jacobians: Float64Array[] = [];
-  for (let i = 0; i < m; i++) {
-    const up = plus[i].cov;
-    const down = minus[i].cov;
-    jacobians.push(Float64Array.from(up, (value, index) => (sigma2 * (value - down[index])) / (2 * steps[i])));
-  }
   const atOptimum = objective.unscaledCovBeta(theta);
   jacobians.push(Float64Array.from(atOptimum, (value) => 2 * sigma * value));
   return { freeComponents, covariance, jacobians, hessianEigenvalues: eigen.values };
