@@ -76,7 +76,7 @@ const RULES: Record<string, FolderRule> = {
   ingest: {
     folders: ['domain', 'ingest'],
     typeOnlyFolders: [],
-    packages: { 'csv-parse': null, exceljs: null, 'iconv-lite': null },
+    packages: { 'csv-parse': null, papaparse: null, exceljs: null, 'iconv-lite': null },
     mayUseNode: true,
   },
   store: {
