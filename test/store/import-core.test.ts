@@ -157,3 +157,40 @@ describe('quarantine of sessions with a date conflict', () => {
     expect(db.prepare("SELECT r.value, s.session_date AS date FROM rating r JOIN session s ON s.id = r.session_id WHERE s.label = 'S0'").all()).toEqual([{ value: 5, date: '2026-01-01' }]);
   });
 });
+
+/**
+ * The write transaction runs with foreign-key checks switched off (for speed; see
+ * import-core.ts). What that relies on: every row it writes still satisfies the schema's
+ * foreign keys (SQLite's own PRAGMA foreign_key_check, over the whole store), and the
+ * connection's setting is restored after an import, a rejection and a quarantine, and left
+ * alone on a connection that had the checks off.
+ */
+const foreignKeysOn = (): boolean => db.pragma('foreign_keys', { simple: true }) === 1;
+
+describe('write transaction without per-row foreign-key checks', () => {
+  it('new, replaced and quarantined sessions leave no dangling reference, and the checks are back on', async () => {
+    expect(foreignKeysOn()).toBe(true);
+    expect((await run(['S1,2026-01-05,A1,P1,1,sweet,5', 'S1,2026-01-05,A2,P2,2,salty,6', 'S2,2026-01-12,A1,P1,1,sweet,4'])).outcome).toBe('imported');
+    expect(foreignKeysOn()).toBe(true);
+    // S1 changed (one value replaced, one removed: correction history rows), S3 new with a new
+    // assessor, product and attribute.
+    expect((await run(['S1,2026-01-05,A1,P1,1,sweet,5.5', 'S3,2026-01-19,A9,P9,1,bitter,2'])).outcome).toBe('imported');
+    expect((await run(['S4,2026-01-26,A1,P1,1,sweet,5', 'S4,2026-01-26,A1,P1,2,sweet,x'], { quarantine: true })).outcome).toBe('quarantined');
+    expect(foreignKeysOn()).toBe(true);
+    expect(db.pragma('foreign_key_check')).toEqual([]);
+    expect(db.prepare('SELECT count(*) AS n FROM rating').get()).toEqual({ n: 4 });
+    expect(db.prepare('SELECT count(*) AS n FROM rating_correction').get()).toEqual({ n: 2 });
+  });
+
+  it('a rejected import leaves the checks on', async () => {
+    const report = await run(['S1,2026-01-05,A1,P1,1,sweet,5', 'S1,2026-01-12,A1,P1,2,sweet,5']);
+    expect(report.outcome).toBe('rejected');
+    expect(foreignKeysOn()).toBe(true);
+  });
+
+  it('a connection that had the checks off keeps them off', async () => {
+    db.pragma('foreign_keys = OFF');
+    expect((await run(['S1,2026-01-05,A1,P1,1,sweet,5'])).outcome).toBe('imported');
+    expect(foreignKeysOn()).toBe(false);
+  });
+});
