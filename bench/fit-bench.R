@@ -8,7 +8,7 @@ suppressPackageStartupMessages({
 })
 args <- commandArgs(trailingOnly = TRUE)
 task <- args[1]
-d <- read.csv(args[2], colClasses = c(session = "character", assessor = "character", product = "character",
+d <- read.csv(args[2], colClasses = c(session = "character", date = "character", assessor = "character", product = "character",
                                       replicate = "integer", attribute = "character", value = "numeric"))
 session_formula <- value ~ product + (1 | assessor) + (1 | assessor:product)
 period_formula <- value ~ product + (1 | assessor) + (1 | session) + (1 | assessor:product) +
