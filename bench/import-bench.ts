@@ -1,17 +1,20 @@
 /**
  * Import throughput and peak memory of `importRatings` (reader + store, end to end) for long
- * CSV files of 10⁵ and 10⁶ ratings. Each run is a fresh process on a fresh store, so peak
- * RSS is that of one import. Prints a Markdown table for bench/README.md ("## Import (store)").
+ * and wide CSV files of 10⁵ and 10⁶ ratings. Each run is a fresh process on a fresh store, so
+ * peak RSS is that of one import. Prints a Markdown table for bench/README.md ("## Import (store)").
+ * `--compare DIR [--compare-label TEXT]` also runs each import with the project copy in DIR (an older commit with this
+ * script copied into its bench/), alternating with this one, so both see the same machine load.
  *
- *   npx tsx bench/import-bench.ts [--runs 3] [--sizes 100000,1000000]
+ *   npx tsx bench/import-bench.ts [--runs 3] [--sizes 100000,1000000] [--forms long,wide] [--compare DIR]
  */
 import { spawnSync } from 'node:child_process';
-import { existsSync, mkdirSync, rmSync } from 'node:fs';
+import { createWriteStream, existsSync, mkdirSync, rmSync } from 'node:fs';
+import { once } from 'node:events';
 import { cpus, tmpdir } from 'node:os';
 import { basename, join } from 'node:path';
 import { fileInput, importRatings } from '../store/import-ratings.js';
 import { openStore } from '../store/open-store.js';
-import { designForRatings, nRatingsOf, writeSyntheticLongCsv } from '../test/store/synthetic-ratings.js';
+import { designForRatings, nRatingsOf, syntheticWideLines, writeSyntheticLongCsv, type SyntheticDesign } from '../test/store/synthetic-ratings.js';
 
 interface RunResult {
   ratings: number;
@@ -24,6 +27,20 @@ interface RunResult {
   writeCpuMs: number;
   maxRssMb: number;
   outcome: string;
+}
+
+async function writeSyntheticWideCsv(path: string, design: SyntheticDesign): Promise<void> {
+  const out = createWriteStream(path);
+  let buffer: string[] = [];
+  for (const line of syntheticWideLines(design)) {
+    buffer.push(line);
+    if (buffer.length >= 2000) {
+      if (!out.write(`${buffer.join('\n')}\n`)) await once(out, 'drain');
+      buffer = [];
+    }
+  }
+  out.end(`${buffer.join('\n')}\n`);
+  await once(out, 'finish');
 }
 
 async function child(store: string, file: string): Promise<void> {
@@ -82,39 +99,53 @@ async function main(): Promise<void> {
   };
   const runs = Number(option('--runs', '3'));
   const sizes = option('--sizes', '100000,1000000').split(',').map(Number);
+  const forms = option('--forms', 'long,wide').split(',') as ('long' | 'wide')[];
+  const compare = option('--compare', '');
+  const trees: { label: string; script: string }[] = [{ label: 'this commit', script: import.meta.filename }];
+  if (compare !== '') trees.unshift({ label: option('--compare-label', 'before'), script: join(compare, 'bench', 'import-bench.ts') });
   const folder = join(tmpdir(), 'panel-steward-import-bench');
   mkdirSync(folder, { recursive: true });
   const rows: string[] = [];
   for (const size of sizes) {
-    const design = designForRatings(size, 42);
-    const file = join(folder, `long-${nRatingsOf(design)}.csv`);
-    if (!existsSync(file)) await writeSyntheticLongCsv(file, design);
-    const results: RunResult[] = [];
-    for (let run = 0; run < runs; run++) {
-      const store = join(folder, `store-${size}-${run}.db`);
-      for (const suffix of ['', '-wal', '-shm']) rmSync(store + suffix, { force: true });
-      const out = spawnSync(process.execPath, ['--import', 'tsx', import.meta.filename, '--child', store, file], { encoding: 'utf8', maxBuffer: 1 << 20 });
-      if (out.status !== 0) throw new Error(out.stderr);
-      results.push(JSON.parse(out.stdout.trim().split('\n').at(-1)!) as RunResult);
-      for (const suffix of ['', '-wal', '-shm']) rmSync(store + suffix, { force: true });
+    for (const form of forms) {
+      const design = designForRatings(size, 42);
+      const file = join(folder, `${form}-${nRatingsOf(design)}.csv`);
+      if (!existsSync(file)) {
+        if (form === 'long') await writeSyntheticLongCsv(file, design);
+        else await writeSyntheticWideCsv(file, design);
+      }
+      const results: RunResult[][] = trees.map(() => []);
+      for (let run = 0; run < runs; run++) {
+        trees.forEach((tree, t) => {
+          const store = join(folder, `store-${size}-${run}.db`);
+          for (const suffix of ['', '-wal', '-shm']) rmSync(store + suffix, { force: true });
+          const out = spawnSync(process.execPath, ['--import', 'tsx', tree.script, '--child', store, file], { encoding: 'utf8', maxBuffer: 1 << 20, cwd: join(tree.script, '..', '..') });
+          if (out.status !== 0) throw new Error(out.stderr);
+          results[t].push(JSON.parse(out.stdout.trim().split('\n').at(-1)!) as RunResult);
+          for (const suffix of ['', '-wal', '-shm']) rmSync(store + suffix, { force: true });
+        });
+      }
+      trees.forEach((tree, t) => {
+        const treeResults = results[t];
+        const ratings = treeResults[0].ratings;
+        if (treeResults.some((r) => r.outcome !== 'imported')) throw new Error(`an import did not import: ${JSON.stringify(treeResults)}`);
+        const totalMs = median(treeResults.map((r) => r.totalMs));
+        const cpuMs = median(treeResults.map((r) => r.cpuMs));
+        const perSecond = (ms: number): string => Math.round((ratings / ms) * 1000).toLocaleString('en-US');
+        rows.push(
+          `| ${ratings.toLocaleString('en-US')} | ${form} | ${tree.label} | ${(totalMs / 1000).toFixed(2)} | ${perSecond(totalMs)} | ${(cpuMs / 1000).toFixed(2)} | ${perSecond(cpuMs)} | ` +
+            `${(median(treeResults.map((r) => r.readMs)) / 1000).toFixed(2)} | ${(median(treeResults.map((r) => r.writeMs)) / 1000).toFixed(2)} | ${(median(treeResults.map((r) => r.writeCpuMs)) / 1000).toFixed(2)} | ${Math.round(median(treeResults.map((r) => r.maxRssMb)))} |`,
+        );
+      });
     }
-    const ratings = results[0].ratings;
-    if (results.some((r) => r.outcome !== 'imported')) throw new Error(`an import did not import: ${JSON.stringify(results)}`);
-    const totalMs = median(results.map((r) => r.totalMs));
-    const cpuMs = median(results.map((r) => r.cpuMs));
-    const perSecond = (ms: number): string => Math.round((ratings / ms) * 1000).toLocaleString('en-US');
-    rows.push(
-      `| ${ratings.toLocaleString('en-US')} | ${runs} | ${(totalMs / 1000).toFixed(2)} | ${perSecond(totalMs)} | ${(cpuMs / 1000).toFixed(2)} | ${perSecond(cpuMs)} | ` +
-        `${(median(results.map((r) => r.readMs)) / 1000).toFixed(2)} | ${(median(results.map((r) => r.writeMs)) / 1000).toFixed(2)} | ${(median(results.map((r) => r.writeCpuMs)) / 1000).toFixed(2)} | ${Math.round(median(results.map((r) => r.maxRssMb)))} |`,
-    );
   }
   const load = (await import('node:os')).loadavg()[0].toFixed(1);
   process.stdout.write(
     [
       `${cpus().length} cores (${cpus()[0]?.model ?? 'unknown'}), Node ${process.version}, load average ${load} at the end; medians of ${runs} runs.`,
       '',
-      '| ratings | runs | wall s | ratings/s (wall) | CPU s | ratings/s (CPU) | read + stage s | write transaction s | write CPU s | peak RSS MB |',
-      '| --- | --- | --- | --- | --- | --- | --- | --- | --- | --- |',
+      '| ratings | form | code | wall s | ratings/s (wall) | CPU s | ratings/s (CPU) | read + stage s | write transaction s | write CPU s | peak RSS MB |',
+      '| ---: | --- | --- | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: |',
       ...rows,
       '',
     ].join('\n'),

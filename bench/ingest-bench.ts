@@ -1,11 +1,11 @@
 /**
  * Parsing benchmark (ingest only, no database): throughput and peak memory of readRatings
- * for 1e5 and 1e6 ratings in long and wide form, each size read in a fresh child process so
- * that its peak RSS is its own. Also times bare csv-parse on the same long file, the floor
- * any csv-parse-based reader sits on.
+ * for 1e5 and 1e6 ratings in long and wide form, each read in a fresh child process so that
+ * its peak RSS is its own; medians of --runs runs. Also times bare csv-parse and bare
+ * papaparse on the same long file. `--compare DIR` also reads each file with the project copy
+ * in DIR (an older commit with this script copied into its bench/), alternating with this one.
  *
- *   npx tsx bench/ingest-bench.ts            # all sizes, prints a markdown table
- *   npx tsx bench/ingest-bench.ts 100000     # one size
+ *   npx tsx bench/ingest-bench.ts [--runs 3] [--sizes 100000,1000000] [--forms long,wide,wide-xlsx] [--compare DIR --compare-label TEXT]
  */
 import { spawnSync } from 'node:child_process';
 import { createReadStream, createWriteStream, mkdtempSync, rmSync, statSync } from 'node:fs';
@@ -13,6 +13,7 @@ import { cpus, loadavg, tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { parse } from 'csv-parse';
+import Papa from 'papaparse';
 import ExcelJS from 'exceljs';
 import { readRatings } from '../ingest/read-ratings.js';
 
@@ -103,6 +104,17 @@ async function child(mode: string, path: string): Promise<void> {
     const parser = createReadStream(path).pipe(parse({ relax_column_count: true }));
     for await (const _record of parser) nRatings++;
     nRatings--; // header
+  } else if (mode === 'papaparse') {
+    const parser = new Papa.Parser({ delimiter: ',', newline: '\n' });
+    let pending = '';
+    for await (const chunk of createReadStream(path, { encoding: 'utf8', highWaterMark: 1 << 16 })) {
+      const input = pending + (chunk as string);
+      const result = parser.parse(input, 0, true);
+      nRatings += result.data.length;
+      pending = input.slice(result.meta.cursor);
+    }
+    if (pending !== '') nRatings += parser.parse(pending, 0, false).data.length;
+    nRatings--; // header
   } else {
     for await (const event of readRatings({ path }, { fileName: path.endsWith('.xlsx') ? 'bench.xlsx' : 'bench.csv', scaleFor: () => ({ min: 0, max: 10 }) })) {
       if (event.type === 'rating') nRatings++;
@@ -117,39 +129,71 @@ async function child(mode: string, path: string): Promise<void> {
   process.stdout.write(JSON.stringify(result));
 }
 
-function runChild(mode: string, path: string): ChildResult {
-  const self = fileURLToPath(import.meta.url);
-  const run = spawnSync(process.execPath, ['--import', 'tsx', self, '--child', mode, path], { encoding: 'utf8', maxBuffer: 1 << 20 });
+function runChild(script: string, mode: string, path: string): ChildResult {
+  const run = spawnSync(process.execPath, ['--import', 'tsx', script, '--child', mode, path], { encoding: 'utf8', maxBuffer: 1 << 20, cwd: join(script, '..', '..') });
   if (run.status !== 0) throw new Error(`child failed: ${run.stderr}`);
   return JSON.parse(run.stdout) as ChildResult;
 }
 
+const median = (xs: number[]): number => {
+  const s = [...xs].sort((a, b) => a - b);
+  return s.length % 2 ? s[(s.length - 1) / 2] : (s[s.length / 2 - 1] + s[s.length / 2]) / 2;
+};
+
 async function main(): Promise<void> {
-  const sizes = process.argv[2] ? [Number(process.argv[2])] : [100_000, 1_000_000];
+  const args = process.argv.slice(2);
+  const option = (name: string, fallback: string): string => {
+    const at = args.indexOf(name);
+    return at >= 0 ? args[at + 1] : fallback;
+  };
+  const runs = Number(option('--runs', '3'));
+  const sizes = option('--sizes', '100000,1000000').split(',').map(Number);
+  const forms = option('--forms', 'long,wide,wide-xlsx').split(',') as ('long' | 'wide' | 'wide-xlsx')[];
+  const compare = option('--compare', '');
+  const self = fileURLToPath(import.meta.url);
   const dir = mkdtempSync(join(tmpdir(), 'ingest-bench-'));
   const rows: string[] = [];
   try {
     for (const n of sizes) {
-      for (const form of ['long', 'wide', 'wide-xlsx'] as const) {
+      for (const form of forms) {
         const path = join(dir, form === 'wide-xlsx' ? `wide-${n}.xlsx` : `${form}-${n}.csv`);
-        if (form === 'wide-xlsx') await writeXlsx(join(dir, `wide-${n}.csv`), path);
-        else await writeFile(path, form, n);
-        const sizeMb = statSync(path).size / 1e6;
-        const modes = form === 'long' ? ['readRatings', 'csv-parse'] : ['readRatings'];
-        for (const mode of modes) {
-          const r = runChild(mode, path);
-          if (mode === 'readRatings' && (r.nRatings !== n || r.nProblems !== 0)) throw new Error(`expected ${n} ratings, got ${r.nRatings} (${r.nProblems} problems)`);
-          const rate = (seconds: number): string => Math.round(r.nRatings / seconds).toLocaleString('en-US');
-          rows.push(
-            `| ${n.toExponential(0).replace('e+', 'e')} | ${form} | ${mode === 'csv-parse' ? 'bare csv-parse (records)' : 'readRatings'} | ${sizeMb.toFixed(1)} | ${r.seconds.toFixed(2)} | ${rate(r.seconds)} | ${r.cpuSeconds.toFixed(2)} | ${rate(r.cpuSeconds)} | ${r.baselineRssMb.toFixed(0)} | ${r.peakRssMb.toFixed(0)} |`,
-          );
+        if (form === 'wide-xlsx') {
+          const csvPath = join(dir, `wide-${n}.csv`);
+          await writeFile(csvPath, 'wide', n);
+          await writeXlsx(csvPath, path);
+        } else {
+          await writeFile(path, form, n);
         }
+        const sizeMb = statSync(path).size / 1e6;
+        const readers: { label: string; script: string; mode: string }[] = [];
+        if (compare !== '') readers.push({ label: `readRatings, ${option('--compare-label', 'before')}`, script: join(compare, 'bench', 'ingest-bench.ts'), mode: 'readRatings' });
+        readers.push({ label: compare === '' ? 'readRatings' : 'readRatings, this commit', script: self, mode: 'readRatings' });
+        if (form === 'long') {
+          readers.push({ label: 'bare csv-parse (records)', script: self, mode: 'csv-parse' });
+          readers.push({ label: 'bare papaparse (records)', script: self, mode: 'papaparse' });
+        }
+        const results: ChildResult[][] = readers.map(() => []);
+        for (let run = 0; run < runs; run++) {
+          readers.forEach((reader, i) => {
+            const r = runChild(reader.script, reader.mode, path);
+            if (r.nRatings !== n || r.nProblems !== 0) throw new Error(`${reader.label}: expected ${n} ratings, got ${r.nRatings} (${r.nProblems} problems)`);
+            results[i].push(r);
+          });
+        }
+        readers.forEach((reader, i) => {
+          const seconds = median(results[i].map((r) => r.seconds));
+          const cpuSeconds = median(results[i].map((r) => r.cpuSeconds));
+          const rate = (s: number): string => Math.round(n / s).toLocaleString('en-US');
+          rows.push(
+            `| ${n.toExponential(0).replace('e+', 'e')} | ${form} | ${reader.label} | ${sizeMb.toFixed(1)} | ${seconds.toFixed(2)} | ${rate(seconds)} | ${cpuSeconds.toFixed(2)} | ${rate(cpuSeconds)} | ${median(results[i].map((r) => r.baselineRssMb)).toFixed(0)} | ${median(results[i].map((r) => r.peakRssMb)).toFixed(0)} |`,
+          );
+        });
       }
     }
   } finally {
     rmSync(dir, { recursive: true, force: true });
   }
-  console.log(`Node ${process.version}, ${cpus().length} × ${cpus()[0]?.model ?? 'cpu'}, load average at end ${loadavg()[0].toFixed(1)}`);
+  console.log(`Node ${process.version}, ${cpus().length} × ${cpus()[0]?.model ?? 'cpu'}, load average at end ${loadavg()[0].toFixed(1)}; medians of ${runs} runs`);
   console.log('| ratings | form | reader | file MB | wall s | ratings/s (wall) | CPU s | ratings/CPU-s | RSS before MB | peak RSS MB |');
   console.log('| ---: | --- | --- | ---: | ---: | ---: | ---: | ---: | ---: | ---: |');
   for (const row of rows) console.log(row);
