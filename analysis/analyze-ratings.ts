@@ -8,7 +8,7 @@
  */
 import type { AnalyzeJson, AssessorIndicesJson, FitJson } from '../domain/analysis.js';
 import type { Observation } from '../domain/ratings.js';
-import { computeAssessorIndices } from './indices/compute-assessor-indices.js';
+import { computeAnalyzeContractIndices } from './indices/compute-assessor-indices.js';
 import { LmmFitError } from './lmm/errors.js';
 import { fitPeriodModel } from './lmm/fit-period-model.js';
 import { fitSessionModel } from './lmm/fit-session-model.js';
@@ -32,7 +32,7 @@ export function analyzeRatingsWithNotes(ratings: readonly Observation[], options
   const fits: FitJson[] = [];
   const assessorIndices: AssessorIndicesJson[] = [];
   const notes: AnalyzeNote[] = [];
-  const groups = groupBy(ratings, (row) => (options.period ? row.attribute : `${row.session}\u0000${row.attribute}`));
+  const groups = groupBy(ratings, options.period);
   for (const observations of groups) {
     const { session, attribute } = observations[0];
     const fit = tryFit(() => (options.period ? fitPeriodModel(observations).json : fitSessionModel(observations).json), {
@@ -42,20 +42,7 @@ export function analyzeRatingsWithNotes(ratings: readonly Observation[], options
     });
     if (fit) fits.push(fit);
     if (options.period) continue;
-    const indices = computeAssessorIndices(observations, { panelProductPValue: fit ? fit.productTest.p : undefined });
-    for (const row of indices) {
-      assessorIndices.push({
-        session: row.session,
-        attribute: row.attribute,
-        assessor: row.assessor,
-        offset: row.offset,
-        discriminationF: row.discriminationF,
-        discriminationP: row.discriminationP,
-        repeatabilityMSE: row.repeatabilityMSE,
-        agreementR: row.agreementR,
-        scaling: row.scaling,
-      });
-    }
+    for (const row of computeAnalyzeContractIndices(observations)) assessorIndices.push(row);
   }
   return { json: { fits, assessorIndices }, notes };
 }
@@ -70,13 +57,28 @@ function tryFit(fit: () => FitJson, where: { session: string | null; attribute: 
   }
 }
 
-function groupBy(rows: readonly Observation[], key: (row: Observation) => string): Observation[][] {
-  const groups = new Map<string, Observation[]>();
+/** Groups in first-seen order; the lookup is nested so no key string is built per rating. */
+function groupBy(rows: readonly Observation[], period: boolean): Observation[][] {
+  const groups: Observation[][] = [];
+  const byFirst = new Map<string, Map<string, Observation[]> | Observation[]>();
   for (const row of rows) {
-    const name = key(row);
-    const group = groups.get(name);
-    if (group) group.push(row);
-    else groups.set(name, [row]);
+    if (period) {
+      let group = byFirst.get(row.attribute) as Observation[] | undefined;
+      if (!group) {
+        byFirst.set(row.attribute, (group = []));
+        groups.push(group);
+      }
+      group.push(row);
+      continue;
+    }
+    let byAttribute = byFirst.get(row.session) as Map<string, Observation[]> | undefined;
+    if (!byAttribute) byFirst.set(row.session, (byAttribute = new Map()));
+    let group = byAttribute.get(row.attribute);
+    if (!group) {
+      byAttribute.set(row.attribute, (group = []));
+      groups.push(group);
+    }
+    group.push(row);
   }
-  return [...groups.values()];
+  return groups;
 }

@@ -22,6 +22,15 @@ export interface AgreementCorrelation {
  * Common practice, no single source; Fisher (1921) z transform for the interval.
  */
 export function agreementCorrelation(table: CellTable, assessor: string, confidenceLevel = 0.95): AgreementCorrelation {
+  const { r, nProducts, reasons } = agreementEstimate(table, assessor);
+  if (r === null || nProducts < 4 || Math.abs(r) === 1) return { r, nProducts, lower: null, upper: null, reasons };
+  const halfWidth = normalQuantile(1 - (1 - confidenceLevel) / 2) / Math.sqrt(nProducts - 3);
+  const z = Math.atanh(r);
+  return { r, nProducts, lower: Math.tanh(z - halfWidth), upper: Math.tanh(z + halfWidth), reasons: [] };
+}
+
+/** r alone (what the analyze contract prints), without the interval: same definition and reasons. */
+export function agreementEstimate(table: CellTable, assessor: string): { r: number | null; nProducts: number; reasons: IndexReason[] } {
   const own: number[] = [];
   const others: number[] = [];
   for (const product of productsRatedBy(table, assessor)) {
@@ -31,13 +40,10 @@ export function agreementCorrelation(table: CellTable, assessor: string, confide
     others.push(mean(rest));
   }
   const nProducts = own.length;
-  if (nProducts < 3) return { r: null, nProducts, lower: null, upper: null, reasons: ['few-products'] };
+  if (nProducts < 3) return { r: null, nProducts, reasons: ['few-products'] };
   const r = pearsonCorrelation(own, others);
-  if (Number.isNaN(r)) return { r: null, nProducts, lower: null, upper: null, reasons: ['no-spread'] };
-  if (nProducts < 4 || Math.abs(r) === 1) return { r, nProducts, lower: null, upper: null, reasons: [] };
-  const halfWidth = normalQuantile(1 - (1 - confidenceLevel) / 2) / Math.sqrt(nProducts - 3);
-  const z = Math.atanh(r);
-  return { r, nProducts, lower: Math.tanh(z - halfWidth), upper: Math.tanh(z + halfWidth), reasons: [] };
+  if (Number.isNaN(r)) return { r: null, nProducts, reasons: ['no-spread'] };
+  return { r, nProducts, reasons: [] };
 }
 
 /**

@@ -1,10 +1,10 @@
 export type { AssessorSessionIndices, IndexReason } from './types.js';
-export { computeAssessorIndices, type AssessorIndicesOptions } from './compute-assessor-indices.js';
+export { computeAnalyzeContractIndices, computeAssessorIndices, type AnalyzeContractIndices, type AssessorIndicesOptions } from './compute-assessor-indices.js';
 export { buildCellTable, balancedReplicates, cellMean, panelMean, productsRatedBy, type CellTable } from './cell-table.js';
 export { balancedAnova, type BalancedAnova } from './balanced-anova.js';
 export { levelOffset, pairedLevelTest, pooledLevelTest, type LevelTest } from './level.js';
 export { assessorAnova, type AssessorAnova } from './discrimination.js';
 export { repeatabilityTest, type RepeatabilityTest } from './repeatability.js';
-export { agreementCorrelation, interactionShare, disagreementTest, type AgreementCorrelation, type DisagreementTest } from './agreement.js';
-export { scalingCoefficient, type ScalingOptions, type ScalingResult } from './scaling.js';
+export { agreementCorrelation, agreementEstimate, interactionShare, disagreementTest, type AgreementCorrelation, type DisagreementTest } from './agreement.js';
+export { scalingCoefficient, scalingEstimate, type ScalingOptions, type ScalingResult } from './scaling.js';
 export { scalingDisagreementPartition, type ScalingPartition } from './scaling-partition.js';

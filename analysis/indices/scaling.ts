@@ -40,26 +40,11 @@ export interface ScalingOptions {
  * P_a ≥ 4 (methods' minimum) and residual spread.
  */
 export function scalingCoefficient(table: CellTable, assessor: string, anova: BalancedAnova | null, options: ScalingOptions = {}): ScalingResult {
-  const products = productsRatedBy(table, assessor);
-  const own = products.map((product) => cellMean(table, assessor, product) as number);
-  const panel = products.map((product) => panelMean(table, product) as number);
-  const nProducts = products.length;
+  const estimate = scalingEstimate(table, assessor);
+  const { nProducts } = estimate;
   const result: ScalingResult = { scaling: null, nProducts, disagreementSd: null, t: null, df: null, pValue: null, disagreementF: null, disagreementP: null, reasons: [] };
-  if (nProducts < 2) return { ...result, reasons: ['few-products'] };
-  const ownMean = mean(own);
-  const panelMeanOfMeans = mean(panel);
-  let sxx = 0;
-  let sxy = 0;
-  let syy = 0;
-  for (let i = 0; i < nProducts; i++) {
-    const dx = panel[i] - panelMeanOfMeans;
-    const dy = own[i] - ownMean;
-    sxx += dx * dx;
-    sxy += dx * dy;
-    syy += dy * dy;
-  }
-  if (!(sxx > 0)) return { ...result, reasons: ['no-spread'] };
-  const scaling = sxy / sxx;
+  if (estimate.scaling === null) return { ...result, reasons: estimate.reasons };
+  const { scaling, own, panel, ownMean, panelMeanOfMeans, sxx, syy } = estimate;
   if (nProducts < 4) return { ...result, scaling, reasons: ['few-products'] };
   let residualSumOfSquares = 0;
   for (let i = 0; i < nProducts; i++) residualSumOfSquares += (own[i] - ownMean - scaling * (panel[i] - panelMeanOfMeans)) ** 2;
@@ -85,4 +70,40 @@ export function scalingCoefficient(table: CellTable, assessor: string, anova: Ba
     disagreementP = fUpperTail(disagreementF, df, anova.errorDf);
   }
   return { scaling, nProducts, disagreementSd, t, df, pValue, disagreementF, disagreementP, reasons };
+}
+
+interface ScalingEstimate {
+  scaling: number | null;
+  nProducts: number;
+  own: number[];
+  panel: number[];
+  ownMean: number;
+  panelMeanOfMeans: number;
+  sxx: number;
+  syy: number;
+  reasons: IndexReason[];
+}
+
+/** β̂_a alone (what the analyze contract prints) and the sums the β = 1 test goes on from. */
+export function scalingEstimate(table: CellTable, assessor: string): ScalingEstimate {
+  const products = productsRatedBy(table, assessor);
+  const own = products.map((product) => cellMean(table, assessor, product) as number);
+  const panel = products.map((product) => panelMean(table, product) as number);
+  const nProducts = products.length;
+  const none = { scaling: null, nProducts, own, panel, ownMean: Number.NaN, panelMeanOfMeans: Number.NaN, sxx: 0, syy: 0 };
+  if (nProducts < 2) return { ...none, reasons: ['few-products'] };
+  const ownMean = mean(own);
+  const panelMeanOfMeans = mean(panel);
+  let sxx = 0;
+  let sxy = 0;
+  let syy = 0;
+  for (let i = 0; i < nProducts; i++) {
+    const dx = panel[i] - panelMeanOfMeans;
+    const dy = own[i] - ownMean;
+    sxx += dx * dx;
+    sxy += dx * dy;
+    syy += dy * dy;
+  }
+  if (!(sxx > 0)) return { ...none, reasons: ['no-spread'] };
+  return { scaling: sxy / sxx, nProducts, own, panel, ownMean, panelMeanOfMeans, sxx, syy, reasons: [] };
 }
