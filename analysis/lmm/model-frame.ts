@@ -131,20 +131,24 @@ export function buildModelFrame(input: ModelFrameInput): ModelFrame {
       const levelOfKey = new Map(distinct.map((key, level) => [key, level]));
       for (let i = 0; i < n; i++) index[i] = levelOfKey.get(combined[i])!;
     }
+    // Decode each level's key once into its factor values and its label ("A01:101").
     const byFactor: Record<string, string[]> = {};
-    factors.forEach((factor) => (byFactor[factor] = new Array<string>(distinct.length)));
-    const labels = distinct.map((key) => {
-      const values: string[] = new Array(parts.length);
+    const valuesOfFactor = factors.map((factor) => (byFactor[factor] = new Array<string>(distinct.length)));
+    const levels = new Array<string>(distinct.length);
+    for (let level = 0; level < distinct.length; level++) {
+      let key = distinct[level];
+      let label = '';
       for (let f = parts.length - 1; f >= 0; f--) {
         const size = parts[f].levels.length;
-        values[f] = parts[f].levels[key % size];
+        const value = parts[f].levels[key % size];
+        valuesOfFactor[f][level] = value;
+        label = f === parts.length - 1 ? value : `${value}:${label}`;
         key = Math.floor(key / size);
       }
-      return values;
-    });
-    labels.forEach((values, level) => factors.forEach((factor, f) => (byFactor[factor][level] = values[f])));
+      levels[level] = label;
+    }
     factorValueOfLevel.push(byFactor);
-    return { name: factors.join(':'), factors: [...factors], levels: labels.map((values) => values.join(':')), index };
+    return { name: factors.join(':'), factors: [...factors], levels, index };
   });
 
   const blockingFactor = chooseBlockingFactor(terms, factorValueOfLevel);
@@ -273,8 +277,14 @@ function layoutPositions(
   blockingFactor: string | null,
 ): { layout: BlockArrowLayout; positionOf: Int32Array[]; termOfPosition: Int32Array } {
   const positionOf = terms.map((term) => new Int32Array(term.levels.length));
-  const order: Array<[number, number]> = [];
+  const q = terms.reduce((sum, term) => sum + term.levels.length, 0);
+  const termOfPosition = new Int32Array(q);
   const blockSizes: number[] = [];
+  let next = 0;
+  const place = (k: number, level: number): void => {
+    positionOf[k][level] = next;
+    termOfPosition[next++] = k;
+  };
   if (blockingFactor !== null) {
     // Largest nested term first: its own ZᵀZ block is diagonal, so it causes no fill and its
     // rows of W_b = L_b⁻¹ C_b stay as sparse as its coupling rows.
@@ -282,27 +292,33 @@ function layoutPositions(
       .map((term, k) => k)
       .filter((k) => terms[k].factors.includes(blockingFactor))
       .sort((a, b) => terms[b].levels.length - terms[a].levels.length || a - b);
-    const blockValues = [...new Set(blockTerms.flatMap((k) => factorValueOfLevel[k][blockingFactor]))].sort(compareLevels);
-    const membersOfBlock = new Map<string, Array<[number, number]>>(blockValues.map((value) => [value, []]));
-    for (const k of blockTerms) {
-      factorValueOfLevel[k][blockingFactor].forEach((value, level) => membersOfBlock.get(value)!.push([k, level]));
-    }
-    for (const value of blockValues) {
-      const members = membersOfBlock.get(value)!;
-      blockSizes.push(members.length);
-      order.push(...members);
-    }
+    // Blocks in sorted order of the blocking factor's values; within a block, terms in the
+    // order above and levels in level order (a counting sort: one pass to size, one to place).
+    const blockOf = new Map<string, number>();
+    for (const k of blockTerms) for (const value of factorValueOfLevel[k][blockingFactor]) blockOf.set(value, -1);
+    [...blockOf.keys()].sort(compareLevels).forEach((value, b) => {
+      blockOf.set(value, b);
+      blockSizes.push(0);
+    });
+    const blockOfLevel = blockTerms.map((k) => Int32Array.from(factorValueOfLevel[k][blockingFactor], (value) => blockOf.get(value)!));
+    for (const blocks of blockOfLevel) for (const b of blocks) blockSizes[b]++;
+    const cursor = new Int32Array(blockSizes.length);
+    for (let b = 1; b < blockSizes.length; b++) cursor[b] = cursor[b - 1] + blockSizes[b - 1];
+    blockTerms.forEach((k, t) => {
+      const blocks = blockOfLevel[t];
+      for (let level = 0; level < blocks.length; level++) {
+        const position = cursor[blocks[level]]++;
+        positionOf[k][level] = position;
+        termOfPosition[position] = k;
+      }
+    });
+    next = blockSizes.reduce((sum, size) => sum + size, 0);
   }
   let borderSize = 0;
   terms.forEach((term, k) => {
     if (blockingFactor !== null && term.factors.includes(blockingFactor)) return;
-    for (let level = 0; level < term.levels.length; level++) order.push([k, level]);
+    for (let level = 0; level < term.levels.length; level++) place(k, level);
     borderSize += term.levels.length;
-  });
-  const termOfPosition = new Int32Array(order.length);
-  order.forEach(([k, level], position) => {
-    positionOf[k][level] = position;
-    termOfPosition[position] = k;
   });
   return { layout: makeBlockArrowLayout(blockSizes, borderSize), positionOf, termOfPosition };
 }
