@@ -28,7 +28,7 @@ import { createReadStream } from 'node:fs';
 import { Readable } from 'node:stream';
 import type { InputFinding, InputProblem, ProblemCode } from '../domain/problems.js';
 import type { Rating, ScaleRange } from '../domain/ratings.js';
-import { parseRatingValue, parseReplicate, parseSessionDate, type DecimalMark } from './cells.js';
+import { parseRatingValue, parseReplicate, parseSessionDate, type CellResult, type DecimalMark } from './cells.js';
 import { readCsvRecords, type SourceRecord } from './csv-records.js';
 import { detectFileKind } from './file-kind.js';
 import { resolveColumnLayout, truncateText, type ColumnLayout } from './headers.js';
@@ -136,6 +136,19 @@ function formatScale(scale: ScaleRange): string {
   return `${formatNumber(scale.min)}–${formatNumber(scale.max)}`;
 }
 
+/** Distinct texts remembered per kind of cell; beyond that, cells are parsed each time (memory stays bounded). */
+const MAX_CACHED_TEXTS = 10_000;
+
+/** A parse result by cell text (results are never changed, so rows may share one). */
+function parseCached<T>(cache: Map<string, T>, text: string, parse: (text: string) => T): T {
+  let parsed = cache.get(text);
+  if (parsed === undefined) {
+    parsed = parse(text);
+    if (cache.size < MAX_CACHED_TEXTS) cache.set(text, parsed);
+  }
+  return parsed;
+}
+
 /** Row reader state for one file; created after the header row is resolved. */
 class RowReader {
   readonly file: string;
@@ -151,8 +164,11 @@ class RowReader {
   fatal: InputProblem | null = null;
   private readonly nColumns: number;
   private readonly valueColumns: { index: number; attribute: string | null }[];
-  /** Parsed dates by text: a file has few distinct session dates. */
+  /** Parsed cells by text: a file repeats few distinct dates, replicates and values (one decimal on a 0–10 scale: 101). */
   private readonly dates = new Map<string, ReturnType<typeof parseSessionDate>>();
+  private readonly replicates = new Map<string, CellResult<number>>();
+  private readonly values = new Map<string, CellResult<number>>();
+  private readonly parseValue: (text: string) => CellResult<number>;
   /** Reused per row (cleared at the start of readRow). */
   private readonly keyProblems: InputProblem[] = [];
   nMissing = 0;
@@ -171,6 +187,7 @@ class RowReader {
       layout.form === 'long'
         ? [{ index: layout.index.value!, attribute: null }]
         : layout.attributeColumns.map((c) => ({ index: c.index, attribute: c.attribute }));
+    this.parseValue = (text) => parseRatingValue(text, decimalMark);
   }
 
   private text(cell: string | undefined): string {
@@ -178,12 +195,7 @@ class RowReader {
   }
 
   private parseDate(text: string): ReturnType<typeof parseSessionDate> {
-    let parsed = this.dates.get(text);
-    if (parsed === undefined) {
-      parsed = parseSessionDate(text);
-      if (this.dates.size < 10_000) this.dates.set(text, parsed);
-    }
-    return parsed;
+    return parseCached(this.dates, text, parseSessionDate);
   }
 
   private requiredText(cells: readonly string[], role: 'session' | 'assessor' | 'product' | 'attribute', row: number, problems: InputProblem[]): string {
@@ -300,7 +312,7 @@ class RowReader {
     if (replicateText === '') {
       keyProblems.push(this.problem('missing-value', row, headers[ix.replicate!], 'The replicate is missing; replicates are numbered 1, 2, 3, …', ''));
     } else {
-      const parsed = parseReplicate(replicateText);
+      const parsed = parseCached(this.replicates, replicateText, parseReplicate);
       if (parsed.ok) replicate = parsed.value;
       else keyProblems.push(this.problem(parsed.code, row, headers[ix.replicate!], parsed.message, replicateText));
     }
@@ -329,7 +341,7 @@ class RowReader {
         continue;
       }
       const scale = column.attribute === null ? this.scaleOf(attribute, row, headers[ix.attribute!], out) : this.scales.get(attribute)!;
-      const parsed = parseRatingValue(text, this.decimalMark);
+      const parsed = parseCached(this.values, text, this.parseValue);
       if (!parsed.ok) {
         const cell = this.rawCell(session, dateText, assessor, product, replicateText, attribute, text, code);
         out.push({ type: 'problem', cell, problem: this.problem(parsed.code, row, header, parsed.message, text) });
