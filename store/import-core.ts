@@ -171,13 +171,19 @@ function ensurePanel(db: Database, name: string, nowIso: string): number {
 class NameTable {
   readonly ids = new Map<string, number>();
   readonly names: string[] = [''];
+  /** Consecutive rows mostly repeat the session, assessor and product: one comparison instead of a hash look-up. */
+  private lastName = '';
+  private lastId = 0;
   id(name: string): number {
+    if (name === this.lastName && this.lastId !== 0) return this.lastId;
     let id = this.ids.get(name);
     if (id === undefined) {
       id = this.names.length;
       this.ids.set(name, id);
       this.names.push(name);
     }
+    this.lastName = name;
+    this.lastId = id;
     return id;
   }
 }
@@ -280,8 +286,8 @@ export async function importRatingEvents(
 
     let batch: ImportEvent[] = [];
     type RatingEvent = Extract<ImportEvent, { type: 'rating' }>;
-    /** Interns the names, checks the session's date; returns the staging key. */
-    const keyOf = (row: number, rating: Rating): [number, number, number, number, number] => {
+    /** Interns the names, checks the session's date; appends the staging key to the chunk's parameters. */
+    const pushKey = (row: number, rating: Rating): void => {
       const s = sessions.id(rating.session);
       let info = sessionInfo[s];
       if (!info) {
@@ -302,7 +308,7 @@ export async function importRatingEvents(
           });
         }
       }
-      return [s, attributes.id(rating.attribute), assessors.id(rating.assessor), products.id(rating.product), rating.replicate];
+      chunkArgs.push(s, attributes.id(rating.attribute), assessors.id(rating.assessor), products.id(rating.product), rating.replicate);
     };
     /** After an insert that may have been skipped: was it this event's row, an exact copy, or a conflict? */
     const settle = (event: RatingEvent, key: readonly number[]): void => {
@@ -337,31 +343,30 @@ export async function importRatingEvents(
       insertHeld.run(row, column, rating.session, rating.date, rating.assessor, rating.product, String(rating.replicate), rating.attribute, String(rating.value), code, 'conflicting-duplicate', reason);
     };
     const chunkEvents: RatingEvent[] = [];
-    const chunkKeys: number[][] = [];
+    /** Nine parameters per row: the five key columns first. */
     const chunkArgs: unknown[] = [];
+    const keyAt = (i: number): number[] => chunkArgs.slice(i * 9, i * 9 + 5) as number[];
     const stageChunk = (): void => {
       if (chunkEvents.length === STAGE_CHUNK_ROWS) {
         // Fast path: every row new. Otherwise look at each row of the chunk (rare: duplicates).
         if (insertStageChunk.run(chunkArgs).changes === STAGE_CHUNK_ROWS) counts.ratings += STAGE_CHUNK_ROWS;
-        else for (let i = 0; i < chunkEvents.length; i++) settle(chunkEvents[i], chunkKeys[i]);
+        else for (let i = 0; i < chunkEvents.length; i++) settle(chunkEvents[i], keyAt(i));
       } else {
         for (let i = 0; i < chunkEvents.length; i++) {
           const args = chunkArgs.slice(i * 9, i * 9 + 9);
           if (insertStage.run(args).changes === 1) counts.ratings += 1;
-          else settle(chunkEvents[i], chunkKeys[i]);
+          else settle(chunkEvents[i], keyAt(i));
         }
       }
       chunkEvents.length = 0;
-      chunkKeys.length = 0;
       chunkArgs.length = 0;
     };
     const flush = db.transaction((pending: ImportEvent[]) => {
       for (const event of pending) {
         if (event.type === 'rating') {
-          const key = keyOf(event.row, event.rating);
+          pushKey(event.row, event.rating);
           chunkEvents.push(event);
-          chunkKeys.push(key);
-          chunkArgs.push(key[0], key[1], key[2], key[3], key[4], event.rating.value, event.rating.code ?? null, event.row, event.column);
+          chunkArgs.push(event.rating.value, event.rating.code ?? null, event.row, event.column);
           if (chunkEvents.length === STAGE_CHUNK_ROWS) stageChunk();
         } else if (event.type === 'problem') {
           const { problem, cell } = event;
