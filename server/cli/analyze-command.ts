@@ -111,11 +111,19 @@ function ratingKeyIndex(observations: readonly Observation[]): Int32Array {
   for (const valueOf of columns) {
     const codeOf = new Map<string | number, number>();
     const codes = new Int32Array(n);
+    // Consecutive rows mostly repeat session, attribute and assessor: compare with the last
+    // value before hashing.
+    let lastValue: string | number | undefined;
+    let lastCode = -1;
     for (let i = 0; i < n; i++) {
       const value = valueOf(observations[i]);
-      let code = codeOf.get(value);
-      if (code === undefined) codeOf.set(value, (code = codeOf.size));
-      codes[i] = code;
+      if (value !== lastValue || lastCode < 0) {
+        let code = codeOf.get(value);
+        if (code === undefined) codeOf.set(value, (code = codeOf.size));
+        lastValue = value;
+        lastCode = code;
+      }
+      codes[i] = lastCode;
     }
     keySpace *= codeOf.size;
     for (let i = 0; i < n; i++) keys[i] = keys[i] * codeOf.size + codes[i];
