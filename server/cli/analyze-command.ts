@@ -12,7 +12,7 @@ import type { Command } from 'commander';
 import { analyzeRatingsWithNotes } from '../../analysis/analyze-ratings.js';
 import { MAX_LISTED_PROBLEMS, type InputProblem } from '../../domain/problems.js';
 import type { Observation } from '../../domain/ratings.js';
-import { readRatings } from '../../ingest/read-ratings.js';
+import { readRatingBatches } from '../../ingest/read-ratings.js';
 import { CliError } from './cli-error.js';
 import { formatProblemLine, type CommandOutput } from './import-command.js';
 
@@ -34,12 +34,15 @@ export async function runAnalyzeCommand(file: string, options: AnalyzeCommandOpt
   const observations: Observation[] = [];
   const problems: InputProblem[] = [];
   const notes: string[] = [];
-  for await (const event of readRatings({ path: file }, { fileName, sheet: options.sheet, scaleFor: () => 'unchecked' })) {
-    if (event.type === 'rating') {
-      const { session, assessor, product, replicate, attribute, value } = event.rating;
-      observations.push({ session, assessor, product, replicate, attribute, value });
-    } else if (event.type === 'problem') problems.push(event.problem);
-    else if (event.type === 'finding') notes.push(`note: ${formatProblemLine(event.finding)}`);
+  // Batches, not single events: one await per batch instead of one per rating.
+  for await (const batch of readRatingBatches({ path: file }, { fileName, sheet: options.sheet, scaleFor: () => 'unchecked' })) {
+    for (const event of batch) {
+      if (event.type === 'rating') {
+        const { session, assessor, product, replicate, attribute, value } = event.rating;
+        observations.push({ session, assessor, product, replicate, attribute, value });
+      } else if (event.type === 'problem') problems.push(event.problem);
+      else if (event.type === 'finding') notes.push(`note: ${formatProblemLine(event.finding)}`);
+    }
   }
   const duplicates = checkDuplicates(observations, fileName);
   problems.push(...duplicates.problems);
