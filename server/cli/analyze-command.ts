@@ -37,10 +37,9 @@ export async function runAnalyzeCommand(file: string, options: AnalyzeCommandOpt
   // Batches, not single events: one await per batch instead of one per rating.
   for await (const batch of readRatingBatches({ path: file }, { fileName, sheet: options.sheet, scaleFor: () => 'unchecked' })) {
     for (const event of batch) {
-      if (event.type === 'rating') {
-        const { session, assessor, product, replicate, attribute, value } = event.rating;
-        observations.push({ session, assessor, product, replicate, attribute, value });
-      } else if (event.type === 'problem') problems.push(event.problem);
+      // A Rating is an Observation (plus date and code, which the models ignore): no copy.
+      if (event.type === 'rating') observations.push(event.rating);
+      else if (event.type === 'problem') problems.push(event.problem);
       else if (event.type === 'finding') notes.push(`note: ${formatProblemLine(event.finding)}`);
     }
   }
