@@ -227,23 +227,24 @@ export function blockArrowInverseDiagonalAll(workspace: BlockArrowWorkspace, out
       out[offset + i] = sum;
     }
     if (nB === 0) continue;
-    // Q = W_bᵀ L_b⁻¹ (n_B × n_b), then the column norms of L_B⁻¹ Q.
+    // Qᵀ = (W_bᵀ L_b⁻¹)ᵀ (n_b × n_B, row-major so that every update and solve runs over
+    // contiguous memory), then the row norms of Qᵀ L_B⁻ᵀ, i.e. the column norms of L_B⁻¹ Q.
     const coupling = couplings[b];
-    const q = new Float64Array(nB * nb);
+    const qt = new Float64Array(nb * nB);
     for (let k = 0; k < nb; k++) {
       const rowK = k * nB;
       for (let i = 0; i <= k; i++) {
         const y = blockInverse[k * nb + i];
         if (y === 0) continue;
-        for (let r = 0; r < nB; r++) q[r * nb + i] += coupling[rowK + r] * y;
+        const rowI = i * nB;
+        for (let r = 0; r < nB; r++) qt[rowI + r] += coupling[rowK + r] * y;
       }
     }
-    const column = new Float64Array(nB);
     for (let i = 0; i < nb; i++) {
-      for (let r = 0; r < nB; r++) column[r] = q[r * nb + i];
-      forwardSolveInPlace(border, nB, column);
+      const rowI = i * nB;
+      forwardSolveInPlace(border, nB, qt, rowI);
       let sum = 0;
-      for (let r = 0; r < nB; r++) sum += column[r] * column[r];
+      for (let r = 0; r < nB; r++) sum += qt[rowI + r] * qt[rowI + r];
       out[offset + i] += sum;
     }
   }

@@ -120,6 +120,9 @@ interface FaceResult {
   messages: string[];
 }
 
+/** Newton decrement below which the Hessian is estimated afresh once (see searchFace). */
+const REFRESH_DECREMENT = 1;
+
 function searchFace(functions: GammaFunctions, start: Float64Array, fixed: Uint8Array, settings: OptimiserControl): FaceResult {
   const k = start.length;
   let x: Float64Array = Float64Array.from(start, (value, i) => (fixed[i] ? 0 : Math.max(value, 0)));
@@ -142,10 +145,23 @@ function searchFace(functions: GammaFunctions, start: Float64Array, fixed: Uint8
     }
   }
   const messages: string[] = [];
+  let refreshed = false;
   for (let iteration = 1; iteration <= settings.maxIterations; iteration++) {
     const free = Uint8Array.from(x, (value, i) => (fixed[i] || (value === 0 && gradient[i] > 0) ? 0 : 1));
     let direction = newtonDirection(inverseHessian, gradient, free);
     let slope = dot(direction, gradient);
+    if (!refreshed && iteration > 1 && -slope < REFRESH_DECREMENT) {
+      // Close to the answer: a Hessian from differences taken here (the first one was taken at
+      // the start, often far away) turns the slow quasi-Newton end game into a few Newton steps.
+      refreshed = true;
+      const estimate = finiteDifferenceInverseHessian(functions, x, gradient, fixed);
+      if (estimate) {
+        inverseHessian = estimate;
+        scaled = true;
+        direction = newtonDirection(inverseHessian, gradient, free);
+        slope = dot(direction, gradient);
+      }
+    }
     if (!(slope < 0)) {
       inverseHessian = diagonalInverse(x);
       scaled = false;
