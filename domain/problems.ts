@@ -59,5 +59,31 @@ export interface InputFinding {
   attribute?: string | null;
 }
 
+/** The identifying text of one cell as read from a file (trimmed; formula prefix removed). */
+export interface CellText {
+  session: string | null;
+  date: string | null;
+  assessor: string | null;
+  product: string | null;
+  replicate: string | null;
+  attribute: string | null;
+  rawValue: string | null;
+}
+
+/** A cell as read, for the quarantine. */
+export interface RawCell extends CellText {
+  code: string | null;
+}
+
+/** One held (quarantined) cell as the import pages list it. */
+export interface QuarantineListRow extends CellText {
+  quarantineId: number;
+  rowNumber: number | null;
+  column: string | null;
+  reasonCode: string;
+  reason: string;
+  status: 'held' | 'released' | 'discarded';
+}
+
 /** Cap on listed problems; the total is always reported. */
 export const MAX_LISTED_PROBLEMS = 100;

@@ -26,7 +26,7 @@
 import { open } from 'node:fs/promises';
 import { createReadStream } from 'node:fs';
 import { Readable } from 'node:stream';
-import type { InputFinding, InputProblem, ProblemCode } from '../domain/problems.js';
+import type { InputFinding, InputProblem, ProblemCode, RawCell } from '../domain/problems.js';
 import type { Rating, ScaleRange } from '../domain/ratings.js';
 import { parseRatingValue, parseReplicate, parseSessionDate, type CellResult, type DecimalMark } from './cells.js';
 import { readCsvRecords, type SourceRecord } from './csv-records.js';
@@ -59,17 +59,7 @@ export interface ReadRatingsOptions {
   stallTimeoutMs?: number;
 }
 
-/** A cell as read (trimmed text, apostrophe formula prefix removed), for the quarantine. */
-export interface RawCell {
-  session: string | null;
-  date: string | null;
-  assessor: string | null;
-  product: string | null;
-  replicate: string | null;
-  attribute: string | null;
-  rawValue: string | null;
-  code: string | null;
-}
+export type { RawCell } from '../domain/problems.js';
 
 export type ReadEvent =
   /** row as a spreadsheet shows it (header = 1); column = header of the value cell. */

@@ -1,6 +1,7 @@
 /** The imports list (all panels, or one) and one import with its findings, problems and quarantine. */
 import { buildImportResultView, type ImportAnswerInput, type ImportOutcome, type ImportResultView } from './import-result-view.js';
 import { HOME_CRUMB, importHref, panelHref, type PageViewBase } from './page-common.js';
+import type { QuarantineListRow } from '../domain/problems.js';
 
 export interface ImportRowInput {
   importId: number;
@@ -52,21 +53,7 @@ export function buildImportsView(input: { panel: string | null; rows: ImportRowI
   };
 }
 
-export interface QuarantineInput {
-  quarantineId: number;
-  rowNumber: number | null;
-  column: string | null;
-  session: string | null;
-  date: string | null;
-  assessor: string | null;
-  product: string | null;
-  replicate: string | null;
-  attribute: string | null;
-  rawValue: string | null;
-  reasonCode: string;
-  reason: string;
-  status: 'held' | 'released' | 'discarded';
-}
+export type QuarantineInput = QuarantineListRow;
 
 export interface ImportView extends PageViewBase {
   /** The panel imported into (also gives the page its panel navigation). */

@@ -1,4 +1,5 @@
 import type { Database } from 'better-sqlite3';
+import type { CellText } from '../domain/problems.js';
 
 /** A quarantined cell cannot be released; the message says why and what to do. */
 export class QuarantineError extends Error {
@@ -8,20 +9,13 @@ export class QuarantineError extends Error {
   }
 }
 
-export interface QuarantinedCell {
+export interface QuarantinedCell extends CellText {
   id: number;
   importId: number;
   panel: string;
   fileName: string;
   rowNumber: number | null;
   columnName: string | null;
-  session: string | null;
-  date: string | null;
-  assessor: string | null;
-  product: string | null;
-  replicate: string | null;
-  attribute: string | null;
-  rawValue: string | null;
   sampleCode: string | null;
   reasonCode: string;
   reason: string;

@@ -1,5 +1,6 @@
 /** Read queries for the imports list, one import's page, and its quarantined cells. */
 import type { Database } from 'better-sqlite3';
+import type { QuarantineListRow } from '../domain/problems.js';
 
 export interface ImportRow {
   importId: number;
@@ -57,21 +58,7 @@ export function readImportDetail(db: Database, importId: number): ImportDetailRo
   return row ?? null;
 }
 
-export interface QuarantineRow {
-  quarantineId: number;
-  rowNumber: number | null;
-  column: string | null;
-  session: string | null;
-  date: string | null;
-  assessor: string | null;
-  product: string | null;
-  replicate: string | null;
-  attribute: string | null;
-  rawValue: string | null;
-  reasonCode: string;
-  reason: string;
-  status: 'held' | 'released' | 'discarded';
-}
+export type QuarantineRow = QuarantineListRow;
 
 /** Cells an import put in quarantine, in file order; at most `limit`. */
 export function readImportQuarantine(db: Database, importId: number, limit: number): QuarantineRow[] {
