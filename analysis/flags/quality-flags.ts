@@ -105,7 +105,8 @@ function sessionFlags(
       ...base,
       kind: 'swapped-codes',
       assessor: swap.assessor,
-      product: `${swap.productA}, ${swap.productB}`,
+      // One product code per field (filters by product must work); both are in evidence.products and the message.
+      product: swap.productA,
       severity: 'watch',
       evidence: {
         test: 'profile distance swap check (methods §5.10)',

@@ -47,8 +47,9 @@ describe('flagFindsFault', () => {
     expect(flagFindsFault(flag({ kind: 'swapped-codes', assessor: 'A03', product: 'T02', firstSession: 'S05' }), swapped)).toBe(true);
     expect(flagFindsFault(flag({ kind: 'swapped-codes', assessor: 'A03', product: 'REF', firstSession: 'S05' }), swapped)).toBe(true);
     expect(flagFindsFault(flag({ kind: 'swapped-codes', assessor: 'A03', product: 'T03', firstSession: 'S05' }), swapped)).toBe(false);
-    expect(flagFindsFault(flag({ kind: 'swapped-codes', assessor: 'A03', product: 'REF, T02', firstSession: 'S05' }), swapped)).toBe(true);
-    expect(flagFindsFault(flag({ kind: 'swapped-codes', assessor: 'A03', product: 'T03, T04', firstSession: 'S05' }), swapped)).toBe(false);
+    const withProducts = (products: string[]) => ({ test: 'swap', n: 10, threshold: 't', products });
+    expect(flagFindsFault(flag({ kind: 'swapped-codes', assessor: 'A03', product: 'T07', evidence: withProducts(['T07', 'T02']), firstSession: 'S05' }), swapped)).toBe(true);
+    expect(flagFindsFault(flag({ kind: 'swapped-codes', assessor: 'A03', product: 'T03', evidence: withProducts(['T03', 'T04']), firstSession: 'S05' }), swapped)).toBe(false);
     expect(flagFindsFault(flag({ kind: 'swapped-codes', assessor: 'A03', product: 'T02', firstSession: 'S06' }), swapped)).toBe(false);
   });
 

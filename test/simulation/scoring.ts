@@ -19,8 +19,8 @@ export function flagFindsFault(flag: Flag, fault: PlantedFault): boolean {
   if (fault.assessor !== null && flag.assessor !== fault.assessor) return false;
   if (fault.product !== null && flag.product !== null) {
     const planted = [fault.product, fault.otherProduct].filter((p): p is string => p !== null);
-    // A swap flag may name both products in one field ("T02, T06").
-    const named = fault.kind === 'swapped-codes' ? flag.product.split(/,\s*/) : [flag.product];
+    // A swap flag names one product in `product` and both in evidence.products.
+    const named = fault.kind === 'swapped-codes' && Array.isArray(flag.evidence.products) ? (flag.evidence.products as string[]) : [flag.product];
     if (!named.some((p) => planted.includes(p))) return false;
   }
   // A product-less instability flag (the period model's product:session test) finds a planted

@@ -57,7 +57,8 @@ describe('planted data-quality problems', () => {
     const flags = buildFlags(historyOf([...swapped, ...clean.filter((r) => r.session === 'S02')]));
     const hit = only(flags, 'swapped-codes');
     expect(hit).toHaveLength(1);
-    expect(hit[0]).toMatchObject({ assessor: 'A03', severity: 'watch', firstSession: 'S01', product: 'P1, P4' });
+    expect(hit[0]).toMatchObject({ assessor: 'A03', severity: 'watch', firstSession: 'S01', product: 'P1' });
+    expect(hit[0].evidence.products).toEqual(['P1', 'P4']);
     expect(hit[0].message).toMatch(/^In session S01, A03's ratings of P1 and P4 \(codes \d{3} and \d{3}\), replicate 1, each matched/);
   });
   it('straight-lining: flat on 4 attributes → act, attribute null', () => {
