@@ -79,8 +79,9 @@ export function fitPeriodModel(observations: Observation[], options: PeriodModel
 
   let productSessionLrt: PeriodModelFit['productSessionLrt'] = null;
   if (withProductSession) {
-    const reducedStart = momentStart ? periodMomentStart(cells, false) : null;
-    const lrt = boundaryLikelihoodRatioTest(objective, { theta: fit.theta, criterion: fit.criterion }, 'product:session', reducedStart ?? undefined);
+    // The fit without product:session starts from the full fit's other components (closer to
+    // its answer than any moment start: only the product:session variance has to be redistributed).
+    const lrt = boundaryLikelihoodRatioTest(objective, { theta: fit.theta, criterion: fit.criterion }, 'product:session');
     if (!lrt.reducedConverged) fit.diagnostics.messages.push('the fit without product:session did not converge: its likelihood ratio is unreliable');
     productSessionLrt = { likelihoodRatio: lrt.likelihoodRatio, pValue: lrt.pValue };
   }

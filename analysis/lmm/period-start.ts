@@ -131,9 +131,87 @@ function periodAnova(cells: PeriodCells, withProductSession: boolean): PeriodAno
 }
 
 export function periodMomentStart(cells: PeriodCells, withProductSession: boolean): number[] | null {
-  const anova = periodAnova(cells, withProductSession);
+  const anova = periodAnova(cells, withProductSession) ?? incompletePeriodAnova(cells, withProductSession);
   if (!anova) return null;
   return anova.variances.map((variance) => Math.sqrt(Math.max(variance / anova.residual, 1e-4)));
+}
+
+/**
+ * Start values when the crossed formulas above fail (products rotating between sessions, absent
+ * assessors): σ²_E from the replicates within assessor × product × session cells (pure error),
+ * each two-way term's mean square on the cells present (df = cells − rows − columns + 1) with the
+ * mean number of ratings per present level as its coefficient. Only a start value: it has to put
+ * the optimiser near the answer, not be the answer.
+ */
+function incompletePeriodAnova(cells: PeriodCells, withProductSession: boolean): { variances: number[]; residual: number } | null {
+  const { nAssessors: A, nProducts: P, nSessions: S } = cells;
+  const n = cells.values.length;
+  let grand = 0;
+  for (let i = 0; i < n; i++) grand += cells.values[i];
+  grand /= n;
+  const margin = (size: number, key: (i: number) => number): { mean: Float64Array; count: Float64Array; present: number } => {
+    const mean = new Float64Array(size);
+    const count = new Float64Array(size);
+    for (let i = 0; i < n; i++) {
+      const index = key(i);
+      mean[index] += cells.values[i];
+      count[index]++;
+    }
+    let present = 0;
+    for (let index = 0; index < size; index++) {
+      if (count[index] > 0) {
+        mean[index] /= count[index];
+        present++;
+      }
+    }
+    return { mean, count, present };
+  };
+  const a = margin(A, (i) => cells.assessor[i]);
+  const p = margin(P, (i) => cells.product[i]);
+  const s = margin(S, (i) => cells.session[i]);
+  const ap = margin(A * P, (i) => cells.assessor[i] * P + cells.product[i]);
+  const as = margin(A * S, (i) => cells.assessor[i] * S + cells.session[i]);
+  const ps = margin(P * S, (i) => cells.product[i] * S + cells.session[i]);
+  const aps = margin(A * P * S, (i) => (cells.assessor[i] * P + cells.product[i]) * S + cells.session[i]);
+  let ssWithin = 0;
+  let ssA = 0;
+  let ssS = 0;
+  let ssAP = 0;
+  let ssAS = 0;
+  let ssPS = 0;
+  for (let i = 0; i < n; i++) {
+    const ai = cells.assessor[i];
+    const pi = cells.product[i];
+    const si = cells.session[i];
+    const mA = a.mean[ai] - grand;
+    const mP = p.mean[pi] - grand;
+    const mS = s.mean[si] - grand;
+    ssWithin += (cells.values[i] - aps.mean[(ai * P + pi) * S + si]) ** 2;
+    ssA += mA * mA;
+    ssS += mS * mS;
+    ssAP += (ap.mean[ai * P + pi] - grand - mA - mP) ** 2;
+    ssAS += (as.mean[ai * S + si] - grand - mA - mS) ** 2;
+    ssPS += (ps.mean[pi * S + si] - grand - mP - mS) ** 2;
+  }
+  const dfWithin = n - aps.present;
+  const dfA = a.present - 1;
+  const dfS = s.present - 1;
+  const dfAP = ap.present - a.present - p.present + 1;
+  const dfAS = as.present - a.present - s.present + 1;
+  const dfPS = ps.present - p.present - s.present + 1;
+  if (!(dfWithin > 0 && ssWithin > 0 && dfA > 0 && dfS > 0 && dfAP > 0 && dfAS > 0) || (withProductSession && !(dfPS > 0))) return null;
+  const residual = ssWithin / dfWithin;
+  const perAP = n / ap.present;
+  const perAS = n / as.present;
+  const perPS = n / ps.present;
+  const vAP = (ssAP / dfAP - residual) / perAP;
+  const vAS = (ssAS / dfAS - residual) / perAS;
+  const vPS = withProductSession ? (ssPS / dfPS - residual) / perPS : 0;
+  const vA = (ssA / dfA - residual - perAP * vAP - perAS * vAS) / (n / a.present);
+  const vS = (ssS / dfS - residual - perAS * vAS - perPS * vPS) / (n / s.present);
+  const variances = [vA, vS, vAP, vAS];
+  if (withProductSession) variances.push(vPS);
+  return { variances, residual };
 }
 
 
