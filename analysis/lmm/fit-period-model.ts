@@ -79,9 +79,11 @@ export function fitPeriodModel(observations: Observation[], options: PeriodModel
 
   let productSessionLrt: PeriodModelFit['productSessionLrt'] = null;
   if (withProductSession) {
-    // The fit without product:session starts from the full fit's other components (closer to
-    // its answer than any moment start: only the product:session variance has to be redistributed).
-    const lrt = boundaryLikelihoodRatioTest(objective, { theta: fit.theta, criterion: fit.criterion }, 'product:session');
+    // Balanced: the reduced model's closed form (or moment start) is its answer or close to it.
+    // Otherwise the full fit's other components are the better start (only the product:session
+    // variance has to be redistributed).
+    const reducedStart = closedForm ? (balancedPeriodSolution(cells, false)?.theta ?? periodMomentStart(cells, false)) : null;
+    const lrt = boundaryLikelihoodRatioTest(objective, { theta: fit.theta, criterion: fit.criterion }, 'product:session', reducedStart ?? undefined);
     if (!lrt.reducedConverged) fit.diagnostics.messages.push('the fit without product:session did not converge: its likelihood ratio is unreliable');
     productSessionLrt = { likelihoodRatio: lrt.likelihoodRatio, pValue: lrt.pValue };
   }
