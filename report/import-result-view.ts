@@ -6,20 +6,11 @@
 import type { InputFinding, InputProblem } from '../domain/problems.js';
 import { importHref, panelHref, sessionHref } from './page-common.js';
 
-export type ImportOutcome = 'imported' | 'unchanged' | 'rejected' | 'quarantined';
+import type { ImportCounts, ImportOutcome } from '../domain/imports.js';
+export type { ImportOutcome } from '../domain/imports.js';
 
 /** The counts of an import answer (the store's ImportReport.counts). */
-export interface ImportCountsInput {
-  rows: number;
-  ratings: number;
-  missingCells: number;
-  sessions: number;
-  sessionsNew: number;
-  sessionsReplaced: number;
-  sessionsUnchanged: number;
-  valuesReplaced: number;
-  quarantined: number;
-}
+export type ImportCountsInput = ImportCounts;
 
 /** The part of the store's ImportReport this view reads. */
 export interface ImportAnswerInput {

@@ -1,18 +1,9 @@
 /** Home page: the panels in the store. */
 import { HOME_CRUMB, panelHref, type PageViewBase } from './page-common.js';
 
-export interface PanelSummaryInput {
-  name: string;
-  nSessions: number;
-  nAssessors: number;
-  nProducts: number;
-  nAttributes: number;
-  nRatings: number;
-  nImports: number;
-  nQuarantineHeld: number;
-  firstSessionDate: string | null;
-  lastSessionDate: string | null;
-}
+import type { PanelSummary } from '../domain/imports.js';
+
+export type PanelSummaryInput = PanelSummary;
 
 export interface PanelListItem extends PanelSummaryInput {
   href: string;

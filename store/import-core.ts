@@ -22,24 +22,8 @@ import type { ImportSource, Rating, ScaleRange } from '../domain/ratings.js';
 import type { RawCell, ReadEvent } from '../ingest/read-ratings.js';
 import type { PanelConfigFile } from './panel-config.js';
 
-export type ImportOutcome = 'imported' | 'unchanged' | 'rejected' | 'quarantined';
-
-export interface ImportCounts {
-  /** Data rows in the file (the header is not counted). */
-  rows: number;
-  /** Valid ratings read from the file, exact duplicates counted once. */
-  ratings: number;
-  missingCells: number;
-  /** Sessions named in the file. */
-  sessions: number;
-  sessionsNew: number;
-  sessionsReplaced: number;
-  sessionsUnchanged: number;
-  /** Stored values replaced or removed (each kept in the correction history). */
-  valuesReplaced: number;
-  /** Cells held in quarantine. */
-  quarantined: number;
-}
+import type { ImportCounts, ImportOutcome } from '../domain/imports.js';
+export type { ImportCounts, ImportOutcome } from '../domain/imports.js';
 
 export interface ImportReport {
   ok: boolean;

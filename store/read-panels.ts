@@ -3,21 +3,11 @@
  * parameterised SQL only.
  */
 import type { Database } from 'better-sqlite3';
+import type { PanelSummary } from '../domain/imports.js';
 
-export interface PanelSummaryRow {
+export interface PanelSummaryRow extends PanelSummary {
   panelId: number;
-  name: string;
   createdAt: string;
-  nSessions: number;
-  nAssessors: number;
-  nProducts: number;
-  nAttributes: number;
-  nRatings: number;
-  nImports: number;
-  /** Quarantined cells still waiting for correction. */
-  nQuarantineHeld: number;
-  firstSessionDate: string | null;
-  lastSessionDate: string | null;
 }
 
 const PANEL_SUMMARY_SQL = `
