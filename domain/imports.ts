@@ -35,3 +35,34 @@ export interface PanelSummary {
   firstSessionDate: string | null;
   lastSessionDate: string | null;
 }
+
+/** One import as the imports list shows it. */
+export interface ImportSummary {
+  importId: number;
+  panel: string;
+  fileName: string;
+  sha256: string;
+  source: 'cli' | 'http' | 'web';
+  startedAt: string;
+  finishedAt: string | null;
+  outcome: ImportOutcome;
+  nRows: number;
+  nRatings: number;
+  nSessions: number;
+  nReplaced: number;
+  nQuarantined: number;
+  nErrors: number;
+}
+
+/** One session's counts (panel page). */
+export interface SessionCounts {
+  label: string;
+  date: string;
+  dataVersion: number;
+  nAssessors: number;
+  nProducts: number;
+  nAttributes: number;
+  /** Highest replicate number rated in the session. */
+  nReplicates: number;
+  nRatings: number;
+}

@@ -2,23 +2,9 @@
 import { buildImportResultView, type ImportAnswerInput, type ImportOutcome, type ImportResultView } from './import-result-view.js';
 import { HOME_CRUMB, importHref, panelHref, type PageViewBase } from './page-common.js';
 import type { QuarantineListRow } from '../domain/problems.js';
+import type { ImportSummary } from '../domain/imports.js';
 
-export interface ImportRowInput {
-  importId: number;
-  panel: string;
-  fileName: string;
-  sha256: string;
-  source: 'cli' | 'http' | 'web';
-  startedAt: string;
-  finishedAt: string | null;
-  outcome: ImportOutcome;
-  nRows: number;
-  nRatings: number;
-  nSessions: number;
-  nReplaced: number;
-  nQuarantined: number;
-  nErrors: number;
-}
+export type ImportRowInput = ImportSummary;
 
 export interface ImportListItem extends ImportRowInput {
   href: string;

@@ -1,6 +1,7 @@
 /** One panel: its attributes and scales, and its sessions with counts and completeness. */
 import { completenessPercent, HOME_CRUMB, sessionHref, type PageViewBase } from './page-common.js';
 import type { PanelSummaryInput } from './panels-view.js';
+import type { SessionCounts } from '../domain/imports.js';
 
 export interface AttributeScaleInput {
   name: string;
@@ -10,16 +11,7 @@ export interface AttributeScaleInput {
   anchorHigh: string | null;
 }
 
-export interface SessionCountsInput {
-  label: string;
-  date: string;
-  dataVersion: number;
-  nAssessors: number;
-  nProducts: number;
-  nAttributes: number;
-  nReplicates: number;
-  nRatings: number;
-}
+export type SessionCountsInput = SessionCounts;
 
 export interface SessionListItem extends SessionCountsInput {
   href: string;

@@ -1,23 +1,9 @@
 /** Read queries for the imports list, one import's page, and its quarantined cells. */
 import type { Database } from 'better-sqlite3';
 import type { QuarantineListRow } from '../domain/problems.js';
+import type { ImportSummary } from '../domain/imports.js';
 
-export interface ImportRow {
-  importId: number;
-  panel: string;
-  fileName: string;
-  sha256: string;
-  source: 'cli' | 'http' | 'web';
-  startedAt: string;
-  finishedAt: string | null;
-  outcome: 'imported' | 'unchanged' | 'rejected' | 'quarantined';
-  nRows: number;
-  nRatings: number;
-  nSessions: number;
-  nReplaced: number;
-  nQuarantined: number;
-  nErrors: number;
-}
+export type ImportRow = ImportSummary;
 
 const IMPORT_COLUMNS = `i.id AS importId, p.name AS panel, i.file_name AS fileName, i.content_sha256 AS sha256,
   i.source AS source, i.started_at AS startedAt, i.finished_at AS finishedAt, i.outcome AS outcome,

@@ -3,7 +3,7 @@
  * parameterised SQL only.
  */
 import type { Database } from 'better-sqlite3';
-import type { PanelSummary } from '../domain/imports.js';
+import type { PanelSummary, SessionCounts } from '../domain/imports.js';
 
 export interface PanelSummaryRow extends PanelSummary {
   panelId: number;
@@ -51,17 +51,8 @@ export function readPanelAttributes(db: Database, panelId: number): AttributeSca
     .all(panelId) as AttributeScaleRow[];
 }
 
-export interface SessionSummaryRow {
+export interface SessionSummaryRow extends SessionCounts {
   sessionId: number;
-  label: string;
-  date: string;
-  dataVersion: number;
-  nAssessors: number;
-  nProducts: number;
-  nAttributes: number;
-  /** Highest replicate number rated in the session. */
-  nReplicates: number;
-  nRatings: number;
 }
 
 /** Sessions joined to their ratings, grouped per session: append WHERE … GROUP BY s.id. */
