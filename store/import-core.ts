@@ -20,6 +20,21 @@ import type { InputFinding, InputProblem, ProblemCode } from '../domain/problems
 import { MAX_LISTED_PROBLEMS } from '../domain/problems.js';
 import type { ImportSource, Rating, ScaleRange } from '../domain/ratings.js';
 import type { RawCell, ReadEvent } from '../ingest/read-ratings.js';
+import {
+  compactBatches,
+  F_ASSESSOR,
+  F_ATTRIBUTE,
+  F_CODE,
+  F_COLUMN,
+  F_DATE,
+  F_PRODUCT,
+  F_REPLICATE,
+  F_ROW,
+  F_SESSION,
+  KEY_FIELDS,
+  NAME_KINDS,
+  type CompactBatch,
+} from '../ingest/compact-batches.js';
 import type { PanelConfigFile } from './panel-config.js';
 
 import type { ImportCounts, ImportOutcome } from '../domain/imports.js';
@@ -66,6 +81,8 @@ export type ImportPhase = 'writing' | 'committed';
 const STAGE_BATCH = 4096;
 /** Rows per multi-row INSERT into the staging table (2,304 parameters, under SQLite's 32,766). */
 const STAGE_CHUNK_ROWS = 256;
+/** Parameters per staged row. */
+const STAGE_FIELDS = 9;
 /** Findings of one kind listed in the report (the total is in the message). */
 const MAX_LISTED_FINDINGS_PER_CODE = MAX_LISTED_PROBLEMS;
 
@@ -125,14 +142,22 @@ export function unchangedReport(
     totalErrors: 0,
     message: `${request.fileName} has the same content as import #${earlier.id} of ${earlier.startedAt.slice(0, 10)} into panel "${request.panel}"; nothing changed.`,
   };
-  return { ...base, importId: recordAttempt(db, request, base) };
+  return { ...base, importId: recordAttempt(db, request, base) as number };
 }
 
-/** Records an attempt that wrote no ratings (rejected, or unchanged content); creates the panel if needed. */
-export function recordAttempt(db: Database, request: Omit<ImportEventsRequest, 'sha256'> & { sha256: string }, report: Omit<ImportReport, 'importId'>): number {
+/**
+ * Records an attempt that wrote no ratings (rejected, or unchanged content) in the import log.
+ * The log belongs to a panel (every import row names one), so a rejected import into a panel
+ * the store does not have yet is not logged at all: creating the panel only to log the rejection
+ * would leave an empty panel behind, and a rejection writes nothing. The person still gets the
+ * whole answer (problems by file, row and column); the returned id is then null.
+ */
+export function recordAttempt(db: Database, request: Omit<ImportEventsRequest, 'sha256'> & { sha256: string }, report: Omit<ImportReport, 'importId'>): number | null {
   const now = (request.now ?? (() => new Date()))().toISOString();
-  return db.transaction(() => {
-    const panelId = ensurePanel(db, request.panel, now);
+  return db.transaction((): number | null => {
+    const panel = db.prepare('SELECT id FROM panel WHERE name = ?').get(request.panel) as { id: number } | undefined;
+    if (panel === undefined && report.outcome === 'rejected') return null;
+    const panelId = panel?.id ?? ensurePanel(db, request.panel, now);
     const info = db
       .prepare(
         `INSERT INTO import (panel_id, file_name, content_sha256, source, started_at, finished_at, outcome,
@@ -151,29 +176,22 @@ function ensurePanel(db: Database, name: string, nowIso: string): number {
   return (db.prepare('SELECT id FROM panel WHERE name = ?').get(name) as { id: number }).id;
 }
 
-/** Interns names to dense 1-based integers; memory grows with distinct names, not rows. */
-class NameTable {
+/** The names a compact batch's ids stand for (ids 1-based, in the order the reader met them). */
+class NameList {
   readonly ids = new Map<string, number>();
   readonly names: string[] = [''];
-  /** Consecutive rows mostly repeat the session, assessor and product: one comparison instead of a hash look-up. */
-  private lastName = '';
-  private lastId = 0;
-  id(name: string): number {
-    if (name === this.lastName && this.lastId !== 0) return this.lastId;
-    let id = this.ids.get(name);
-    if (id === undefined) {
-      id = this.names.length;
-      this.ids.set(name, id);
+  add(fresh: readonly string[]): void {
+    for (const name of fresh) {
+      this.ids.set(name, this.names.length);
       this.names.push(name);
     }
-    this.lastName = name;
-    this.lastId = id;
-    return id;
   }
 }
 
 interface SessionInFile {
   date: string;
+  /** Id of the date in the reader's name list. */
+  dateId: number;
   firstRow: number;
   /** Another date was seen for this label in the file. */
   dateConflict: boolean;
@@ -201,13 +219,26 @@ const QUARANTINABLE: ReadonlySet<ProblemCode> = new Set<ProblemCode>([
 class RejectImport extends Error {}
 
 /**
- * Runs one import from a stream of read events. See the module comment for the phases.
+ * Runs one import from a stream of read events (encoded into compact batches on this thread).
  * Never throws for bad input: problems come back in the report (outcome 'rejected').
  */
-export async function importRatingEvents(
+export function importRatingEvents(
   db: Database,
   request: ImportEventsRequest,
   events: AsyncIterable<ImportEvent | ImportEvent[]> | Iterable<ImportEvent | ImportEvent[]>,
+): Promise<ImportReport> {
+  return importRatingBatches(db, request, compactBatches(events));
+}
+
+/**
+ * Runs one import from the reader's compact batches (ingest/compact-batches.ts), in reading
+ * order, e.g. as a worker thread posts them. See the module comment for the phases.
+ * Never throws for bad input: problems come back in the report (outcome 'rejected').
+ */
+export async function importRatingBatches(
+  db: Database,
+  request: ImportEventsRequest,
+  batches: AsyncIterable<CompactBatch> | Iterable<CompactBatch>,
 ): Promise<ImportReport> {
   const { panel, fileName } = request;
   let sha256 = typeof request.sha256 === 'string' ? request.sha256 : '';
@@ -233,9 +264,11 @@ export async function importRatingEvents(
   db.exec(`
     -- Keyed in the order files list ratings (session, then assessor, product, replicate, attribute),
     -- so staging appends instead of inserting all over the key tree: about 40 % less staging time.
+    -- Every column is an integer (names, sample codes and column headers are ids of the reader's
+    -- name lists) except the value: a smaller row and no text to convert per rating.
     CREATE TABLE ${stage} (
       s INTEGER NOT NULL, attr INTEGER NOT NULL, assessor INTEGER NOT NULL, product INTEGER NOT NULL,
-      rep INTEGER NOT NULL, value REAL NOT NULL, code TEXT, row INTEGER NOT NULL, col TEXT NOT NULL,
+      rep INTEGER NOT NULL, value REAL NOT NULL, code INTEGER NOT NULL, row INTEGER NOT NULL, col INTEGER NOT NULL,
       conflicted INTEGER NOT NULL DEFAULT 0,
       PRIMARY KEY (s, assessor, product, rep, attr)
     ) WITHOUT ROWID;
@@ -244,10 +277,8 @@ export async function importRatingEvents(
       attribute TEXT, raw_value TEXT, code TEXT, reason_code TEXT NOT NULL, reason TEXT NOT NULL
     );`);
   try {
-    const sessions = new NameTable();
-    const attributes = new NameTable();
-    const assessors = new NameTable();
-    const products = new NameTable();
+    const nameLists = NAME_KINDS.map(() => new NameList());
+    const [sessions, attributes, assessors, products, columns, codes, dates] = nameLists;
     const sessionInfo: SessionInFile[] = [undefined as unknown as SessionInFile];
     const dateConflictSeen = new Set<string>();
     let maxRow = 1;
@@ -268,42 +299,29 @@ export async function importRatingEvents(
        VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`,
     );
 
-    let batch: ImportEvent[] = [];
-    type RatingEvent = Extract<ImportEvent, { type: 'rating' }>;
-    /** Interns the names, checks the session's date; appends the staging key to the chunk's parameters. */
-    const pushKey = (row: number, rating: Rating): void => {
-      const s = sessions.id(rating.session);
-      let info = sessionInfo[s];
-      if (!info) {
-        info = { date: rating.date, firstRow: row, dateConflict: false };
-        sessionInfo[s] = info;
-      } else if (info.date !== rating.date) {
-        info.dateConflict = true;
-        const seenKey = `${s}\u0000${rating.date}`;
-        if (!dateConflictSeen.has(seenKey)) {
-          dateConflictSeen.add(seenKey);
-          addProblem({
-            code: 'session-date-conflict',
-            file: fileName,
-            row,
-            column: 'date',
-            message: `Session "${rating.session}" is dated ${rating.date} here but ${info.date} in row ${info.firstRow}; a session has one date, so correct one of them or give the sessions different labels.`,
-            value: rating.date,
-          });
-        }
-      }
-      chunkArgs.push(s, attributes.id(rating.attribute), assessors.id(rating.assessor), products.id(rating.product), rating.replicate);
-    };
-    /** After an insert that may have been skipped: was it this event's row, an exact copy, or a conflict? */
-    const settle = (event: RatingEvent, key: readonly number[]): void => {
-      const { row, column, rating } = event;
-      const code = rating.code ?? null;
-      const earlier = findStaged.get(...key) as { value: number; code: string | null; row: number; col: string };
+    /** Nine parameters per row, in STAGE_COLUMNS order; reused for every chunk. */
+    const chunkArgs: number[] = new Array<number>(STAGE_CHUNK_ROWS * STAGE_FIELDS).fill(0);
+    let chunkRows = 0;
+    /** The batch and rating index of the chunk's first row (a chunk never spans batches). */
+    let chunkBatch: CompactBatch | null = null;
+    let chunkFirst = 0;
+    const codeOrNull = (id: number): string | null => (id === 0 ? null : codes.names[id]);
+    /** After an insert that may have been skipped: was it this rating's row, an exact copy, or a conflict? */
+    const settle = (batch: CompactBatch, r: number): void => {
+      const k = r * KEY_FIELDS;
+      const keys = batch.keys;
+      const key = [keys[k + F_SESSION], keys[k + F_ATTRIBUTE], keys[k + F_ASSESSOR], keys[k + F_PRODUCT], keys[k + F_REPLICATE]];
+      const row = keys[k + F_ROW];
+      const column = keys[k + F_COLUMN];
+      const code = keys[k + F_CODE];
+      const value = batch.values[r];
+      const earlier = findStaged.get(...key) as { value: number; code: number; row: number; col: number };
       if (earlier.row === row && earlier.col === column) {
         counts.ratings += 1;
         return;
       }
-      if (earlier.value === rating.value && earlier.code === code) {
+      const [session, attribute, assessor, product] = [sessions.names[key[0]], attributes.names[key[1]], assessors.names[key[2]], products.names[key[3]]];
+      if (earlier.value === value && earlier.code === code) {
         // An exact copy: keep one and name it once per row (a wide row repeats for every attribute).
         if (row !== lastDuplicateRow) {
           lastDuplicateRow = row;
@@ -313,58 +331,56 @@ export async function importRatingEvents(
             row,
             column: null,
             message: `Row ${row} repeats row ${earlier.row} exactly; it was counted once.`,
-            session: rating.session,
-            assessor: rating.assessor,
-            product: rating.product,
-            attribute: rating.attribute,
+            session,
+            assessor,
+            product,
+            attribute,
           });
         }
         return;
       }
       markConflicted.run(...key);
-      const reason = `Row ${row} gives ${rating.value} for session "${rating.session}", assessor ${rating.assessor}, product ${rating.product}, replicate ${rating.replicate}, attribute ${rating.attribute}, but row ${earlier.row} gives ${earlier.value}${earlier.code !== code ? ` (sample codes ${earlier.code ?? 'none'} and ${code ?? 'none'})` : ''}; keep only the correct one.`;
-      addProblem({ code: 'conflicting-duplicate', file: fileName, row, column, message: reason, value: String(rating.value) });
-      insertHeld.run(row, column, rating.session, rating.date, rating.assessor, rating.product, String(rating.replicate), rating.attribute, String(rating.value), code, 'conflicting-duplicate', reason);
+      const [earlierCode, laterCode] = [codeOrNull(earlier.code), codeOrNull(code)];
+      const reason = `Row ${row} gives ${value} for session "${session}", assessor ${assessor}, product ${product}, replicate ${key[4]}, attribute ${attribute}, but row ${earlier.row} gives ${earlier.value}${earlierCode !== laterCode ? ` (sample codes ${earlierCode ?? 'none'} and ${laterCode ?? 'none'})` : ''}; keep only the correct one.`;
+      addProblem({ code: 'conflicting-duplicate', file: fileName, row, column: columns.names[column], message: reason, value: String(value) });
+      const date = dates.names[keys[k + F_DATE]];
+      insertHeld.run(row, columns.names[column], session, date, assessor, product, String(key[4]), attribute, String(value), laterCode, 'conflicting-duplicate', reason);
     };
-    const chunkEvents: RatingEvent[] = [];
-    /** Nine parameters per row: the five key columns first. */
-    const chunkArgs: unknown[] = [];
-    const keyAt = (i: number): number[] => chunkArgs.slice(i * 9, i * 9 + 5) as number[];
     const stageChunk = (): void => {
-      if (chunkEvents.length === STAGE_CHUNK_ROWS) {
+      if (chunkRows === STAGE_CHUNK_ROWS) {
         // Fast path: every row new. Otherwise look at each row of the chunk (rare: duplicates).
         if (insertStageChunk.run(chunkArgs).changes === STAGE_CHUNK_ROWS) counts.ratings += STAGE_CHUNK_ROWS;
-        else for (let i = 0; i < chunkEvents.length; i++) settle(chunkEvents[i], keyAt(i));
+        else for (let i = 0; i < chunkRows; i++) settle(chunkBatch!, chunkFirst + i);
       } else {
-        for (let i = 0; i < chunkEvents.length; i++) {
-          const args = chunkArgs.slice(i * 9, i * 9 + 9);
-          if (insertStage.run(args).changes === 1) counts.ratings += 1;
-          else settle(chunkEvents[i], keyAt(i));
+        for (let i = 0; i < chunkRows; i++) {
+          if (insertStage.run(chunkArgs.slice(i * STAGE_FIELDS, (i + 1) * STAGE_FIELDS)).changes === 1) counts.ratings += 1;
+          else settle(chunkBatch!, chunkFirst + i);
         }
       }
-      chunkEvents.length = 0;
-      chunkArgs.length = 0;
+      chunkRows = 0;
     };
-    const flush = db.transaction((pending: ImportEvent[]) => {
-      for (const event of pending) {
-        if (event.type === 'rating') {
-          pushKey(event.row, event.rating);
-          chunkEvents.push(event);
-          chunkArgs.push(event.rating.value, event.rating.code ?? null, event.row, event.column);
-          if (chunkEvents.length === STAGE_CHUNK_ROWS) stageChunk();
-        } else if (event.type === 'problem') {
-          const { problem, cell } = event;
-          if (problem.row === null || !QUARANTINABLE.has(problem.code)) {
-            unquarantinableErrors += 1;
-            continue;
-          }
-          // A row's cells travel with its first problem; its further problems carry none.
-          if (!cell) continue;
-          for (const rejected of [cell, ...(event.moreCells ?? [])]) holdCell(problem, rejected);
-        }
+    /** A session's first date, or a conflict with it (one problem per session and date). */
+    const checkSessionDate = (s: number, dateId: number, row: number): void => {
+      let info = sessionInfo[s];
+      if (info === undefined) {
+        sessionInfo[s] = { date: dates.names[dateId], dateId, firstRow: row, dateConflict: false };
+        return;
       }
-      stageChunk();
-    });
+      if (info.dateId === dateId) return;
+      info.dateConflict = true;
+      const seenKey = `${s}\u0000${dateId}`;
+      if (dateConflictSeen.has(seenKey)) return;
+      dateConflictSeen.add(seenKey);
+      const date = dates.names[dateId];
+      addProblem({
+        code: 'session-date-conflict',
+        file: fileName,
+        row,
+        column: 'date',
+        message: `Session "${sessions.names[s]}" is dated ${date} here but ${info.date} in row ${info.firstRow}; a session has one date, so correct one of them or give the sessions different labels.`,
+        value: date,
+      });
+    };
     const holdCell = (problem: InputProblem, cell: RawCell): void => {
       insertHeld.run(
         problem.row,
@@ -381,39 +397,58 @@ export async function importRatingEvents(
         problem.message,
       );
     };
-
-    for await (const item of events) {
-      // The reader hands over arrays of events (one await per batch); single events work too.
-      const list = Array.isArray(item) ? item : [item];
-      for (let at = 0; at < list.length; at++) {
-        const event = list[at];
-        switch (event.type) {
-          case 'rating':
-            if (event.row > maxRow) maxRow = event.row;
-            batch.push(event);
-            break;
-          case 'missing':
-            if (event.row > maxRow) maxRow = event.row;
-            counts.missingCells += 1;
-            break;
-          case 'problem':
-            if (event.problem.row !== null && event.problem.row > maxRow) maxRow = event.problem.row;
-            if (event.problem.code === 'scale-missing') readerAskedForScales = true;
-            addProblem(event.problem);
-            batch.push(event);
-            break;
-          case 'finding':
-            addFinding(event.finding);
-            break;
-        }
-        if (batch.length >= STAGE_BATCH) {
-          flush(batch);
-          batch = [];
-        }
+    const other = (event: CompactBatch['others'][number]['event']): void => {
+      if (event.type === 'finding') {
+        addFinding(event.finding);
+        return;
       }
-    }
-    flush(batch);
-    batch = [];
+      const { problem, cell } = event;
+      if (problem.code === 'scale-missing') readerAskedForScales = true;
+      addProblem(problem);
+      if (problem.row === null || !QUARANTINABLE.has(problem.code)) {
+        unquarantinableErrors += 1;
+        return;
+      }
+      // A row's cells travel with its first problem; its further problems carry none.
+      if (!cell) return;
+      for (const rejected of [cell, ...(event.moreCells ?? [])]) holdCell(problem, rejected);
+    };
+    /** One batch, in reading order, in one staging transaction. */
+    const flush = db.transaction((batch: CompactBatch) => {
+      for (let kind = 0; kind < nameLists.length; kind++) nameLists[kind].add(batch.newNames[kind] ?? []);
+      if (batch.maxRow > maxRow) maxRow = batch.maxRow;
+      counts.missingCells += batch.nMissing;
+      const { keys, values, others } = batch;
+      let o = 0;
+      chunkBatch = batch;
+      chunkFirst = 0;
+      for (let r = 0; r < batch.nRatings; r++) {
+        while (o < others.length && others[o].at === r) other(others[o++].event);
+        const k = r * KEY_FIELDS;
+        const s = keys[k + F_SESSION];
+        const info = sessionInfo[s];
+        if (info === undefined || info.dateId !== keys[k + F_DATE]) checkSessionDate(s, keys[k + F_DATE], keys[k + F_ROW]);
+        if (chunkRows === STAGE_CHUNK_ROWS) {
+          stageChunk();
+          chunkFirst = r;
+        }
+        const c = chunkRows * STAGE_FIELDS;
+        chunkArgs[c] = s;
+        chunkArgs[c + 1] = keys[k + F_ATTRIBUTE];
+        chunkArgs[c + 2] = keys[k + F_ASSESSOR];
+        chunkArgs[c + 3] = keys[k + F_PRODUCT];
+        chunkArgs[c + 4] = keys[k + F_REPLICATE];
+        chunkArgs[c + 5] = values[r];
+        chunkArgs[c + 6] = keys[k + F_CODE];
+        chunkArgs[c + 7] = keys[k + F_ROW];
+        chunkArgs[c + 8] = keys[k + F_COLUMN];
+        chunkRows++;
+      }
+      while (o < others.length) other(others[o++].event);
+      stageChunk();
+    });
+
+    for await (const batch of batches) flush(batch);
     sha256 = await request.sha256;
     const resolved = { ...request, sha256 };
     const earlier = findEarlierImport(db, panel, sha256);
@@ -433,12 +468,12 @@ export async function importRatingEvents(
       }
       unquarantinableErrors += 1;
       if (readerAskedForScales) continue;
-      const first = db.prepare(`SELECT min(row) AS row, col FROM ${stage} WHERE attr = ?`).get(id) as { row: number; col: string };
+      const first = db.prepare(`SELECT min(row) AS row, col FROM ${stage} WHERE attr = ?`).get(id) as { row: number; col: number };
       addProblem({
         code: 'scale-missing',
         file: fileName,
         row: first.row,
-        column: first.col,
+        column: columns.names[first.col],
         message: `Attribute "${name}" is new to panel "${panel}" and has no scale; give it with --scale MIN:MAX, the scale fields of the upload form, or --settings panel.json.`,
       });
     }
@@ -478,7 +513,7 @@ export async function importRatingEvents(
         committed = db
         .transaction((): ImportReport => {
           const written = writeImport(db, {
-            request: resolved, nowIso, stage, held, sessions, attributes, assessors, products, sessionInfo, scaleOf, counts, addProblem,
+            request: resolved, nowIso, stage, held, sessions, attributes, assessors, products, columns, codes, sessionInfo, scaleOf, counts, addProblem,
             settings: request.settings, errorsSoFar: () => totalErrors,
           });
           const outcome: ImportOutcome =
@@ -534,10 +569,13 @@ interface WriteContext {
   nowIso: string;
   stage: string;
   held: string;
-  sessions: NameTable;
-  attributes: NameTable;
-  assessors: NameTable;
-  products: NameTable;
+  sessions: NameList;
+  attributes: NameList;
+  assessors: NameList;
+  products: NameList;
+  /** Column headers and sample codes by the ids staged in `col` and `code`. */
+  columns: NameList;
+  codes: NameList;
   sessionInfo: SessionInFile[];
   scaleOf: Map<number, ScaleRange>;
   counts: ImportCounts;
@@ -548,7 +586,7 @@ interface WriteContext {
 
 /** The write phase; runs inside one IMMEDIATE transaction (throws RejectImport to roll back). */
 function writeImport(db: Database, ctx: WriteContext): { importId: number; changedSessions: string[] } {
-  const { request, nowIso, stage, held, sessions, attributes, assessors, products, sessionInfo, counts } = ctx;
+  const { request, nowIso, stage, held, sessions, attributes, assessors, products, columns, codes, sessionInfo, counts } = ctx;
   const panelId = ensurePanel(db, request.panel, nowIso);
 
   // Session dates against the store (inside the write lock, so no other import can race).
@@ -587,7 +625,15 @@ function writeImport(db: Database, ctx: WriteContext): { importId: number; chang
   const dimTables = ['attribute', 'assessor', 'product', 'session'].map((kind) => `${stage}_${kind}`);
   const [dimAttribute, dimAssessor, dimProduct, dimSession] = dimTables;
   for (const table of dimTables) db.exec(`CREATE TABLE ${table} (idx INTEGER PRIMARY KEY, db_id INTEGER NOT NULL)`);
+  // Sample codes and column headers as staged ids → text (code id 0, "no code", has no row: NULL).
+  const textTables = ['code', 'col'].map((kind) => `${stage}_${kind}`);
+  const [dimCode, dimColumn] = textTables;
+  for (const table of textTables) db.exec(`CREATE TABLE ${table} (idx INTEGER PRIMARY KEY, text TEXT NOT NULL)`);
   try {
+    for (const [table, list] of [[dimCode, codes], [dimColumn, columns]] as const) {
+      const put = db.prepare(`INSERT INTO ${table} (idx, text) VALUES (?, ?)`);
+      for (let id = 1; id < list.names.length; id++) put.run(id, list.names[id]);
+    }
     const putDimStatements = dimTables.map((table) => db.prepare(`INSERT INTO ${table} (idx, db_id) VALUES (?, ?)`));
     const putDim = (kind: number, idx: number, dbId: number): void => {
       putDimStatements[kind].run(idx, dbId);
@@ -638,12 +684,14 @@ function writeImport(db: Database, ctx: WriteContext): { importId: number; chang
       const quarantineStaged = db.prepare(
         `INSERT INTO quarantine (import_id, panel_id, file_name, row_number, column_name, session_label, session_date, assessor, product,
            replicate, attribute, raw_value, sample_code, reason_code, reason)
-         SELECT ?, ?, ?, st.row, st.col, ?, ?, ass.code, pr.code, st.rep, at.name, st.value, st.code, ?, ?
+         SELECT ?, ?, ?, st.row, dcol.text, ?, ?, ass.code, pr.code, st.rep, at.name, st.value, dc.text, ?, ?
          FROM ${stage} st
          JOIN ${dimAssessor} da ON da.idx = st.assessor JOIN assessor ass ON ass.id = da.db_id
          JOIN ${dimProduct} dp ON dp.idx = st.product JOIN product pr ON pr.id = dp.db_id
          JOIN ${dimAttribute} dt ON dt.idx = st.attr JOIN attribute at ON at.id = dt.db_id
-         WHERE st.s = ? AND (? OR st.conflicted = 1) ORDER BY st.row, st.col`,
+         JOIN ${dimColumn} dcol ON dcol.idx = st.col
+         LEFT JOIN ${dimCode} dc ON dc.idx = st.code
+         WHERE st.s = ? AND (? OR st.conflicted = 1) ORDER BY st.row, dcol.text`,
       );
       for (let s = 1; s < sessions.names.length; s++) {
         const info = sessionInfo[s];
@@ -677,7 +725,8 @@ function writeImport(db: Database, ctx: WriteContext): { importId: number; chang
        JOIN ${dimAssessor} da ON da.idx = st.assessor
        JOIN ${dimProduct} dp ON dp.idx = st.product
        JOIN rating r ON r.session_id = ? AND r.attribute_id = dt.db_id AND r.assessor_id = da.db_id AND r.product_id = dp.db_id AND r.replicate = st.rep
-       WHERE st.s = ? AND r.value = st.value AND r.sample_code IS st.code`,
+       LEFT JOIN ${dimCode} dc ON dc.idx = st.code
+       WHERE st.s = ? AND r.value = st.value AND r.sample_code IS dc.text`,
     );
     const recordCorrections = db.prepare(
       `INSERT INTO rating_correction (session_id, assessor_id, product_id, attribute_id, replicate, old_value, old_sample_code, old_import_id,
@@ -685,11 +734,12 @@ function writeImport(db: Database, ctx: WriteContext): { importId: number; chang
        SELECT r.session_id, r.assessor_id, r.product_id, r.attribute_id, r.replicate, r.value, r.sample_code, r.import_id, n.value, ?, ?
        FROM rating r
        LEFT JOIN (
-         SELECT dt.db_id AS attribute_id, da.db_id AS assessor_id, dp.db_id AS product_id, st.rep, st.value, st.code
+         SELECT dt.db_id AS attribute_id, da.db_id AS assessor_id, dp.db_id AS product_id, st.rep, st.value, dc.text AS code
          FROM ${stage} st
          JOIN ${dimAttribute} dt ON dt.idx = st.attr
          JOIN ${dimAssessor} da ON da.idx = st.assessor
          JOIN ${dimProduct} dp ON dp.idx = st.product
+         LEFT JOIN ${dimCode} dc ON dc.idx = st.code
          WHERE st.s = ?
        ) n ON n.attribute_id = r.attribute_id AND n.assessor_id = r.assessor_id AND n.product_id = r.product_id AND n.rep = r.replicate
        WHERE r.session_id = ? AND (n.value IS NULL OR n.value <> r.value OR n.code IS NOT r.sample_code)`,
@@ -727,12 +777,13 @@ function writeImport(db: Database, ctx: WriteContext): { importId: number; chang
     // Bulk insert in staging-key order (sorting it first into rating's index order was measured: no faster).
     db.prepare(
       `INSERT INTO rating (session_id, assessor_id, product_id, attribute_id, replicate, value, sample_code, import_id)
-       SELECT ds.db_id, da.db_id, dp.db_id, dt.db_id, st.rep, st.value, st.code, ?
+       SELECT ds.db_id, da.db_id, dp.db_id, dt.db_id, st.rep, st.value, dc.text, ?
        FROM ${stage} st
        JOIN ${dimSession} ds ON ds.idx = st.s
        JOIN ${dimAttribute} dt ON dt.idx = st.attr
        JOIN ${dimAssessor} da ON da.idx = st.assessor
-       JOIN ${dimProduct} dp ON dp.idx = st.product`,
+       JOIN ${dimProduct} dp ON dp.idx = st.product
+       LEFT JOIN ${dimCode} dc ON dc.idx = st.code`,
     ).run(importId);
     // Quarantined cells are not ratings of this import.
     if (request.quarantine) counts.ratings = (db.prepare(`SELECT count(*) AS n FROM ${stage}`).get() as { n: number }).n;
@@ -742,6 +793,6 @@ function writeImport(db: Database, ctx: WriteContext): { importId: number; chang
     ).run(nowIso, counts.rows, counts.ratings, counts.sessions, counts.valuesReplaced, counts.quarantined, ctx.errorsSoFar(), importId);
     return { importId, changedSessions };
   } finally {
-    for (const table of dimTables) db.exec(`DROP TABLE IF EXISTS ${table}`);
+    for (const table of [...dimTables, ...textTables]) db.exec(`DROP TABLE IF EXISTS ${table}`);
   }
 }

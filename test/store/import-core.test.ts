@@ -92,8 +92,10 @@ describe('sessions already stored', () => {
     expect(noScale.outcome).toBe('rejected');
     expect(noScale.errors[0]).toMatchObject({ code: 'scale-missing', row: 2 });
     expect(noScale.errors[0].message).toMatch(/--scale MIN:MAX.*upload form.*--settings panel\.json/);
-    expect(noScale.importId).not.toBeNull();
-    expect(db.prepare('SELECT outcome FROM import WHERE id = ?').get(noScale.importId)).toEqual({ outcome: 'rejected' });
+    // A new panel: the rejection writes nothing, not even the panel or an import-log row.
+    expect(noScale.importId).toBeNull();
+    expect(countOf(db, 'panel')).toBe(0);
+    expect(countOf(db, 'import')).toBe(0);
     await run(['S1,2026-01-05,A1,P1,1,sweet,5'], { scale: { min: 0, max: 15 } });
     const later = await run(['S2,2026-01-12,A1,P1,1,sweet,5', 'S2,2026-01-12,A1,P1,1,salty,5'], {
       scale: undefined,
@@ -104,6 +106,11 @@ describe('sessions already stored', () => {
       { name: 'salty', min: 1, max: 9, low: 'none' },
       { name: 'sweet', min: 0, max: 15, low: null },
     ]);
+    // The panel exists now: a rejection is kept in its import log (and nothing else is written).
+    const again = await run(['S3,2026-01-19,A1,P1,1,bitter,5'], { scale: undefined });
+    expect(again.outcome).toBe('rejected');
+    expect(db.prepare('SELECT outcome FROM import WHERE id = ?').get(again.importId)).toEqual({ outcome: 'rejected' });
+    expect(countOf(db, 'attribute')).toBe(2);
   });
 });
 

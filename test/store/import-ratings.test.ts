@@ -55,9 +55,26 @@ describe('validation through real files: any problem rejects the whole file and 
       expect(report.message).toMatch(/^bad\.csv was not imported: 1 problem found, nothing was written/);
       expect(countOf(db, 'rating')).toBe(0);
       expect(countOf(db, 'session')).toBe(0);
-      expect(db.prepare('SELECT outcome, n_errors AS n FROM import').all()).toEqual([{ outcome: 'rejected', n: 1 }]);
+      // The panel is new: not even the panel or an import-log row is written.
+      expect(report.importId).toBeNull();
+      expect(countOf(db, 'panel')).toBe(0);
+      expect(countOf(db, 'import')).toBe(0);
     });
   }
+
+  it('a rejected import under a new panel name leaves no panel behind; under an existing one it is logged', async () => {
+    const bad = [HEADER, ...GOOD, 'S2,2026-01-12,A2,P2,1,crunchiness,five'];
+    const rejectedNew = await importRatings(db, request(file('bad.csv', bad), { panel: 'brand-new' }));
+    expect(rejectedNew).toMatchObject({ ok: false, outcome: 'rejected', importId: null });
+    expect(db.prepare('SELECT name FROM panel').all()).toEqual([]);
+    expect(countOf(db, 'import')).toBe(0);
+    expect((await importRatings(db, request(file('good.csv', [HEADER, ...GOOD]), { panel: 'brand-new' }))).outcome).toBe('imported');
+    const before = await exportText(db, 'brand-new');
+    const rejectedOld = await importRatings(db, request(file('bad.csv', bad), { panel: 'brand-new' }));
+    expect(rejectedOld.outcome).toBe('rejected');
+    expect(db.prepare('SELECT outcome, n_errors AS n FROM import WHERE id = ?').get(rejectedOld.importId)).toEqual({ outcome: 'rejected', n: 1 });
+    expect(await exportText(db, 'brand-new')).toBe(before);
+  });
 
   it('a scale missing for a new attribute, saying how to give it', async () => {
     const report = await importRatings(db, request(file('week.csv', [HEADER, ...GOOD]), { scale: undefined }));
