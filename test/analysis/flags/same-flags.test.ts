@@ -1,0 +1,54 @@
+/**
+ * The flag engine's speed work must not change a single flag or number: its output on pinned
+ * histories is compared, exactly (every number as JSON writes it), with what the engine gave
+ * before that work (commit 0ceeede; see helpers/equality-histories.ts for the histories and how
+ * the expectation was written). Each history is run twice, so the memoised per-session
+ * data-quality results and chart limits are compared as well as the first computation.
+ */
+import { readFileSync } from 'node:fs';
+import { describe, expect, it } from 'vitest';
+import { buildFlags, DEFAULT_THRESHOLDS, evaluateRetraining } from '../../../analysis/flags/index.js';
+import { equalityYear, equalityYearWithEvents } from './helpers/equality-histories.js';
+
+const expected = JSON.parse(readFileSync(new URL('./expected-flags-0ceeede.json', import.meta.url), 'utf8')) as Record<string, unknown>;
+const asJson = (value: unknown) => JSON.parse(JSON.stringify(value)) as unknown;
+
+describe('flags identical to the engine before the speed work (0ceeede)', () => {
+  const year = equalityYear();
+  const withEvents = equalityYearWithEvents();
+  const cases: [string, () => unknown][] = [
+    ['year', () => buildFlags(year)],
+    ['yearWithoutRatings', () => buildFlags({ ...year, ratings: [] })],
+    ['year51', () => buildFlags(equalityYear(51))],
+    ['withEvents', () => buildFlags(withEvents)],
+    ['since', () => buildFlags(year, DEFAULT_THRESHOLDS, { since: year.sessions[45].label })],
+    ['retraining', () => evaluateRetraining(withEvents, 'A07', withEvents.sessions[40].label, DEFAULT_THRESHOLDS)],
+  ];
+  for (const [name, run] of cases) {
+    it(`${name}: first and memoised runs`, () => {
+      expect(expected[name]).toBeDefined();
+      expect(asJson(run())).toEqual(expected[name]);
+      expect(asJson(run())).toEqual(expected[name]);
+    });
+  }
+
+  it('the pinned year exercises rating checks, charts and pooled tests', () => {
+    const kinds = new Set((expected.year as { kind: string }[]).map((f) => f.kind));
+    for (const kind of ['drift', 'lenient', 'inconsistent', 'unstable-product', 'missing-cells', 'straight-lining']) expect(kinds).toContain(kind);
+  });
+
+  it('a history whose ratings differ in one value gets its own data-quality result (memo keyed by content)', () => {
+    const changed = equalityYear();
+    const target = changed.sessions[50].label;
+    let done = false;
+    changed.ratings = changed.ratings!.map((r) => {
+      if (done || r.session !== target || r.assessor !== 'A08' || r.attribute !== 'attr1') return r;
+      done = true;
+      return { ...r, value: 9 };
+    });
+    const before = buildFlags(year).filter((f) => f.kind === 'straight-lining' && f.firstSession === target);
+    const after = buildFlags(changed).filter((f) => f.kind === 'straight-lining' && f.firstSession === target);
+    expect(before.length).toBe(1);
+    expect(asJson(after)).not.toEqual(asJson(before));
+  });
+});
