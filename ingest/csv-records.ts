@@ -1,4 +1,4 @@
-import { parse, type CsvError } from 'csv-parse';
+import type { CsvError } from 'csv-parse';
 import { Readable } from 'node:stream';
 import { pipeline } from 'node:stream/promises';
 import Papa from 'papaparse';
@@ -96,6 +96,8 @@ async function* readWithCsvParse(
   rowsBefore: number,
   options: CsvRecordOptions,
 ): AsyncGenerator<SourceRecord[]> {
+  // Loaded on first use: only files with quoting papaparse finds malformed come here.
+  const { parse } = await import('csv-parse');
   const parser = parse({
     delimiter,
     // Keep blank lines so record count = spreadsheet row; field count is checked by the caller.

@@ -1,4 +1,3 @@
-import iconv from 'iconv-lite';
 import { SourceFailure } from './source-failure.js';
 
 /** The text encodings read: UTF-8 (BOM optional) and UTF-16 with a byte-order mark. */
@@ -19,7 +18,9 @@ function utf8Decoder(): ChunkDecoder {
   };
 }
 
-function utf16Decoder(encoding: 'utf-16le' | 'utf-16be'): ChunkDecoder {
+/** iconv-lite is loaded on the first UTF-16 file only: UTF-8 files (nearly all) skip its start-up cost. */
+async function utf16Decoder(encoding: 'utf-16le' | 'utf-16be'): Promise<ChunkDecoder> {
+  const iconv = (await import('iconv-lite')).default;
   const decoder = iconv.getDecoder(encoding, { stripBOM: true });
   return {
     write: (chunk) => decoder.write(Buffer.from(chunk.buffer, chunk.byteOffset, chunk.byteLength)),
@@ -110,7 +111,7 @@ export async function* decodeText(bytes: AsyncIterable<Uint8Array>): AsyncGenera
       pending = null;
       const fromBom = encodingFromBom(chunk);
       if (fromBom) {
-        decoder = utf16Decoder(fromBom);
+        decoder = await utf16Decoder(fromBom);
       } else if (looksLikeBomlessUtf16(chunk)) {
         throw new SourceFailure(
           'encoding',
@@ -126,7 +127,7 @@ export async function* decodeText(bytes: AsyncIterable<Uint8Array>): AsyncGenera
   if (decoder === null) {
     if (!pending || pending.length === 0) return;
     const fromBom = encodingFromBom(pending);
-    decoder = fromBom ? utf16Decoder(fromBom) : utf8Decoder();
+    decoder = fromBom ? await utf16Decoder(fromBom) : utf8Decoder();
     yield* decodeChunk(pending);
   }
   let tail: string;

@@ -19,6 +19,12 @@ export interface BalancedAnova {
   msInteraction: number;
   /** NaN without replicates. */
   msError: number;
+  /** Mean of the cell means (= the mean of all values, the design being balanced). */
+  grandMean: number;
+  /** ȳ_a·· by assessor index. */
+  assessorMeans: Float64Array;
+  /** ȳ_·p· by product index. */
+  productMeans: Float64Array;
 }
 
 /** Returns null unless every assessor × product cell holds the same number of values. */
@@ -76,5 +82,8 @@ export function balancedAnova(values: ArrayLike<number>, assessorIndex: ArrayLik
     msProduct: ssP / dfProduct,
     msInteraction: ssAP / dfInteraction,
     msError: dfError > 0 ? ssE / dfError : Number.NaN,
+    grandMean: grand,
+    assessorMeans,
+    productMeans,
   };
 }

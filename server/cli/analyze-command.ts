@@ -10,11 +10,20 @@ import { existsSync, statSync } from 'node:fs';
 import { basename } from 'node:path';
 import type { Command } from 'commander';
 import { analyzeRatingsWithNotes } from '../../analysis/analyze-ratings.js';
-import { MAX_LISTED_PROBLEMS, type InputProblem } from '../../domain/problems.js';
+import { MAX_LISTED_PROBLEMS, type InputFinding, type InputProblem } from '../../domain/problems.js';
 import type { Observation } from '../../domain/ratings.js';
 import { readRatingBatches } from '../../ingest/read-ratings.js';
 import { CliError } from './cli-error.js';
-import { formatProblemLine, type CommandOutput } from './import-command.js';
+import type { CommandOutput } from './import-command.js';
+
+/**
+ * The import command's problem-line format, loaded only when there is a problem or finding to
+ * print: its module brings the store (better-sqlite3 and the config schema) with it, a tenth of
+ * a second of start-up that a clean file never needs.
+ */
+async function problemLineFormatter(): Promise<(problem: InputProblem | InputFinding) => string> {
+  return (await import('./import-command.js')).formatProblemLine;
+}
 
 export interface AnalyzeCommandOptions {
   period?: boolean;
@@ -33,20 +42,22 @@ export async function runAnalyzeCommand(file: string, options: AnalyzeCommandOpt
 
   const observations: Observation[] = [];
   const problems: InputProblem[] = [];
-  const notes: string[] = [];
+  const findings: InputFinding[] = [];
   // Batches, not single events: one await per batch instead of one per rating.
   for await (const batch of readRatingBatches({ path: file }, { fileName, sheet: options.sheet, scaleFor: () => 'unchecked' })) {
     for (const event of batch) {
       // A Rating is an Observation (plus date and code, which the models ignore): no copy.
       if (event.type === 'rating') observations.push(event.rating);
       else if (event.type === 'problem') problems.push(event.problem);
-      else if (event.type === 'finding') notes.push(`note: ${formatProblemLine(event.finding)}`);
+      else if (event.type === 'finding') findings.push(event.finding);
     }
   }
   const duplicates = checkDuplicates(observations, fileName);
   problems.push(...duplicates.problems);
+  const formatProblemLine = problems.length > 0 || findings.length > 0 ? await problemLineFormatter() : null;
+  const notes = findings.map((finding) => `note: ${formatProblemLine!(finding)}`);
   if (problems.length > 0) {
-    const lines = problems.slice(0, MAX_LISTED_PROBLEMS).map(formatProblemLine);
+    const lines = problems.slice(0, MAX_LISTED_PROBLEMS).map(formatProblemLine!);
     const more = problems.length - MAX_LISTED_PROBLEMS;
     if (more > 0) lines.push(`… and ${more.toLocaleString('en-US')} more problem${more === 1 ? '' : 's'} (the first ${MAX_LISTED_PROBLEMS} are listed).`);
     lines.push(`${fileName}: not analysed: ${problems.length.toLocaleString('en-US')} problem${problems.length === 1 ? '' : 's'} to fix first.`);
