@@ -36,6 +36,7 @@ import { closeFlagsByKey, loadFlagBuild, replaceCurrentFlags } from '../store/mo
 import { listPanelEvents, listRetraining, updateRetraining } from '../store/monitor-events.js';
 import { loadPanelThresholds } from '../store/monitor-settings.js';
 import { createRefitJob, getRefitJob, markRefitJob, type RefitJob } from '../store/monitor-jobs.js';
+import { relativeSdsFromVariances } from '../analysis/lmm/fit-period-model.js';
 import type { FitRunner } from './fit-pool.js';
 import type { ImportFinding, PanelHistory, PeriodFitSummary, SessionAttributeResult } from '../analysis/monitor/series.js';
 import type { PeriodFitResult, RatedObservation, RetrainingToEvaluate } from './workers/fit-task-types.js';
@@ -166,6 +167,9 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
 
   // 2. Period windows whose sessions or data versions differ from what the stored fit used.
   const windows = periodWindows(sessions, windowSessions);
+  // Warm starts are read before the windows that no longer exist (the previous latest window)
+  // are deleted: that window's fit is the best start for the new latest window.
+  const warmStarts = storedStartValues(db, panel.id, windowSessions, sessions);
   deletePeriodFitsExcept(db, panel.id, windowSessions, windows.map((w) => w[w.length - 1].id));
   const stored = options.scope === 'all' ? new Map<string, string>() : loadPeriodSignatures(db, panel.id, windowSessions);
   const periodJobs: { attributeId: number; attribute: string; window: SessionVersionRow[]; signature: WindowSignature }[] = [];
@@ -187,6 +191,7 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
         scale: scaleOf.get(job.attribute)!,
         sessions: job.window.map((s) => s.label),
         observations,
+        startRelativeSds: warmStarts.nearest(job.attribute, job.window[job.window.length - 1]),
       });
       savePeriodFit(db, panel.id, {
         attributeId: job.attributeId,
@@ -246,6 +251,44 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
     nFlags,
     dataSignature,
     durationMs: performance.now() - startedMs,
+  };
+}
+
+/**
+ * Relative SDs θ = σ_term/σ_residual of the stored period fits, by attribute and last session,
+ * and the nearest one for a window: the stored fit ending at the same session, else the one
+ * ending at the latest session before it (the previous latest window after a new session).
+ */
+function storedStartValues(
+  db: Database,
+  panelId: number,
+  windowSessions: number,
+  sessions: readonly SessionVersionRow[],
+): { nearest(attribute: string, last: SessionVersionRow): Record<string, number> | null } {
+  const order = new Map(sessions.map((s, i) => [s.label, i]));
+  const byAttribute = new Map<string, { lastIndex: number; relativeSds: Record<string, number> }[]>();
+  for (const stored of loadPeriodFits(db, panelId)) {
+    if (stored.windowSessions !== windowSessions) continue;
+    const result = stored.result as StoredPeriodResult;
+    const lastIndex = order.get(stored.lastSession);
+    if ('problem' in result || lastIndex === undefined) continue;
+    const relativeSds = relativeSdsFromVariances(result.json.variance);
+    if (!relativeSds) continue;
+    let list = byAttribute.get(stored.attribute);
+    if (!list) byAttribute.set(stored.attribute, (list = []));
+    list.push({ lastIndex, relativeSds });
+  }
+  return {
+    nearest(attribute, last) {
+      const target = order.get(last.label);
+      let best: { lastIndex: number; relativeSds: Record<string, number> } | null = null;
+      for (const candidate of byAttribute.get(attribute) ?? []) {
+        if (target === undefined || candidate.lastIndex > target) continue;
+        if (!best || candidate.lastIndex > best.lastIndex) best = candidate;
+      }
+      // A stored fit more than a window away shares no data with this window.
+      return best && target! - best.lastIndex < windowSessions ? best.relativeSds : null;
+    },
   };
 }
 

@@ -36,7 +36,13 @@ export function boundaryLikelihoodRatioTest(
     return { value: result.value, gradient: result.gradient.filter((_, k) => k !== index) };
   };
   const start = startTheta ?? Array.from(full.theta).filter((_, k) => k !== index).map((value) => Math.max(value, 0.05));
-  const reduced = minimizeBounded((theta) => objective.evaluate(expand(theta)), start, {}, withGradient);
+  // The average information of the full model at θ with the term at 0 is the reduced model's.
+  const kept = [...Array(nTheta).keys()].filter((k) => k !== index);
+  const approximateHessian = (theta: ArrayLike<number>): Float64Array | null => {
+    const full = objective.averageInformation(expand(theta));
+    return full && Float64Array.from({ length: kept.length ** 2 }, (_, at) => full[kept[Math.floor(at / kept.length)] * nTheta + kept[at % kept.length]]);
+  };
+  const reduced = minimizeBounded((theta) => objective.evaluate(expand(theta)), start, {}, withGradient, { approximateHessian });
   const likelihoodRatio = Math.max(reduced.value - full.criterion, 0);
   return {
     term: termName,

@@ -70,6 +70,15 @@ export interface RemlObjective {
    * ∂pwrss/∂γ_k = −‖u_k‖²/γ_k. Null where the factorisation fails.
    */
   gradientPieces(theta: ArrayLike<number>): { parts: CriterionParts; traceT: Float64Array; modeSquares: Float64Array } | null;
+  /**
+   * The average-information approximation of the Hessian of the REML criterion in γ = θ² at θ
+   * (row-major k×k; REML objectives only), null where the factorisation fails. With H = I + Σ γ_k Z_k Z_kᵀ,
+   * P the REML projection, r = Py the residuals, w_k = Z_k Z_kᵀ r, s_k = ‖Z_kᵀ r‖² and ν = n − p:
+   * ν wₖᵀ P w_l / pwrss − ν s_k s_l / pwrss² (the profiled expected information with the traces
+   * replaced by their data versions; Gilmour, Thompson & Cullis 1995, Biometrics 51:1440 [from
+   * memory]). Only a start Hessian for the optimiser: it does not decide where the fit stops.
+   */
+  averageInformation(theta: ArrayLike<number>): Float64Array | null;
   /** (R_Xᵀ R_X)⁻¹ at θ: cov(β̂) = σ² × this. */
   unscaledCovBeta(theta: ArrayLike<number>): Float64Array;
   /** parts(θ) and unscaledCovBeta(θ) from one factorisation. */
@@ -274,10 +283,91 @@ export function makeRemlObjective(frame: ModelFrame, options: { reml?: boolean }
     return { parts: criterion, traceT, modeSquares };
   }
 
+  // Observation-level data for the average information: each observation's position in every
+  // term, the centred response, and work vectors.
+  let obsPositions: Int32Array | null = null;
+  const residuals = new Float64Array(n);
+  const projected = new Float64Array(n);
+  const zSums = new Float64Array(q);
+  const solveRhs = new Float64Array(q);
+  const betaW = new Float64Array(p);
+
+  /** x ← the mixed-model solution's residual of the response `w` (x = P w), from the current factor. */
+  function projectInPlace(w: Float64Array, out: Float64Array): void {
+    const positions = obsPositions!;
+    const width = p + 1;
+    zSums.fill(0);
+    betaW.fill(0);
+    for (let i = 0; i < n; i++) {
+      const value = w[i];
+      for (let k = 0; k < nTheta; k++) zSums[positions[i * nTheta + k]] += value;
+      betaW[0] += value;
+      const fixedColumn = frame.fixedIndex[i];
+      if (fixedColumn > 0) betaW[fixedColumn] += value;
+    }
+    for (let i = 0; i < q; i++) solveRhs[i] = lambda[i] * zSums[i];
+    blockArrowForwardSolve(workspace, solveRhs);
+    for (let c = 0; c < p; c++) {
+      let sum = betaW[c];
+      for (let i = 0; i < q; i++) sum -= rhs[i * width + c] * solveRhs[i];
+      betaW[c] = sum;
+    }
+    forwardSolveInPlace(rx, p, betaW);
+    backSolveTransposeInPlace(rx, p, betaW);
+    for (let i = 0; i < q; i++) {
+      let sum = solveRhs[i];
+      for (let c = 0; c < p; c++) sum -= rhs[i * width + c] * betaW[c];
+      solveRhs[i] = sum;
+    }
+    blockArrowBackSolve(workspace, solveRhs);
+    for (let i = 0; i < q; i++) solveRhs[i] *= lambda[i];
+    for (let i = 0; i < n; i++) {
+      let fitted = betaW[0];
+      const fixedColumn = frame.fixedIndex[i];
+      if (fixedColumn > 0) fitted += betaW[fixedColumn];
+      for (let k = 0; k < nTheta; k++) fitted += solveRhs[positions[i * nTheta + k]];
+      out[i] = w[i] - fitted;
+    }
+  }
+
+  function averageInformation(theta: ArrayLike<number>): Float64Array | null {
+    if (!reml) return null;
+    const criterion = parts(theta);
+    if (!Number.isFinite(criterion.deviance)) return null;
+    if (!obsPositions) {
+      obsPositions = new Int32Array(n * nTheta);
+      for (let i = 0; i < n; i++) for (let k = 0; k < nTheta; k++) obsPositions[i * nTheta + k] = frame.positionOf[k][frame.terms[k].index[i]];
+    }
+    const positions = obsPositions;
+    for (let i = 0; i < n; i++) residuals[i] = frame.response[i] - frame.responseCentre;
+    projectInPlace(residuals, residuals);
+    zSums.fill(0);
+    for (let i = 0; i < n; i++) for (let k = 0; k < nTheta; k++) zSums[positions[i * nTheta + k]] += residuals[i];
+    const termTotals = Float64Array.from(zSums);
+    const s = new Float64Array(nTheta);
+    for (let i = 0; i < q; i++) s[frame.termOfPosition[i]] += termTotals[i] * termTotals[i];
+    const w = Array.from({ length: nTheta }, (_, k) => Float64Array.from(residuals, (_, i) => termTotals[positions[i * nTheta + k]]));
+    const information = new Float64Array(nTheta * nTheta);
+    const nu = degreesOfFreedom;
+    const pwrss = criterion.pwrss;
+    for (let l = 0; l < nTheta; l++) {
+      projectInPlace(w[l], projected);
+      for (let k = 0; k <= l; k++) {
+        let sum = 0;
+        for (let i = 0; i < n; i++) sum += w[k][i] * projected[i];
+        const value = (nu * sum) / pwrss - (nu * s[k] * s[l]) / (pwrss * pwrss);
+        information[k * nTheta + l] = value;
+        information[l * nTheta + k] = value;
+      }
+    }
+    return information;
+  }
+
   return {
     frame,
     reml,
     nTheta,
+    averageInformation,
     valueAndGradient,
     gradientPieces,
     evaluate: (theta) => parts(theta).deviance,

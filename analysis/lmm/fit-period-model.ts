@@ -6,11 +6,11 @@
  * effects across sessions): LR = REMLcrit(without the term) − REMLcrit(full), p from the 50:50
  * mixture of χ²₀ and χ²₁ (Self & Liang 1987; Stram & Lee 1994).
  */
-import type { FitJson } from '../../domain/analysis.js';
+import type { FitJson, VarianceJson } from '../../domain/analysis.js';
 import type { Observation } from '../../domain/ratings.js';
 import { fUpperTail } from '../distributions/index.js';
 import { boundaryLikelihoodRatioTest } from './boundary-lrt.js';
-import { makeRemlObjective } from './criterion.js';
+import { makeRemlObjective, type RemlObjective } from './criterion.js';
 import { LmmFitError } from './errors.js';
 import { confirmClosedForm, fitFromObjective, type LmmDiagnostics, type LmmFit } from './fit.js';
 import { checkOneGroup, checkResponse } from './fit-session-model.js';
@@ -27,6 +27,24 @@ export interface PeriodModelFit {
 export interface PeriodModelOptions {
   /** Include (1|product:session) and test it (default true). */
   withProductSession?: boolean;
+  /**
+   * Warm start: relative SDs θ = σ_term/σ_residual by term name (e.g. from the stored fit of the
+   * previous latest window). Used only when the criterion there is below the criterion at the
+   * default (moment) start, so a poor warm start cannot make the answer worse than a cold fit.
+   */
+  startRelativeSds?: Record<string, number>;
+}
+
+/** θ_k = √(σ²_k/σ²) of each term from a fit's variances (the inverse of a fit's `variance` block). */
+export function relativeSdsFromVariances(variance: VarianceJson): Record<string, number> | null {
+  const residual = variance.residual;
+  if (typeof residual !== 'number' || !(residual > 0)) return null;
+  const relative: Record<string, number> = {};
+  for (const [name, value] of Object.entries(variance) as [string, number | null | undefined][]) {
+    if (name === 'residual' || typeof value !== 'number' || !(value >= 0)) continue;
+    relative[name] = Math.sqrt(value / residual);
+  }
+  return relative;
 }
 
 const BASE_TERMS: string[][] = [['assessor'], ['session'], ['assessor', 'product'], ['assessor', 'session']];
@@ -74,7 +92,10 @@ export function fitPeriodModel(observations: Observation[], options: PeriodModel
     const confirmed = confirmClosedForm(objective, closedForm.theta, productTest, ['assessor']);
     fit = confirmed.fit;
   }
-  fit ??= fitFromObjective(objective, { startTheta: momentStart ?? randomTerms.map(() => 0.5), randomEffectTerms: ['assessor'] });
+  fit ??= fitFromObjective(objective, { startTheta: chooseStart(objective, momentStart ?? randomTerms.map(() => 0.5), options.startRelativeSds),
+    randomEffectTerms: ['assessor'],
+    averageInformation: true,
+  });
   if (nAssessors < 3) fit.diagnostics.messages.push(`too few assessors (${nAssessors}): the assessor variance is poorly determined`);
 
   let productSessionLrt: PeriodModelFit['productSessionLrt'] = null;
@@ -83,7 +104,12 @@ export function fitPeriodModel(observations: Observation[], options: PeriodModel
     // Otherwise the full fit's other components are the better start (only the product:session
     // variance has to be redistributed).
     const reducedStart = closedForm ? (balancedPeriodSolution(cells, false)?.theta ?? periodMomentStart(cells, false)) : null;
-    const lrt = boundaryLikelihoodRatioTest(objective, { theta: fit.theta, criterion: fit.criterion }, 'product:session', reducedStart ?? undefined);
+    const lrt = boundaryLikelihoodRatioTest(
+      objective,
+      { theta: fit.theta, criterion: fit.criterion },
+      'product:session',
+      reducedStart ?? undefined,
+    );
     if (!lrt.reducedConverged) fit.diagnostics.messages.push('the fit without product:session did not converge: its likelihood ratio is unreliable');
     productSessionLrt = { likelihoodRatio: lrt.likelihoodRatio, pValue: lrt.pValue };
   }
@@ -110,4 +136,17 @@ export function fitPeriodModel(observations: Observation[], options: PeriodModel
     assessorEffects: (fit.randomEffects['assessor'] ?? []).map((effect) => ({ assessor: effect.level, blup: effect.blup, condSD: effect.condSD })),
   };
   return { json, diagnostics: fit.diagnostics, productSessionLrt, fit };
+}
+
+/**
+ * The warm start when every term has a finite value there and the criterion is lower than at
+ * the default start; otherwise the default start. Zeros are lifted a little off the boundary so
+ * the optimiser can still move them.
+ */
+function chooseStart(objective: RemlObjective, defaultStart: number[], warm: Record<string, number> | undefined): number[] {
+  if (!warm) return defaultStart;
+  const warmStart = objective.frame.terms.map((term) => warm[term.name]);
+  if (!warmStart.every((value) => typeof value === 'number' && Number.isFinite(value) && value >= 0)) return defaultStart;
+  const lifted = warmStart.map((value) => Math.max(value, 0.01));
+  return objective.evaluate(lifted) < objective.evaluate(defaultStart) ? lifted : defaultStart;
 }

@@ -147,6 +147,8 @@ export interface FitOptions {
   startTheta?: number[];
   control?: Partial<OptimiserControl>;
   randomEffectTerms?: string[];
+  /** Steer the optimiser with the average-information Hessian instead of Hessians from differences. */
+  averageInformation?: boolean;
 }
 
 export const OPTIMIZER_NAME = 'projected-bfgs(gamma)';
@@ -154,7 +156,9 @@ export const OPTIMIZER_NAME = 'projected-bfgs(gamma)';
 /** Optimises the criterion from the start values and assembles the result. */
 export function fitFromObjective(objective: RemlObjective, options: FitOptions = {}): LmmFit {
   const start = options.startTheta ?? objective.frame.terms.map(() => 0.5);
-  const optimum = minimizeBounded(objective.evaluate, start, options.control, objective.valueAndGradient);
+  const optimum = minimizeBounded(objective.evaluate, start, options.control, objective.valueAndGradient, {
+    approximateHessian: options.averageInformation ? objective.averageInformation : undefined,
+  });
   return assembleFit(
     objective,
     {

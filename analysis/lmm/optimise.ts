@@ -41,6 +41,16 @@ export interface OptimiserResult {
   messages: string[];
 }
 
+export interface OptimiserHelpers {
+  /**
+   * A cheap approximation of the criterion's Hessian in γ at θ (row-major k×k), e.g. the average
+   * information: used instead of Hessians from differences of gradients (k gradient evaluations
+   * each) at the start and in the end game. Ignored where null or not positive definite. It
+   * shapes the steps only; convergence is still judged on the gradient.
+   */
+  approximateHessian?: (theta: Float64Array) => Float64Array | null;
+}
+
 type Objective = (theta: ArrayLike<number>) => number;
 /** Criterion and its gradient with respect to γ = θ² (NaN entries are filled by differences). */
 type ObjectiveWithGradient = (theta: ArrayLike<number>) => { value: number; gradient: Float64Array };
@@ -48,6 +58,7 @@ type ObjectiveWithGradient = (theta: ArrayLike<number>) => { value: number; grad
 interface GammaFunctions {
   f: (gamma: Float64Array) => number;
   fg: (gamma: Float64Array) => { value: number; gradient: Float64Array };
+  hessian?: (gamma: Float64Array) => Float64Array | null;
 }
 
 export function minimizeBounded(
@@ -55,6 +66,7 @@ export function minimizeBounded(
   startTheta: ArrayLike<number>,
   control: Partial<OptimiserControl> = {},
   objectiveWithGradient?: ObjectiveWithGradient,
+  helpers: OptimiserHelpers = {},
 ): OptimiserResult {
   const settings = { ...DEFAULT_OPTIMISER_CONTROL, ...control };
   const k = startTheta.length;
@@ -74,7 +86,8 @@ export function minimizeBounded(
     if (!Number.isFinite(result.value)) return result;
     return { value: result.value, gradient: numericGradient(f, gamma, result.value, result.gradient) };
   };
-  const functions: GammaFunctions = { f, fg };
+  const approximate = helpers.approximateHessian;
+  const functions: GammaFunctions = { f, fg, hessian: approximate ? (gamma) => approximate(toTheta(gamma)) : undefined };
   const startGamma = Float64Array.from(startTheta, (value) => value * value);
   let best = searchFace(functions, startGamma, new Uint8Array(k), settings);
   if (k > 0 && k <= settings.maxComponentsForFaceSearch) {
@@ -129,23 +142,27 @@ function searchFace(functions: GammaFunctions, start: Float64Array, fixed: Uint8
   let current = functions.fg(x);
   let fx = current.value;
   let gradient = current.gradient;
-  if (!Number.isFinite(fx)) return { gamma: x, value: fx, gradient, iterations: 0, converged: false, messages: ['the criterion is not finite at the start'] };
-  if (fixed.every((flag) => flag === 1)) return { gamma: x, value: fx, gradient, iterations: 0, converged: true, messages: [] };
+  const result = (iterations: number, converged: boolean, messages: string[]): FaceResult => ({ gamma: x, value: fx, gradient, iterations, converged, messages });
+  if (!Number.isFinite(fx)) return result(0, false, ['the criterion is not finite at the start']);
+  if (fixed.every((flag) => flag === 1)) return result(0, true, []);
   let inverseHessian = diagonalInverse(x);
   let scaled = false;
+  // Whether the Hessian in use was estimated close to the answer (then no refresh is needed).
+  let refreshed = false;
   {
     // A start that is already the answer (balanced closed forms) needs no Hessian.
     const free = Uint8Array.from(x, (value, i) => (fixed[i] || (value === 0 && gradient[i] > 0) ? 0 : 1));
     const decrement = -dot(newtonDirection(inverseHessian, gradient, free), gradient);
-    if (!(decrement > settings.newtonDecrementTolerance)) return { gamma: x, value: fx, gradient, iterations: 1, converged: true, messages: [] };
-    const estimate = finiteDifferenceInverseHessian(functions, x, gradient, fixed);
+    if (!(decrement > settings.newtonDecrementTolerance)) return result(1, true, []);
+    const estimate = hessianEstimate(functions, x, gradient, fixed);
     if (estimate) {
       inverseHessian = estimate;
       scaled = true;
+      // Estimated where the Newton decrement is already small: it is the end-game Hessian.
+      refreshed = -dot(newtonDirection(inverseHessian, gradient, free), gradient) < REFRESH_DECREMENT;
     }
   }
   const messages: string[] = [];
-  let refreshed = false;
   for (let iteration = 1; iteration <= settings.maxIterations; iteration++) {
     const free = Uint8Array.from(x, (value, i) => (fixed[i] || (value === 0 && gradient[i] > 0) ? 0 : 1));
     let direction = newtonDirection(inverseHessian, gradient, free);
@@ -154,7 +171,7 @@ function searchFace(functions: GammaFunctions, start: Float64Array, fixed: Uint8
       // Close to the answer: a Hessian from differences taken here (the first one was taken at
       // the start, often far away) turns the slow quasi-Newton end game into a few Newton steps.
       refreshed = true;
-      const estimate = finiteDifferenceInverseHessian(functions, x, gradient, fixed);
+      const estimate = hessianEstimate(functions, x, gradient, fixed);
       if (estimate) {
         inverseHessian = estimate;
         scaled = true;
@@ -169,9 +186,7 @@ function searchFace(functions: GammaFunctions, start: Float64Array, fixed: Uint8
       slope = dot(direction, gradient);
     }
     const decrement = -slope;
-    if (!(decrement > settings.newtonDecrementTolerance)) {
-      return { gamma: x, value: fx, gradient, iterations: iteration, converged: true, messages };
-    }
+    if (!(decrement > settings.newtonDecrementTolerance)) return result(iteration, true, messages);
     let step = 1;
     let accepted: Float64Array | null = null;
     let next = current;
@@ -195,7 +210,7 @@ function searchFace(functions: GammaFunctions, start: Float64Array, fixed: Uint8
     if (accepted === null) {
       // No decrease along the projected path: the gradient is at its noise level here.
       const converged = decrement < 1e-8;
-      return { gamma: x, value: fx, gradient, iterations: iteration, converged, messages: converged ? messages : [...messages, 'line search failed'] };
+      return result(iteration, converged, converged ? messages : [...messages, 'line search failed']);
     }
     const s = Float64Array.from(accepted, (value, i) => value - x[i]);
     const yDiff = Float64Array.from(next.gradient, (value, i) => value - gradient[i]);
@@ -215,12 +230,10 @@ function searchFace(functions: GammaFunctions, start: Float64Array, fixed: Uint8
       }
       bfgsUpdate(inverseHessian, s, yDiff, sy);
     }
-    if (change <= settings.relativeFunctionTolerance * Math.abs(previous) && decrement < 1e-9) {
-      return { gamma: x, value: fx, gradient, iterations: iteration, converged: true, messages };
-    }
+    if (change <= settings.relativeFunctionTolerance * Math.abs(previous) && decrement < 1e-9) return result(iteration, true, messages);
   }
   messages.push(`no convergence in ${settings.maxIterations} iterations`);
-  return { gamma: x, value: fx, gradient, iterations: settings.maxIterations, converged: false, messages };
+  return result(settings.maxIterations, false, messages);
 }
 
 /**
@@ -253,18 +266,24 @@ function numericGradient(f: (gamma: Float64Array) => number, x: Float64Array, fx
 }
 
 /**
- * Inverse of the Hessian from forward differences of the gradient at the start (k gradient
- * evaluations): with it the quasi-Newton steps are Newton steps from the first iteration.
- * Null when the estimate is not positive definite.
+ * The inverse of a Hessian estimate at x: the caller's approximation when it has one and it is
+ * positive definite, else differences of gradients. Null when neither is positive definite.
  */
-function finiteDifferenceInverseHessian(functions: GammaFunctions, x: Float64Array, gradient: Float64Array, fixed: Uint8Array): Float64Array | null {
+function hessianEstimate(functions: GammaFunctions, x: Float64Array, gradient: Float64Array, fixed: Uint8Array): Float64Array | null {
+  const approximation = functions.hessian?.(x);
+  const inverse = approximation ? invertOnFree(approximation, fixed) : null;
+  return inverse ?? finiteDifferenceHessian(functions, x, gradient, fixed);
+}
+
+/**
+ * The inverse of the Hessian from forward differences of the gradient (k gradient evaluations):
+ * with it the quasi-Newton steps are Newton steps. Null when the estimate is not positive definite.
+ */
+function finiteDifferenceHessian(functions: GammaFunctions, x: Float64Array, gradient: Float64Array, fixed: Uint8Array): Float64Array | null {
   const k = x.length;
   const hessian = new Float64Array(k * k);
   for (let i = 0; i < k; i++) {
-    if (fixed[i]) {
-      hessian[i * k + i] = 1;
-      continue;
-    }
+    if (fixed[i]) continue;
     const h = 1e-4 * Math.max(x[i], 1e-2);
     const probe = x.slice();
     probe[i] += h;
@@ -279,8 +298,24 @@ function finiteDifferenceInverseHessian(functions: GammaFunctions, x: Float64Arr
       hessian[j * k + i] = mean;
     }
   }
-  if (!choleskyInPlace(hessian, k)) return null;
-  return inverseFromCholesky(hessian, k);
+  return invertOnFree(hessian, fixed);
+}
+
+/**
+ * The inverse of the Hessian with unit rows and columns for the fixed components; null when
+ * not positive definite (or not finite) on the free components.
+ */
+function invertOnFree(source: Float64Array, fixed: Uint8Array): Float64Array | null {
+  const k = fixed.length;
+  if (source.length !== k * k) return null;
+  const hessian = new Float64Array(k * k);
+  for (let i = 0; i < k; i++) {
+    for (let j = 0; j < k; j++) hessian[i * k + j] = fixed[i] || fixed[j] ? (i === j ? 1 : 0) : source[i * k + j];
+  }
+  if (!hessian.every(Number.isFinite)) return null;
+  const factor = hessian.slice();
+  if (!choleskyInPlace(factor, k)) return null;
+  return inverseFromCholesky(factor, k);
 }
 
 /** First inverse-Hessian guess: steps of the order of the current value (rescaled after one step). */

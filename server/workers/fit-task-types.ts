@@ -46,6 +46,12 @@ export interface PeriodTask {
   /** Labels of the window's sessions in time order. */
   sessions: string[];
   observations: RatedObservation[];
+  /**
+   * Warm start: relative SDs by term name from a stored fit of a window like this one (the same
+   * window before a change, or the previous latest window). Never changes the answer beyond the
+   * optimiser's tolerance; fitPeriodModel ignores it when it is worse than the default start.
+   */
+  startRelativeSds?: Record<string, number> | null;
 }
 
 export interface PeriodFitResult {

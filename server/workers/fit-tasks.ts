@@ -54,7 +54,7 @@ export function runSessionTask(task: SessionTask): SessionTaskResult {
 
 export function runPeriodTask(task: PeriodTask): PeriodTaskResult {
   try {
-    const result = fitPeriodModel(task.observations);
+    const result = fitPeriodModel(task.observations, { startRelativeSds: task.startRelativeSds ?? undefined });
     return {
       attribute: task.attribute,
       result: { json: result.json, diagnostics: result.diagnostics, lrt: result.productSessionLrt },
