@@ -1,12 +1,13 @@
 import type { AssessorIndicesJson } from '../../domain/analysis.js';
 import type { Observation } from '../../domain/ratings.js';
-import { agreementCorrelation, agreementEstimate, disagreementTest } from './agreement.js';
+import { agreementCorrelation, disagreementTest } from './agreement.js';
 import { balancedAnova } from './balanced-anova.js';
 import { buildCellTable } from './cell-table.js';
+import { contractIndices } from './contract-indices.js';
 import { assessorAnova } from './discrimination.js';
 import { levelOffset, pairedLevelTest } from './level.js';
 import { repeatabilityTest } from './repeatability.js';
-import { scalingCoefficient, scalingEstimate, type ScalingOptions } from './scaling.js';
+import { scalingCoefficient, type ScalingOptions } from './scaling.js';
 import type { AssessorSessionIndices, IndexReason } from './types.js';
 
 export type AssessorIndicesOptions = ScalingOptions;
@@ -75,25 +76,11 @@ export function computeAssessorIndices(observations: readonly Observation[], opt
 export type AnalyzeContractIndices = AssessorIndicesJson;
 
 /**
- * The same values as the matching fields of `computeAssessorIndices`, by the same functions,
- * without the tests the analyze JSON does not print (level, repeatability, disagreement and
- * scaling tests, the agreement interval): for a year of sessions those cost more than the fits.
+ * The same values as the matching fields of `computeAssessorIndices` (same definitions, same
+ * order of summation), without the tests the analyze JSON does not print (level, repeatability,
+ * disagreement and scaling tests, the agreement interval), on flat arrays: for a year of sessions
+ * those cost more than the fits.
  */
 export function computeAnalyzeContractIndices(observations: readonly Observation[]): AnalyzeContractIndices[] {
-  if (observations.length === 0) return [];
-  const table = buildCellTable(observations);
-  return table.assessors.map((assessor) => {
-    const oneWay = assessorAnova(table, assessor);
-    return {
-      session: table.session,
-      attribute: table.attribute,
-      assessor,
-      offset: levelOffset(table, assessor),
-      discriminationF: oneWay.F,
-      discriminationP: oneWay.pValue,
-      repeatabilityMSE: oneWay.withinMeanSquare,
-      agreementR: agreementEstimate(table, assessor).r,
-      scaling: scalingEstimate(table, assessor).scaling,
-    };
-  });
+  return contractIndices(observations);
 }
