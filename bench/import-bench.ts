@@ -4,13 +4,16 @@
  * peak RSS is that of one import. Prints a Markdown table for bench/README.md ("## Import (store)").
  * `--compare DIR [--compare-label TEXT]` also runs each import with the project copy in DIR (an older commit with this
  * script copied into its bench/), alternating with this one, so both see the same machine load.
+ * `--built` runs the compiled code in each tree's dist/ (build it first: `npm run build`), which is
+ * what `panel-steward import` and the service run; without it, the .ts sources through tsx.
+ * "process s" is the whole child process (start-up, import, closing the store) as the parent saw it.
  *
- *   npx tsx bench/import-bench.ts [--runs 3] [--sizes 100000,1000000] [--forms long,wide] [--compare DIR]
+ *   npx tsx bench/import-bench.ts [--runs 3] [--sizes 100000,1000000] [--forms long,wide] [--compare DIR] [--built]
  */
 import { spawnSync } from 'node:child_process';
 import { createWriteStream, existsSync, mkdirSync, rmSync } from 'node:fs';
 import { once } from 'node:events';
-import { cpus, tmpdir } from 'node:os';
+import { cpus, loadavg, tmpdir } from 'node:os';
 import { basename, join } from 'node:path';
 import { fileInput, importRatings } from '../store/import-ratings.js';
 import { openStore } from '../store/open-store.js';
@@ -27,6 +30,8 @@ interface RunResult {
   writeCpuMs: number;
   maxRssMb: number;
   outcome: string;
+  /** The whole child process as the parent saw it: start-up, import, closing the store. */
+  processMs?: number;
 }
 
 async function writeSyntheticWideCsv(path: string, design: SyntheticDesign): Promise<void> {
@@ -43,15 +48,23 @@ async function writeSyntheticWideCsv(path: string, design: SyntheticDesign): Pro
   await once(out, 'finish');
 }
 
-async function child(store: string, file: string): Promise<void> {
-  const db = openStore(store);
+async function child(store: string, file: string, built: boolean): Promise<void> {
+  // --built: the compiled code in this tree's dist/ (what `panel-steward import` runs), else the .ts sources.
+  const root = join(import.meta.dirname, '..');
+  const modules = built
+    ? {
+        importRatings: ((await import(join(root, 'dist', 'store', 'import-ratings.js'))) as typeof import('../store/import-ratings.js')).importRatings,
+        openStore: ((await import(join(root, 'dist', 'store', 'open-store.js'))) as typeof import('../store/open-store.js')).openStore,
+      }
+    : { importRatings, openStore };
+  const db = modules.openStore(store);
   const start = performance.now();
   const cpuStart = process.cpuUsage();
   let writingAt = 0;
   let committedAt = 0;
   let writingCpu = process.cpuUsage();
   let writeCpuMs = 0;
-  const report = await importRatings(db, {
+  const report = await modules.importRatings(db, {
     panel: 'bench',
     fileName: basename(file),
     source: 'cli',
@@ -92,7 +105,7 @@ const median = (xs: number[]): number => {
 
 async function main(): Promise<void> {
   const args = process.argv.slice(2);
-  if (args[0] === '--child') return child(args[1], args[2]);
+  if (args[0] === '--child') return child(args[1], args[2], args[3] === '--built');
   const option = (name: string, fallback: string): string => {
     const at = args.indexOf(name);
     return at >= 0 ? args[at + 1] : fallback;
@@ -101,8 +114,10 @@ async function main(): Promise<void> {
   const sizes = option('--sizes', '100000,1000000').split(',').map(Number);
   const forms = option('--forms', 'long,wide').split(',') as ('long' | 'wide')[];
   const compare = option('--compare', '');
+  const built = args.includes('--built');
   const trees: { label: string; script: string }[] = [{ label: 'this commit', script: import.meta.filename }];
   if (compare !== '') trees.unshift({ label: option('--compare-label', 'before'), script: join(compare, 'bench', 'import-bench.ts') });
+  const loadAtStart = loadavg()[0].toFixed(1);
   const folder = join(tmpdir(), 'panel-steward-import-bench');
   mkdirSync(folder, { recursive: true });
   const rows: string[] = [];
@@ -119,9 +134,12 @@ async function main(): Promise<void> {
         trees.forEach((tree, t) => {
           const store = join(folder, `store-${size}-${run}.db`);
           for (const suffix of ['', '-wal', '-shm']) rmSync(store + suffix, { force: true });
-          const out = spawnSync(process.execPath, ['--import', 'tsx', tree.script, '--child', store, file], { encoding: 'utf8', maxBuffer: 1 << 20, cwd: join(tree.script, '..', '..') });
+          const childArgs = ['--import', 'tsx', tree.script, '--child', store, file, ...(built ? ['--built'] : [])];
+          const spawnedAt = performance.now();
+          const out = spawnSync(process.execPath, childArgs, { encoding: 'utf8', maxBuffer: 1 << 20, cwd: join(tree.script, '..', '..') });
+          const processMs = performance.now() - spawnedAt;
           if (out.status !== 0) throw new Error(out.stderr);
-          results[t].push(JSON.parse(out.stdout.trim().split('\n').at(-1)!) as RunResult);
+          results[t].push({ ...(JSON.parse(out.stdout.trim().split('\n').at(-1)!) as RunResult), processMs });
           for (const suffix of ['', '-wal', '-shm']) rmSync(store + suffix, { force: true });
         });
       }
@@ -134,18 +152,19 @@ async function main(): Promise<void> {
         const perSecond = (ms: number): string => Math.round((ratings / ms) * 1000).toLocaleString('en-US');
         rows.push(
           `| ${ratings.toLocaleString('en-US')} | ${form} | ${tree.label} | ${(totalMs / 1000).toFixed(2)} | ${perSecond(totalMs)} | ${(cpuMs / 1000).toFixed(2)} | ${perSecond(cpuMs)} | ` +
+            `${(median(treeResults.map((r) => r.processMs ?? NaN)) / 1000).toFixed(2)} | ` +
             `${(median(treeResults.map((r) => r.readMs)) / 1000).toFixed(2)} | ${(median(treeResults.map((r) => r.writeMs)) / 1000).toFixed(2)} | ${(median(treeResults.map((r) => r.writeCpuMs)) / 1000).toFixed(2)} | ${Math.round(median(treeResults.map((r) => r.maxRssMb)))} |`,
         );
       });
     }
   }
-  const load = (await import('node:os')).loadavg()[0].toFixed(1);
+  const load = loadavg()[0].toFixed(1);
   process.stdout.write(
     [
-      `${cpus().length} cores (${cpus()[0]?.model ?? 'unknown'}), Node ${process.version}, load average ${load} at the end; medians of ${runs} runs.`,
+      `${cpus().length} cores (${cpus()[0]?.model ?? 'unknown'}), Node ${process.version}, load average ${loadAtStart} at the start and ${load} at the end; ${built ? 'compiled dist/' : '.ts sources through tsx'}; medians of ${runs} runs.`,
       '',
-      '| ratings | form | code | wall s | ratings/s (wall) | CPU s | ratings/s (CPU) | read + stage s | write transaction s | write CPU s | peak RSS MB |',
-      '| ---: | --- | --- | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: |',
+      '| ratings | form | code | wall s | ratings/s (wall) | CPU s | ratings/s (CPU) | process s | read + stage s | write transaction s | write CPU s | peak RSS MB |',
+      '| ---: | --- | --- | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: |',
       ...rows,
       '',
     ].join('\n'),
