@@ -38,6 +38,17 @@ export function oneSampleTTest(values: readonly number[], alternative: Alternati
   if (alternative === 'two-sided') pValue = Number.isFinite(t) ? tTwoSidedP(t, df) : 0;
   else if (alternative === 'greater') pValue = Number.isFinite(t) ? tUpperTail(t, df) : t > 0 ? 0 : 1;
   else pValue = Number.isFinite(t) ? tUpperTail(-t, df) : t < 0 ? 0 : 1;
-  const half = tQuantile(0.975, df) * se;
+  const half = tQuantile975(df) * se;
   return { n, mean, sessionSd, t, df, pValue, ciLow: mean - half, ciHigh: mean + half };
+}
+
+/** t quantile for the 95 % interval, memoised by df (a few distinct df per panel; the inversion is costly). */
+const QUANTILE_975 = new Map<number, number>();
+function tQuantile975(df: number): number {
+  let q = QUANTILE_975.get(df);
+  if (q === undefined) {
+    q = tQuantile(0.975, df);
+    if (QUANTILE_975.size < 10_000) QUANTILE_975.set(df, q);
+  }
+  return q;
 }

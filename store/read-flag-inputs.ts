@@ -1,0 +1,294 @@
+/**
+ * What a flag build reads from the store, fast enough for the one-new-session refit (issue 4:
+ * fits and flags updated in under 1 s): the panel history without ratings (as buildPanelHistory
+ * in server/refit.ts gives it) and every rating of the panel packed in columns (as
+ * loadPackedRatings gives them), identical to those two, in a fraction of their time:
+ * - stored fit and index JSON is parsed once per distinct text: each call reads the texts
+ *   (cheap) and parses only those that differ from the text parsed last time for that cell;
+ * - ratings are read per session and kept between calls while the session is unchanged. A
+ *   session's ratings change only together with its data version (the import and the quarantine
+ *   release bump it; the refit's "fits kept, not recomputed" rests on the same rule); the count
+ *   and the first and last rating id are checked as well, so a session read again is one whose
+ *   rows really changed.
+ * The parsed objects are shared between calls: callers must not modify the history they get
+ * (the flag engine does not; test/analysis/flags/frozen-history.test.ts checks it on a frozen
+ * history). Memory: one copy of each panel's parsed results and packed ratings per connection.
+ */
+import type { Database } from 'better-sqlite3';
+import type { FitJson } from '../domain/analysis.js';
+import type { AssessorSessionIndices } from '../analysis/indices/types.js';
+import type { ImportFinding, PanelHistory, PeriodFitSummary, SessionAttributeResult } from '../analysis/monitor/series.js';
+import { loadPeriodFits } from './fits-results.js';
+import { listAttributes, listProducts, listSessionVersions, loadCurrentFindings, type PackedRatings } from './fits-sessions.js';
+import { listPanelEvents } from './monitor-events.js';
+
+export interface FlagInputs {
+  /** As buildPanelHistory(db, panelId, { windowSessions }) (ratings undefined). */
+  history: PanelHistory;
+  /** As loadPackedRatings(db, panelId). */
+  ratings: PackedRatings;
+}
+
+/** A stored period result as the refit writes it: the period task's result, or why there is none. */
+type StoredPeriodResult = { json: { variance: Record<string, number> }; lrt: PeriodFitSummary['lrt'] } | { problem: string };
+
+interface ParsedText<T> {
+  text: string;
+  value: T;
+}
+
+interface SessionRatingColumns {
+  dataVersion: number;
+  count: number;
+  minId: number;
+  maxId: number;
+  ids: Float64Array;
+  assessorId: Int32Array;
+  productId: Int32Array;
+  attributeId: Int32Array;
+  replicate: Int32Array;
+  value: Float64Array;
+  code: (string | null)[];
+}
+
+interface PanelCache {
+  fits: Map<string, ParsedText<FitJson>>;
+  indices: Map<string, ParsedText<AssessorSessionIndices[]>>;
+  ratings: Map<number, SessionRatingColumns>;
+}
+
+const CACHES = new WeakMap<Database, Map<number, PanelCache>>();
+
+function panelCache(db: Database, panelId: number): PanelCache {
+  let byPanel = CACHES.get(db);
+  if (!byPanel) CACHES.set(db, (byPanel = new Map()));
+  let cache = byPanel.get(panelId);
+  if (!cache) byPanel.set(panelId, (cache = { fits: new Map(), indices: new Map(), ratings: new Map() }));
+  return cache;
+}
+
+/** Parse each text once; the new map keeps only the cells seen now (deleted cells leave the cache). */
+function parsedTexts<T>(previous: Map<string, ParsedText<T>>, rows: readonly [key: string, text: string][]): { values: T[]; next: Map<string, ParsedText<T>> } {
+  const next = new Map<string, ParsedText<T>>();
+  const values: T[] = new Array(rows.length);
+  for (let i = 0; i < rows.length; i++) {
+    const [key, text] = rows[i];
+    let entry = previous.get(key);
+    if (!entry || entry.text !== text) entry = { text, value: JSON.parse(text) as T };
+    next.set(key, entry);
+    values[i] = entry.value;
+  }
+  return { values, next };
+}
+
+export function loadFlagInputs(db: Database, panelId: number, options: { windowSessions: number }): FlagInputs {
+  const cache = panelCache(db, panelId);
+  const sessions = listSessionVersions(db, panelId);
+  const attributes = listAttributes(db, panelId);
+  const scaleOf = new Map(attributes.map((a) => [a.name, a.scale]));
+
+  // Same rows and order as loadSessionFits / loadSessionIndices (store/fits-results.ts).
+  const fitRows = db
+    .prepare(
+      `SELECT s.label, s.session_date, at.name, f.session_id || ':' || f.attribute_id, f.fit_json
+         FROM session_fit f JOIN session s ON s.id = f.session_id JOIN attribute at ON at.id = f.attribute_id
+        WHERE s.panel_id = ? ORDER BY s.session_date, s.label, at.name`,
+    )
+    .raw()
+    .all(panelId) as [session: string, date: string, attribute: string, key: string, json: string][];
+  const indexRows = db
+    .prepare(
+      `SELECT i.session_id || ':' || i.attribute_id, i.indices_json FROM session_indices i JOIN session s ON s.id = i.session_id
+         JOIN attribute at ON at.id = i.attribute_id
+        WHERE s.panel_id = ? ORDER BY s.session_date, s.label, at.name`,
+    )
+    .raw()
+    .all(panelId) as [key: string, json: string][];
+  const fits = parsedTexts(cache.fits, fitRows.map((r) => [r[3], r[4]]));
+  const indices = parsedTexts(cache.indices, indexRows);
+  cache.fits = fits.next;
+  cache.indices = indices.next;
+
+  // Grouped by the session and attribute written in each row, as buildPanelHistory does.
+  const indicesBy = new Map<string, AssessorSessionIndices[]>();
+  for (const list of indices.values) {
+    for (const row of list) {
+      const key = `${row.session}\u0000${row.attribute}`;
+      let group = indicesBy.get(key);
+      if (!group) indicesBy.set(key, (group = []));
+      group.push(row);
+    }
+  }
+  const results: SessionAttributeResult[] = fitRows.map(([session, date, attribute], i) => {
+    const fit = fits.values[i];
+    const scale = scaleOf.get(attribute)!;
+    return {
+      session,
+      date,
+      attribute,
+      scaleMin: scale.min,
+      scaleMax: scale.max,
+      fit,
+      indices: indicesBy.get(`${session}\u0000${attribute}`) ?? [],
+      productTestP: fit.productTest?.p ?? null,
+    };
+  });
+
+  const periodFits: PeriodFitSummary[] = [];
+  for (const p of loadPeriodFits(db, panelId)) {
+    if (p.windowSessions !== options.windowSessions) continue;
+    const result = p.result as StoredPeriodResult;
+    if ('problem' in result) continue;
+    periodFits.push({
+      attribute: p.attribute,
+      sessions: p.sessions.map(([label]: [string, number]) => label),
+      productSessionVariance: result.json.variance['product:session'] ?? 0,
+      lrt: result.lrt,
+    });
+  }
+
+  const history: PanelHistory = {
+    sessions: sessions.map((s) => ({ label: s.label, date: s.date })),
+    attributes: attributes.map((a) => ({ name: a.name, scaleMin: a.scale.min, scaleMax: a.scale.max })),
+    referenceProducts: listProducts(db, panelId)
+      .filter((p) => p.role === 'reference')
+      .map((p) => p.code),
+    results,
+    ratings: undefined,
+    importFindings: loadCurrentFindings(db, panelId) as ImportFinding[],
+    events: listPanelEvents(db, panelId),
+    periodFits,
+  };
+  return { history, ratings: packedRatings(db, panelId, cache) };
+}
+
+/** Every rating of the panel in columns, as loadPackedRatings (store/fits-sessions.ts) gives them. */
+function packedRatings(db: Database, panelId: number, cache: PanelCache): PackedRatings {
+  const table = (sql: string) => {
+    const rows = db.prepare(sql).raw().all(panelId) as [number, string][];
+    let maxId = 0;
+    for (const [id] of rows) maxId = Math.max(maxId, id);
+    const indexOf = new Int32Array(maxId + 1).fill(-1);
+    rows.forEach(([id], i) => (indexOf[id] = i));
+    return { indexOf, names: rows.map(([, name]) => name) };
+  };
+  const sessionRows = db
+    .prepare('SELECT id, label, session_date FROM session WHERE panel_id = ? ORDER BY session_date, label')
+    .raw()
+    .all(panelId) as [number, string, string][];
+  const assessors = table('SELECT id, code FROM assessor WHERE panel_id = ? ORDER BY code');
+  const products = table('SELECT id, code FROM product WHERE panel_id = ? ORDER BY code');
+  const attributes = table('SELECT id, name FROM attribute WHERE panel_id = ? ORDER BY name');
+
+  // Refresh the sessions whose version, count or id range changed; forget sessions that are gone.
+  const states = db
+    .prepare(
+      `SELECT s.id, s.data_version, count(r.id), min(r.id), max(r.id)
+         FROM session s LEFT JOIN rating r ON r.session_id = s.id WHERE s.panel_id = ? GROUP BY s.id`,
+    )
+    .raw()
+    .all(panelId) as [id: number, dataVersion: number, count: number, minId: number | null, maxId: number | null][];
+  const readSession = db
+    .prepare('SELECT id, assessor_id, product_id, attribute_id, replicate, value, sample_code FROM rating WHERE session_id = ? ORDER BY id')
+    .raw();
+  const current = new Map<number, SessionRatingColumns>();
+  for (const [sessionId, dataVersion, count, minId, maxId] of states) {
+    let columns = cache.ratings.get(sessionId);
+    if (!columns || columns.dataVersion !== dataVersion || columns.count !== count || columns.minId !== (minId ?? 0) || columns.maxId !== (maxId ?? 0)) {
+      columns = readSessionColumns(readSession.all(sessionId) as RatingRow[], dataVersion);
+    }
+    current.set(sessionId, columns);
+  }
+  cache.ratings = current;
+
+  // Global rating-id order (loadPackedRatings orders by r.id): sessions by their first id, and
+  // when two sessions' id ranges interleave (one file with several sessions), a full sort.
+  const parts = sessionRows.map(([id], sessionIndex) => ({ sessionIndex, columns: current.get(id)! })).filter((p) => p.columns && p.columns.count > 0);
+  parts.sort((a, b) => a.columns.minId - b.columns.minId);
+  const n = parts.reduce((s, p) => s + p.columns.count, 0);
+  const partOf = new Int32Array(n);
+  const rowOf = new Int32Array(n);
+  let at = 0;
+  for (let p = 0; p < parts.length; p++) {
+    for (let row = 0; row < parts[p].columns.count; row++, at++) {
+      partOf[at] = p;
+      rowOf[at] = row;
+    }
+  }
+  const disjoint = parts.every((p, i) => i === 0 || parts[i - 1].columns.maxId < p.columns.minId);
+  let order: ArrayLike<number> = Int32Array.from({ length: n }, (_, i) => i);
+  if (!disjoint) {
+    const idAt = (i: number) => parts[partOf[i]].columns.ids[rowOf[i]];
+    order = Array.from({ length: n }, (_, i) => i).sort((a, b) => idAt(a) - idAt(b));
+  }
+
+  const packed: PackedRatings = {
+    sessions: sessionRows.map(([, label, date]) => ({ label, date })),
+    assessors: assessors.names,
+    products: products.names,
+    attributes: attributes.names,
+    codes: [],
+    sessionIndex: new Int32Array(n),
+    assessorIndex: new Int32Array(n),
+    productIndex: new Int32Array(n),
+    attributeIndex: new Int32Array(n),
+    codeIndex: new Int32Array(n),
+    replicate: new Int32Array(n),
+    value: new Float64Array(n),
+  };
+  const codeOf = new Map<string, number>();
+  for (let i = 0; i < n; i++) {
+    const k = order[i];
+    const part = parts[partOf[k]];
+    const columns = part.columns;
+    const row = rowOf[k];
+    packed.sessionIndex[i] = part.sessionIndex;
+    packed.assessorIndex[i] = assessors.indexOf[columns.assessorId[row]];
+    packed.productIndex[i] = products.indexOf[columns.productId[row]];
+    packed.attributeIndex[i] = attributes.indexOf[columns.attributeId[row]];
+    packed.replicate[i] = columns.replicate[row];
+    packed.value[i] = columns.value[row];
+    const code = columns.code[row];
+    if (code === null) packed.codeIndex[i] = -1;
+    else {
+      let c = codeOf.get(code);
+      if (c === undefined) {
+        c = packed.codes.length;
+        codeOf.set(code, c);
+        packed.codes.push(code);
+      }
+      packed.codeIndex[i] = c;
+    }
+  }
+  return packed;
+}
+
+type RatingRow = [id: number, assessorId: number, productId: number, attributeId: number, replicate: number, value: number, code: string | null];
+
+function readSessionColumns(rows: RatingRow[], dataVersion: number): SessionRatingColumns {
+  const count = rows.length;
+  const columns: SessionRatingColumns = {
+    dataVersion,
+    count,
+    minId: count > 0 ? rows[0][0] : 0,
+    maxId: count > 0 ? rows[count - 1][0] : 0,
+    ids: new Float64Array(count),
+    assessorId: new Int32Array(count),
+    productId: new Int32Array(count),
+    attributeId: new Int32Array(count),
+    replicate: new Int32Array(count),
+    value: new Float64Array(count),
+    code: new Array(count),
+  };
+  for (let i = 0; i < count; i++) {
+    const [id, assessorId, productId, attributeId, replicate, value, code] = rows[i];
+    columns.ids[i] = id;
+    columns.assessorId[i] = assessorId;
+    columns.productId[i] = productId;
+    columns.attributeId[i] = attributeId;
+    columns.replicate[i] = replicate;
+    columns.value[i] = value;
+    columns.code[i] = code;
+  }
+  return columns;
+}
