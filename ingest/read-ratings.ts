@@ -158,6 +158,8 @@ class RowReader {
   private readonly dates = new Map<string, ReturnType<typeof parseSessionDate>>();
   private readonly replicates = new Map<string, CellResult<number>>();
   private readonly values = new Map<string, CellResult<number>>();
+  /** Key texts (session, assessor, product, attribute) by text; see intern(). */
+  private readonly keyTexts = new Map<string, string>();
   private readonly parseValue: (text: string) => CellResult<number>;
   /** Reused per row (cleared at the start of readRow). */
   private readonly keyProblems: InputProblem[] = [];
@@ -192,7 +194,19 @@ class RowReader {
     const column = this.layout.index[role]!;
     const value = this.text(cells[column]);
     if (value === '') problems.push(this.problem('missing-value', row, this.layout.headers[column], `The ${role} is missing; every row needs one.`, ''));
-    return value;
+    return this.intern(value);
+  }
+
+  /**
+   * One string object per distinct key text: every rating of session S01 holds the same 'S01',
+   * so the parser's copy of each cell dies young instead of being kept (and copied by the
+   * garbage collector) with every rating: a tenth of the reading time for a year's file.
+   */
+  private intern(text: string): string {
+    const known = this.keyTexts.get(text);
+    if (known !== undefined) return known;
+    if (this.keyTexts.size < MAX_CACHED_TEXTS) this.keyTexts.set(text, text);
+    return text;
   }
 
   problem(code: ProblemCode, row: number | null, column: string | null, message: string, value?: string | null): InputProblem {

@@ -107,43 +107,34 @@ function checkDuplicates(observations: readonly Observation[], fileName: string)
 
 /**
  * For each rating, the index of the first rating with the same five keys. Each key column is
- * coded to small integers and the five codes combine into one number, so no key string is
- * built per rating (75 000 ratings a year).
+ * coded to small integers (one pass over the ratings for all five) and the five codes combine
+ * into one number, so no key string is built per rating (75 000 ratings a year).
  */
 function ratingKeyIndex(observations: readonly Observation[]): Int32Array {
   const n = observations.length;
-  const columns: Array<(row: Observation) => string | number> = [
-    (row) => row.session,
-    (row) => row.attribute,
-    (row) => row.assessor,
-    (row) => row.product,
-    (row) => row.replicate,
-  ];
+  const coders = [new LevelCoder(), new LevelCoder(), new LevelCoder(), new LevelCoder(), new LevelCoder()];
+  const codes = coders.map(() => new Int32Array(n));
+  const [session, attribute, assessor, product, replicate] = coders;
+  const [sessionCodes, attributeCodes, assessorCodes, productCodes, replicateCodes] = codes;
+  for (let i = 0; i < n; i++) {
+    const row = observations[i];
+    sessionCodes[i] = session.code(row.session);
+    attributeCodes[i] = attribute.code(row.attribute);
+    assessorCodes[i] = assessor.code(row.assessor);
+    productCodes[i] = product.code(row.product);
+    replicateCodes[i] = replicate.code(row.replicate);
+  }
   const keys = new Float64Array(n);
   let keySpace = 1;
-  for (const valueOf of columns) {
-    const codeOf = new Map<string | number, number>();
-    const codes = new Int32Array(n);
-    // Consecutive rows mostly repeat session, attribute and assessor: compare with the last
-    // value before hashing.
-    let lastValue: string | number | undefined;
-    let lastCode = -1;
-    for (let i = 0; i < n; i++) {
-      const value = valueOf(observations[i]);
-      if (value !== lastValue || lastCode < 0) {
-        let code = codeOf.get(value);
-        if (code === undefined) codeOf.set(value, (code = codeOf.size));
-        lastValue = value;
-        lastCode = code;
-      }
-      codes[i] = lastCode;
-    }
-    keySpace *= codeOf.size;
-    for (let i = 0; i < n; i++) keys[i] = keys[i] * codeOf.size + codes[i];
+  coders.forEach((coder, c) => {
+    const size = coder.size;
+    const column = codes[c];
+    keySpace *= size;
+    for (let i = 0; i < n; i++) keys[i] = keys[i] * size + column[i];
     // Renumber the combinations present when the space grows large, so the next product stays
     // far below 2^53 (exact in a double); panels of real size never get here.
     if (keySpace > 4 * n + 4096) keySpace = renumber(keys);
-  }
+  });
   // keySpace ≤ 4n + 4096 here: a lookup table instead of a hash map.
   const firstRow = new Int32Array(n);
   const firstOfKey = new Int32Array(keySpace).fill(-1);
@@ -152,6 +143,27 @@ function ratingKeyIndex(observations: readonly Observation[]): Int32Array {
     firstRow[i] = firstOfKey[keys[i]];
   }
   return firstRow;
+}
+
+/** Codes the values of one key column 0, 1, 2, … in first-seen order. */
+class LevelCoder {
+  private readonly codeOf = new Map<string | number, number>();
+  private last: string | number | undefined;
+  private lastCode = -1;
+
+  get size(): number {
+    return this.codeOf.size;
+  }
+
+  code(value: string | number): number {
+    // Consecutive rows mostly repeat session, attribute and assessor: compare before hashing.
+    if (value === this.last && this.lastCode >= 0) return this.lastCode;
+    let code = this.codeOf.get(value);
+    if (code === undefined) this.codeOf.set(value, (code = this.codeOf.size));
+    this.last = value;
+    this.lastCode = code;
+    return code;
+  }
 }
 
 /** Replaces each key by a dense code (first-seen order); returns the number of codes. */
