@@ -60,6 +60,7 @@ for (let rep = 0; rep < reps; rep++) {
       const start = cpuMs();
       const fit = fitPeriodModel(jobs.find((j) => j.name === `w5:${attribute}`)!.observations, {
         startRelativeSds: relativeSdsFromVariances(previous.json.variance) ?? undefined,
+        startReducedRelativeSds: previous.reducedRelativeSds ?? undefined,
       });
       warmTimes.push(cpuMs() - start);
       warmEvaluations += fit.diagnostics.evaluations;

@@ -39,7 +39,7 @@ import { createRefitJob, getRefitJob, markRefitJob, type RefitJob } from '../sto
 import { relativeSdsFromVariances } from '../analysis/lmm/fit-period-model.js';
 import type { FitRunner } from './fit-pool.js';
 import type { ImportFinding, PanelHistory, PeriodFitSummary, SessionAttributeResult } from '../analysis/monitor/series.js';
-import type { PeriodFitResult, RatedObservation, RetrainingToEvaluate } from './workers/fit-task-types.js';
+import type { PeriodFitResult, PeriodTask, RatedObservation, RetrainingToEvaluate } from './workers/fit-task-types.js';
 
 /** Recorded with every stored result; bump when a change in analysis/ changes stored numbers. */
 export const ANALYSIS_VERSION = 'analysis-1';
@@ -182,8 +182,21 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
     }
   }
   let periodsDone = 0;
-  await Promise.all(
-    periodJobs.map(async (job) => {
+  // One chain per attribute, windows in time order: each window starts from the stored fit of
+  // the same window if there is one, else from the window fitted just before it in the chain
+  // (same panel and attribute, so similar variance ratios), else from the nearest stored fit.
+  // The chains run side by side, so the pool stays as busy as with independent tasks.
+  const chains = new Map<string, typeof periodJobs>();
+  for (const job of periodJobs) {
+    let chain = chains.get(job.attribute);
+    if (!chain) chains.set(job.attribute, (chain = []));
+    chain.push(job);
+  }
+  const runChain = async (chain: typeof periodJobs): Promise<void> => {
+    let previous: Pick<PeriodTask, 'startRelativeSds' | 'startReducedRelativeSds'> = {};
+    for (const job of chain) {
+      const stored = warmStarts.nearest(job.attribute, job.window[job.window.length - 1]);
+      const start = stored.sameWindow || !previous.startRelativeSds ? stored.start : previous;
       const observations: RatedObservation[] = job.window.flatMap((s) => ratingsOf(s).byAttribute.get(job.attribute) ?? []);
       const result = await options.runner.run({
         type: 'period',
@@ -191,8 +204,14 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
         scale: scaleOf.get(job.attribute)!,
         sessions: job.window.map((s) => s.label),
         observations,
-        startRelativeSds: warmStarts.nearest(job.attribute, job.window[job.window.length - 1]),
+        ...start,
       });
+      if (result.result) {
+        previous = {
+          startRelativeSds: relativeSdsFromVariances(result.result.json.variance),
+          startReducedRelativeSds: result.result.reducedRelativeSds ?? null,
+        };
+      }
       savePeriodFit(db, panel.id, {
         attributeId: job.attributeId,
         windowSessions,
@@ -209,8 +228,9 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
         total: periodJobs.length,
         label: `${job.attribute} @ ${job.window[job.window.length - 1].label}`,
       });
-    }),
-  );
+    }
+  };
+  await Promise.all([...chains.values()].map(runChain));
 
   // 3. Flags (and the retraining evaluations), when anything they read has changed: the data,
   //    the thresholds, the events (baseline restarts) or the retraining records.
@@ -264,9 +284,12 @@ function storedStartValues(
   panelId: number,
   windowSessions: number,
   sessions: readonly SessionVersionRow[],
-): { nearest(attribute: string, last: SessionVersionRow): Record<string, number> | null } {
+): {
+  nearest(attribute: string, last: SessionVersionRow): { start: Pick<PeriodTask, 'startRelativeSds' | 'startReducedRelativeSds'>; sameWindow: boolean };
+} {
   const order = new Map(sessions.map((s, i) => [s.label, i]));
-  const byAttribute = new Map<string, { lastIndex: number; relativeSds: Record<string, number> }[]>();
+  type Start = { lastIndex: number; relativeSds: Record<string, number>; reduced: Record<string, number> | null };
+  const byAttribute = new Map<string, Start[]>();
   for (const stored of loadPeriodFits(db, panelId)) {
     if (stored.windowSessions !== windowSessions) continue;
     const result = stored.result as StoredPeriodResult;
@@ -276,18 +299,19 @@ function storedStartValues(
     if (!relativeSds) continue;
     let list = byAttribute.get(stored.attribute);
     if (!list) byAttribute.set(stored.attribute, (list = []));
-    list.push({ lastIndex, relativeSds });
+    list.push({ lastIndex, relativeSds, reduced: result.reducedRelativeSds ?? null });
   }
   return {
     nearest(attribute, last) {
       const target = order.get(last.label);
-      let best: { lastIndex: number; relativeSds: Record<string, number> } | null = null;
+      let best: Start | null = null;
       for (const candidate of byAttribute.get(attribute) ?? []) {
         if (target === undefined || candidate.lastIndex > target) continue;
         if (!best || candidate.lastIndex > best.lastIndex) best = candidate;
       }
       // A stored fit more than a window away shares no data with this window.
-      return best && target! - best.lastIndex < windowSessions ? best.relativeSds : null;
+      if (!best || target! - best.lastIndex >= windowSessions) return { start: {}, sameWindow: false };
+      return { start: { startRelativeSds: best.relativeSds, startReducedRelativeSds: best.reduced }, sameWindow: best.lastIndex === target };
     },
   };
 }

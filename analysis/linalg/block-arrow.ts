@@ -143,6 +143,88 @@ export function blockArrowForwardSolve(workspace: BlockArrowWorkspace, x: Float6
   if (nB > 0) forwardSolveInPlace(border, nB, x, borderStart, stride);
 }
 
+/**
+ * X ← L⁻¹ X for all m columns of a row-major q×m right-hand side at once: the same arithmetic as
+ * m calls of blockArrowForwardSolve, but every update runs along a contiguous row of X.
+ */
+export function blockArrowForwardSolveRows(workspace: BlockArrowWorkspace, x: Float64Array, m: number): void {
+  const { layout, blocks, couplings, border } = workspace;
+  const nB = layout.borderSize;
+  const borderStart = layout.borderOffset * m;
+  for (let b = 0; b < blocks.length; b++) {
+    const nb = layout.blockSizes[b];
+    const start = layout.blockOffsets[b] * m;
+    lowerSolveRows(blocks[b], nb, x, start, m);
+    if (nB === 0) continue;
+    const coupling = couplings[b];
+    for (let k = 0; k < nb; k++) {
+      const rowK = start + k * m;
+      for (let i = 0; i < nB; i++) {
+        const c = coupling[k * nB + i];
+        if (c === 0) continue;
+        const target = borderStart + i * m;
+        for (let col = 0; col < m; col++) x[target + col] -= c * x[rowK + col];
+      }
+    }
+  }
+  if (nB > 0) lowerSolveRows(border, nB, x, borderStart, m);
+}
+
+/** X ← L⁻ᵀ X for all m columns of a row-major q×m right-hand side at once (see blockArrowForwardSolveRows). */
+export function blockArrowBackSolveRows(workspace: BlockArrowWorkspace, x: Float64Array, m: number): void {
+  const { layout, blocks, couplings, border } = workspace;
+  const nB = layout.borderSize;
+  const borderStart = layout.borderOffset * m;
+  if (nB > 0) upperSolveRows(border, nB, x, borderStart, m);
+  for (let b = 0; b < blocks.length; b++) {
+    const nb = layout.blockSizes[b];
+    const start = layout.blockOffsets[b] * m;
+    if (nB > 0) {
+      const coupling = couplings[b];
+      for (let k = 0; k < nb; k++) {
+        const rowK = start + k * m;
+        for (let i = 0; i < nB; i++) {
+          const c = coupling[k * nB + i];
+          if (c === 0) continue;
+          const source = borderStart + i * m;
+          for (let col = 0; col < m; col++) x[rowK + col] -= c * x[source + col];
+        }
+      }
+    }
+    upperSolveRows(blocks[b], nb, x, start, m);
+  }
+}
+
+/** Rows start..start+n of the row-major ·×m matrix X ← L⁻¹ X (L lower triangular n×n). */
+function lowerSolveRows(l: Float64Array, n: number, x: Float64Array, start: number, m: number): void {
+  for (let i = 0; i < n; i++) {
+    const rowI = start + i * m;
+    for (let k = 0; k < i; k++) {
+      const lik = l[i * n + k];
+      if (lik === 0) continue;
+      const rowK = start + k * m;
+      for (let col = 0; col < m; col++) x[rowI + col] -= lik * x[rowK + col];
+    }
+    const inverse = 1 / l[i * n + i];
+    for (let col = 0; col < m; col++) x[rowI + col] *= inverse;
+  }
+}
+
+/** Rows start..start+n of X ← L⁻ᵀ X (L lower triangular n×n). */
+function upperSolveRows(l: Float64Array, n: number, x: Float64Array, start: number, m: number): void {
+  for (let i = n - 1; i >= 0; i--) {
+    const rowI = start + i * m;
+    for (let k = i + 1; k < n; k++) {
+      const lki = l[k * n + i];
+      if (lki === 0) continue;
+      const rowK = start + k * m;
+      for (let col = 0; col < m; col++) x[rowI + col] -= lki * x[rowK + col];
+    }
+    const inverse = 1 / l[i * n + i];
+    for (let col = 0; col < m; col++) x[rowI + col] *= inverse;
+  }
+}
+
 /** x ← L⁻ᵀ x for one column of a row-major q×m right-hand side. */
 export function blockArrowBackSolve(workspace: BlockArrowWorkspace, x: Float64Array, column = 0, stride = 1): void {
   const { layout, blocks, couplings, border } = workspace;
@@ -211,7 +293,11 @@ function sumOfSquares(values: Float64Array): number {
 export function blockArrowInverseDiagonalAll(workspace: BlockArrowWorkspace, out: Float64Array): void {
   const { layout, blocks, couplings, border } = workspace;
   const nB = layout.borderSize;
-  const borderInverse = lowerTriangularInverse(border, nB);
+  const scratch = inverseScratch(workspace);
+  const borderInverse = lowerTriangularInverse(border, nB, scratch.border);
+  // Its transpose, so that column j of L_B⁻¹ (entries j..n_B−1) is contiguous.
+  const borderInverseT = scratch.borderT;
+  for (let i = 0; i < nB; i++) for (let j = 0; j < nB; j++) borderInverseT[j * nB + i] = borderInverse[i * nB + j];
   for (let i = 0; i < nB; i++) {
     let sum = 0;
     for (let j = i; j < nB; j++) sum += borderInverse[j * nB + i] ** 2;
@@ -220,39 +306,75 @@ export function blockArrowInverseDiagonalAll(workspace: BlockArrowWorkspace, out
   for (let b = 0; b < blocks.length; b++) {
     const nb = layout.blockSizes[b];
     const offset = layout.blockOffsets[b];
-    const blockInverse = lowerTriangularInverse(blocks[b], nb);
+    const blockInverse = lowerTriangularInverse(blocks[b], nb, scratch.block);
     for (let i = 0; i < nb; i++) {
       let sum = 0;
       for (let j = i; j < nb; j++) sum += blockInverse[j * nb + i] ** 2;
       out[offset + i] = sum;
     }
     if (nB === 0) continue;
-    // Qᵀ = (W_bᵀ L_b⁻¹)ᵀ (n_b × n_B, row-major so that every update and solve runs over
-    // contiguous memory), then the row norms of Qᵀ L_B⁻ᵀ, i.e. the column norms of L_B⁻¹ Q.
+    // The border part of row i is ‖L_B⁻¹ W_bᵀ L_b⁻¹ e_i‖² = ‖Σ_{k ≥ i} (L_b⁻¹)_ki g_k‖² with
+    // g_k = L_B⁻¹ w_k for the rows w_k of W_b; g_k = Σ_j w_kj (column j of L_B⁻¹) costs
+    // n_B per nonzero of w_k, and the rows of nested terms have few (a session's row of
+    // assessor:session touches that session and its products only).
     const coupling = couplings[b];
-    const qt = new Float64Array(nb * nB);
+    const g = scratch.g;
+    g.fill(0, 0, nb * nB);
     for (let k = 0; k < nb; k++) {
       const rowK = k * nB;
-      for (let i = 0; i <= k; i++) {
-        const y = blockInverse[k * nb + i];
-        if (y === 0) continue;
-        const rowI = i * nB;
-        for (let r = 0; r < nB; r++) qt[rowI + r] += coupling[rowK + r] * y;
+      for (let j = 0; j < nB; j++) {
+        const w = coupling[rowK + j];
+        if (w === 0) continue;
+        const column = j * nB;
+        for (let r = j; r < nB; r++) g[rowK + r] += w * borderInverseT[column + r];
       }
     }
+    const combined = scratch.combined;
     for (let i = 0; i < nb; i++) {
-      const rowI = i * nB;
-      forwardSolveInPlace(border, nB, qt, rowI);
+      combined.fill(0, 0, nB);
+      for (let k = i; k < nb; k++) {
+        const y = blockInverse[k * nb + i];
+        if (y === 0) continue;
+        const rowK = k * nB;
+        for (let r = 0; r < nB; r++) combined[r] += y * g[rowK + r];
+      }
       let sum = 0;
-      for (let r = 0; r < nB; r++) sum += qt[rowI + r] * qt[rowI + r];
+      for (let r = 0; r < nB; r++) sum += combined[r] * combined[r];
       out[offset + i] += sum;
     }
   }
 }
 
-/** Inverse of a lower-triangular n×n matrix (row-major), itself lower triangular. */
-function lowerTriangularInverse(l: Float64Array, n: number): Float64Array {
-  const inverse = new Float64Array(n * n);
+/** Work arrays of blockArrowInverseDiagonalAll, kept per workspace (it is called once per gradient). */
+interface InverseScratch {
+  border: Float64Array;
+  borderT: Float64Array;
+  block: Float64Array;
+  g: Float64Array;
+  combined: Float64Array;
+}
+const inverseScratches = new WeakMap<BlockArrowWorkspace, InverseScratch>();
+
+function inverseScratch(workspace: BlockArrowWorkspace): InverseScratch {
+  let scratch = inverseScratches.get(workspace);
+  if (!scratch) {
+    const { blockSizes, borderSize } = workspace.layout;
+    const largest = Math.max(0, ...blockSizes);
+    scratch = {
+      border: new Float64Array(borderSize * borderSize),
+      borderT: new Float64Array(borderSize * borderSize),
+      block: new Float64Array(largest * largest),
+      g: new Float64Array(largest * borderSize),
+      combined: new Float64Array(borderSize),
+    };
+    inverseScratches.set(workspace, scratch);
+  }
+  return scratch;
+}
+
+/** Inverse of a lower-triangular n×n matrix (row-major), itself lower triangular, into `inverse` (or a new array). */
+function lowerTriangularInverse(l: Float64Array, n: number, inverse: Float64Array = new Float64Array(n * n)): Float64Array {
+  inverse.fill(0, 0, n * n);
   for (let j = 0; j < n; j++) {
     inverse[j * n + j] = 1 / l[j * n + j];
     for (let i = j + 1; i < n; i++) {

@@ -15,6 +15,8 @@ export interface BoundaryLrt {
   /** Criterion of the reduced fit. */
   reducedCriterion: number;
   reducedConverged: boolean;
+  /** θ of the reduced fit, without the tested term. */
+  reducedTheta: Float64Array;
 }
 
 export function boundaryLikelihoodRatioTest(
@@ -22,6 +24,8 @@ export function boundaryLikelihoodRatioTest(
   full: { theta: ArrayLike<number>; criterion: number },
   termName: string,
   startTheta?: number[],
+  /** Another start (e.g. a stored fit's reduced θ), used when the criterion there is lower. */
+  alternativeStart?: number[] | null,
 ): BoundaryLrt {
   const index = objective.frame.terms.findIndex((term) => term.name === termName);
   if (index < 0) throw new Error(`no random term "${termName}" in this model`);
@@ -35,7 +39,11 @@ export function boundaryLikelihoodRatioTest(
     const result = objective.valueAndGradient(expand(theta));
     return { value: result.value, gradient: result.gradient.filter((_, k) => k !== index) };
   };
-  const start = startTheta ?? Array.from(full.theta).filter((_, k) => k !== index).map((value) => Math.max(value, 0.05));
+  let start = startTheta ?? Array.from(full.theta).filter((_, k) => k !== index).map((value) => Math.max(value, 0.05));
+  if (alternativeStart && alternativeStart.length === start.length && alternativeStart.every((value) => Number.isFinite(value) && value >= 0)) {
+    const lifted = alternativeStart.map((value) => Math.max(value, 0.01));
+    if (objective.evaluate(expand(lifted)) < objective.evaluate(expand(start))) start = lifted;
+  }
   // The average information of the full model at θ with the term at 0 is the reduced model's.
   const kept = [...Array(nTheta).keys()].filter((k) => k !== index);
   const approximateHessian = (theta: ArrayLike<number>): Float64Array | null => {
@@ -50,5 +58,6 @@ export function boundaryLikelihoodRatioTest(
     pValue: boundaryLrtPValue(likelihoodRatio),
     reducedCriterion: reduced.value,
     reducedConverged: reduced.converged,
+    reducedTheta: reduced.theta,
   };
 }

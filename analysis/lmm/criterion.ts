@@ -13,7 +13,9 @@
  */
 import {
   blockArrowBackSolve,
+  blockArrowBackSolveRows,
   blockArrowForwardSolve,
+  blockArrowForwardSolveRows,
   blockArrowInverseDiagonal,
   blockArrowInverseDiagonalAll,
   blockArrowLogDeterminant,
@@ -147,7 +149,7 @@ export function makeRemlObjective(frame: ModelFrame, options: { reml?: boolean }
       for (let c = 0; c < p; c++) rhs[i * width + c] = li * frame.zTx[i * p + c];
       rhs[i * width + p] = li * frame.zTy[i];
     }
-    for (let c = 0; c <= p; c++) blockArrowForwardSolve(workspace, rhs, c, width);
+    blockArrowForwardSolveRows(workspace, rhs, width);
 
     // R_Xᵀ R_X = XᵀX − R_ZXᵀ R_ZX and the right-hand side Xᵀy − R_ZXᵀ c_u.
     for (let i = 0; i < p; i++) {
@@ -264,7 +266,7 @@ export function makeRemlObjective(frame: ModelFrame, options: { reml?: boolean }
     if (reml) {
       // Fixed-effect part of T: rows g_i of L⁻ᵀ R_ZX, contribution ‖L_X⁻¹ g_i‖².
       for (let i = 0; i < q; i++) for (let c = 0; c < p; c++) fixedRows[i * p + c] = rhs[i * width + c];
-      for (let c = 0; c < p; c++) blockArrowBackSolve(workspace, fixedRows, c, p);
+      blockArrowBackSolveRows(workspace, fixedRows, p);
       for (let i = 0; i < q; i++) {
         for (let c = 0; c < p; c++) rowBuffer[c] = fixedRows[i * p + c];
         forwardSolveInPlace(rx, p, rowBuffer);

@@ -21,6 +21,8 @@ export interface PeriodModelFit {
   json: FitJson;
   diagnostics: LmmDiagnostics;
   productSessionLrt: { likelihoodRatio: number; pValue: number } | null;
+  /** θ of the fit without product:session (the LRT's reduced fit) by term name: a later warm start. */
+  reducedRelativeSds: Record<string, number> | null;
   fit: LmmFit;
 }
 
@@ -33,6 +35,8 @@ export interface PeriodModelOptions {
    * default (moment) start, so a poor warm start cannot make the answer worse than a cold fit.
    */
   startRelativeSds?: Record<string, number>;
+  /** Warm start of the LRT's reduced fit (its `reducedRelativeSds`), used on the same terms. */
+  startReducedRelativeSds?: Record<string, number>;
 }
 
 /** θ_k = √(σ²_k/σ²) of each term from a fit's variances (the inverse of a fit's `variance` block). */
@@ -99,6 +103,7 @@ export function fitPeriodModel(observations: Observation[], options: PeriodModel
   if (nAssessors < 3) fit.diagnostics.messages.push(`too few assessors (${nAssessors}): the assessor variance is poorly determined`);
 
   let productSessionLrt: PeriodModelFit['productSessionLrt'] = null;
+  let reducedRelativeSds: Record<string, number> | null = null;
   if (withProductSession) {
     // Balanced: the reduced model's closed form (or moment start) is its answer or close to it.
     // Otherwise the full fit's other components are the better start (only the product:session
@@ -109,7 +114,9 @@ export function fitPeriodModel(observations: Observation[], options: PeriodModel
       { theta: fit.theta, criterion: fit.criterion },
       'product:session',
       reducedStart ?? undefined,
+      options.startReducedRelativeSds && BASE_TERMS.map((term) => options.startReducedRelativeSds![term.join(':')]),
     );
+    reducedRelativeSds = Object.fromEntries(BASE_TERMS.map((term, k) => [term.join(':'), lrt.reducedTheta[k]]));
     if (!lrt.reducedConverged) fit.diagnostics.messages.push('the fit without product:session did not converge: its likelihood ratio is unreliable');
     productSessionLrt = { likelihoodRatio: lrt.likelihoodRatio, pValue: lrt.pValue };
   }
@@ -135,7 +142,7 @@ export function fitPeriodModel(observations: Observation[], options: PeriodModel
     productMeans: fit.productMeans.map((mean) => ({ ...mean })),
     assessorEffects: (fit.randomEffects['assessor'] ?? []).map((effect) => ({ assessor: effect.level, blup: effect.blup, condSD: effect.condSD })),
   };
-  return { json, diagnostics: fit.diagnostics, productSessionLrt, fit };
+  return { json, diagnostics: fit.diagnostics, productSessionLrt, reducedRelativeSds, fit };
 }
 
 /**

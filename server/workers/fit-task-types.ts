@@ -52,6 +52,8 @@ export interface PeriodTask {
    * optimiser's tolerance; fitPeriodModel ignores it when it is worse than the default start.
    */
   startRelativeSds?: Record<string, number> | null;
+  /** The same for the LRT's fit without product:session (that fit's `reducedRelativeSds`). */
+  startReducedRelativeSds?: Record<string, number> | null;
 }
 
 export interface PeriodFitResult {
@@ -59,6 +61,8 @@ export interface PeriodFitResult {
   diagnostics: unknown;
   /** Boundary likelihood-ratio test of product:session (null when not made). */
   lrt: { likelihoodRatio: number; pValue: number } | null;
+  /** Relative SDs of the LRT's fit without product:session, by term (a warm start for later refits). */
+  reducedRelativeSds?: Record<string, number> | null;
 }
 
 export interface PeriodTaskResult {

@@ -54,10 +54,13 @@ export function runSessionTask(task: SessionTask): SessionTaskResult {
 
 export function runPeriodTask(task: PeriodTask): PeriodTaskResult {
   try {
-    const result = fitPeriodModel(task.observations, { startRelativeSds: task.startRelativeSds ?? undefined });
+    const result = fitPeriodModel(task.observations, {
+      startRelativeSds: task.startRelativeSds ?? undefined,
+      startReducedRelativeSds: task.startReducedRelativeSds ?? undefined,
+    });
     return {
       attribute: task.attribute,
-      result: { json: result.json, diagnostics: result.diagnostics, lrt: result.productSessionLrt },
+      result: { json: result.json, diagnostics: result.diagnostics, lrt: result.productSessionLrt, reducedRelativeSds: result.reducedRelativeSds },
       problem: null,
     };
   } catch (error) {
