@@ -6,7 +6,9 @@
  * the first round imports it as generated, later rounds with one value changed (a different one each round), so every round has a new
  * data version, one session fit and a flag rebuild. Per round: the refit's wall time, its flags
  * phase (wall, from the end of the session fits to the flags progress event), the round trip of
- * the flags task to the worker, and the CPU time of the whole process (all threads).
+ * the flags task to the worker, and the CPU time (user + system, all threads of the process) of
+ * the refit and of its flags phase. The stored flags (key, severity, evidence, message) are
+ * hashed per round, to compare two builds' output.
  *
  *   npx tsx bench/flags-phase-bench.ts [--rounds N] [--threads N] [--json]
  */
@@ -53,19 +55,27 @@ const flagsTaskMs: number[] = [];
 const runner = timedRunner(pool, flagsTaskMs);
 await refitPanel(db, panel.panelName, { runner, scope: 'all' });
 await refitPanel(db, panel.panelName, { runner, scope: 'all' });
-const rows: { totalMs: number; flagsPhaseMs: number; flagsTaskMs: number; cpuMs: number; nFlags: number; fingerprint: string }[] = [];
+const rows: { totalMs: number; flagsPhaseMs: number; flagsTaskMs: number; cpuMs: number; flagsCpuMs: number; nFlags: number; fingerprint: string }[] = [];
 for (let round = 0; round < rounds; round++) {
   await importInto(db, panel, round === 0 ? last : changedAt(round));
   const cpu = process.cpuUsage();
   const start = performance.now();
   let sessionsEnd = start;
   let flagsEnd = start;
+  let sessionsEndCpu = cpu;
+  let flagsEndCpu = cpu;
   const summary = await refitPanel(db, panel.panelName, {
     runner,
     scope: 'stale',
     onProgress: (p) => {
-      if (p.phase === 'sessions' && p.done === p.total) sessionsEnd = performance.now();
-      if (p.phase === 'flags') flagsEnd = performance.now();
+      if (p.phase === 'sessions' && p.done === p.total) {
+        sessionsEnd = performance.now();
+        sessionsEndCpu = process.cpuUsage();
+      }
+      if (p.phase === 'flags') {
+        flagsEnd = performance.now();
+        flagsEndCpu = process.cpuUsage();
+      }
     },
   });
   const totalMs = performance.now() - start;
@@ -76,6 +86,7 @@ for (let round = 0; round < rounds; round++) {
     flagsPhaseMs: flagsEnd - sessionsEnd,
     flagsTaskMs: flagsTaskMs[flagsTaskMs.length - 1],
     cpuMs: (used.user + used.system) / 1000,
+    flagsCpuMs: (flagsEndCpu.user + flagsEndCpu.system - sessionsEndCpu.user - sessionsEndCpu.system) / 1000,
     nFlags: summary.nFlags,
     fingerprint: createHash('sha256').update(JSON.stringify(stored)).digest('hex').slice(0, 16),
   });
@@ -84,10 +95,10 @@ await pool.close();
 db.close();
 const med = (values: number[]) => [...values].sort((a, b) => a - b)[values.length >> 1];
 if (process.argv.includes('--json')) {
-  console.log(JSON.stringify({ rows, median: { totalMs: med(rows.map((r) => r.totalMs)), flagsPhaseMs: med(rows.map((r) => r.flagsPhaseMs)), flagsTaskMs: med(rows.map((r) => r.flagsTaskMs)), cpuMs: med(rows.map((r) => r.cpuMs)) } }));
+  console.log(JSON.stringify({ rows, median: { totalMs: med(rows.map((r) => r.totalMs)), flagsPhaseMs: med(rows.map((r) => r.flagsPhaseMs)), flagsTaskMs: med(rows.map((r) => r.flagsTaskMs)), cpuMs: med(rows.map((r) => r.cpuMs)), flagsCpuMs: med(rows.map((r) => r.flagsCpuMs)) } }));
 } else {
-  console.log('| round | refit wall ms | flags phase ms | flags task round trip ms | process CPU ms | flags | stored flags sha256 |');
-  console.log('| ---: | ---: | ---: | ---: | ---: | ---: | --- |');
-  rows.forEach((r, i) => console.log(`| ${i + 1} | ${r.totalMs.toFixed(0)} | ${r.flagsPhaseMs.toFixed(0)} | ${r.flagsTaskMs.toFixed(0)} | ${r.cpuMs.toFixed(0)} | ${r.nFlags} | ${r.fingerprint} |`));
-  console.log(`medians: wall ${med(rows.map((r) => r.totalMs)).toFixed(0)} ms, flags phase ${med(rows.map((r) => r.flagsPhaseMs)).toFixed(0)} ms, flags task ${med(rows.map((r) => r.flagsTaskMs)).toFixed(0)} ms, CPU ${med(rows.map((r) => r.cpuMs)).toFixed(0)} ms`);
+  console.log('| round | refit wall ms | flags phase wall ms | flags task round trip ms | refit CPU ms | flags phase CPU ms | flags | stored flags sha256 |');
+  console.log('| ---: | ---: | ---: | ---: | ---: | ---: | ---: | --- |');
+  rows.forEach((r, i) => console.log(`| ${i + 1} | ${r.totalMs.toFixed(0)} | ${r.flagsPhaseMs.toFixed(0)} | ${r.flagsTaskMs.toFixed(0)} | ${r.cpuMs.toFixed(0)} | ${r.flagsCpuMs.toFixed(0)} | ${r.nFlags} | ${r.fingerprint} |`));
+  console.log(`medians: wall ${med(rows.map((r) => r.totalMs)).toFixed(0)} ms, flags phase ${med(rows.map((r) => r.flagsPhaseMs)).toFixed(0)} ms (CPU ${med(rows.map((r) => r.flagsCpuMs)).toFixed(0)} ms), flags task ${med(rows.map((r) => r.flagsTaskMs)).toFixed(0)} ms, refit CPU ${med(rows.map((r) => r.cpuMs)).toFixed(0)} ms`);
 }

@@ -14,7 +14,7 @@
  * (the flag engine does not; test/analysis/flags/frozen-history.test.ts checks it on a frozen
  * history). Memory: one copy of each panel's parsed results and packed ratings per connection.
  */
-import type { Database } from 'better-sqlite3';
+import type { Database, Statement } from 'better-sqlite3';
 import type { FitJson } from '../domain/analysis.js';
 import type { AssessorSessionIndices } from '../analysis/indices/types.js';
 import type { ImportFinding, PanelHistory, PeriodFitSummary, SessionAttributeResult } from '../analysis/monitor/series.js';
@@ -58,6 +58,16 @@ interface PanelCache {
 }
 
 const CACHES = new WeakMap<Database, Map<number, PanelCache>>();
+const STATEMENTS = new WeakMap<Database, Map<string, Statement>>();
+
+/** Prepared once per connection (preparing the statements took about a fifth of a warm call). */
+function statement(db: Database, sql: string): Statement {
+  let byText = STATEMENTS.get(db);
+  if (!byText) STATEMENTS.set(db, (byText = new Map()));
+  let prepared = byText.get(sql);
+  if (!prepared) byText.set(sql, (prepared = db.prepare(sql)));
+  return prepared;
+}
 
 function panelCache(db: Database, panelId: number): PanelCache {
   let byPanel = CACHES.get(db);
@@ -88,20 +98,20 @@ export function loadFlagInputs(db: Database, panelId: number, options: { windowS
   const scaleOf = new Map(attributes.map((a) => [a.name, a.scale]));
 
   // Same rows and order as loadSessionFits / loadSessionIndices (store/fits-results.ts).
-  const fitRows = db
-    .prepare(
-      `SELECT s.label, s.session_date, at.name, f.session_id || ':' || f.attribute_id, f.fit_json
+  const fitRows = statement(
+    db,
+    `SELECT s.label, s.session_date, at.name, f.session_id || ':' || f.attribute_id, f.fit_json
          FROM session_fit f JOIN session s ON s.id = f.session_id JOIN attribute at ON at.id = f.attribute_id
         WHERE s.panel_id = ? ORDER BY s.session_date, s.label, at.name`,
-    )
+  )
     .raw()
     .all(panelId) as [session: string, date: string, attribute: string, key: string, json: string][];
-  const indexRows = db
-    .prepare(
-      `SELECT i.session_id || ':' || i.attribute_id, i.indices_json FROM session_indices i JOIN session s ON s.id = i.session_id
+  const indexRows = statement(
+    db,
+    `SELECT i.session_id || ':' || i.attribute_id, i.indices_json FROM session_indices i JOIN session s ON s.id = i.session_id
          JOIN attribute at ON at.id = i.attribute_id
         WHERE s.panel_id = ? ORDER BY s.session_date, s.label, at.name`,
-    )
+  )
     .raw()
     .all(panelId) as [key: string, json: string][];
   const fits = parsedTexts(cache.fits, fitRows.map((r) => [r[3], r[4]]));
@@ -165,15 +175,14 @@ export function loadFlagInputs(db: Database, panelId: number, options: { windowS
 /** Every rating of the panel in columns, as loadPackedRatings (store/fits-sessions.ts) gives them. */
 function packedRatings(db: Database, panelId: number, cache: PanelCache): PackedRatings {
   const table = (sql: string) => {
-    const rows = db.prepare(sql).raw().all(panelId) as [number, string][];
+    const rows = statement(db, sql).raw().all(panelId) as [number, string][];
     let maxId = 0;
     for (const [id] of rows) maxId = Math.max(maxId, id);
     const indexOf = new Int32Array(maxId + 1).fill(-1);
     rows.forEach(([id], i) => (indexOf[id] = i));
     return { indexOf, names: rows.map(([, name]) => name) };
   };
-  const sessionRows = db
-    .prepare('SELECT id, label, session_date FROM session WHERE panel_id = ? ORDER BY session_date, label')
+  const sessionRows = statement(db, 'SELECT id, label, session_date FROM session WHERE panel_id = ? ORDER BY session_date, label')
     .raw()
     .all(panelId) as [number, string, string][];
   const assessors = table('SELECT id, code FROM assessor WHERE panel_id = ? ORDER BY code');
@@ -181,16 +190,16 @@ function packedRatings(db: Database, panelId: number, cache: PanelCache): Packed
   const attributes = table('SELECT id, name FROM attribute WHERE panel_id = ? ORDER BY name');
 
   // Refresh the sessions whose version, count or id range changed; forget sessions that are gone.
-  const states = db
-    .prepare(
-      `SELECT s.id, s.data_version, count(r.id), min(r.id), max(r.id)
-         FROM session s LEFT JOIN rating r ON r.session_id = s.id WHERE s.panel_id = ? GROUP BY s.id`,
-    )
+  // Correlated subqueries on the covering (session_id, …) index: about half the time of a join + GROUP BY.
+  const states = statement(
+    db,
+    `SELECT s.id, s.data_version, (SELECT count(*) FROM rating r WHERE r.session_id = s.id),
+            (SELECT min(r.id) FROM rating r WHERE r.session_id = s.id), (SELECT max(r.id) FROM rating r WHERE r.session_id = s.id)
+       FROM session s WHERE s.panel_id = ?`,
+  )
     .raw()
     .all(panelId) as [id: number, dataVersion: number, count: number, minId: number | null, maxId: number | null][];
-  const readSession = db
-    .prepare('SELECT id, assessor_id, product_id, attribute_id, replicate, value, sample_code FROM rating WHERE session_id = ? ORDER BY id')
-    .raw();
+  const readSession = statement(db, 'SELECT id, assessor_id, product_id, attribute_id, replicate, value, sample_code FROM rating WHERE session_id = ? ORDER BY id').raw();
   const current = new Map<number, SessionRatingColumns>();
   for (const [sessionId, dataVersion, count, minId, maxId] of states) {
     let columns = cache.ratings.get(sessionId);
@@ -216,10 +225,11 @@ function packedRatings(db: Database, panelId: number, cache: PanelCache): Packed
     }
   }
   const disjoint = parts.every((p, i) => i === 0 || parts[i - 1].columns.maxId < p.columns.minId);
-  let order: ArrayLike<number> = Int32Array.from({ length: n }, (_, i) => i);
+  const order = new Int32Array(n);
+  for (let i = 0; i < n; i++) order[i] = i;
   if (!disjoint) {
     const idAt = (i: number) => parts[partOf[i]].columns.ids[rowOf[i]];
-    order = Array.from({ length: n }, (_, i) => i).sort((a, b) => idAt(a) - idAt(b));
+    order.set(Array.from(order).sort((a, b) => idAt(a) - idAt(b)));
   }
 
   const packed: PackedRatings = {
