@@ -139,6 +139,9 @@ function parseCached<T>(cache: Map<string, T>, text: string, parse: (text: strin
   return parsed;
 }
 
+const KEY_ROLES = ['session', 'assessor', 'product', 'attribute'] as const;
+type KeyRole = (typeof KEY_ROLES)[number];
+
 /** Row reader state for one file; created after the header row is resolved. */
 class RowReader {
   readonly file: string;
@@ -158,8 +161,11 @@ class RowReader {
   private readonly dates = new Map<string, ReturnType<typeof parseSessionDate>>();
   private readonly replicates = new Map<string, CellResult<number>>();
   private readonly values = new Map<string, CellResult<number>>();
-  /** Key texts (session, assessor, product, attribute) by text; see intern(). */
+  /** Key texts (session, assessor, product, attribute) by text, and the last of each role; see intern(). */
   private readonly keyTexts = new Map<string, string>();
+  private readonly lastKeyTexts: (string | null)[] = KEY_ROLES.map(() => null);
+  private lastDateText = '';
+  private lastDate: ReturnType<typeof parseSessionDate> | null = null;
   private readonly parseValue: (text: string) => CellResult<number>;
   /** Reused per row (cleared at the start of readRow). */
   private readonly keyProblems: InputProblem[] = [];
@@ -187,26 +193,37 @@ class RowReader {
   }
 
   private parseDate(text: string): ReturnType<typeof parseSessionDate> {
-    return parseCached(this.dates, text, parseSessionDate);
+    // Consecutive rows mostly share the date: compare before hashing.
+    if (text !== this.lastDateText || this.lastDate === null) {
+      this.lastDate = parseCached(this.dates, text, parseSessionDate);
+      this.lastDateText = text;
+    }
+    return this.lastDate;
   }
 
-  private requiredText(cells: readonly string[], role: 'session' | 'assessor' | 'product' | 'attribute', row: number, problems: InputProblem[]): string {
+  private requiredText(cells: readonly string[], role: KeyRole, row: number, problems: InputProblem[]): string {
     const column = this.layout.index[role]!;
     const value = this.text(cells[column]);
     if (value === '') problems.push(this.problem('missing-value', row, this.layout.headers[column], `The ${role} is missing; every row needs one.`, ''));
-    return this.intern(value);
+    return this.intern(value, KEY_ROLES.indexOf(role));
   }
 
   /**
    * One string object per distinct key text: every rating of session S01 holds the same 'S01',
    * so the parser's copy of each cell dies young instead of being kept (and copied by the
-   * garbage collector) with every rating: a tenth of the reading time for a year's file.
+   * garbage collector) with every rating. Consecutive rows mostly repeat a key (same session,
+   * assessor, attribute): the text is compared with the last one of its role before hashing.
    */
-  private intern(text: string): string {
-    const known = this.keyTexts.get(text);
-    if (known !== undefined) return known;
-    if (this.keyTexts.size < MAX_CACHED_TEXTS) this.keyTexts.set(text, text);
-    return text;
+  private intern(text: string, role: number): string {
+    const last = this.lastKeyTexts[role];
+    if (text === last) return last;
+    let known = this.keyTexts.get(text);
+    if (known === undefined) {
+      known = text;
+      if (this.keyTexts.size < MAX_CACHED_TEXTS) this.keyTexts.set(text, text);
+    }
+    this.lastKeyTexts[role] = known;
+    return known;
   }
 
   problem(code: ProblemCode, row: number | null, column: string | null, message: string, value?: string | null): InputProblem {
