@@ -6,6 +6,7 @@
  * script copied into its bench/), alternating with this one, so both see the same machine load.
  * `--built` runs the compiled code in each tree's dist/ (build it first: `npm run build`), which is
  * what `panel-steward import` and the service run; without it, the .ts sources through tsx.
+ * `--reader auto|worker|in-thread` chooses where this commit reads the file (ImportRequest.reader).
  * "process s" is the whole child process (start-up, import, closing the store) as the parent saw it.
  *
  *   npx tsx bench/import-bench.ts [--runs 3] [--sizes 100000,1000000] [--forms long,wide] [--compare DIR] [--built]
@@ -48,7 +49,7 @@ async function writeSyntheticWideCsv(path: string, design: SyntheticDesign): Pro
   await once(out, 'finish');
 }
 
-async function child(store: string, file: string, built: boolean): Promise<void> {
+async function child(store: string, file: string, built: boolean, reader: 'auto' | 'worker' | 'in-thread'): Promise<void> {
   // --built: the compiled code in this tree's dist/ (what `panel-steward import` runs), else the .ts sources.
   const root = join(import.meta.dirname, '..');
   const modules = built
@@ -71,6 +72,7 @@ async function child(store: string, file: string, built: boolean): Promise<void>
     input: fileInput(file),
     scale: { min: 0, max: 10 },
     quarantine: false,
+    reader,
     onPhase: (phase) => {
       if (phase === 'writing') {
         writingAt = performance.now();
@@ -105,7 +107,7 @@ const median = (xs: number[]): number => {
 
 async function main(): Promise<void> {
   const args = process.argv.slice(2);
-  if (args[0] === '--child') return child(args[1], args[2], args[3] === '--built');
+  if (args[0] === '--child') return child(args[1], args[2], args[3] === '--built', (args[4] ?? 'auto') as 'auto' | 'worker' | 'in-thread');
   const option = (name: string, fallback: string): string => {
     const at = args.indexOf(name);
     return at >= 0 ? args[at + 1] : fallback;
@@ -115,6 +117,7 @@ async function main(): Promise<void> {
   const forms = option('--forms', 'long,wide').split(',') as ('long' | 'wide')[];
   const compare = option('--compare', '');
   const built = args.includes('--built');
+  const reader = option('--reader', 'auto');
   const trees: { label: string; script: string }[] = [{ label: 'this commit', script: import.meta.filename }];
   if (compare !== '') trees.unshift({ label: option('--compare-label', 'before'), script: join(compare, 'bench', 'import-bench.ts') });
   const loadAtStart = loadavg()[0].toFixed(1);
@@ -134,7 +137,7 @@ async function main(): Promise<void> {
         trees.forEach((tree, t) => {
           const store = join(folder, `store-${size}-${run}.db`);
           for (const suffix of ['', '-wal', '-shm']) rmSync(store + suffix, { force: true });
-          const childArgs = ['--import', 'tsx', tree.script, '--child', store, file, ...(built ? ['--built'] : [])];
+          const childArgs = ['--import', 'tsx', tree.script, '--child', store, file, built ? '--built' : '--sources', reader];
           const spawnedAt = performance.now();
           const out = spawnSync(process.execPath, childArgs, { encoding: 'utf8', maxBuffer: 1 << 20, cwd: join(tree.script, '..', '..') });
           const processMs = performance.now() - spawnedAt;
@@ -161,7 +164,7 @@ async function main(): Promise<void> {
   const load = loadavg()[0].toFixed(1);
   process.stdout.write(
     [
-      `${cpus().length} cores (${cpus()[0]?.model ?? 'unknown'}), Node ${process.version}, load average ${loadAtStart} at the start and ${load} at the end; ${built ? 'compiled dist/' : '.ts sources through tsx'}; medians of ${runs} runs.`,
+      `${cpus().length} cores (${cpus()[0]?.model ?? 'unknown'}), Node ${process.version}, load average ${loadAtStart} at the start and ${load} at the end; ${built ? 'compiled dist/' : '.ts sources through tsx'}; reader ${reader}; medians of ${runs} runs.`,
       '',
       '| ratings | form | code | wall s | ratings/s (wall) | CPU s | ratings/s (CPU) | process s | read + stage s | write transaction s | write CPU s | peak RSS MB |',
       '| ---: | --- | --- | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: |',

@@ -29,9 +29,9 @@ export interface ReadInWorkerOptions {
   fileName: string;
   sheet?: string;
   scales: ScaleLookup;
-  /** Batches posted but not yet taken by the consumer, at most. Default 4. */
+  /** Batches posted but not yet taken by the consumer, at most (bounds memory). Default 8. */
   maxInFlight?: number;
-  /** Events per posted batch, at least (the last may be smaller). Default 4096. */
+  /** Events per posted batch, at least (the last may be smaller). Default 8192. */
   eventsPerBatch?: number;
   /** Tests only: the worker throws after posting this many batches (before saying it is done). */
   failAfterBatches?: number;
@@ -106,8 +106,9 @@ export function readInWorker(source: InputSource, options: ReadInWorkerOptions):
     fileName: options.fileName,
     sheet: options.sheet,
     scales: options.scales,
-    maxInFlight: options.maxInFlight ?? 4,
-    eventsPerBatch: options.eventsPerBatch ?? 4096,
+    // Fewer, larger hand-overs: each one may wait for the other thread to be scheduled.
+    maxInFlight: options.maxInFlight ?? 8,
+    eventsPerBatch: options.eventsPerBatch ?? 8192,
     failAfterBatches: options.failAfterBatches,
   };
   // From the sources (tests, tsx), tsx's loader is registered inside the worker before the .ts
