@@ -7,6 +7,9 @@ import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import type { Database } from 'better-sqlite3';
 import { computeAssessorIndices } from '../../analysis/indices/compute-assessor-indices.js';
 import { fitSessionModel } from '../../analysis/lmm/fit-session-model.js';
+import { fitPeriodModel } from '../../analysis/lmm/fit-period-model.js';
+import type { FitTask, FitTaskResult, PeriodFitResult, PeriodTask } from '../../server/workers/fit-task-types.js';
+import { CRITERION_OPTIMUM_ABSOLUTE, LIKELIHOOD_RATIO_ABSOLUTE, VARIANCE_RELATIVE } from '../helpers/tolerances.js';
 import { createFitPool, type FitRunner } from '../../server/fit-pool.js';
 import { panelDataSignature, periodWindows, refitPanel, RefitService } from '../../server/refit.js';
 import { findPanel, listSessionVersions, loadPackedRatings, unpackRatings } from '../../store/fits-sessions.js';
@@ -147,6 +150,45 @@ describe('refitPanel', () => {
     runner = await changeSession(20);
     expect(runner.sessions).toEqual([label(20)]);
     expect([...runner.windows].sort()).toEqual([...windows(12, 23), ...windows(14, 25)].sort());
+  });
+
+  it('starts period windows from stored and earlier fits, and stores what a cold fit gives', async () => {
+    // Unbalanced (assessors miss sessions), so the period fits go through the optimiser.
+    const panel = smallPanel({ nWeeks: 16, nAssessors: 8, absenceRate: 0.1 });
+    const lastLabel = panel.sessions[panel.sessions.length - 1].label;
+    await importRatings(db, panel, panel.ratings.filter((r) => r.session !== lastLabel));
+    const tasks: PeriodTask[] = [];
+    const capturing = (inner: FitRunner): FitRunner => ({
+      ...inner,
+      run<T extends FitTask>(task: T): Promise<FitTaskResult<T>> {
+        if (task.type === 'period') tasks.push(task as PeriodTask);
+        return inner.run(task);
+      },
+    });
+    await refitPanel(db, panel.panelName, { runner: capturing(inThread()) });
+    // Windows 1–12 and 4–15 per attribute: the second starts from the first (same chain).
+    expect(tasks.filter((t) => t.sessions.length === 12)).toHaveLength(2 * panel.attributes.length);
+    for (const task of tasks) expect(task.startRelativeSds === undefined).toBe(task.sessions[0] === panel.sessions[0].label);
+
+    tasks.length = 0;
+    await importRatings(db, panel, panel.ratings.filter((r) => r.session === lastLabel));
+    await refitPanel(db, panel.panelName, { runner: capturing(inThread()) });
+    // Only the new latest window 5–16, started from the stored fit of the window 4–15.
+    expect(tasks.map((t) => [t.attribute, t.sessions[0], t.sessions[11]]).sort()).toEqual(
+      panel.attributes.map((a) => [a.name, panel.sessions[4].label, lastLabel]).sort(),
+    );
+    const panelId = findPanel(db, panel.panelName)!.id;
+    for (const task of tasks) {
+      expect(task.startRelativeSds).toBeTruthy();
+      expect(task.startReducedRelativeSds).toBeTruthy();
+      const stored = loadPeriodFits(db, panelId, task.attribute).find((p) => p.lastSession === lastLabel)!.result as PeriodFitResult;
+      const cold = fitPeriodModel(task.observations);
+      expect(Math.abs(stored.json.remlCriterion - cold.json.remlCriterion)).toBeLessThan(CRITERION_OPTIMUM_ABSOLUTE);
+      for (const [term, value] of Object.entries(cold.json.variance)) {
+        expect(Math.abs((stored.json.variance as unknown as Record<string, number>)[term] - (value as number))).toBeLessThan(VARIANCE_RELATIVE * cold.json.variance.residual);
+      }
+      expect(Math.abs(stored.lrt!.likelihoodRatio - cold.productSessionLrt!.likelihoodRatio)).toBeLessThan(LIKELIHOOD_RATIO_ABSOLUTE);
+    }
   });
 
   it('rebuilds only the flags when the thresholds change', async () => {
