@@ -12,6 +12,7 @@
  */
 import { chiSquareQuantile, normalQuantile } from '../distributions/index.js';
 import { ewmaArl } from './ewma.js';
+import { DEFAULT_LAMBDA_GRID } from './arl-grid-default.js';
 import { solveIncreasing } from './solve-monotone.js';
 
 /** Effective degrees of freedom of MR̄/d2 from N values (see header). */
@@ -26,12 +27,20 @@ const SHIFT_GRID = [0, 0.2, 0.4, 0.6, 0.8, 1];
 /** 61 states: in-control ARLs within ~2 % of the 301-state values, enough for sizing. */
 const GRID_STATES = 61;
 
-const gridCache = new Map<number, Float64Array[]>();
+/** log ARL on the (L, shift) grid for one λ: 126 Brook–Evans chains (about 0.15 s). */
+export function computeLogArlGrid(lambda: number): Float64Array[] {
+  return L_GRID.map((L) => Float64Array.from(SHIFT_GRID.map((shift) => Math.log(Math.min(ewmaArl({ lambda, L }, shift, GRID_STATES), 1e12)))));
+}
+
+// The default λ's grid ships precomputed (a worker thread's first flag build would otherwise
+// spend 0.15–0.3 s on it); test/analysis/monitor/arl-grid.test.ts recomputes it and compares
+// every value exactly, so the numbers are the same as computing them.
+const gridCache = new Map<number, Float64Array[]>([[DEFAULT_LAMBDA_GRID.lambda, DEFAULT_LAMBDA_GRID.logArl.map((row) => Float64Array.from(row))]]);
 
 function logArlGrid(lambda: number): Float64Array[] {
   let grid = gridCache.get(lambda);
   if (!grid) {
-    grid = L_GRID.map((L) => Float64Array.from(SHIFT_GRID.map((shift) => Math.log(Math.min(ewmaArl({ lambda, L }, shift, GRID_STATES), 1e12)))));
+    grid = computeLogArlGrid(lambda);
     gridCache.set(lambda, grid);
   }
   return grid;
@@ -65,18 +74,36 @@ const QUADRATURE_POINTS = 24;
  * precise, u is effectively max(u, spreadFloor) with spreadFloor ≈ 1 for an ordinary series.
  */
 export function unconditionalFalseAlarmRate(lambda: number, L: number, nReference: number, spreadFloor = 0): number {
-  const df = movingRangeDf(nReference);
-  const centreSd = 1 / Math.sqrt(nReference);
+  const { spreads, shifts } = quadratureNodes(nReference, spreadFloor);
   let total = 0;
-  // Equal-probability nodes (midpoint rule on the probability scale) for u and ε.
   for (let i = 0; i < QUADRATURE_POINTS; i++) {
-    const u = Math.max(spreadFloor, Math.sqrt(chiSquareQuantile((i + 0.5) / QUADRATURE_POINTS, df) / df));
-    for (let j = 0; j < QUADRATURE_POINTS / 2; j++) {
-      const shift = centreSd * normalQuantile((j + 0.5) / QUADRATURE_POINTS);
-      total += Math.exp(-logArl(lambda, L * u, shift));
-    }
+    const u = spreads[i];
+    for (let j = 0; j < QUADRATURE_POINTS / 2; j++) total += Math.exp(-logArl(lambda, L * u, shifts[j]));
   }
   return total / (QUADRATURE_POINTS * (QUADRATURE_POINTS / 2));
+}
+
+const nodeCache = new Map<string, { spreads: Float64Array; shifts: Float64Array }>();
+
+/**
+ * Equal-probability nodes (midpoint rule on the probability scale) for u and ε; they do not
+ * depend on L, so the root search on L reuses them (memoised: the quantile inversions were most
+ * of a limit's cost).
+ */
+function quadratureNodes(nReference: number, spreadFloor: number): { spreads: Float64Array; shifts: Float64Array } {
+  const key = `${nReference}|${spreadFloor}`;
+  let nodes = nodeCache.get(key);
+  if (!nodes) {
+    const df = movingRangeDf(nReference);
+    const centreSd = 1 / Math.sqrt(nReference);
+    const spreads = new Float64Array(QUADRATURE_POINTS);
+    const shifts = new Float64Array(QUADRATURE_POINTS / 2);
+    for (let i = 0; i < QUADRATURE_POINTS; i++) spreads[i] = Math.max(spreadFloor, Math.sqrt(chiSquareQuantile((i + 0.5) / QUADRATURE_POINTS, df) / df));
+    for (let j = 0; j < QUADRATURE_POINTS / 2; j++) shifts[j] = centreSd * normalQuantile((j + 0.5) / QUADRATURE_POINTS);
+    nodes = { spreads, shifts };
+    if (nodeCache.size < 10_000) nodeCache.set(key, nodes);
+  }
+  return nodes;
 }
 
 const limitCache = new Map<string, number>();
