@@ -189,6 +189,39 @@ describe('write transaction without per-row foreign-key checks', () => {
     expect(db.prepare('SELECT count(*) AS n FROM rating_correction').get()).toEqual({ n: 2 });
   });
 
+  it('ids chosen for all-new names and joined for known ones point at the right rows, in one panel and across panels', async () => {
+    // First import: every kind new (ids by offset). Second panel: all new again, above the first's ids.
+    expect((await run(['S1,2026-01-05,A1,P1,1,sweet,5', 'S1,2026-01-05,A2,P2,1,sweet,6'])).outcome).toBe('imported');
+    expect((await run(['T1,2026-01-05,B1,Q1,1,sour,3'], { panel: 'second' })).outcome).toBe('imported');
+    // Mixed: a known assessor with a new one, new products, a new attribute, a new session, a settings-only product.
+    const mixed = await run(['S2,2026-01-12,A1,P9,1,salty,7', 'S2,2026-01-12,A3,P9,2,salty,8', 'S2,2026-01-12,A3,P1,1,sweet,1'], {
+      settings: { products: { REF: { name: 'reference', role: 'reference' } } },
+    });
+    expect(mixed.outcome).toBe('imported');
+    // Replaced session (its id is kept) next to a new one.
+    expect((await run(['S1,2026-01-05,A1,P1,1,sweet,4.5', 'S3,2026-01-19,A4,P1,1,sweet,2'])).outcome).toBe('imported');
+    expect(db.pragma('foreign_key_check')).toEqual([]);
+    const named = db
+      .prepare(
+        `SELECT p.name AS panel, s.label, a.code AS assessor, pr.code AS product, at.name AS attribute, r.replicate, r.value
+         FROM rating r JOIN session s ON s.id = r.session_id JOIN panel p ON p.id = s.panel_id
+         JOIN assessor a ON a.id = r.assessor_id AND a.panel_id = p.id JOIN product pr ON pr.id = r.product_id AND pr.panel_id = p.id
+         JOIN attribute at ON at.id = r.attribute_id AND at.panel_id = p.id
+         ORDER BY p.name, s.label, a.code, pr.code, at.name, r.replicate`,
+      )
+      .all()
+      .map((row) => Object.values(row as object).join(' '));
+    expect(named).toEqual([
+      'crisps S1 A1 P1 sweet 1 4.5',
+      'crisps S3 A4 P1 sweet 1 2',
+      'crisps S2 A1 P9 salty 1 7',
+      'crisps S2 A3 P1 sweet 1 1',
+      'crisps S2 A3 P9 salty 2 8',
+      'second T1 B1 Q1 sour 1 3',
+    ].sort((x, y) => x.localeCompare(y)));
+    expect(db.prepare("SELECT role FROM product WHERE code = 'REF'").get()).toEqual({ role: 'reference' });
+  });
+
   it('a rejected import leaves the checks on', async () => {
     const report = await run(['S1,2026-01-05,A1,P1,1,sweet,5', 'S1,2026-01-12,A1,P1,2,sweet,5']);
     expect(report.outcome).toBe('rejected');
