@@ -131,25 +131,28 @@ export class CompactEncoder {
   }
 }
 
+/**
+ * Events per compact batch, at least (the last may be smaller): the store stages one batch per
+ * transaction, so larger batches mean fewer commits; the reader hands over about 1,000 at a time.
+ */
+export const EVENTS_PER_COMPACT_BATCH = 8192;
+
 /** Compact batches of an event stream, encoded on the calling thread (tests, small files). */
 export async function* compactBatches(
   events: AsyncIterable<ReadEvent | ReadEvent[]> | Iterable<ReadEvent | ReadEvent[]>,
+  eventsPerBatch = EVENTS_PER_COMPACT_BATCH,
 ): AsyncGenerator<CompactBatch> {
   const encoder = new CompactEncoder();
   let pending: ReadEvent[] = [];
   for await (const item of events) {
     if (Array.isArray(item)) {
-      if (pending.length > 0) {
-        yield encoder.encode(pending);
-        pending = [];
-      }
-      yield encoder.encode(item);
+      for (let i = 0; i < item.length; i++) pending.push(item[i]);
     } else {
       pending.push(item);
-      if (pending.length >= 4096) {
-        yield encoder.encode(pending);
-        pending = [];
-      }
+    }
+    if (pending.length >= eventsPerBatch) {
+      yield encoder.encode(pending);
+      pending = [];
     }
   }
   if (pending.length > 0) yield encoder.encode(pending);

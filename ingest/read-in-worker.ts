@@ -12,7 +12,7 @@ import { createRequire } from 'node:module';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import { Worker } from 'node:worker_threads';
 import type { ScaleRange } from '../domain/ratings.js';
-import type { CompactBatch } from './compact-batches.js';
+import { EVENTS_PER_COMPACT_BATCH, type CompactBatch } from './compact-batches.js';
 import { UNEXPECTED_READ_FAILURE, type InputSource } from './read-ratings.js';
 
 /**
@@ -31,7 +31,7 @@ export interface ReadInWorkerOptions {
   scales: ScaleLookup;
   /** Batches posted but not yet taken by the consumer, at most (bounds memory). Default 8. */
   maxInFlight?: number;
-  /** Events per posted batch, at least (the last may be smaller). Default 8192. */
+  /** Events per posted batch, at least (the last may be smaller). Default EVENTS_PER_COMPACT_BATCH. */
   eventsPerBatch?: number;
   /** Tests only: the worker throws after posting this many batches (before saying it is done). */
   failAfterBatches?: number;
@@ -108,7 +108,7 @@ export function readInWorker(source: InputSource, options: ReadInWorkerOptions):
     scales: options.scales,
     // Fewer, larger hand-overs: each one may wait for the other thread to be scheduled.
     maxInFlight: options.maxInFlight ?? 8,
-    eventsPerBatch: options.eventsPerBatch ?? 8192,
+    eventsPerBatch: options.eventsPerBatch ?? EVENTS_PER_COMPACT_BATCH,
     failAfterBatches: options.failAfterBatches,
   };
   // From the sources (tests, tsx), tsx's loader is registered inside the worker before the .ts

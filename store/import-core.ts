@@ -1,12 +1,13 @@
 /**
- * The import transaction, fed by a stream of read events (ratings, missing cells, problems,
- * findings). `importRatings` (import-ratings.ts) wires the file reader to this; tests may feed
- * events directly.
+ * The import transaction, fed by the reader's compact batches (ingest/compact-batches.ts: ratings
+ * as typed arrays of name ids, plus problems and findings), in reading order. `importRatings`
+ * (import-ratings.ts) wires the file reader to this, on a worker thread for large files; tests
+ * may feed read events directly (importRatingEvents encodes them on this thread).
  *
  * Shape of the work:
  * 1. Stream: every rating goes into a TEMP staging table keyed by (session, attribute, assessor,
- *    product, replicate), in bounded batches, so memory stays flat however large the file is.
- *    Identifiers are interned to small integers (memory grows with distinct names only).
+ *    product, replicate), one batch per transaction, so memory stays flat however large the file
+ *    is. Every staged column but the value is an integer id (memory grows with distinct names only).
  *    The key constraint finds exact duplicates (kept once, named as a finding) and conflicting
  *    duplicates (a problem naming both rows) as the rows arrive. Nothing of the store is
  *    written or locked in this phase.
@@ -77,8 +78,6 @@ export interface ImportEventsRequest {
 
 export type ImportPhase = 'writing' | 'committed';
 
-/** Events are staged in batches of this many; the only per-file JS memory besides name maps. */
-const STAGE_BATCH = 4096;
 /** Rows per multi-row INSERT into the staging table (2,304 parameters, under SQLite's 32,766). */
 const STAGE_CHUNK_ROWS = 256;
 /** Parameters per staged row. */
