@@ -61,6 +61,7 @@ export function factorBlockArrowInPlace(workspace: BlockArrowWorkspace): boolean
   const { layout, blocks, couplings, border } = workspace;
   const nB = layout.borderSize;
   const nonzero = new Int32Array(nB);
+  const denseRows = new Int32Array(Math.max(0, ...layout.blockSizes));
   for (let b = 0; b < blocks.length; b++) {
     const nb = layout.blockSizes[b];
     const block = blocks[b];
@@ -81,19 +82,16 @@ export function factorBlockArrowInPlace(workspace: BlockArrowWorkspace): boolean
       for (let j = 0; j < nB; j++) coupling[rowI + j] *= inverseDiagonal;
     }
     // Schur complement update of the lower triangle of the border: A_B -= W_bᵀ W_b, one rank-1
-    // update per row of W_b; mostly-zero rows (those of a nested term) over their nonzeros only.
+    // update per row of W_b; mostly-zero rows (those of a nested term) over their nonzeros only,
+    // the dense rows four at a time (one pass over the border per four rows instead of four).
+    let nDense = 0;
     for (let k = 0; k < nb; k++) {
       const rowK = k * nB;
       let count = 0;
       for (let i = 0; i < nB; i++) if (coupling[rowK + i] !== 0) nonzero[count++] = i;
       if (count === 0) continue;
       if (2 * count > nB) {
-        for (let i = 0; i < nB; i++) {
-          const wki = coupling[rowK + i];
-          if (wki === 0) continue;
-          const rowI = i * nB;
-          for (let j = 0; j <= i; j++) border[rowI + j] -= wki * coupling[rowK + j];
-        }
+        denseRows[nDense++] = rowK;
         continue;
       }
       for (let a = 0; a < count; a++) {
@@ -104,6 +102,32 @@ export function factorBlockArrowInPlace(workspace: BlockArrowWorkspace): boolean
           const j = nonzero[b2];
           border[rowI + j] -= wki * coupling[rowK + j];
         }
+      }
+    }
+    let d = 0;
+    for (; d + 4 <= nDense; d += 4) {
+      const r0 = denseRows[d];
+      const r1 = denseRows[d + 1];
+      const r2 = denseRows[d + 2];
+      const r3 = denseRows[d + 3];
+      for (let i = 0; i < nB; i++) {
+        const a0 = coupling[r0 + i];
+        const a1 = coupling[r1 + i];
+        const a2 = coupling[r2 + i];
+        const a3 = coupling[r3 + i];
+        const rowI = i * nB;
+        for (let j = 0; j <= i; j++) {
+          border[rowI + j] -= a0 * coupling[r0 + j] + a1 * coupling[r1 + j] + a2 * coupling[r2 + j] + a3 * coupling[r3 + j];
+        }
+      }
+    }
+    for (; d < nDense; d++) {
+      const rowK = denseRows[d];
+      for (let i = 0; i < nB; i++) {
+        const wki = coupling[rowK + i];
+        if (wki === 0) continue;
+        const rowI = i * nB;
+        for (let j = 0; j <= i; j++) border[rowI + j] -= wki * coupling[rowK + j];
       }
     }
   }
@@ -294,24 +318,14 @@ export function blockArrowInverseDiagonalAll(workspace: BlockArrowWorkspace, out
   const { layout, blocks, couplings, border } = workspace;
   const nB = layout.borderSize;
   const scratch = inverseScratch(workspace);
-  const borderInverse = lowerTriangularInverse(border, nB, scratch.border);
-  // Its transpose, so that column j of L_B⁻¹ (entries j..n_B−1) is contiguous.
-  const borderInverseT = scratch.borderT;
-  for (let i = 0; i < nB; i++) for (let j = 0; j < nB; j++) borderInverseT[j * nB + i] = borderInverse[i * nB + j];
-  for (let i = 0; i < nB; i++) {
-    let sum = 0;
-    for (let j = i; j < nB; j++) sum += borderInverse[j * nB + i] ** 2;
-    out[layout.borderOffset + i] = sum;
-  }
+  // (L_B⁻¹)ᵀ: row j holds column j of L_B⁻¹ (entries j..n_B−1), contiguous.
+  const borderInverseT = lowerTriangularInverseTransposed(border, nB, scratch.borderT);
+  for (let i = 0; i < nB; i++) out[layout.borderOffset + i] = sumOfSquaresFrom(borderInverseT, i * nB + i, i * nB + nB);
   for (let b = 0; b < blocks.length; b++) {
     const nb = layout.blockSizes[b];
     const offset = layout.blockOffsets[b];
-    const blockInverse = lowerTriangularInverse(blocks[b], nb, scratch.block);
-    for (let i = 0; i < nb; i++) {
-      let sum = 0;
-      for (let j = i; j < nb; j++) sum += blockInverse[j * nb + i] ** 2;
-      out[offset + i] = sum;
-    }
+    const blockInverseT = lowerTriangularInverseTransposed(blocks[b], nb, scratch.block);
+    for (let i = 0; i < nb; i++) out[offset + i] = sumOfSquaresFrom(blockInverseT, i * nb + i, i * nb + nb);
     if (nB === 0) continue;
     // The border part of row i is ‖L_B⁻¹ W_bᵀ L_b⁻¹ e_i‖² = ‖Σ_{k ≥ i} (L_b⁻¹)_ki g_k‖² with
     // g_k = L_B⁻¹ w_k for the rows w_k of W_b; g_k = Σ_j w_kj (column j of L_B⁻¹) costs
@@ -320,8 +334,46 @@ export function blockArrowInverseDiagonalAll(workspace: BlockArrowWorkspace, out
     const coupling = couplings[b];
     const g = scratch.g;
     g.fill(0, 0, nb * nB);
+    // Dense rows four at a time (one pass over L_B⁻¹ per four rows), the others nonzero by nonzero.
+    let nDense = 0;
     for (let k = 0; k < nb; k++) {
       const rowK = k * nB;
+      let count = 0;
+      for (let j = 0; j < nB; j++) if (coupling[rowK + j] !== 0) count++;
+      if (2 * count > nB) {
+        scratch.denseRows[nDense++] = rowK;
+        continue;
+      }
+      for (let j = 0; j < nB; j++) {
+        const w = coupling[rowK + j];
+        if (w === 0) continue;
+        const column = j * nB;
+        for (let r = j; r < nB; r++) g[rowK + r] += w * borderInverseT[column + r];
+      }
+    }
+    let d = 0;
+    for (; d + 4 <= nDense; d += 4) {
+      const r0 = scratch.denseRows[d];
+      const r1 = scratch.denseRows[d + 1];
+      const r2 = scratch.denseRows[d + 2];
+      const r3 = scratch.denseRows[d + 3];
+      for (let j = 0; j < nB; j++) {
+        const w0 = coupling[r0 + j];
+        const w1 = coupling[r1 + j];
+        const w2 = coupling[r2 + j];
+        const w3 = coupling[r3 + j];
+        const column = j * nB;
+        for (let r = j; r < nB; r++) {
+          const value = borderInverseT[column + r];
+          g[r0 + r] += w0 * value;
+          g[r1 + r] += w1 * value;
+          g[r2 + r] += w2 * value;
+          g[r3 + r] += w3 * value;
+        }
+      }
+    }
+    for (; d < nDense; d++) {
+      const rowK = scratch.denseRows[d];
       for (let j = 0; j < nB; j++) {
         const w = coupling[rowK + j];
         if (w === 0) continue;
@@ -333,7 +385,7 @@ export function blockArrowInverseDiagonalAll(workspace: BlockArrowWorkspace, out
     for (let i = 0; i < nb; i++) {
       combined.fill(0, 0, nB);
       for (let k = i; k < nb; k++) {
-        const y = blockInverse[k * nb + i];
+        const y = blockInverseT[i * nb + k];
         if (y === 0) continue;
         const rowK = k * nB;
         for (let r = 0; r < nB; r++) combined[r] += y * g[rowK + r];
@@ -347,8 +399,8 @@ export function blockArrowInverseDiagonalAll(workspace: BlockArrowWorkspace, out
 
 /** Work arrays of blockArrowInverseDiagonalAll, kept per workspace (it is called once per gradient). */
 interface InverseScratch {
-  border: Float64Array;
   borderT: Float64Array;
+  denseRows: Int32Array;
   block: Float64Array;
   g: Float64Array;
   combined: Float64Array;
@@ -361,8 +413,8 @@ function inverseScratch(workspace: BlockArrowWorkspace): InverseScratch {
     const { blockSizes, borderSize } = workspace.layout;
     const largest = Math.max(0, ...blockSizes);
     scratch = {
-      border: new Float64Array(borderSize * borderSize),
       borderT: new Float64Array(borderSize * borderSize),
+      denseRows: new Int32Array(largest),
       block: new Float64Array(largest * largest),
       g: new Float64Array(largest * borderSize),
       combined: new Float64Array(borderSize),
@@ -372,16 +424,27 @@ function inverseScratch(workspace: BlockArrowWorkspace): InverseScratch {
   return scratch;
 }
 
-/** Inverse of a lower-triangular n×n matrix (row-major), itself lower triangular, into `inverse` (or a new array). */
-function lowerTriangularInverse(l: Float64Array, n: number, inverse: Float64Array = new Float64Array(n * n)): Float64Array {
-  inverse.fill(0, 0, n * n);
+/**
+ * The transpose of the inverse of a lower-triangular n×n matrix L (row-major), into `result`:
+ * row j is L⁻¹ e_j (zero before j), found by forward substitution along contiguous rows.
+ */
+function lowerTriangularInverseTransposed(l: Float64Array, n: number, result: Float64Array): Float64Array {
+  result.fill(0, 0, n * n);
   for (let j = 0; j < n; j++) {
-    inverse[j * n + j] = 1 / l[j * n + j];
+    const row = j * n;
+    result[row + j] = 1 / l[j * n + j];
     for (let i = j + 1; i < n; i++) {
+      const li = i * n;
       let sum = 0;
-      for (let k = j; k < i; k++) sum += l[i * n + k] * inverse[k * n + j];
-      inverse[i * n + j] = -sum / l[i * n + i];
+      for (let k = j; k < i; k++) sum += l[li + k] * result[row + k];
+      result[row + i] = -sum / l[li + i];
     }
   }
-  return inverse;
+  return result;
+}
+
+function sumOfSquaresFrom(values: Float64Array, from: number, to: number): number {
+  let sum = 0;
+  for (let i = from; i < to; i++) sum += values[i] * values[i];
+  return sum;
 }

@@ -271,8 +271,30 @@ function numericGradient(f: (gamma: Float64Array) => number, x: Float64Array, fx
  */
 function hessianEstimate(functions: GammaFunctions, x: Float64Array, gradient: Float64Array, fixed: Uint8Array): Float64Array | null {
   const approximation = functions.hessian?.(x);
-  const inverse = approximation ? invertOnFree(approximation, fixed) : null;
+  const inverse = approximation && wellConditioned(approximation, fixed) ? invertOnFree(approximation, fixed) : null;
   return inverse ?? finiteDifferenceHessian(functions, x, gradient, fixed);
+}
+
+/**
+ * Whether an approximate Hessian determines every free direction: a component the data cannot
+ * inform (e.g. a term spanned by the fixed effects) has a vanishing row in the average
+ * information, and its inverse would send that component towards infinity.
+ */
+function wellConditioned(hessian: Float64Array, fixed: Uint8Array): boolean {
+  const k = fixed.length;
+  let largest = 0;
+  for (let i = 0; i < k; i++) if (!fixed[i]) largest = Math.max(largest, Math.abs(hessian[i * k + i]));
+  const factor = new Float64Array(k * k);
+  for (let i = 0; i < k; i++) {
+    for (let j = 0; j < k; j++) factor[i * k + j] = fixed[i] || fixed[j] ? (i === j ? 1 : 0) : hessian[i * k + j];
+  }
+  if (!(largest > 0) || !choleskyInPlace(factor, k)) return false;
+  for (let i = 0; i < k; i++) {
+    if (fixed[i]) continue;
+    // Relative pivot: the part of the curvature of component i not explained by the others.
+    if (!(factor[i * k + i] ** 2 > 1e-10 * hessian[i * k + i]) || !(hessian[i * k + i] > 1e-10 * largest)) return false;
+  }
+  return true;
 }
 
 /**

@@ -20,6 +20,8 @@ import {
 import { makeRemlObjective } from '../../../analysis/lmm/criterion.js';
 import { fitPeriodModel, relativeSdsFromVariances, type PeriodModelFit } from '../../../analysis/lmm/fit-period-model.js';
 import { buildModelFrame } from '../../../analysis/lmm/model-frame.js';
+import { minimizeBounded } from '../../../analysis/lmm/optimise.js';
+import { readFixture, toObservations, type ColumnData } from '../indices/fixture-helpers.js';
 import { CRITERION_OPTIMUM_ABSOLUTE, DENOMINATOR_DF_RELATIVE, F_RELATIVE, LIKELIHOOD_RATIO_ABSOLUTE, VARIANCE_RELATIVE } from '../../helpers/tolerances.js';
 
 // Invented demo panel (seeded), unbalanced: assessors miss about 5 % of sessions.
@@ -120,6 +122,31 @@ describe('average information (the optimiser\'s Hessian)', () => {
         expect(Math.abs(information[i * k + j] - differences[i * k + j])).toBeLessThan(0.05 * scale);
       }
     }
+  });
+});
+
+describe('average information where a term is not identified', () => {
+  it('falls back to Hessians from differences and gives the same fit as without it', () => {
+    // Three seeded balanced designs (R fixture indices-designs.json) taken as sessions: session
+    // and product:session are not identified and their rows of the average information vanish;
+    // inverting it would send them to infinity.
+    const designs = readFixture<{ designs: { data: ColumnData }[] }>('indices-designs.json').designs;
+    const ratings = [0, 2, 5].flatMap((index) => toObservations(designs[index].data, `S${index + 1}`, 'crispness'));
+    const frame = buildModelFrame({
+      response: ratings.map((r) => r.value),
+      columns: { assessor: ratings.map((r) => r.assessor), product: ratings.map((r) => r.product), session: ratings.map((r) => r.session) },
+      fixedFactor: 'product',
+      randomTerms: [['assessor'], ['session'], ['assessor', 'product'], ['assessor', 'session'], ['product', 'session']],
+    });
+    const objective = makeRemlObjective(frame);
+    const optimum = (steered: boolean) =>
+      minimizeBounded(objective.evaluate, [0.5, 0.5, 0.5, 0.5, 0.5], {}, objective.valueAndGradient, {
+        approximateHessian: steered ? objective.averageInformation : undefined,
+      });
+    const [plain, steered] = [optimum(false), optimum(true)];
+    expect(steered.converged).toBe(true);
+    expect(Math.abs(steered.value - plain.value)).toBeLessThan(CRITERION_OPTIMUM_ABSOLUTE);
+    expect(Array.from(steered.theta)).toEqual(Array.from(plain.theta).map((value) => expect.closeTo(value, 6)));
   });
 });
 
