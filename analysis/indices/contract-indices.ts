@@ -16,15 +16,52 @@ import { pearsonCorrelation } from '../descriptive/pearson-correlation.js';
  * programming error), with buildCellTable's messages.
  */
 export function contractIndices(observations: readonly Observation[]): AssessorIndicesJson[] {
-  const n = observations.length;
-  if (n === 0) return [];
-  const { session, attribute } = observations[0];
+  if (observations.length === 0) return [];
+  const table = cellStatistics(codeRatings(observations));
+  const rows: AssessorIndicesJson[] = [];
+  for (let a = 0; a < table.assessors.length; a++) rows.push(assessorRow(table, a));
+  return rows;
+}
 
-  // Assessors and products in first-seen order; each rating's cell = assessor × P + product.
+/** Assessors and products in first-seen order; each rating's assessor and product code. */
+interface CodedRatings {
+  session: string;
+  attribute: string;
+  observations: readonly Observation[];
+  assessors: string[];
+  nProducts: number;
+  assessorOf: Int32Array;
+  productOf: Int32Array;
+}
+
+/**
+ * Cell statistics, cell = assessor × P + product: counts, the ratings grouped by cell (`values`
+ * from `start[cell]` to `start[cell + 1]`), m_ap, each assessor's within-cell sum of squares and
+ * df, and M_p.
+ */
+interface CellStatistics {
+  session: string;
+  attribute: string;
+  assessors: string[];
+  nProducts: number;
+  counts: Int32Array;
+  start: Int32Array;
+  values: Float64Array;
+  cellMeans: Float64Array;
+  withinSumOfSquares: Float64Array;
+  withinDf: Int32Array;
+  panelMeans: Float64Array;
+}
+
+// The work is split into small functions so that each is optimised early (a year calls them
+// 520 and 6 240 times; one large function waited for a slow optimising compile).
+
+function codeRatings(observations: readonly Observation[]): CodedRatings {
+  const n = observations.length;
+  const { session, attribute } = observations[0];
   const assessorCode = new Map<string, number>();
   const productCode = new Map<string, number>();
   const assessors: string[] = [];
-  const products: string[] = [];
   const assessorOf = new Int32Array(n);
   const productOf = new Int32Array(n);
   let lastAssessor: string | undefined;
@@ -47,24 +84,27 @@ export function contractIndices(observations: readonly Observation[]): AssessorI
     }
     assessorOf[i] = lastAssessorCode;
     let product = productCode.get(observation.product);
-    if (product === undefined) {
-      productCode.set(observation.product, (product = products.length));
-      products.push(observation.product);
-    }
+    if (product === undefined) productCode.set(observation.product, (product = productCode.size));
     productOf[i] = product;
   }
-  const nA = assessors.length;
-  const nP = products.length;
-  const nCells = nA * nP;
+  return { session, attribute, observations, assessors, nProducts: productCode.size, assessorOf, productOf };
+}
 
+function cellStatistics(coded: CodedRatings): CellStatistics {
+  const { observations, assessorOf, productOf, nProducts: nP } = coded;
+  const n = observations.length;
+  const nA = coded.assessors.length;
+  const nCells = nA * nP;
   // Ratings grouped by cell, in rating order within a cell (a counting sort). An assessor's
   // cells are also listed in the order the assessor first rated them: the within-cell sum of
   // squares runs in that order, as buildCellTable's row map does.
   const counts = new Int32Array(nCells);
-  const firstRatedOrder: number[][] = Array.from({ length: nA }, () => []);
+  const firstRatedOrder = new Int32Array(nCells);
+  const nFirstRated = new Int32Array(nA);
   for (let i = 0; i < n; i++) {
-    const cell = assessorOf[i] * nP + productOf[i];
-    if (counts[cell]++ === 0) firstRatedOrder[assessorOf[i]].push(cell);
+    const a = assessorOf[i];
+    const cell = a * nP + productOf[i];
+    if (counts[cell]++ === 0) firstRatedOrder[a * nP + nFirstRated[a]++] = cell;
   }
   const start = new Int32Array(nCells + 1);
   for (let c = 0; c < nCells; c++) start[c + 1] = start[c] + counts[c];
@@ -78,7 +118,8 @@ export function contractIndices(observations: readonly Observation[]): AssessorI
   const withinDf = new Int32Array(nA);
   for (let a = 0; a < nA; a++) {
     let sumOfSquares = 0;
-    for (const cell of firstRatedOrder[a]) {
+    for (let j = 0; j < nFirstRated[a]; j++) {
+      const cell = firstRatedOrder[a * nP + j];
       const m = cellMeans[cell];
       for (let k = start[cell]; k < start[cell + 1]; k++) sumOfSquares += (values[k] - m) ** 2;
       withinDf[a] += counts[cell] - 1;
@@ -87,104 +128,89 @@ export function contractIndices(observations: readonly Observation[]): AssessorI
   }
   // M_p: mean over the assessors who rated p of m_ap, in assessor order.
   const panelMeans = new Float64Array(nP);
-  const column: number[] = [];
   for (let p = 0; p < nP; p++) {
-    column.length = 0;
+    const column: number[] = [];
     for (let a = 0; a < nA; a++) if (counts[a * nP + p] > 0) column.push(cellMeans[a * nP + p]);
     panelMeans[p] = mean(column);
   }
+  return { session: coded.session, attribute: coded.attribute, assessors: coded.assessors, nProducts: nP, counts, start, values, cellMeans, withinSumOfSquares, withinDf, panelMeans };
+}
 
-  const rows: AssessorIndicesJson[] = new Array(nA);
+function assessorRow(table: CellStatistics, a: number): AssessorIndicesJson {
+  const { counts, cellMeans, panelMeans, nProducts: nP } = table;
+  const nA = table.assessors.length;
+  // The assessor's products in table order, with m_ap and M_p; for agreement, m_ap and the mean
+  // of the other assessors' cell means where someone else rated p.
   const own: number[] = [];
   const panel: number[] = [];
   const agreementOwn: number[] = [];
   const agreementRest: number[] = [];
-  const rest: number[] = [];
-  for (let a = 0; a < nA; a++) {
-    // The assessor's products in table order, with m_ap and M_p.
-    own.length = 0;
-    panel.length = 0;
-    agreementOwn.length = 0;
-    agreementRest.length = 0;
-    let nRatings = 0;
-    for (let p = 0; p < nP; p++) {
-      const cell = a * nP + p;
-      if (counts[cell] === 0) continue;
-      own.push(cellMeans[cell]);
-      panel.push(panelMeans[p]);
-      nRatings += counts[cell];
-      rest.length = 0;
-      for (let other = 0; other < nA; other++) if (other !== a && counts[other * nP + p] > 0) rest.push(cellMeans[other * nP + p]);
-      if (rest.length > 0) {
-        agreementOwn.push(cellMeans[cell]);
-        agreementRest.push(mean(rest));
-      }
+  for (let p = 0; p < nP; p++) {
+    const cell = a * nP + p;
+    if (counts[cell] === 0) continue;
+    own.push(cellMeans[cell]);
+    panel.push(panelMeans[p]);
+    const rest: number[] = [];
+    for (let other = 0; other < nA; other++) if (other !== a && counts[other * nP + p] > 0) rest.push(cellMeans[other * nP + p]);
+    if (rest.length > 0) {
+      agreementOwn.push(cellMeans[cell]);
+      agreementRest.push(mean(rest));
     }
-    const nProducts = own.length;
-    const ownMean = mean(own);
-    const panelMeanOfMeans = mean(panel);
-
-    // One-way ANOVA on product (discrimination, repeatability).
-    const df = withinDf[a];
-    const ss = withinSumOfSquares[a];
-    const withinMeanSquare = df > 0 ? ss / df : null;
-    let discriminationF: number | null = null;
-    let discriminationP: number | null = null;
-    if (nProducts >= 2 && df > 0 && ss > 0) {
-      // Mean of all the assessor's ratings, cells in table order (two passes, as mean()).
-      let sum = 0;
-      for (let p = 0; p < nP; p++) {
-        const cell = a * nP + p;
-        for (let k = start[cell]; k < start[cell + 1]; k++) sum += values[k];
-      }
-      const first = sum / nRatings;
-      let correction = 0;
-      for (let p = 0; p < nP; p++) {
-        const cell = a * nP + p;
-        for (let k = start[cell]; k < start[cell + 1]; k++) correction += values[k] - first;
-      }
-      const overallMean = first + correction / nRatings;
-      let betweenSumOfSquares = 0;
-      for (let p = 0; p < nP; p++) {
-        const cell = a * nP + p;
-        if (counts[cell] > 0) betweenSumOfSquares += counts[cell] * (cellMeans[cell] - overallMean) ** 2;
-      }
-      const dfNumerator = nProducts - 1;
-      discriminationF = betweenSumOfSquares / dfNumerator / (withinMeanSquare as number);
-      discriminationP = fUpperTail(discriminationF, dfNumerator, df);
-    }
-
-    let agreementR: number | null = null;
-    if (agreementOwn.length >= 3) {
-      const r = pearsonCorrelation(agreementOwn, agreementRest);
-      if (!Number.isNaN(r)) agreementR = r;
-    }
-
-    let scaling: number | null = null;
-    if (nProducts >= 2) {
-      let sxx = 0;
-      let sxy = 0;
-      for (let i = 0; i < nProducts; i++) {
-        const dx = panel[i] - panelMeanOfMeans;
-        sxx += dx * dx;
-        sxy += dx * (own[i] - ownMean);
-      }
-      if (sxx > 0) scaling = sxy / sxx;
-    }
-
-    rows[a] = {
-      session,
-      attribute,
-      assessor: assessors[a],
-      offset: nProducts === 0 ? null : ownMean - panelMeanOfMeans,
-      discriminationF,
-      discriminationP,
-      repeatabilityMSE: withinMeanSquare,
-      agreementR,
-      scaling,
-    };
   }
-  return rows;
+  const nProducts = own.length;
+  const ownMean = mean(own);
+  const panelMeanOfMeans = mean(panel);
+  const df = table.withinDf[a];
+  const withinMeanSquare = df > 0 ? table.withinSumOfSquares[a] / df : null;
+  const discrimination = discriminationTest(table, a, nProducts, withinMeanSquare);
+  let agreementR: number | null = null;
+  if (agreementOwn.length >= 3) {
+    const r = pearsonCorrelation(agreementOwn, agreementRest);
+    if (!Number.isNaN(r)) agreementR = r;
+  }
+  return {
+    session: table.session,
+    attribute: table.attribute,
+    assessor: table.assessors[a],
+    offset: nProducts === 0 ? null : ownMean - panelMeanOfMeans,
+    discriminationF: discrimination.F,
+    discriminationP: discrimination.p,
+    repeatabilityMSE: withinMeanSquare,
+    agreementR,
+    scaling: scalingSlope(own, panel, ownMean, panelMeanOfMeans),
+  };
+}
+
+/** One-way ANOVA of the assessor's ratings on product (assessorAnova's F and p). */
+function discriminationTest(table: CellStatistics, a: number, nProducts: number, withinMeanSquare: number | null): { F: number | null; p: number | null } {
+  const { counts, start, values, cellMeans, nProducts: nP } = table;
+  const df = table.withinDf[a];
+  if (nProducts < 2 || df === 0 || !(table.withinSumOfSquares[a] > 0)) return { F: null, p: null };
+  // Mean of all the assessor's ratings, cells in table order (two passes, as mean()).
+  const from = start[a * nP];
+  const to = start[a * nP + nP];
+  const overallMean = meanOfRange(values, from, to);
+  let betweenSumOfSquares = 0;
+  for (let p = 0; p < nP; p++) {
+    const cell = a * nP + p;
+    if (counts[cell] > 0) betweenSumOfSquares += counts[cell] * (cellMeans[cell] - overallMean) ** 2;
+  }
+  const dfNumerator = nProducts - 1;
+  const F = betweenSumOfSquares / dfNumerator / (withinMeanSquare as number);
+  return { F, p: fUpperTail(F, dfNumerator, df) };
+}
+
+/** scalingEstimate's β̂ = Σ (M_p − M̄)(m_ap − m̄_a) / Σ (M_p − M̄)², null below 2 products or without spread. */
+function scalingSlope(own: number[], panel: number[], ownMean: number, panelMeanOfMeans: number): number | null {
+  if (own.length < 2) return null;
+  let sxx = 0;
+  let sxy = 0;
+  for (let i = 0; i < own.length; i++) {
+    const dx = panel[i] - panelMeanOfMeans;
+    sxx += dx * dx;
+    sxy += dx * (own[i] - ownMean);
+  }
+  return sxx > 0 ? sxy / sxx : null;
 }
 
 /** mean() of analysis/descriptive (two passes with the correction) over values[from, to). */
