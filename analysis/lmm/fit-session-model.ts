@@ -184,13 +184,31 @@ function closedFormJson(
   };
 }
 
-/** Sorted levels (code-unit order, as the model frame) and each value's level index. */
+/**
+ * Sorted levels (code-unit order, as the model frame) and each value's level index. Codes are
+ * given in first-seen order (consecutive ratings mostly repeat the assessor: compared before
+ * hashing) and renumbered after sorting the few levels.
+ */
 function codeLevels(values: readonly string[]): { levels: string[]; codes: Int32Array } {
-  const levels = [...new Set(values)].sort(compareLevels);
-  const index = new Map<string, number>();
-  levels.forEach((level, position) => index.set(level, position));
-  const codes = new Int32Array(values.length);
-  for (let i = 0; i < values.length; i++) codes[i] = index.get(values[i])!;
+  const n = values.length;
+  const firstSeen = new Map<string, number>();
+  const codes = new Int32Array(n);
+  let last: string | undefined;
+  let lastCode = -1;
+  for (let i = 0; i < n; i++) {
+    const value = values[i];
+    if (value !== last) {
+      let code = firstSeen.get(value);
+      if (code === undefined) firstSeen.set(value, (code = firstSeen.size));
+      last = value;
+      lastCode = code;
+    }
+    codes[i] = lastCode;
+  }
+  const levels = [...firstSeen.keys()].sort(compareLevels);
+  const sortedCode = new Int32Array(levels.length);
+  levels.forEach((level, position) => (sortedCode[firstSeen.get(level)!] = position));
+  for (let i = 0; i < n; i++) codes[i] = sortedCode[codes[i]];
   return { levels, codes };
 }
 
