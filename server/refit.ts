@@ -182,21 +182,8 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
     }
   }
   let periodsDone = 0;
-  // One chain per attribute, windows in time order: each window starts from the stored fit of
-  // the same window if there is one, else from the window fitted just before it in the chain
-  // (same panel and attribute, so similar variance ratios), else from the nearest stored fit.
-  // The chains run side by side, so the pool stays as busy as with independent tasks.
-  const chains = new Map<string, typeof periodJobs>();
-  for (const job of periodJobs) {
-    let chain = chains.get(job.attribute);
-    if (!chain) chains.set(job.attribute, (chain = []));
-    chain.push(job);
-  }
-  const runChain = async (chain: typeof periodJobs): Promise<void> => {
-    let previous: Pick<PeriodTask, 'startRelativeSds' | 'startReducedRelativeSds'> = {};
-    for (const job of chain) {
-      const stored = warmStarts.nearest(job.attribute, job.window[job.window.length - 1]);
-      const start = stored.sameWindow || !previous.startRelativeSds ? stored.start : previous;
+  await Promise.all(
+    periodJobs.map(async (job) => {
       const observations: RatedObservation[] = job.window.flatMap((s) => ratingsOf(s).byAttribute.get(job.attribute) ?? []);
       const result = await options.runner.run({
         type: 'period',
@@ -204,14 +191,8 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
         scale: scaleOf.get(job.attribute)!,
         sessions: job.window.map((s) => s.label),
         observations,
-        ...start,
+        ...warmStarts.nearest(job.attribute, job.window[job.window.length - 1]),
       });
-      if (result.result) {
-        previous = {
-          startRelativeSds: relativeSdsFromVariances(result.result.json.variance),
-          startReducedRelativeSds: result.result.reducedRelativeSds ?? null,
-        };
-      }
       savePeriodFit(db, panel.id, {
         attributeId: job.attributeId,
         windowSessions,
@@ -228,9 +209,8 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
         total: periodJobs.length,
         label: `${job.attribute} @ ${job.window[job.window.length - 1].label}`,
       });
-    }
-  };
-  await Promise.all([...chains.values()].map(runChain));
+    }),
+  );
 
   // 3. Flags (and the retraining evaluations), when anything they read has changed: the data,
   //    the thresholds, the events (baseline restarts) or the retraining records.
@@ -284,9 +264,7 @@ function storedStartValues(
   panelId: number,
   windowSessions: number,
   sessions: readonly SessionVersionRow[],
-): {
-  nearest(attribute: string, last: SessionVersionRow): { start: Pick<PeriodTask, 'startRelativeSds' | 'startReducedRelativeSds'>; sameWindow: boolean };
-} {
+): { nearest(attribute: string, last: SessionVersionRow): Pick<PeriodTask, 'startRelativeSds' | 'startReducedRelativeSds'> } {
   const order = new Map(sessions.map((s, i) => [s.label, i]));
   type Start = { lastIndex: number; relativeSds: Record<string, number>; reduced: Record<string, number> | null };
   const byAttribute = new Map<string, Start[]>();
@@ -310,8 +288,8 @@ function storedStartValues(
         if (!best || candidate.lastIndex > best.lastIndex) best = candidate;
       }
       // A stored fit more than a window away shares no data with this window.
-      if (!best || target! - best.lastIndex >= windowSessions) return { start: {}, sameWindow: false };
-      return { start: { startRelativeSds: best.relativeSds, startReducedRelativeSds: best.reduced }, sameWindow: best.lastIndex === target };
+      if (!best || target! - best.lastIndex >= windowSessions) return {};
+      return { startRelativeSds: best.relativeSds, startReducedRelativeSds: best.reduced };
     },
   };
 }
