@@ -55,19 +55,27 @@ export interface CompactBatch {
 /** Interns names to dense 1-based ids, remembering the ones not yet handed on. */
 class NameIds {
   private readonly ids = new Map<string, number>();
+  private readonly names: string[] = [''];
+  /** The id that followed each id last time: files repeat their order (attributes, codes, assessors). */
+  private readonly follower: number[] = [0];
   private fresh: string[] = [];
-  /** Consecutive ratings mostly repeat the session, assessor and product: one comparison instead of a hash look-up. */
   private lastName = '';
   private lastId = 0;
 
   id(name: string): number {
+    // Consecutive ratings mostly repeat a name, or give the one that followed it last time:
+    // a comparison or two instead of hashing the name.
     if (name === this.lastName && this.lastId !== 0) return this.lastId;
-    let id = this.ids.get(name);
+    const guess = this.follower[this.lastId];
+    let id: number | undefined = guess !== 0 && this.names[guess] === name ? guess : this.ids.get(name);
     if (id === undefined) {
-      id = this.ids.size + 1;
+      id = this.names.length;
       this.ids.set(name, id);
+      this.names.push(name);
+      this.follower.push(0);
       this.fresh.push(name);
     }
+    this.follower[this.lastId] = id;
     this.lastName = name;
     this.lastId = id;
     return id;
