@@ -33,6 +33,7 @@ import {
   type WindowSignature,
 } from '../store/fits-results.js';
 import { closeFlagsByKey, loadFlagBuild, replaceCurrentFlags } from '../store/monitor-flags.js';
+import { loadFlagInputs } from '../store/read-flag-inputs.js';
 import { listPanelEvents, listRetraining, updateRetraining } from '../store/monitor-events.js';
 import { loadPanelThresholds } from '../store/monitor-settings.js';
 import { createRefitJob, getRefitJob, markRefitJob, type RefitJob } from '../store/monitor-jobs.js';
@@ -231,8 +232,8 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
     lastBuild?.thresholdsHash !== inputsHash;
   let nFlags = lastBuild?.nFlags ?? 0;
   if (needFlags) {
-    const history = buildPanelHistory(db, panel.id, { windowSessions });
-    const ratings = loadPackedRatings(db, panel.id);
+    // The same history and ratings as buildPanelHistory and loadPackedRatings, read incrementally.
+    const { history, ratings } = loadFlagInputs(db, panel.id, { windowSessions });
     const result = await options.runner.run({ type: 'flags', history, ratings, thresholds, retraining: retrainingDone });
     replaceCurrentFlags(db, panel.id, result.flags, { dataSignature, thresholdsHash: inputsHash });
     const linkedKeys = new Map(listRetraining(db, panel.id).map((r) => [r.id, r.flagKeys]));
