@@ -29,6 +29,7 @@ export interface MeasurePanel {
   latestValue: number | null;
   baselineStatus: 'final' | 'provisional' | 'none';
   nReference: number;
+  baselineFromReferencePeriod: boolean;
   charts: ChartView[];
 }
 
@@ -39,7 +40,7 @@ export interface AssessorMonitorView extends PageViewBase {
   nSessions: number;
   attribute: string | null;
   attributeLinks: { label: string; href: string; isCurrent: boolean }[];
-  summary: { charts: ChartView[]; baselineStatus: 'final' | 'provisional' | 'none'; nReference: number };
+  summary: { charts: ChartView[]; baselineStatus: 'final' | 'provisional' | 'none'; nReference: number; baselineFromReferencePeriod: boolean };
   measures: MeasurePanel[];
   flags: { kind: string; severity: string; attribute: string | null; product: string | null; firstSession: string; message: string; evidence: EvidenceItem[] }[];
   events: MonitorEventInput[];
@@ -91,6 +92,7 @@ export function buildAssessorMonitorView(input: AssessorMonitorInput): AssessorM
       latestValue: present.length ? present[present.length - 1].value : null,
       baselineStatus: charts.baselineStatus,
       nReference: charts.nReference,
+      baselineFromReferencePeriod: charts.baselineFromReferencePeriod,
       charts: shown.map(buildControlChart),
     };
   });
@@ -111,6 +113,7 @@ export function buildAssessorMonitorView(input: AssessorMonitorInput): AssessorM
       charts: [summaryCharts.ewma, summaryCharts.cusum, summaryCharts.individuals].map(buildControlChart),
       baselineStatus: summaryCharts.baselineStatus,
       nReference: summaryCharts.nReference,
+      baselineFromReferencePeriod: summaryCharts.baselineFromReferencePeriod,
     },
     measures,
     flags: input.flags

@@ -18,8 +18,10 @@ import {
 import type { PageViewBase } from './page-common.js';
 
 export interface MonitorEventInput {
-  kind: 'retraining' | 'control-batch' | 'note';
+  kind: 'retraining' | 'control-batch' | 'note' | 'reference-period';
   session: string;
+  /** Last session of a reference period. */
+  untilSession?: string | null;
   assessor: string | null;
   note: string;
 }
@@ -88,7 +90,14 @@ export interface MonitorOverviewInput {
 export function eventMarks(events: readonly MonitorEventInput[], assessor: string | null): { session: string; label: string }[] {
   return events
     .filter((e) => e.assessor === null || e.assessor === assessor)
-    .map((e) => ({ session: e.session, label: e.kind === 'control-batch' ? 'new control batch' : e.kind }));
+    .flatMap((e) =>
+      e.kind === 'reference-period'
+        ? [
+            { session: e.session, label: 'reference period from' },
+            { session: e.untilSession ?? e.session, label: 'reference period to' },
+          ]
+        : [{ session: e.session, label: e.kind === 'control-batch' ? 'new control batch' : e.kind }],
+    );
 }
 
 export function buildMonitorOverviewView(input: MonitorOverviewInput): MonitorOverviewView {

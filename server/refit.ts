@@ -220,7 +220,7 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
   const retrainingDone = retrainingToEvaluate(db, panel.id, sessions);
   const inputsHash = hashJson({
     thresholds,
-    events: listPanelEvents(db, panel.id).map((e) => [e.kind, e.session, e.assessor]),
+    events: listPanelEvents(db, panel.id).map((e) => [e.kind, e.session, e.untilSession, e.assessor]),
     retraining: retrainingDone,
   });
   const lastBuild = loadFlagBuild(db, panel.id);

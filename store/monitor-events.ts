@@ -1,15 +1,20 @@
-/** Panel events (retraining, new control batch, notes) and retraining records with their linked flags. */
+/**
+ * Panel events (retraining, new control batch, notes, a reference period for chart baselines) and
+ * retraining records with their linked flags.
+ */
 import type { Database } from 'better-sqlite3';
 import type { RetrainingEvaluation } from '../analysis/flags/retraining.js';
 
-export type PanelEventKind = 'retraining' | 'control-batch' | 'note';
-export const PANEL_EVENT_KINDS: readonly PanelEventKind[] = ['retraining', 'control-batch', 'note'];
+export type PanelEventKind = 'retraining' | 'control-batch' | 'note' | 'reference-period';
+export const PANEL_EVENT_KINDS: readonly PanelEventKind[] = ['retraining', 'control-batch', 'note', 'reference-period'];
 
 export interface PanelEvent {
   id: number;
   kind: PanelEventKind;
   /** First session the event applies to (baselines restart here for retraining and control-batch). */
   session: string;
+  /** Last session (inclusive) of a reference period; null for every other kind. */
+  untilSession: string | null;
   /** null: the whole panel. */
   assessor: string | null;
   note: string;
@@ -19,19 +24,19 @@ export interface PanelEvent {
 export function addPanelEvent(
   db: Database,
   panelId: number,
-  event: Omit<PanelEvent, 'id' | 'createdAt'>,
+  event: Omit<PanelEvent, 'id' | 'createdAt' | 'untilSession'> & { untilSession?: string | null },
   createdAt = new Date().toISOString(),
 ): number {
   const result = db
-    .prepare('INSERT INTO panel_event (panel_id, kind, session_label, assessor, note, created_at) VALUES (?, ?, ?, ?, ?, ?)')
-    .run(panelId, event.kind, event.session, event.assessor, event.note, createdAt);
+    .prepare('INSERT INTO panel_event (panel_id, kind, session_label, until_session_label, assessor, note, created_at) VALUES (?, ?, ?, ?, ?, ?, ?)')
+    .run(panelId, event.kind, event.session, event.untilSession ?? null, event.assessor, event.note, createdAt);
   return Number(result.lastInsertRowid);
 }
 
 export function listPanelEvents(db: Database, panelId: number): PanelEvent[] {
   return db
     .prepare(
-      `SELECT e.id, e.kind, e.session_label AS session, e.assessor, e.note, e.created_at AS createdAt
+      `SELECT e.id, e.kind, e.session_label AS session, e.until_session_label AS untilSession, e.assessor, e.note, e.created_at AS createdAt
          FROM panel_event e LEFT JOIN session s ON s.panel_id = e.panel_id AND s.label = e.session_label
         WHERE e.panel_id = ? ORDER BY s.session_date, e.session_label, e.id`,
     )

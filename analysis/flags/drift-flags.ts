@@ -7,12 +7,12 @@
  * (methods §3.4). Act signals are downgraded to watch while the baseline is provisional (§6.3).
  */
 import type { Flag, FlagSeverity } from '../../domain/flags.js';
-import { standardiseSegments, targetArl0ForChartSet, type SegmentOptions, type SeriesPoint } from '../monitor/chart.js';
+import { standardiseSegments, targetArl0ForChartSet, type BaselineSource, type SegmentOptions, type SeriesPoint } from '../monitor/chart.js';
 import { cusumChart, cusumIntervalForArl0 } from '../monitor/cusum.js';
 import { ewmaChart } from '../monitor/ewma.js';
 import { ewmaLimitForUnconditionalArl0 } from '../monitor/unconditional.js';
 import { individualsChart } from '../monitor/shewhart.js';
-import { buildAssessorSeries, median, restartSessionsFor, summarySeries } from '../monitor/series.js';
+import { buildAssessorSeries, median, referencePeriodFor, restartSessionsFor, summarySeries } from '../monitor/series.js';
 import type { FlagContext } from './context.js';
 import { points, sessionsText } from './format.js';
 
@@ -57,7 +57,18 @@ export interface ChartSignal {
   limitWidth: number;
   targetArl0: number;
   rules?: number[];
-  baseline: { centre: number; spreadSd: number; nReference: number; provisional: boolean; startSession: string; pooledSpreadFloorSd: number | null };
+  baseline: {
+    centre: number;
+    spreadSd: number;
+    nReference: number;
+    provisional: boolean;
+    startSession: string;
+    pooledSpreadFloorSd: number | null;
+    /** 'reference-period' when the user's reference period gave the baseline values. */
+    source: BaselineSource;
+    /** First charted session (the segment start, or the reference period's first value). */
+    chartedFromSession: string;
+  };
   /** Mean of the last (up to) four values minus the centre, in series units. */
   recentShift: number;
   nPoints: number;
@@ -99,7 +110,16 @@ export function evaluateChart(
   const provisional = segment.baseline.status === 'provisional';
   const recent = segment.points.slice(-4);
   const recentShift = recent.reduce((s, p) => s + p.value, 0) / recent.length - centre;
-  const baseline = { centre, spreadSd, nReference, provisional, startSession: segment.startSession, pooledSpreadFloorSd: spreadFloorSd };
+  const baseline = {
+    centre,
+    spreadSd,
+    nReference,
+    provisional,
+    startSession: segment.startSession,
+    pooledSpreadFloorSd: spreadFloorSd,
+    source: segment.baselineSource,
+    chartedFromSession: segment.points[0].session,
+  };
   const changeSession = (): string | null => {
     const signal = cusum.firstSignal;
     return signal ? segment.points[signal.changePointIndex].session : null;
@@ -169,6 +189,7 @@ export function driftFlags(ctx: FlagContext): Flag[] {
   const optionsFor = (assessor: string): SegmentOptions => ({
     baseline: { fullValues: c.baselineSessions, minimumValues: c.minBaselineSessions },
     restartSessions: restartSessionsFor(ctx.history, assessor),
+    referenceSessions: referencePeriodFor(ctx.history, assessor)?.sessions ?? null,
   });
   // Panel-pooled spreads: per attribute over assessors, and over the assessors' summary series.
   const spreadsByAttribute = new Map<string, (number | null)[]>();
@@ -227,7 +248,7 @@ export function driftFlags(ctx: FlagContext): Flag[] {
           attributesSignalling: matching.map((a) => a.attribute),
           ...(summarySignal.rules ? { rules: summarySignal.rules } : {}),
         },
-        message: `Since ${summarySignal.changeSession}, ${assessor}'s ratings have moved ${summarySignal.direction === 'up' ? 'upward' : 'downward'} relative to their own earlier level (by about ${points(Math.abs(meanShift))} points on average over the last four sessions); the ${summarySignal.chart} chart signalled at ${summarySignal.signalSession}.`,
+        message: `Since ${summarySignal.changeSession}, ${assessor}'s ratings have moved ${summarySignal.direction === 'up' ? 'upward' : 'downward'} relative to ${baselineWords(summarySignal)} (by about ${points(Math.abs(meanShift))} points on average over the last four sessions); the ${summarySignal.chart} chart signalled at ${summarySignal.signalSession}.`,
       });
       continue;
     }
@@ -254,11 +275,15 @@ export function driftFlags(ctx: FlagContext): Flag[] {
           baseline: signal.baseline,
           recentShiftPoints: signal.recentShift,
         },
-        message: `Since ${signal.changeSession}, ${assessor}'s ${attribute} ratings have moved ${signal.direction === 'up' ? 'upward' : 'downward'} relative to their own earlier level (by about ${points(Math.abs(signal.recentShift))} points over the last ${sessionsText(Math.min(4, signal.nPoints))}); the ${signal.chart} chart signalled at ${signal.signalSession}.`,
+        message: `Since ${signal.changeSession}, ${assessor}'s ${attribute} ratings have moved ${signal.direction === 'up' ? 'upward' : 'downward'} relative to ${baselineWords(signal)} (by about ${points(Math.abs(signal.recentShift))} points over the last ${sessionsText(Math.min(4, signal.nPoints))}); the ${signal.chart} chart signalled at ${signal.signalSession}.`,
       });
     }
   }
   return out;
+}
+
+function baselineWords(signal: ChartSignal): string {
+  return signal.baseline.source === 'reference-period' ? 'their level in the chosen reference period' : 'their own earlier level';
 }
 
 /** Act magnitude guard for drift: the lenient/harsh watch offset (level.watchFraction of the scale range). */

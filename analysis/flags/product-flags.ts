@@ -14,7 +14,7 @@
  */
 import type { Flag, FlagSeverity } from '../../domain/flags.js';
 import type { SegmentOptions, SeriesPoint } from '../monitor/chart.js';
-import { controlBatchSessions, type PanelHistory, type SessionAttributeResult } from '../monitor/series.js';
+import { controlBatchSessions, referencePeriodFor, type PanelHistory, type SessionAttributeResult } from '../monitor/series.js';
 import { cochranQ, productRankConcordance, sessionProductEffects, type SessionProductEffect } from '../monitor/stability.js';
 import { buildContext, resultKey, type FlagContext } from './context.js';
 import type { PanelThresholds } from './settings.js';
@@ -122,10 +122,13 @@ function stepFlags(ctx: FlagContext): Flag[] {
   const recurring = productEffectSeries(ctx).filter((series) => series.effects.length >= s.minSessions);
   if (recurring.length === 0) return [];
   const batchChanges = controlBatchSessions(ctx.history);
+  // Product-effect baselines follow the whole panel's reference period, if one is set.
+  const panelPeriod = referencePeriodFor(ctx.history, null)?.sessions ?? null;
   const sizing = chartSizing(recurring.length, c.sessionsPerYear, s.stepFalseAlarmsPerYear, s.stepWatchFalseAlarmsPerYear, c.ewmaLambda, c.cusumK);
   const optionsOf = (series: ProductEffectSeries): SegmentOptions => ({
     baseline: { fullValues: c.baselineSessions, minimumValues: Math.max(c.minBaselineSessions, s.minSessions) },
     restartSessions: series.relativeTo === 'reference' ? batchChanges : [],
+    referenceSessions: panelPeriod,
   });
   // Effects of one attribute share the same noise (same SE formula): pool their spreads.
   const spreads = new Map<string, (number | null)[]>();

@@ -21,11 +21,15 @@ export interface SegmentOptions {
   /** Sessions at which a new baseline starts (the event takes effect from that session). */
   restartSessions?: readonly string[];
   /**
-   * User-chosen reference period (inclusive session labels). A segment that contains it takes its
-   * baseline from the values inside; other segments use their first `fullValues` values.
+   * User-chosen reference period: the labels of its sessions. The segment holding most of the
+   * period's values takes its baseline from them and is charted from the period's first value on
+   * (earlier values of that segment are shown uncharted: they are not monitored against a baseline
+   * that comes after them). Other segments use their first `fullValues` values.
    */
-  referenceSessions?: { from: string; to: string } | null;
+  referenceSessions?: ReadonlySet<string> | null;
 }
+
+export type BaselineSource = 'first-values' | 'reference-period';
 
 export interface StandardisedPoint {
   session: string;
@@ -39,9 +43,11 @@ export interface Segment {
   /** First session of the segment (the series start or a restart event). */
   startSession: string;
   baseline: Baseline;
+  /** Where the baseline values came from: the segment's first values or the user's reference period. */
+  baselineSource: BaselineSource;
   /** Non-missing points of the segment, standardised; empty when the baseline has no limits. */
   points: StandardisedPoint[];
-  /** Non-missing points that were not standardised (no limits in this segment). */
+  /** Non-missing points that were not standardised (no limits, or before the reference period). */
   unchartedPoints: SeriesPoint[];
 }
 
@@ -59,28 +65,37 @@ export function standardiseSegments(series: readonly SeriesPoint[], options: Seg
     current.push(point);
   }
   if (current.length > 0) pieces.push(current);
-  return pieces.map((piece) => {
-    const present = piece.filter((p): p is SeriesPoint & { value: number } => p.value !== null && Number.isFinite(p.value));
-    let reference = present.slice(0, fullValues);
-    const window = options.referenceSessions;
-    if (window) {
-      const fromIndex = piece.findIndex((p) => p.session === window.from);
-      const toIndex = piece.findIndex((p) => p.session === window.to);
-      if (fromIndex >= 0 && toIndex >= fromIndex) {
-        const inside = new Set(piece.slice(fromIndex, toIndex + 1).map((p) => p.session));
-        reference = present.filter((p) => inside.has(p.session));
-      }
-    }
+  const presentOf = (piece: SeriesPoint[]) => piece.filter((p): p is SeriesPoint & { value: number } => p.value !== null && Number.isFinite(p.value));
+  const presentPieces = pieces.map(presentOf);
+  const chosen = options.referenceSessions ?? null;
+  // The segment holding most of the reference period's values (the first of equals) uses it.
+  let referenceSegment = -1;
+  if (chosen && chosen.size > 0) {
+    let most = 0;
+    presentPieces.forEach((present, i) => {
+      const inside = present.reduce((n, p) => n + (chosen.has(p.session) ? 1 : 0), 0);
+      if (inside > most) [most, referenceSegment] = [inside, i];
+    });
+  }
+  return pieces.map((piece, i) => {
+    const present = presentPieces[i];
+    const fromReference = i === referenceSegment && chosen !== null;
+    const firstInside = fromReference ? present.findIndex((p) => chosen.has(p.session)) : 0;
+    const reference = fromReference ? present.filter((p) => chosen.has(p.session)) : present.slice(0, fullValues);
+    const charted = present.slice(firstInside);
+    const before = present.slice(0, firstInside);
     const baseline = estimateBaseline(reference.map((p) => p.value), options.baseline);
+    const baselineSource: BaselineSource = fromReference ? 'reference-period' : 'first-values';
     if (baseline.centre === null || baseline.spreadSd === null) {
-      return { startSession: piece[0].session, baseline, points: [], unchartedPoints: present };
+      return { startSession: piece[0].session, baseline, baselineSource, points: [], unchartedPoints: present };
     }
     const { centre, spreadSd } = baseline;
     return {
       startSession: piece[0].session,
       baseline,
-      points: present.map((p) => ({ session: p.session, date: p.date, value: p.value, z: (p.value - centre) / spreadSd })),
-      unchartedPoints: [],
+      baselineSource,
+      points: charted.map((p) => ({ session: p.session, date: p.date, value: p.value, z: (p.value - centre) / spreadSd })),
+      unchartedPoints: before,
     };
   });
 }
@@ -105,6 +120,9 @@ export interface MonitoredPoint extends StandardisedPoint {
 export interface MonitoredSegment {
   startSession: string;
   baseline: Baseline;
+  baselineSource: BaselineSource;
+  /** Values of the segment not charted (before the reference period, or no limits). */
+  unchartedPoints: SeriesPoint[];
   points: MonitoredPoint[];
   /** First CUSUM signal with the estimated change point, or null. */
   cusumFirstSignal: { session: string; direction: 'up' | 'down'; changePointSession: string; estimatedNewMean: number } | null;
@@ -133,6 +151,8 @@ export function monitorSeries(series: readonly SeriesPoint[], designs: ChartDesi
     return {
       startSession: segment.startSession,
       baseline: segment.baseline,
+      baselineSource: segment.baselineSource,
+      unchartedPoints: segment.unchartedPoints,
       points,
       ewmaFirstSignalSession: ewma.firstSignalIndex === null ? null : points[ewma.firstSignalIndex].session,
       cusumFirstSignal:

@@ -24,9 +24,11 @@ export interface SessionAttributeResult {
 
 export interface PanelEvent {
   id: number;
-  kind: 'retraining' | 'control-batch' | 'note';
-  /** Takes effect from this session. */
+  kind: 'retraining' | 'control-batch' | 'note' | 'reference-period';
+  /** Takes effect from this session (for a reference period: its first session). */
   session: string;
+  /** Last session of a reference period (inclusive); null or absent for other kinds. */
+  untilSession?: string | null;
   /** null: the whole panel. */
   assessor: string | null;
   note: string;
@@ -129,6 +131,36 @@ export function restartSessionsFor(history: PanelHistory, assessor: string | nul
   return history.events
     .filter((e) => e.kind === 'retraining' && (e.assessor === null || e.assessor === assessor))
     .map((e) => e.session);
+}
+
+export interface ReferencePeriod {
+  from: string;
+  to: string;
+  /** The panel's sessions from `from` to `to` in time order (inclusive). */
+  sessions: ReadonlySet<string>;
+  /** null: set for the whole panel. */
+  assessor: string | null;
+}
+
+/**
+ * The reference period the user picked for an assessor's chart baselines: their own if one is
+ * recorded, else the whole panel's; the latest recorded wins. null: baselines from first values.
+ * `assessor` null asks for the whole panel's period (panel-level charts, product effects).
+ */
+export function referencePeriodFor(history: PanelHistory, assessor: string | null): ReferencePeriod | null {
+  const periods = history.events.filter((e) => e.kind === 'reference-period' && e.untilSession);
+  const pick = (scope: string | null) => {
+    const matching = periods.filter((e) => e.assessor === scope);
+    return matching.length > 0 ? matching.reduce((a, b) => (b.id > a.id ? b : a)) : null;
+  };
+  const event = (assessor !== null ? pick(assessor) : null) ?? pick(null);
+  if (!event) return null;
+  const labels = history.sessions.map((s) => s.label);
+  const fromIndex = labels.indexOf(event.session);
+  const toIndex = labels.indexOf(event.untilSession as string);
+  // A period whose sessions were since removed from the panel no longer applies.
+  if (fromIndex < 0 || toIndex < fromIndex) return null;
+  return { from: event.session, to: event.untilSession as string, sessions: new Set(labels.slice(fromIndex, toIndex + 1)), assessor: event.assessor };
 }
 
 /** Sessions at which the reference-product charts restart: new control batches (methods §3.6). */

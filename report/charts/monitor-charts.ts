@@ -15,6 +15,8 @@ export interface MonitorChartInputs {
   /** Values used for the baseline of the last segment, and its status. */
   nReference: number;
   baselineStatus: 'final' | 'provisional' | 'none';
+  /** The last segment's baseline came from the user's reference period (not its first values). */
+  baselineFromReferencePeriod: boolean;
 }
 
 function emptyArray<T>(n: number, value: T): T[] {
@@ -128,5 +130,6 @@ export function monitorChartInputs(args: {
     },
     nReference: lastSegment?.baseline.nReference ?? 0,
     baselineStatus: lastSegment?.baseline.status ?? 'none',
+    baselineFromReferencePeriod: lastSegment?.baselineSource === 'reference-period',
   };
 }

@@ -11,6 +11,7 @@ import { ewmaLimitForArl0 } from '../../analysis/monitor/ewma.js';
 import {
   buildAssessorSeries,
   indexLookup,
+  referencePeriodFor,
   restartSessionsFor,
   seriesValue,
   summarySeries,
@@ -114,9 +115,14 @@ function levelSeriesByAttribute(history: PanelHistory, assessor: string) {
   );
 }
 
+/** Baseline rules of an assessor's charts: restarts at their retraining events, their reference period. */
+export function assessorSegmentOptions(history: PanelHistory, assessor: string, baseline: SegmentOptions['baseline']): SegmentOptions {
+  return { baseline, restartSessions: restartSessionsFor(history, assessor), referenceSessions: referencePeriodFor(history, assessor)?.sessions ?? null };
+}
+
 /** The assessor's summary series (median z over attributes) and its monitored segments. */
 export function monitoredSummary(history: PanelHistory, assessor: string, designs: ChartDesigns, baseline: SegmentOptions['baseline']): MonitoredSeriesInput {
-  const options: SegmentOptions = { baseline, restartSessions: restartSessionsFor(history, assessor) };
+  const options = assessorSegmentOptions(history, assessor, baseline);
   const series = summarySeries(levelSeriesByAttribute(history, assessor), options);
   return { series, segments: monitorSeries(series, designs, options) };
 }
@@ -131,7 +137,7 @@ export const MEASURE_LABELS: Record<IndexSeriesKind, { label: string; yLabel: st
 
 /** The five index series of one assessor and attribute, monitored. */
 export function monitoredMeasures(history: PanelHistory, assessor: string, attribute: string, designs: ChartDesigns, baseline: SegmentOptions['baseline']) {
-  const options: SegmentOptions = { baseline, restartSessions: restartSessionsFor(history, assessor) };
+  const options = assessorSegmentOptions(history, assessor, baseline);
   const one = { ...history, attributes: history.attributes.filter((a) => a.name === attribute) };
   return buildAssessorSeries(one)
     .filter((s) => s.assessor === assessor)

@@ -16,7 +16,7 @@ import { buildSettingsView, type ThresholdFieldInput } from '../../report/monito
 import { buildProductStabilityView, type PeriodWindowInput, type RecurringProductInput } from '../../report/monitor-products-view.js';
 import { buildControlProductView } from '../../report/monitor-control-view.js';
 import { monitorSeries, type SeriesPoint } from '../../analysis/monitor/chart.js';
-import { buildReferenceSeries } from '../../analysis/monitor/series.js';
+import { buildReferenceSeries, referencePeriodFor } from '../../analysis/monitor/series.js';
 import { cochranQ, productRankConcordance } from '../../analysis/monitor/stability.js';
 import { productEffectSeriesOf } from '../../analysis/flags/product-flags.js';
 import { loadPeriodFits } from '../../store/fits-results.js';
@@ -279,7 +279,11 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
     const series = buildReferenceSeries(ctx.history).find((s) => s.product === product && s.attribute === attribute);
     const { designs, baseline } = chartDesigns(ctx.thresholds, ctx.assessors.length);
     const monitored = (points: SeriesPoint[], assessor: string | null) => {
-      const options = { baseline, restartSessions: controlRestartSessions(ctx.history, assessor) };
+      const options = {
+        baseline,
+        restartSessions: controlRestartSessions(ctx.history, assessor),
+        referenceSessions: referencePeriodFor(ctx.history, assessor)?.sessions ?? null,
+      };
       return { series: points, segments: monitorSeries(points, designs, options) };
     };
     return buildControlProductView({
@@ -363,6 +367,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
       events: listPanelEvents(db, panel.id),
       sessions: ctx.history.sessions.map((s) => s.label),
       assessors: ctx.assessors,
+      minReferenceSessions: ctx.thresholds.charts.minBaselineSessions,
     });
   });
 
@@ -370,10 +375,22 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
     const panel = requireMonitorPanel(db, request.params.panel);
     const kind = text(request.body, 'kind') as PanelEventKind;
     const session = text(request.body, 'session', 200);
+    const until = text(request.body, 'until', 200);
     const assessor = text(request.body, 'assessor', 200);
-    if (!PANEL_EVENT_KINDS.includes(kind)) throw new AppError('BAD_REQUEST', { detail: 'the event must be retraining, control-batch or note.' });
-    if (!listSessionVersions(db, panel.id).some((s) => s.label === session)) throw new AppError('BAD_REQUEST', { detail: 'choose a session of this panel.' });
-    addPanelEvent(db, panel.id, { kind, session, assessor: assessor === '' ? null : assessor, note: text(request.body, 'note') });
+    if (!PANEL_EVENT_KINDS.includes(kind)) throw new AppError('BAD_REQUEST', { detail: 'the event must be retraining, control-batch, note or reference-period.' });
+    const labels = listSessionVersions(db, panel.id).map((s) => s.label);
+    const from = labels.indexOf(session);
+    if (from < 0) throw new AppError('BAD_REQUEST', { detail: 'choose a session of this panel.' });
+    let untilSession: string | null = null;
+    if (kind === 'reference-period') {
+      const to = labels.indexOf(until);
+      if (to < 0) throw new AppError('BAD_REQUEST', { detail: 'a reference period needs an "until" session of this panel.' });
+      if (to < from) throw new AppError('BAD_REQUEST', { detail: `the reference period must end at or after ${session}.` });
+      const minimum = panelThresholds(db, panel.id).charts.minBaselineSessions;
+      if (to - from + 1 < minimum) throw new AppError('BAD_REQUEST', { detail: `a reference period must span at least ${minimum} sessions (the minimum baseline); ${session} to ${until} spans ${to - from + 1}.` });
+      untilSession = until;
+    }
+    addPanelEvent(db, panel.id, { kind, session, untilSession, assessor: assessor === '' ? null : assessor, note: text(request.body, 'note') });
     service.schedule(panel.name, 'event recorded');
     return back(reply, monitorHref(panel.name, 'events'));
   });

@@ -131,15 +131,37 @@ describe('baseline (Phase I) estimation, methods §3.2', () => {
     expect(segments.map((s) => s.startSession)).toEqual(['S1', 'S16']);
     expect(segments[0].baseline.centre).toBeCloseTo(7 / 15, 12);
     expect(segments[1].baseline.centre).toBeCloseTo(10 + 8 / 15, 12);
-    const windowed = standardiseSegments(series, { referenceSessions: { from: 'S16', to: 'S30' } });
+    const laterHalf = new Set(series.slice(15).map((p) => p.session));
+    const windowed = standardiseSegments(series, { referenceSessions: laterHalf });
     expect(windowed).toHaveLength(1);
+    expect(windowed[0].baselineSource).toBe('reference-period');
     expect(windowed[0].baseline.centre).toBeCloseTo(10 + 8 / 15, 12);
     expect(windowed[0].baseline.nReference).toBe(15);
+    // Charted from the period's first session on; the earlier values are kept, uncharted.
+    expect(windowed[0].points.map((p) => p.session)).toEqual([...laterHalf]);
+    expect(windowed[0].unchartedPoints).toHaveLength(15);
+  });
+  it('a reference period sets the baseline of the segment holding most of it only', () => {
+    const series = Array.from({ length: 40 }, (_, i) => ({ session: `S${i + 1}`, date: '2026-01-01', value: i < 20 ? i % 2 : 5 + (i % 3) }));
+    // Period S5–S16 lies in the first segment; a retraining restarts at S21.
+    const period = new Set(Array.from({ length: 12 }, (_, i) => `S${i + 5}`));
+    const segments = standardiseSegments(series, { restartSessions: ['S21'], referenceSessions: period, baseline: { fullValues: 10, minimumValues: 8 } });
+    expect(segments.map((s) => [s.startSession, s.baselineSource])).toEqual([
+      ['S1', 'reference-period'],
+      ['S21', 'first-values'],
+    ]);
+    expect(segments[0].baseline.nReference).toBe(12);
+    expect(segments[0].baseline.centre).toBeCloseTo(0.5, 12);
+    expect(segments[0].points[0].session).toBe('S5');
+    expect(segments[1].baseline.nReference).toBe(10);
+    // Missing values inside the period are skipped, not counted.
+    const gappy = series.map((p) => (p.session === 'S6' ? { ...p, value: null } : p));
+    expect(standardiseSegments(gappy, { referenceSessions: period, baseline: { fullValues: 10, minimumValues: 8 } })[0].baseline.nReference).toBe(11);
   });
   it('skips missing values and reports a CUSUM change point as a session', () => {
     const series = fixture.montgomeryExample.x.map((x, i) => ({ session: `W${i + 1}`, date: '2026-01-01', value: x as number | null }));
     series.splice(3, 0, { session: 'gap', date: '2026-01-01', value: null });
-    const [segment] = monitorSeries(series, { ewma: { lambda: 0.1, L: 2.7 }, cusum: { k: 0.5, h: 5 }, rules: [1, 2, 3, 4] }, { referenceSessions: { from: 'W1', to: 'W20' } });
+    const [segment] = monitorSeries(series, { ewma: { lambda: 0.1, L: 2.7 }, cusum: { k: 0.5, h: 5 }, rules: [1, 2, 3, 4] }, { referenceSessions: new Set(Array.from({ length: 20 }, (_, i) => `W${i + 1}`)) });
     expect(segment.points).toHaveLength(30);
     expect(segment.baseline.nReference).toBe(20);
   });
