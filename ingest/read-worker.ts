@@ -32,11 +32,14 @@ async function main(): Promise<void> {
   const encoder = new CompactEncoder();
   let posted = 0;
   let pending: ReadEvent[] = [];
-  const plannedFailure = (): void => {
-    if (data.failAfterBatches !== undefined && posted >= data.failAfterBatches) throw new Error('read worker: planned failure (test)');
+  /** Tests: fail once `failAfterBatches` batches are posted and taken, so the store has staged them. */
+  const plannedFailure = async (): Promise<void> => {
+    if (data.failAfterBatches === undefined || posted < data.failAfterBatches) return;
+    while (acknowledged < posted) await new Promise<void>((resolve) => (wake = resolve));
+    throw new Error('read worker: planned failure (test)');
   };
   const send = async (): Promise<void> => {
-    plannedFailure();
+    await plannedFailure();
     const batch = encoder.encode(pending);
     pending = [];
     while (posted - acknowledged >= data.maxInFlight) await new Promise<void>((resolve) => (wake = resolve));
@@ -48,7 +51,7 @@ async function main(): Promise<void> {
     if (pending.length >= data.eventsPerBatch) await send();
   }
   if (pending.length > 0 || posted === 0) await send();
-  plannedFailure();
+  await plannedFailure();
   post({ type: 'done' });
 }
 

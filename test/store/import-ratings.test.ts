@@ -216,6 +216,10 @@ describe('forms and round trips', () => {
       const report = await importRatings(xlsxDb, request(xlsxPath, { sheet: 'ratings' }));
       expect(report.outcome).toBe('imported');
       expect(await exportText(xlsxDb, 'crisps')).toBe(await exportText(db, 'crisps'));
+      // Read on a worker thread (as large files are): the same store, and the sheet option reaches it.
+      const inWorker = await importRatings(xlsxDb, request(xlsxPath, { panel: 'crisps-worker', sheet: 'ratings', reader: 'worker' }));
+      expect(inWorker.counts).toEqual(report.counts);
+      expect((await exportText(xlsxDb, 'crisps-worker')).replaceAll('crisps-worker', 'crisps')).toBe(await exportText(db, 'crisps'));
     } finally {
       xlsxDb.close();
     }

@@ -2,17 +2,18 @@
  * Reading on a worker thread (ingest/read-in-worker.ts) against reading on the calling thread:
  * the same stores and reports, and no partial write when the worker fails.
  */
-import { writeFileSync } from 'node:fs';
+import { spawnSync } from 'node:child_process';
+import { existsSync, statSync, writeFileSync } from 'node:fs';
 import { join } from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { CompactEncoder, F_CODE, F_SESSION, KEY_FIELDS } from '../../ingest/compact-batches.js';
 import { readInWorker } from '../../ingest/read-in-worker.js';
 import type { ReadEvent } from '../../ingest/read-ratings.js';
 import { importRatingBatches } from '../../store/import-core.js';
-import { fileInput, importRatings, type ImportReport, type ImportRequest } from '../../store/import-ratings.js';
+import { fileInput, importRatings, READ_IN_WORKER_BYTES, type ImportReport, type ImportRequest } from '../../store/import-ratings.js';
 import { openStore, type Database } from '../../store/open-store.js';
 import { countOf, exportText, tempFolder } from './helpers.js';
-import { syntheticLongLines, syntheticWideLines, type SyntheticDesign } from './synthetic-ratings.js';
+import { designForRatings, syntheticLongLines, syntheticWideLines, writeSyntheticLongCsv, type SyntheticDesign } from './synthetic-ratings.js';
 
 let folder: string;
 let remove: () => void;
@@ -144,4 +145,31 @@ describe('reading on a worker thread', () => {
     expect(n).toBeGreaterThan(0);
     await reading.stop();
   });
+});
+
+const ROOT = join(import.meta.dirname, '..', '..');
+const BUILT_WORKER = existsSync(join(ROOT, 'dist', 'ingest', 'read-worker.js'));
+
+describe('the built program reads a large file on a worker thread', () => {
+  // `npm test` builds first; a plain `npx vitest run` without a current dist/ skips this.
+  it.skipIf(!BUILT_WORKER)('imports it, and rejects a bad copy under a new panel writing nothing', async () => {
+    const design = designForRatings(150_000, 3);
+    const good = join(folder, 'year.csv');
+    const nRatings = await writeSyntheticLongCsv(good, design);
+    expect(statSync(good).size).toBeGreaterThanOrEqual(READ_IN_WORKER_BYTES);
+    const bad = join(folder, 'year-bad.csv');
+    await writeSyntheticLongCsv(bad, design, (line, row) => (row === 120_000 ? line.replace(/,[\d.]+,(\d+)$/, ',x,$1') : line));
+    const run = (...args: string[]) => spawnSync(process.execPath, ['bin/panel-steward', ...args], { cwd: ROOT, encoding: 'utf8', timeout: 90_000 });
+    const db = join(folder, 'built.db');
+    const imported = run('import', good, '--panel', 'crisps', '--db', db, '--scale', '0:10');
+    expect(imported.stderr).toBe('');
+    expect(imported.stdout).toMatch(new RegExp(`^Imported ${nRatings.toLocaleString('en-US')} ratings`));
+    const rejected = run('import', bad, '--panel', 'new-panel', '--db', db, '--scale', '0:10');
+    expect(rejected.status).toBe(1);
+    expect(rejected.stderr).toMatch(/^year-bad\.csv:120000:value: "x" is not a number/);
+    const check = openStore(db);
+    stores.push(check);
+    expect(check.prepare('SELECT name FROM panel').all()).toEqual([{ name: 'crisps' }]);
+    expect(countOf(check, 'rating')).toBe(nRatings);
+  }, 180_000);
 });
