@@ -107,11 +107,20 @@ export async function importRatings(db: Database, request: ImportRequest): Promi
     const scales: ScaleLookup = { known: [...known], fallback: request.scale ?? request.settings?.scale ?? null };
     reading = readInWorker(request.input, { fileName: request.fileName, sheet: request.sheet, scales });
   }
+  try {
+    return await hashCheckAndImport(db, request, stored, reading);
+  } finally {
+    // However the import ends (answer, unchanged content, or a fault of the store), the worker ends with it.
+    await reading?.stop();
+  }
+}
+
+/** The part of importRatings after the reader has been started (on a worker, or not yet: `reading` null). */
+async function hashCheckAndImport(db: Database, request: ImportRequest, stored: Map<string, ScaleRange>, reading: WorkerReading | null): Promise<ImportReport> {
   let sha256: string;
   try {
     sha256 = await hashInput(request.input);
   } catch {
-    await reading?.stop();
     // Gone or unreadable: the same answer as for any file that cannot be read (no path shown).
     const problem: InputProblem = { code: 'file-unreadable', file: request.fileName, row: null, column: null, message: 'The file could not be opened for reading.' };
     return importRatingEvents(db, { ...request, sha256: '' }, [{ type: 'problem', problem, cell: null }]);
@@ -128,17 +137,8 @@ export async function importRatings(db: Database, request: ImportRequest): Promi
     onPhase: request.onPhase,
   };
   const earlier = findEarlierImport(db, request.panel, sha256);
-  if (earlier) {
-    await reading?.stop();
-    return unchangedReport(db, eventsRequest, earlier);
-  }
-  if (reading !== null) {
-    try {
-      return await importRatingBatches(db, eventsRequest, reading.batches);
-    } finally {
-      await reading.stop();
-    }
-  }
+  if (earlier) return unchangedReport(db, eventsRequest, earlier);
+  if (reading !== null) return importRatingBatches(db, eventsRequest, reading.batches);
   const scaleFor = (attribute: string): ScaleRange | null => stored.get(attribute) ?? scaleForNewAttribute(attribute, request.scale, request.settings) ?? null;
   const events = readRatingBatches(request.input, { fileName: request.fileName, sheet: request.sheet, scaleFor });
   return importRatingBatches(db, eventsRequest, compactBatches(events));
