@@ -43,7 +43,8 @@ export interface ImportResultView {
   importId: number | null;
   importHref: string | null;
   panel: string;
-  panelHref: string;
+  /** null when a rejected import named a panel that is not in the store (nothing was written). */
+  panelHref: string | null;
   fileName: string;
   counts: LabelledCount[];
   changedSessions: { label: string; href: string }[];
@@ -84,7 +85,8 @@ export function buildImportResultView(answer: ImportAnswerInput): ImportResultVi
     importId: answer.importId,
     importHref: answer.importId === null ? null : importHref(answer.importId),
     panel: answer.panel,
-    panelHref: panelHref(answer.panel),
+    // A rejected import under a new panel name leaves no panel behind, so there is no page to link.
+    panelHref: answer.outcome === 'rejected' && answer.importId === null ? null : panelHref(answer.panel),
     fileName: answer.fileName,
     counts: COUNT_LABELS.map(([key, label]) => ({ key, label, value: answer.counts?.[key] ?? 0 })),
     changedSessions: (answer.changedSessions ?? []).map((label) => ({ label, href: sessionHref(answer.panel, label) })),

@@ -58,6 +58,10 @@ describe('upload page', () => {
     expect(response.body).toMatch(/<td>bad\.csv<\/td>\s*<td class="num">4<\/td>\s*<td>value<\/td>/);
     expect(response.body).toContain('value="oat"');
     expect(response.body).toMatch(/name="_csrf" value="[^"]+"/); // a fresh form to try again
+    // The panel was new, so nothing (not even the panel) was stored: no link to a page that does not exist.
+    expect(response.body).toContain('(not stored: a rejected import creates no panel)');
+    expect(response.body).not.toContain('href="/panels/oat"');
+    expect((await t.app.inject({ url: '/panels/oat' })).statusCode).toBe(404);
   });
 
   it('shows a clear message when no file was chosen', async () => {
