@@ -20,6 +20,7 @@ import {
   blockArrowInverseDiagonalAll,
   blockArrowLogDeterminant,
   factorBlockArrowInPlace,
+  makeBlockArrowLayout,
   makeBlockArrowWorkspace,
 } from '../linalg/block-arrow.js';
 import { backSolveTransposeInPlace, choleskyInPlace, choleskyLogDeterminant, forwardSolveInPlace, inverseFromCholesky } from '../linalg/dense.js';
@@ -48,6 +49,36 @@ export interface MixedModelSolution extends CriterionParts {
   randomEffects: Float64Array[];
   /** Conditional variances Var(b | y) of each level of term k, as lme4's ranef(condVar = TRUE). */
   conditionalVariances(termIndex: number): Float64Array;
+}
+
+/**
+ * Pieces of the second derivatives of the criterion in γ_k = θ_k² (Harville 1977, JASA 72:320,
+ * eqs. for the REML information [from memory]; checked in the tests against differences of the
+ * analytic gradient). With H = I + Σ γ_k Z_k Z_kᵀ, P its REML projection (ML: with the fixed
+ * effects profiled out of the quadratic form only), G_k = Z_k Z_kᵀ, and T as in valueAndGradient:
+ *
+ *   ∂²h/∂γ_k∂γ_l = −tr(P G_k P G_l) + 2 yᵀP G_k P G_l P y / σ²,
+ *   γ_k γ_l tr(P G_k P G_l) = ‖δ_kl I − T_kl‖²_F   (from Λ Zᵀ P Z Λ = I − T),
+ *   ∂(R_Xᵀ R_X)⁻¹/∂θ_k = (2/θ_k) C F_kᵀ F_k C, C = (R_Xᵀ R_X)⁻¹, F = L⁻ᵀ R_ZX = Λ Zᵀ H⁻¹ X,
+ *
+ * F_k its rows of term k. Terms with θ_k = 0 get zeros where a division by θ_k would be needed.
+ */
+export interface SecondOrderPieces {
+  parts: CriterionParts;
+  /** tr T_kk per term (as gradientPieces). */
+  traceT: Float64Array;
+  /** ‖u_k‖² per term (as gradientPieces). */
+  modeSquares: Float64Array;
+  /** ‖δ_kl I − T_kl‖²_F, row-major nTheta×nTheta. */
+  traceProducts: Float64Array;
+  /** yᵀ P G_k P G_l P y (σ-free), row-major nTheta×nTheta. */
+  residualProducts: Float64Array;
+  /** ‖Z_kᵀ P y‖² per term. */
+  residualTermSquares: Float64Array;
+  /** (R_Xᵀ R_X)⁻¹ at θ. */
+  unscaledCovBeta: Float64Array;
+  /** ∂(R_Xᵀ R_X)⁻¹/∂θ_k per term, row-major p×p (zeros where θ_k = 0). */
+  unscaledCovBetaDerivatives: Float64Array[];
 }
 
 export interface RemlObjective {
@@ -81,6 +112,12 @@ export interface RemlObjective {
    * memory]). Only a start Hessian for the optimiser: it does not decide where the fit stops.
    */
   averageInformation(theta: ArrayLike<number>): Float64Array | null;
+  /**
+   * Everything the exact Hessian of h(θ) = log|L|² (+ log|R_X|²) + pwrss/σ² and the exact
+   * derivatives of cov(β̂) need, from one factorisation at θ (null where it fails). See
+   * SecondOrderPieces; the caller combines them for the θ_k > 0 it wants.
+   */
+  secondOrderPieces(theta: ArrayLike<number>): SecondOrderPieces | null;
   /** (R_Xᵀ R_X)⁻¹ at θ: cov(β̂) = σ² × this. */
   unscaledCovBeta(theta: ArrayLike<number>): Float64Array;
   /** parts(θ) and unscaledCovBeta(θ) from one factorisation. */
@@ -332,10 +369,11 @@ export function makeRemlObjective(frame: ModelFrame, options: { reml?: boolean }
     }
   }
 
-  function averageInformation(theta: ArrayLike<number>): Float64Array | null {
-    if (!reml) return null;
-    const criterion = parts(theta);
-    if (!Number.isFinite(criterion.deviance)) return null;
+  /**
+   * From the current factor: s_k = ‖Z_kᵀ r‖² and the matrix w_kᵀ P w_l with r = P y and
+   * w_k = Z_k Z_kᵀ r (one projection per term).
+   */
+  function residualCrossProducts(): { termSquares: Float64Array; products: Float64Array } {
     if (!obsPositions) {
       obsPositions = new Int32Array(n * nTheta);
       for (let i = 0; i < n; i++) for (let k = 0; k < nTheta; k++) obsPositions[i * nTheta + k] = frame.positionOf[k][frame.terms[k].index[i]];
@@ -346,23 +384,203 @@ export function makeRemlObjective(frame: ModelFrame, options: { reml?: boolean }
     zSums.fill(0);
     for (let i = 0; i < n; i++) for (let k = 0; k < nTheta; k++) zSums[positions[i * nTheta + k]] += residuals[i];
     const termTotals = Float64Array.from(zSums);
-    const s = new Float64Array(nTheta);
-    for (let i = 0; i < q; i++) s[frame.termOfPosition[i]] += termTotals[i] * termTotals[i];
+    const termSquares = new Float64Array(nTheta);
+    for (let i = 0; i < q; i++) termSquares[frame.termOfPosition[i]] += termTotals[i] * termTotals[i];
     const w = Array.from({ length: nTheta }, (_, k) => Float64Array.from(residuals, (_, i) => termTotals[positions[i * nTheta + k]]));
-    const information = new Float64Array(nTheta * nTheta);
-    const nu = degreesOfFreedom;
-    const pwrss = criterion.pwrss;
+    const products = new Float64Array(nTheta * nTheta);
     for (let l = 0; l < nTheta; l++) {
       projectInPlace(w[l], projected);
       for (let k = 0; k <= l; k++) {
         let sum = 0;
         for (let i = 0; i < n; i++) sum += w[k][i] * projected[i];
-        const value = (nu * sum) / pwrss - (nu * s[k] * s[l]) / (pwrss * pwrss);
-        information[k * nTheta + l] = value;
-        information[l * nTheta + k] = value;
+        products[k * nTheta + l] = sum;
+        products[l * nTheta + k] = sum;
       }
     }
+    return { termSquares, products };
+  }
+
+  function averageInformation(theta: ArrayLike<number>): Float64Array | null {
+    if (!reml) return null;
+    const criterion = parts(theta);
+    if (!Number.isFinite(criterion.deviance)) return null;
+    const { termSquares: s, products } = residualCrossProducts();
+    const information = new Float64Array(nTheta * nTheta);
+    const nu = degreesOfFreedom;
+    const pwrss = criterion.pwrss;
+    for (let k = 0; k < nTheta; k++) {
+      for (let l = 0; l < nTheta; l++) information[k * nTheta + l] = (nu * products[k * nTheta + l]) / pwrss - (nu * s[k] * s[l]) / (pwrss * pwrss);
+    }
     return information;
+  }
+
+  /** The first `size` rows of the row-major ·×m matrix X ← L⁻¹ X (L lower triangular size×size), as a one-block arrow. */
+  function lowerSolveRowsLocal(l: Float64Array, size: number, x: Float64Array, m: number): void {
+    const single = { layout: makeBlockArrowLayout([size], 0), blocks: [l], couplings: [new Float64Array(0)], border: new Float64Array(0) };
+    blockArrowForwardSolveRows(single, x, m);
+  }
+
+  /**
+   * ‖δ_kl I − T_kl‖²_F per pair of terms, T the random-effects block of the inverse of the
+   * spherical mixed-model matrix, from the current factor. With L⁻¹ = [[L_b⁻¹, 0], [N_b, L_B⁻¹]],
+   * N_b = −L_B⁻¹ W_bᵀ L_b⁻¹: T = KᵀK + blockdiag(L_b⁻ᵀ L_b⁻¹), K the border rows of L⁻¹ stacked
+   * (REML) on the rows of R_X⁻ᵀ (L⁻ᵀ R_ZX)ᵀ, so no q×q solve is done and T is never stored.
+   */
+  function traceProductsFromFactor(fixedPart: Float64Array | null): Float64Array {
+    const nK = nB + (fixedPart ? p : 0);
+    const k = new Float64Array(nK * q);
+    const blockInverses: Float64Array[] = [];
+    const blockOf = new Int32Array(q).fill(-1);
+    for (let b = 0; b < layout.blockSizes.length; b++) {
+      const nb = layout.blockSizes[b];
+      const offset = layout.blockOffsets[b];
+      blockOf.fill(b, offset, offset + nb);
+      // L_b⁻¹ (row r, column i at r·nb + i), then L_b⁻ᵀ L_b⁻¹ (lower triangle).
+      const inverse = new Float64Array(nb * nb);
+      for (let i = 0; i < nb; i++) inverse[i * nb + i] = 1;
+      lowerSolveRowsLocal(workspace.blocks[b], nb, inverse, nb);
+      const gram = new Float64Array(nb * nb);
+      for (let i = 0; i < nb; i++) {
+        for (let j = 0; j <= i; j++) {
+          let sum = 0;
+          for (let r = i; r < nb; r++) sum += inverse[r * nb + i] * inverse[r * nb + j];
+          gram[i * nb + j] = sum;
+        }
+      }
+      blockInverses.push(gram);
+      const coupling = workspace.couplings[b];
+      for (let r = 0; r < nb; r++) {
+        for (let border = 0; border < nB; border++) {
+          const c = coupling[r * nB + border];
+          if (c === 0) continue;
+          const row = border * q + offset;
+          for (let i = 0; i <= r; i++) k[row + i] -= c * inverse[r * nb + i];
+        }
+      }
+    }
+    for (let border = 0; border < nB; border++) k[border * q + layout.borderOffset + border] = 1;
+    if (nB > 0) lowerSolveRowsLocal(workspace.border, nB, k, q);
+    // Column i of K contiguous (q×nK), so each T_ij is one short dot product.
+    const columns = new Float64Array(q * nK);
+    for (let r = 0; r < nB; r++) for (let i = 0; i < q; i++) columns[i * nK + r] = k[r * q + i];
+    if (fixedPart) for (let i = 0; i < q; i++) for (let c = 0; c < p; c++) columns[i * nK + nB + c] = fixedPart[i * p + c];
+    const traceProducts = new Float64Array(nTheta * nTheta);
+    let smallest = Infinity;
+    for (let i = 0; i < q; i++) if (lambda[i] > 0) smallest = Math.min(smallest, lambda[i]);
+    if (smallest < 1e-2) {
+      // Entry by entry: δ_ij − T_ij loses only ε/θ² relative where T_kk ≈ I (θ_k small).
+      for (let i = 0; i < q; i++) {
+        const termI = frame.termOfPosition[i];
+        const baseI = i * nK;
+        const blockI = blockOf[i];
+        for (let j = 0; j <= i; j++) {
+          const baseJ = j * nK;
+          let t = 0;
+          for (let r = 0; r < nK; r++) t += columns[baseI + r] * columns[baseJ + r];
+          if (blockI >= 0 && blockOf[j] === blockI) {
+            const offset = layout.blockOffsets[blockI];
+            t += blockInverses[blockI][(i - offset) * layout.blockSizes[blockI] + j - offset];
+          }
+          const value = (i === j ? 1 : 0) - t;
+          const termJ = frame.termOfPosition[j];
+          traceProducts[termI * nTheta + termJ] += value * value;
+          if (i !== j) traceProducts[termJ * nTheta + termI] += value * value;
+        }
+      }
+      return traceProducts;
+    }
+    // Otherwise in nK×nK pieces (relative error about ε/θ⁴, negligible for θ ≥ 10⁻²): with
+    // B = I − blockdiag(L_b⁻ᵀ L_b⁻¹), ‖(B − KᵀK)_kl‖² = ‖B_kl‖² − 2⟨B_kl, (KᵀK)_kl⟩ + ⟨S_k, S_l⟩,
+    // S_k = K_k K_kᵀ over the columns of term k (‖K_kᵀ K_l‖² = tr(S_k S_l)).
+    const grams = Array.from({ length: nTheta }, () => new Float64Array(nK * nK));
+    for (let i = 0; i < q; i++) {
+      const gram = grams[frame.termOfPosition[i]];
+      const base = i * nK;
+      for (let r = 0; r < nK; r++) {
+        const value = columns[base + r];
+        if (value === 0) continue;
+        for (let c = 0; c <= r; c++) gram[r * nK + c] += value * columns[base + c];
+      }
+    }
+    for (let a = 0; a < nTheta; a++) {
+      for (let b = 0; b <= a; b++) {
+        let sum = 0;
+        for (let r = 0; r < nK; r++) {
+          for (let c = 0; c < r; c++) sum += 2 * grams[a][r * nK + c] * grams[b][r * nK + c];
+          sum += grams[a][r * nK + r] * grams[b][r * nK + r];
+        }
+        traceProducts[a * nTheta + b] = sum;
+        traceProducts[b * nTheta + a] = sum;
+      }
+    }
+    for (let b = 0; b < layout.blockSizes.length; b++) {
+      const nb = layout.blockSizes[b];
+      const offset = layout.blockOffsets[b];
+      for (let i = 0; i < nb; i++) {
+        const termI = frame.termOfPosition[offset + i];
+        const baseI = (offset + i) * nK;
+        for (let j = 0; j <= i; j++) {
+          const termJ = frame.termOfPosition[offset + j];
+          const baseJ = (offset + j) * nK;
+          let cross = 0;
+          for (let r = 0; r < nK; r++) cross += columns[baseI + r] * columns[baseJ + r];
+          const value = (i === j ? 1 : 0) - blockInverses[b][i * nb + j];
+          const contribution = value * value - 2 * value * cross;
+          traceProducts[termI * nTheta + termJ] += contribution;
+          if (i !== j) traceProducts[termJ * nTheta + termI] += contribution;
+        }
+      }
+    }
+    // Border positions: B = I there.
+    for (let i = layout.borderOffset; i < q; i++) {
+      const term = frame.termOfPosition[i];
+      let cross = 0;
+      for (let r = 0; r < nK; r++) cross += columns[i * nK + r] * columns[i * nK + r];
+      traceProducts[term * nTheta + term] += 1 - 2 * cross;
+    }
+    return traceProducts;
+  }
+
+  function secondOrderPieces(theta: ArrayLike<number>): SecondOrderPieces | null {
+    const pieces = gradientPieces(theta);
+    if (!pieces) return null;
+    const width = p + 1;
+    // F = L⁻ᵀ R_ZX, and its rows through R_X⁻ᵀ (the fixed part of T, REML only).
+    const f = new Float64Array(q * p);
+    for (let i = 0; i < q; i++) for (let c = 0; c < p; c++) f[i * p + c] = rhs[i * width + c];
+    blockArrowBackSolveRows(workspace, f, p);
+    let fixedPart: Float64Array | null = null;
+    if (reml) {
+      fixedPart = f.slice();
+      for (let i = 0; i < q; i++) forwardSolveInPlace(rx, p, fixedPart, i * p);
+    }
+    const traceProducts = traceProductsFromFactor(fixedPart);
+    const { termSquares, products } = residualCrossProducts();
+    const unscaledCovBeta = inverseFromCholesky(rx, p);
+    const unscaledCovBetaDerivatives = Array.from({ length: nTheta }, () => new Float64Array(p * p));
+    const cf = new Float64Array(p);
+    for (let i = 0; i < q; i++) {
+      const k = frame.termOfPosition[i];
+      if (!(theta[k] > 0)) continue;
+      for (let a = 0; a < p; a++) {
+        let sum = 0;
+        for (let c = 0; c < p; c++) sum += unscaledCovBeta[a * p + c] * f[i * p + c];
+        cf[a] = sum;
+      }
+      const target = unscaledCovBetaDerivatives[k];
+      const scale = 2 / theta[k];
+      for (let a = 0; a < p; a++) for (let c = 0; c < p; c++) target[a * p + c] += scale * cf[a] * cf[c];
+    }
+    return {
+      parts: pieces.parts,
+      traceT: pieces.traceT,
+      modeSquares: pieces.modeSquares,
+      traceProducts,
+      residualProducts: products,
+      residualTermSquares: termSquares,
+      unscaledCovBeta,
+      unscaledCovBetaDerivatives,
+    };
   }
 
   return {
@@ -370,6 +588,7 @@ export function makeRemlObjective(frame: ModelFrame, options: { reml?: boolean }
     reml,
     nTheta,
     averageInformation,
+    secondOrderPieces,
     valueAndGradient,
     gradientPieces,
     evaluate: (theta) => parts(theta).deviance,

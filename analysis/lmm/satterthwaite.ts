@@ -43,16 +43,96 @@ export interface VarparCovariance {
   jacobians: Float64Array[];
   /** Eigenvalues of H (a non-positive one means the fit is not at a proper minimum). */
   hessianEigenvalues: number[];
+  /** How the θ derivatives were taken ('differences' only as the fallback, see VarparOptions). */
+  method: 'exact' | 'differences';
+}
+
+export interface VarparOptions {
+  /**
+   * 'exact' (default): the θ Hessian and ∂cov(β̂)/∂θ in closed form from one factorisation
+   * (criterion.secondOrderPieces), falling back to 'differences' where a piece is not finite;
+   * 'differences': central differences of the analytic gradient and of cov(β̂) (2 factorisations per θ_k).
+   */
+  method?: 'exact' | 'differences';
 }
 
 /** Asymptotic covariance of the variance parameters and Jacobians of cov(β̂), at θ̂ (σ̂ from θ̂). */
-export function varparCovariance(objective: RemlObjective, theta: Float64Array, sigma: number): VarparCovariance {
-  const { nObservations: n, nFixed: p } = objective.frame;
+export function varparCovariance(objective: RemlObjective, theta: Float64Array, sigma: number, options: VarparOptions = {}): VarparCovariance {
   const freeComponents = [...theta].map((value, k) => k).filter((k) => theta[k] > 0);
   const m = freeComponents.length;
   const dimension = m + 1;
   const sigma2 = sigma * sigma;
-  const degrees = objective.reml ? n - p : n;
+  const exact = (options.method ?? 'exact') === 'exact' ? exactThetaDerivatives(objective, theta, sigma, freeComponents) : null;
+  const { hessian, jacobians, centre } = exact ?? differencedThetaDerivatives(objective, theta, sigma, freeComponents);
+  const degrees = objective.reml ? objective.frame.nObservations - objective.frame.nFixed : objective.frame.nObservations;
+  // σ derivatives of pwrss/σ² + (n − p) log(2πσ²), analytic; ∂pwrss/∂θ_i = −2‖u_i‖²/θ_i.
+  for (let i = 0; i < m; i++) {
+    const k = freeComponents[i];
+    const pwrssGradient = (-2 * centre.modeSquares[k]) / theta[k];
+    const value = (-2 * pwrssGradient) / (sigma2 * sigma);
+    hessian[i * dimension + m] = value;
+    hessian[m * dimension + i] = value;
+  }
+  hessian[m * dimension + m] = (6 * centre.parts.pwrss) / (sigma2 * sigma2) - (2 * degrees) / sigma2;
+
+  const eigen = symmetricEigen(hessian, dimension);
+  const covariance = new Float64Array(dimension * dimension);
+  eigen.values.forEach((value, index) => {
+    if (!(value > 1e-8)) return;
+    const vector = eigen.vectors[index];
+    for (let i = 0; i < dimension; i++) {
+      for (let j = 0; j < dimension; j++) covariance[i * dimension + j] += (2 * vector[i] * vector[j]) / value;
+    }
+  });
+
+  const atOptimum = exact?.unscaledCovBeta ?? objective.unscaledCovBeta(theta);
+  jacobians.push(Float64Array.from(atOptimum, (value) => 2 * sigma * value));
+  return { freeComponents, covariance, jacobians, hessianEigenvalues: eigen.values, method: exact ? 'exact' : 'differences' };
+}
+
+interface ThetaDerivatives {
+  /** (m+1)×(m+1) row-major with the θ block filled. */
+  hessian: Float64Array;
+  /** σ² ∂(R_XᵀR_X)⁻¹/∂θ_i for each free component. */
+  jacobians: Float64Array[];
+  centre: { parts: { pwrss: number }; modeSquares: Float64Array };
+  unscaledCovBeta?: Float64Array;
+}
+
+/**
+ * ∂²h/∂θ_k∂θ_l = 4θ_kθ_l ∂²h/∂γ_k∂γ_l + δ_kl 2 ∂h/∂γ_k (γ = θ²) with the γ derivatives of
+ * criterion.secondOrderPieces: −4‖δ_kl I − T_kl‖²/(θ_kθ_l) + 8θ_kθ_l yᵀPG_kPG_lPy/σ²
+ * + δ_kl 2(q_k − tr T_kk − ‖u_k‖²/σ²)/γ_k. Null where a piece is not finite.
+ */
+function exactThetaDerivatives(objective: RemlObjective, theta: Float64Array, sigma: number, freeComponents: number[]): ThetaDerivatives | null {
+  const pieces = objective.secondOrderPieces(theta);
+  if (!pieces) return null;
+  const m = freeComponents.length;
+  const dimension = m + 1;
+  const nTheta = objective.nTheta;
+  const sigma2 = sigma * sigma;
+  const termSizes = objective.frame.terms.map((term) => term.levels.length);
+  const hessian = new Float64Array(dimension * dimension);
+  for (let i = 0; i < m; i++) {
+    const k = freeComponents[i];
+    for (let j = 0; j < m; j++) {
+      const l = freeComponents[j];
+      let value = (-4 * pieces.traceProducts[k * nTheta + l]) / (theta[k] * theta[l]) + (8 * theta[k] * theta[l] * pieces.residualProducts[k * nTheta + l]) / sigma2;
+      if (i === j) value += (2 * (termSizes[k] - pieces.traceT[k] - pieces.modeSquares[k] / sigma2)) / (theta[k] * theta[k]);
+      hessian[i * dimension + j] = value;
+    }
+  }
+  const jacobians = freeComponents.map((k) => Float64Array.from(pieces.unscaledCovBetaDerivatives[k], (value) => sigma2 * value));
+  const finite = (values: Float64Array): boolean => values.every(Number.isFinite);
+  if (!finite(hessian) || !jacobians.every(finite)) return null;
+  return { hessian, jacobians, centre: pieces, unscaledCovBeta: pieces.unscaledCovBeta };
+}
+
+/** The θ block by central differences of the analytic gradient, and ∂cov(β̂)/∂θ by differences. */
+function differencedThetaDerivatives(objective: RemlObjective, theta: Float64Array, sigma: number, freeComponents: number[]): ThetaDerivatives {
+  const m = freeComponents.length;
+  const dimension = m + 1;
+  const sigma2 = sigma * sigma;
 
   const at = (shifts: Array<[number, number]>): Float64Array => {
     const point = theta.slice();
@@ -72,9 +152,7 @@ export function varparCovariance(objective: RemlObjective, theta: Float64Array, 
   if (!centre) throw new Error('the mixed-model equations are singular at the estimates');
 
   const hessian = new Float64Array(dimension * dimension);
-  const pwrssGradient = new Float64Array(m);
-  // Hessian of h by central differences of its analytic gradient (one factorisation per point;
-  // the same points give the Jacobian of cov(β̂)); ∂pwrss/∂θ_i = −2‖u_i‖²/θ_i, analytic.
+  // One factorisation per point; the same points give the Jacobian of cov(β̂).
   const jacobians: Float64Array[] = [];
   for (let i = 0; i < m; i++) {
     const up = at([[i, steps[i]]]);
@@ -85,8 +163,6 @@ export function varparCovariance(objective: RemlObjective, theta: Float64Array, 
     const covDown = objective.unscaledCovBeta(down);
     for (let j = 0; j < m; j++) hessian[j * dimension + i] = (gradientUp[j] - gradientDown[j]) / (2 * steps[i]);
     jacobians.push(Float64Array.from(covUp, (value, index) => (sigma2 * (value - covDown[index])) / (2 * steps[i])));
-    const k = freeComponents[i];
-    pwrssGradient[i] = (-2 * centre.modeSquares[k]) / theta[k];
   }
   for (let i = 0; i < m; i++) {
     for (let j = 0; j < i; j++) {
@@ -95,27 +171,7 @@ export function varparCovariance(objective: RemlObjective, theta: Float64Array, 
       hessian[j * dimension + i] = mean;
     }
   }
-  // σ derivatives of pwrss/σ² + (n − p) log(2πσ²), analytic.
-  for (let i = 0; i < m; i++) {
-    const value = (-2 * pwrssGradient[i]) / (sigma2 * sigma);
-    hessian[i * dimension + m] = value;
-    hessian[m * dimension + i] = value;
-  }
-  hessian[m * dimension + m] = (6 * centre.parts.pwrss) / (sigma2 * sigma2) - (2 * degrees) / sigma2;
-
-  const eigen = symmetricEigen(hessian, dimension);
-  const covariance = new Float64Array(dimension * dimension);
-  eigen.values.forEach((value, index) => {
-    if (!(value > 1e-8)) return;
-    const vector = eigen.vectors[index];
-    for (let i = 0; i < dimension; i++) {
-      for (let j = 0; j < dimension; j++) covariance[i * dimension + j] += (2 * vector[i] * vector[j]) / value;
-    }
-  });
-
-  const atOptimum = objective.unscaledCovBeta(theta);
-  jacobians.push(Float64Array.from(atOptimum, (value) => 2 * sigma * value));
-  return { freeComponents, covariance, jacobians, hessianEigenvalues: eigen.values };
+  return { hessian, jacobians, centre };
 }
 
 /**
