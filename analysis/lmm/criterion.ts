@@ -408,8 +408,12 @@ export function makeRemlObjective(frame: ModelFrame, options: { reml?: boolean }
     const information = new Float64Array(nTheta * nTheta);
     const nu = degreesOfFreedom;
     const pwrss = criterion.pwrss;
-    for (let k = 0; k < nTheta; k++) {
-      for (let l = 0; l < nTheta; l++) information[k * nTheta + l] = (nu * products[k * nTheta + l]) / pwrss - (nu * s[k] * s[l]) / (pwrss * pwrss);
+    for (let l = 0; l < nTheta; l++) {
+      for (let k = 0; k <= l; k++) {
+        const value = (nu * products[k * nTheta + l]) / pwrss - (nu * s[k] * s[l]) / (pwrss * pwrss);
+        information[k * nTheta + l] = value;
+        information[l * nTheta + k] = value;
+      }
     }
     return information;
   }
