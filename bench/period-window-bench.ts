@@ -4,13 +4,17 @@
  * `fitPeriodModel` with the product:session LRT, CPU time per fit, evaluations and iterations.
  * `--json FILE` writes every fit's estimates for comparing two builds. `--warm` also fits the
  * latest window (41–52) started from the fit of the previous latest window (40–51) of the same
- * attribute, as a refit after one new session does.
+ * attribute, as a refit after one new session does. `--varpar` also times the Satterthwaite step
+ * alone (varparCovariance at each cold fit's θ̂), exact pieces and central differences
+ * alternated, and prints the largest difference of the denominator df between the two.
  *
- *   npx tsx bench/period-window-bench.ts [--reps N] [--json FILE]
+ *   npx tsx bench/period-window-bench.ts [--reps N] [--json FILE] [--warm] [--varpar]
  */
 import { writeFileSync } from 'node:fs';
 import { generatePanel } from '../demo/generate-panel.js';
-import { fitPeriodModel, relativeSdsFromVariances } from '../analysis/lmm/fit-period-model.js';
+import { makeRemlObjective } from '../analysis/lmm/criterion.js';
+import { fitPeriodModel, relativeSdsFromVariances, type PeriodModelFit } from '../analysis/lmm/fit-period-model.js';
+import { productContrastRows, productFTest, varparCovariance } from '../analysis/lmm/satterthwaite.js';
 import type { Observation } from '../domain/ratings.js';
 
 const argValue = (name: string): string | undefined => {
@@ -20,6 +24,7 @@ const argValue = (name: string): string | undefined => {
 const reps = Number(argValue('--reps') ?? 2);
 const jsonPath = argValue('--json');
 const warm = process.argv.includes('--warm');
+const varpar = process.argv.includes('--varpar');
 
 const panel = generatePanel({ seed: 2026, nWeeks: 52, nAssessors: 12, startDate: '2026-01-05', faults: 'demo', nAttributes: 10 });
 const labels = panel.sessions.map((s) => s.label);
@@ -41,6 +46,7 @@ const cpuMs = (): number => {
 };
 const results: Record<string, unknown> = {};
 const perRep: number[][] = [];
+const firstFits: PeriodModelFit[] = [];
 for (let rep = 0; rep < reps; rep++) {
   const times: number[] = [];
   let evaluations = 0;
@@ -49,6 +55,7 @@ for (let rep = 0; rep < reps; rep++) {
     const fit = fitPeriodModel(job.observations);
     times.push(cpuMs() - start);
     evaluations += fit.diagnostics.evaluations;
+    if (rep === 0) firstFits.push(fit);
     if (rep === 0) results[job.name] = { json: fit.json, lrt: fit.productSessionLrt, iterations: fit.diagnostics.iterations, evaluations: fit.diagnostics.evaluations, converged: fit.diagnostics.converged };
   }
   perRep.push(times);
@@ -74,3 +81,26 @@ for (let rep = 0; rep < reps; rep++) {
   console.log(`rep ${rep + 1}: ${jobs.length} fits, CPU per fit mean ${(total / jobs.length).toFixed(1)} ms, median ${sorted[Math.floor(sorted.length / 2)].toFixed(1)} ms, max ${sorted[sorted.length - 1].toFixed(1)} ms, evaluations ${(evaluations / jobs.length).toFixed(1)} per fit`);
 }
 if (jsonPath) writeFileSync(jsonPath, JSON.stringify(results));
+if (varpar) {
+  const methods = ['exact', 'differences'] as const;
+  const totals = { exact: 0, differences: 0 };
+  let largestDfDifference = 0;
+  for (let rep = 0; rep < reps; rep++) {
+    for (const fit of firstFits) {
+      const objective = makeRemlObjective(fit.fit.frame);
+      const theta = Float64Array.from(fit.fit.theta);
+      const solution = objective.solve(theta);
+      const denDf: number[] = [];
+      for (const method of rep % 2 === 0 ? methods : [...methods].reverse()) {
+        const start = cpuMs();
+        const covariance = varparCovariance(objective, theta, solution.sigma, { method });
+        totals[method] += cpuMs() - start;
+        const covBeta = Float64Array.from(solution.unscaledCovBeta, (value) => value * solution.sigma * solution.sigma);
+        denDf.push(productFTest(solution.beta, covBeta, productContrastRows(objective.frame.xTx, objective.frame.nFixed), covariance).denDf ?? NaN);
+      }
+      largestDfDifference = Math.max(largestDfDifference, Math.abs(denDf[0] - denDf[1]) / denDf[1]);
+    }
+  }
+  const calls = reps * firstFits.length;
+  console.log(`Satterthwaite step alone (${calls} calls each): CPU per call exact ${(totals.exact / calls).toFixed(1)} ms, differences ${(totals.differences / calls).toFixed(1)} ms; largest relative difference of denDf ${largestDfDifference.toExponential(1)}`);
+}
