@@ -14,9 +14,10 @@
  * - one row: ddf = ν_1; equal ν (within 1e-8): their mean; any ν_m ≤ 2: 2;
  *   else E = Σ ν_m/(ν_m − 2), ddf = 2E/(E − q).
  *
- * Differences from lmerTest: the second derivatives in θ are central differences of the analytic
- * gradient (lmerTest: numDeriv's Richardson extrapolation on the deviance), the first derivatives
- * and the σ derivatives analytic, and components at 0 are
+ * Differences from lmerTest: all derivatives are analytic (lmerTest: numDeriv's Richardson
+ * extrapolation on the deviance and on cov(β̂)) — the θ Hessian and ∂cov(β̂)/∂θ from
+ * criterion.secondOrderPieces, central differences of the analytic gradient only as the
+ * fallback — and components at 0 are
  * left out (at θ_k = 0 the deviance is even in θ_k, so lmerTest's Hessian has no cross terms
  * with θ_k and ∂cov(β̂)/∂θ_k = 0: leaving it out gives the same numbers).
  */
