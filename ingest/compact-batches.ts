@@ -8,7 +8,7 @@
  * A batch lists the names it uses for the first time (`newNames`), in id order, so a decoder
  * that applies batches in order knows every name an id stands for.
  */
-import type { ReadEvent } from './read-ratings.js';
+import { readIntoSink, type InputSource, type ReadEvent, type ReadRatingsOptions, type ReadSink } from './read-ratings.js';
 
 /** Kinds of interned names, in the order of CompactBatch.newNames. */
 export const NAME_KINDS = ['session', 'attribute', 'assessor', 'product', 'column', 'code', 'date'] as const;
@@ -88,54 +88,99 @@ class NameIds {
   }
 }
 
+/**
+ * Builds compact batches from a reader's events (a ReadSink: ratings arrive as fields, with no
+ * object per rating); one builder per file (ids continue across batches). The typed arrays
+ * grow as needed and are reused; take() hands over exact-size copies.
+ */
+export class CompactBuilder implements ReadSink {
+  private readonly tables = NAME_KINDS.map(() => new NameIds());
+  private keys = new Int32Array(1024 * KEY_FIELDS);
+  private values = new Float64Array(1024);
+  private nRatings = 0;
+  private others: CompactBatch['others'] = [];
+  private nMissing = 0;
+  private maxRow = 0;
+
+  get length(): number {
+    return this.nRatings + this.others.length + this.nMissing;
+  }
+
+  rating(row: number, column: string, session: string, assessor: string, product: string, replicate: number, attribute: string, value: number, date: string, code: string | null): void {
+    const r = this.nRatings;
+    if (r === this.values.length) {
+      const keys = new Int32Array(this.keys.length * 2);
+      keys.set(this.keys);
+      this.keys = keys;
+      const values = new Float64Array(this.values.length * 2);
+      values.set(this.values);
+      this.values = values;
+    }
+    const tables = this.tables;
+    const keysOut = this.keys;
+    const at = r * KEY_FIELDS;
+    keysOut[at + F_SESSION] = tables[KIND_SESSION].id(session);
+    keysOut[at + F_ATTRIBUTE] = tables[KIND_ATTRIBUTE].id(attribute);
+    keysOut[at + F_ASSESSOR] = tables[KIND_ASSESSOR].id(assessor);
+    keysOut[at + F_PRODUCT] = tables[KIND_PRODUCT].id(product);
+    keysOut[at + F_REPLICATE] = replicate;
+    keysOut[at + F_ROW] = row;
+    keysOut[at + F_COLUMN] = tables[KIND_COLUMN].id(column);
+    keysOut[at + F_CODE] = code === null || code === undefined ? 0 : tables[KIND_CODE].id(code);
+    keysOut[at + F_DATE] = tables[KIND_DATE].id(date);
+    this.values[r] = value;
+    if (row > this.maxRow) this.maxRow = row;
+    this.nRatings = r + 1;
+  }
+
+  push(event: ReadEvent): void {
+    switch (event.type) {
+      case 'rating': {
+        const { rating } = event;
+        this.rating(event.row, event.column, rating.session, rating.assessor, rating.product, rating.replicate, rating.attribute, rating.value, rating.date, rating.code ?? null);
+        break;
+      }
+      case 'missing':
+        this.nMissing++;
+        if (event.row > this.maxRow) this.maxRow = event.row;
+        break;
+      case 'problem':
+        if (event.problem.row !== null && event.problem.row > this.maxRow) this.maxRow = event.problem.row;
+        this.others.push({ at: this.nRatings, event });
+        break;
+      case 'finding':
+        this.others.push({ at: this.nRatings, event });
+        break;
+    }
+  }
+
+  /** The batch of everything since the last take(). */
+  take(): CompactBatch {
+    const n = this.nRatings;
+    const batch: CompactBatch = {
+      nRatings: n,
+      keys: this.keys.slice(0, n * KEY_FIELDS),
+      values: this.values.slice(0, n),
+      newNames: this.tables.map((t) => t.takeFresh()),
+      others: this.others,
+      nMissing: this.nMissing,
+      maxRow: this.maxRow,
+    };
+    this.nRatings = 0;
+    this.others = [];
+    this.nMissing = 0;
+    this.maxRow = 0;
+    return batch;
+  }
+}
+
 /** Turns event arrays into compact batches; one encoder per file (ids continue across batches). */
 export class CompactEncoder {
-  private readonly tables = NAME_KINDS.map(() => new NameIds());
+  private readonly builder = new CompactBuilder();
 
   encode(events: readonly ReadEvent[]): CompactBatch {
-    let nRatings = 0;
-    for (let i = 0; i < events.length; i++) if (events[i].type === 'rating') nRatings++;
-    const keys = new Int32Array(nRatings * KEY_FIELDS);
-    const values = new Float64Array(nRatings);
-    const others: CompactBatch['others'] = [];
-    const [sessions, attributes, assessors, products, columns, codes, dates] = this.tables;
-    let nMissing = 0;
-    let maxRow = 0;
-    let r = 0;
-    for (let i = 0; i < events.length; i++) {
-      const event = events[i];
-      switch (event.type) {
-        case 'rating': {
-          const { rating, row } = event;
-          const at = r * KEY_FIELDS;
-          keys[at + F_SESSION] = sessions.id(rating.session);
-          keys[at + F_ATTRIBUTE] = attributes.id(rating.attribute);
-          keys[at + F_ASSESSOR] = assessors.id(rating.assessor);
-          keys[at + F_PRODUCT] = products.id(rating.product);
-          keys[at + F_REPLICATE] = rating.replicate;
-          keys[at + F_ROW] = row;
-          keys[at + F_COLUMN] = columns.id(event.column);
-          keys[at + F_CODE] = rating.code === null || rating.code === undefined ? 0 : codes.id(rating.code);
-          keys[at + F_DATE] = dates.id(rating.date);
-          values[r] = rating.value;
-          if (row > maxRow) maxRow = row;
-          r++;
-          break;
-        }
-        case 'missing':
-          nMissing++;
-          if (event.row > maxRow) maxRow = event.row;
-          break;
-        case 'problem':
-          if (event.problem.row !== null && event.problem.row > maxRow) maxRow = event.problem.row;
-          others.push({ at: r, event });
-          break;
-        case 'finding':
-          others.push({ at: r, event });
-          break;
-      }
-    }
-    return { nRatings, keys, values, newNames: this.tables.map((t) => t.takeFresh()), others, nMissing, maxRow };
+    for (let i = 0; i < events.length; i++) this.builder.push(events[i]);
+    return this.builder.take();
   }
 }
 
@@ -164,4 +209,18 @@ export async function* compactBatches(
     }
   }
   if (pending.length > 0) yield encoder.encode(pending);
+}
+
+/**
+ * Read and validate a file (readRatingBatches' events and rules) straight into compact batches,
+ * without an event object per rating: the import's reader, on a worker or on the calling thread.
+ */
+export async function* readCompactBatches(
+  source: InputSource,
+  options: ReadRatingsOptions,
+  eventsPerBatch = EVENTS_PER_COMPACT_BATCH,
+): AsyncGenerator<CompactBatch> {
+  const builder = new CompactBuilder();
+  // Key strings are interned by the builder's name tables, so the reader need not keep them.
+  for await (const _ of readIntoSink(source, options, builder, eventsPerBatch, false)) yield builder.take();
 }

@@ -61,6 +61,36 @@ export interface ReadRatingsOptions {
 
 export type { RawCell } from '../domain/problems.js';
 
+/**
+ * Where a row reader puts its events, in reading order: ratings through `rating` (so a compact
+ * consumer need not build an object per rating), everything else through `push`.
+ */
+export interface ReadSink {
+  push(event: Exclude<ReadEvent, { type: 'rating' }>): void;
+  rating(row: number, column: string, session: string, assessor: string, product: string, replicate: number, attribute: string, value: number, date: string, code: string | null): void;
+  /** Events held so far (ratings included). */
+  readonly length: number;
+}
+
+/** A sink that keeps the events themselves (readRatingBatches). */
+class EventArraySink implements ReadSink {
+  events: ReadEvent[] = [];
+  get length(): number {
+    return this.events.length;
+  }
+  push(event: ReadEvent): void {
+    this.events.push(event);
+  }
+  rating(row: number, column: string, session: string, assessor: string, product: string, replicate: number, attribute: string, value: number, date: string, code: string | null): void {
+    this.events.push({ type: 'rating', row, column, rating: { session, assessor, product, replicate, attribute, value, date, code } });
+  }
+  take(): ReadEvent[] {
+    const events = this.events;
+    this.events = [];
+    return events;
+  }
+}
+
 export type ReadEvent =
   /** row as a spreadsheet shows it (header = 1); column = header of the value cell. */
   | { type: 'rating'; row: number; column: string; rating: Rating }
@@ -164,6 +194,8 @@ class RowReader {
   /** Key texts (session, assessor, product, attribute) by text, and the last of each role; see intern(). */
   private readonly keyTexts = new Map<string, string>();
   private readonly lastKeyTexts: (string | null)[] = KEY_ROLES.map(() => null);
+  /** False when the sink keeps no key strings (compact batches intern them to integers themselves). */
+  private readonly internKeys: boolean;
   private lastDateText = '';
   private lastDate: ReturnType<typeof parseSessionDate> | null = null;
   private readonly parseValue: (text: string) => CellResult<number>;
@@ -172,8 +204,9 @@ class RowReader {
   nMissing = 0;
   nDataRows = 0;
 
-  constructor(file: string, layout: ColumnLayout, decimalMark: DecimalMark, csv: boolean, options: ReadRatingsOptions) {
+  constructor(file: string, layout: ColumnLayout, decimalMark: DecimalMark, csv: boolean, options: ReadRatingsOptions, internKeys: boolean) {
     this.file = file;
+    this.internKeys = internKeys;
     this.layout = layout;
     this.decimalMark = decimalMark;
     this.csv = csv;
@@ -215,6 +248,7 @@ class RowReader {
    * assessor, attribute): the text is compared with the last one of its role before hashing.
    */
   private intern(text: string, role: number): string {
+    if (!this.internKeys) return text;
     const last = this.lastKeyTexts[role];
     if (text === last) return last;
     let known = this.keyTexts.get(text);
@@ -233,7 +267,7 @@ class RowReader {
   }
 
   /** Scale of an attribute, asking once; the scale-missing problem goes to `out`. */
-  private scaleOf(attribute: string, row: number, column: string, out: ReadEvent[]): ScaleRange | null | 'unchecked' {
+  private scaleOf(attribute: string, row: number, column: string, out: ReadSink): ScaleRange | null | 'unchecked' {
     let scale = this.scales.get(attribute);
     if (scale === undefined) {
       if (this.scales.size >= this.maxAttributes && this.fatal === null) {
@@ -266,12 +300,12 @@ class RowReader {
   }
 
   /** Wide form: ask for every attribute's scale once, at the header row. */
-  checkHeaderScales(headerRow: number, out: ReadEvent[]): void {
+  checkHeaderScales(headerRow: number, out: ReadSink): void {
     for (const c of this.layout.attributeColumns) this.scaleOf(c.attribute, headerRow, c.attribute, out);
   }
 
   /** Validate one non-blank data row, appending its events to `out`. */
-  readRow(record: SourceRecord, out: ReadEvent[]): void {
+  readRow(record: SourceRecord, out: ReadSink): void {
     const { row, cells } = record;
     const layout = this.layout;
     const headers = layout.headers;
@@ -374,12 +408,7 @@ class RowReader {
         out.push({ type: 'problem', cell, problem: this.outOfScale(value, scale, attribute, row, header, text) });
         continue;
       }
-      out.push({
-        type: 'rating',
-        row,
-        column: header,
-        rating: { session, assessor, product, replicate, attribute, value, date, code },
-      });
+      out.rating(row, header, session, assessor, product, replicate, attribute, value, date, code);
     }
   }
 
@@ -431,7 +460,7 @@ class RowReader {
     problems: InputProblem[],
     cells: readonly string[],
     keys: { session: string; dateText: string; assessor: string; product: string; replicateText: string; longAttribute: string | null; code: string | null },
-    out: ReadEvent[],
+    out: ReadSink,
   ): void {
     const rejected: RawCell[] = [];
     for (const column of this.valueColumns) {
@@ -469,8 +498,24 @@ export async function* readRatings(source: InputSource, options: ReadRatingsOpti
  * long-form files). Each array is new; the consumer may keep it.
  */
 export async function* readRatingBatches(source: InputSource, options: ReadRatingsOptions): AsyncGenerator<ReadEvent[]> {
+  const sink = new EventArraySink();
+  for await (const _ of readIntoSink(source, options, sink, EVENTS_PER_BATCH, true)) yield sink.take();
+}
+
+/**
+ * The reading behind readRatingBatches and readCompactBatches: puts the events into `sink` and
+ * yields (nothing) whenever the consumer should take them: at least `eventsPerBatch` are held,
+ * or the reading ends. `internKeys`: give rows one string object per distinct key text.
+ */
+export async function* readIntoSink(
+  source: InputSource,
+  options: ReadRatingsOptions,
+  sink: ReadSink,
+  eventsPerBatch: number,
+  internKeys: boolean,
+): AsyncGenerator<void> {
   const file = options.fileName;
-  const fileProblem = (code: ProblemCode, message: string, row: number | null = null, column: string | null = null): ReadEvent => ({
+  const fileProblem = (code: ProblemCode, message: string, row: number | null = null, column: string | null = null): Exclude<ReadEvent, { type: 'rating' }> => ({
     type: 'problem',
     cell: null,
     problem: { code, file, row, column, message },
@@ -480,20 +525,24 @@ export async function* readRatingBatches(source: InputSource, options: ReadRatin
   try {
     head = await readHead(source);
   } catch {
-    yield [fileProblem('file-unreadable', 'The file could not be opened for reading.')];
+    sink.push(fileProblem('file-unreadable', 'The file could not be opened for reading.'));
+    yield;
     return;
   }
   const kind = detectFileKind(head);
   if (kind === 'empty') {
-    yield [fileProblem('file-empty', 'The file is empty; it needs a header row and at least one row of ratings.')];
+    sink.push(fileProblem('file-empty', 'The file is empty; it needs a header row and at least one row of ratings.'));
+    yield;
     return;
   }
   if (kind === 'xls') {
-    yield [fileProblem('file-unreadable', 'This is an old-style .xls workbook, which cannot be read; save it as .xlsx (Excel Workbook) or as CSV UTF-8.')];
+    sink.push(fileProblem('file-unreadable', 'This is an old-style .xls workbook, which cannot be read; save it as .xlsx (Excel Workbook) or as CSV UTF-8.'));
+    yield;
     return;
   }
   if (kind === 'binary') {
-    yield [fileProblem('file-unreadable', 'This file is not a spreadsheet or CSV text (it looks like a PDF, image or archive); upload a CSV or .xlsx file.')];
+    sink.push(fileProblem('file-unreadable', 'This file is not a spreadsheet or CSV text (it looks like a PDF, image or archive); upload a CSV or .xlsx file.'));
+    yield;
     return;
   }
 
@@ -512,70 +561,66 @@ export async function* readRatingBatches(source: InputSource, options: ReadRatin
         });
 
   let reader: RowReader | null = null;
-  let out: ReadEvent[] = [];
+  const out = sink;
   try {
     for await (const batch of records) {
       for (const record of batch) {
         if (reader === null) {
           if (isBlankRecord(record.cells)) continue;
           if (record.cells.length > maxColumns) {
-            yield [fileProblem('too-many-columns', `The header row has ${record.cells.length} columns; the most this reader accepts is ${maxColumns}.`, record.row)];
+            sink.push(fileProblem('too-many-columns', `The header row has ${record.cells.length} columns; the most this reader accepts is ${maxColumns}.`, record.row));
+            yield;
             return;
           }
           const longCell = record.cells.findIndex((c) => c.length > maxCellChars);
           if (longCell !== -1) {
-            yield [fileProblem('cell-too-long', `Header cell ${longCell + 1} holds ${record.cells[longCell].length} characters; the most a cell may hold is ${maxCellChars}.`, record.row)];
+            sink.push(fileProblem('cell-too-long', `Header cell ${longCell + 1} holds ${record.cells[longCell].length} characters; the most a cell may hold is ${maxCellChars}.`, record.row));
+            yield;
             return;
           }
           const { layout, problems } = resolveColumnLayout(record.cells, record.row, kind === 'csv');
           if (layout === null) {
-            yield problems.map((p): ReadEvent => ({ type: 'problem', cell: null, problem: { ...p, file } }));
+            for (const p of problems) sink.push({ type: 'problem', cell: null, problem: { ...p, file } });
+            yield;
             return;
           }
-          reader = new RowReader(file, layout, decimalMark, kind === 'csv', options);
+          reader = new RowReader(file, layout, decimalMark, kind === 'csv', options, internKeys);
           if (layout.form === 'wide') reader.checkHeaderScales(record.row, out);
         } else if (!isBlankRecord(record.cells)) {
           reader.readRow(record, out);
           if (reader.fatal !== null) {
             out.push({ type: 'problem', cell: null, problem: reader.fatal });
-            yield out;
+            yield;
             return;
           }
         }
       }
       // xlsx hands over one row at a time: collect a few before handing them on.
-      if (out.length >= EVENTS_PER_BATCH) {
-        yield out;
-        out = [];
-      }
+      if (out.length >= eventsPerBatch) yield;
     }
-    if (out.length > 0) {
-      const last = out;
-      out = [];
-      yield last;
-    }
+    if (out.length > 0) yield;
   } catch (error) {
-    if (out.length > 0) yield out;
-    if (error instanceof SourceFailure) {
-      yield [fileProblem(error.code, error.message, error.row, error.column)];
-    } else {
-      yield [fileProblem('file-unreadable', UNEXPECTED_READ_FAILURE)];
-    }
+    // The events read before the fault come first, as a streaming parser would hand them over.
+    if (error instanceof SourceFailure) sink.push(fileProblem(error.code, error.message, error.row, error.column));
+    else sink.push(fileProblem('file-unreadable', UNEXPECTED_READ_FAILURE));
+    yield;
     return;
   } finally {
     await records.return(undefined);
   }
 
   if (reader === null) {
-    yield [fileProblem('file-empty', 'The file has no header row (it is blank); it needs a header row and at least one row of ratings.')];
+    sink.push(fileProblem('file-empty', 'The file has no header row (it is blank); it needs a header row and at least one row of ratings.'));
+    yield;
     return;
   }
   if (reader.nDataRows === 0) {
-    yield [fileProblem('file-empty', 'The file has a header row but no rows of ratings.', 2)];
+    sink.push(fileProblem('file-empty', 'The file has a header row but no rows of ratings.', 2));
+    yield;
     return;
   }
   if (reader.nMissing > 0) {
-    yield [{
+    sink.push({
       type: 'finding',
       finding: {
         code: 'missing-cells',
@@ -584,6 +629,7 @@ export async function* readRatingBatches(source: InputSource, options: ReadRatin
         column: null,
         message: `${reader.nMissing} empty cell${reader.nMissing === 1 ? ' was' : 's were'} read as missing ratings.`,
       },
-    }];
+    });
+    yield;
   }
 }

@@ -1,13 +1,12 @@
 /**
  * Worker-thread side of readInWorker (read-in-worker.ts): reads and validates one file with
- * readRatingBatches and posts the events as compact batches, transferring their typed arrays.
+ * readCompactBatches and posts the compact batches, transferring their typed arrays.
  * At most `maxInFlight` batches are unacknowledged at a time, so a slow consumer holds the
  * reading back instead of letting messages pile up (memory stays flat however large the file).
  */
 import { parentPort, workerData } from 'node:worker_threads';
 import type { ScaleRange } from '../domain/ratings.js';
-import { CompactEncoder } from './compact-batches.js';
-import { readRatingBatches, type ReadEvent } from './read-ratings.js';
+import { CompactBuilder, readCompactBatches, type CompactBatch } from './compact-batches.js';
 import type { ReadWorkerData, ReadWorkerMessage } from './read-in-worker.js';
 
 const data = workerData as ReadWorkerData;
@@ -29,28 +28,24 @@ async function main(): Promise<void> {
   const known = new Map<string, ScaleRange>(data.scales.known);
   const fallback = data.scales.fallback;
   const scaleFor = (attribute: string): ScaleRange | null => known.get(attribute) ?? fallback;
-  const encoder = new CompactEncoder();
   let posted = 0;
-  let pending: ReadEvent[] = [];
   /** Tests: fail once `failAfterBatches` batches are posted and taken, so the store has staged them. */
   const plannedFailure = async (): Promise<void> => {
     if (data.failAfterBatches === undefined || posted < data.failAfterBatches) return;
     while (acknowledged < posted) await new Promise<void>((resolve) => (wake = resolve));
     throw new Error('read worker: planned failure (test)');
   };
-  const send = async (): Promise<void> => {
+  const send = async (batch: CompactBatch): Promise<void> => {
     await plannedFailure();
-    const batch = encoder.encode(pending);
-    pending = [];
     while (posted - acknowledged >= data.maxInFlight) await new Promise<void>((resolve) => (wake = resolve));
     post({ type: 'batch', batch }, [batch.keys.buffer as ArrayBuffer, batch.values.buffer as ArrayBuffer]);
     posted++;
   };
-  for await (const events of readRatingBatches(data.source, { fileName: data.fileName, sheet: data.sheet, scaleFor })) {
-    for (let i = 0; i < events.length; i++) pending.push(events[i]);
-    if (pending.length >= data.eventsPerBatch) await send();
+  for await (const batch of readCompactBatches(data.source, { fileName: data.fileName, sheet: data.sheet, scaleFor }, data.eventsPerBatch)) {
+    await send(batch);
   }
-  if (pending.length > 0 || posted === 0) await send();
+  // The consumer expects at least one batch before 'done'.
+  if (posted === 0) await send(new CompactBuilder().take());
   await plannedFailure();
   post({ type: 'done' });
 }

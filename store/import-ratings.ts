@@ -14,9 +14,9 @@ import { stat } from 'node:fs/promises';
 import type { Database } from 'better-sqlite3';
 import type { InputProblem } from '../domain/problems.js';
 import type { ImportSource, ScaleRange } from '../domain/ratings.js';
-import { compactBatches } from '../ingest/compact-batches.js';
+import { readCompactBatches } from '../ingest/compact-batches.js';
 import { readerWorkerIsBuilt, readInWorker, type ScaleLookup, type WorkerReading } from '../ingest/read-in-worker.js';
-import { readRatingBatches, type InputSource } from '../ingest/read-ratings.js';
+import type { InputSource } from '../ingest/read-ratings.js';
 import {
   findEarlierImport,
   importRatingBatches,
@@ -140,6 +140,5 @@ async function hashCheckAndImport(db: Database, request: ImportRequest, stored: 
   if (earlier) return unchangedReport(db, eventsRequest, earlier);
   if (reading !== null) return importRatingBatches(db, eventsRequest, reading.batches);
   const scaleFor = (attribute: string): ScaleRange | null => stored.get(attribute) ?? scaleForNewAttribute(attribute, request.scale, request.settings) ?? null;
-  const events = readRatingBatches(request.input, { fileName: request.fileName, sheet: request.sheet, scaleFor });
-  return importRatingBatches(db, eventsRequest, compactBatches(events));
+  return importRatingBatches(db, eventsRequest, readCompactBatches(request.input, { fileName: request.fileName, sheet: request.sheet, scaleFor }));
 }
