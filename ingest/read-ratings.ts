@@ -143,6 +143,10 @@ function isBlankRecord(cells: readonly string[]): boolean {
  */
 function cellText(text: string | undefined, restoreFormulas: boolean): string {
   if (text === undefined) return '';
+  // Common case first: printable ASCII at both ends (nothing to trim) and no apostrophe prefix.
+  const first = text.charCodeAt(0);
+  const last = text.charCodeAt(text.length - 1);
+  if (first > 32 && first < 127 && first !== 39 && last > 32 && last < 127) return text;
   const trimmed = text.trim();
   if (!restoreFormulas || trimmed.charCodeAt(0) !== 39) return trimmed;
   return restoreFormulaText(trimmed).trim();
@@ -171,6 +175,7 @@ function parseCached<T>(cache: Map<string, T>, text: string, parse: (text: strin
 
 const KEY_ROLES = ['session', 'assessor', 'product', 'attribute'] as const;
 type KeyRole = (typeof KEY_ROLES)[number];
+const KEY_ROLE_INDEX: Record<KeyRole, number> = { session: 0, assessor: 1, product: 2, attribute: 3 };
 
 /** Row reader state for one file; created after the header row is resolved. */
 class RowReader {
@@ -196,6 +201,12 @@ class RowReader {
   private readonly lastKeyTexts: (string | null)[] = KEY_ROLES.map(() => null);
   /** False when the sink keeps no key strings (compact batches intern them to integers themselves). */
   private readonly internKeys: boolean;
+  /** Column of each key role (KEY_ROLES order); -1 when absent (attribute in wide form). */
+  private readonly keyColumns: number[];
+  private lastReplicateText = '';
+  private lastReplicate: CellResult<number> | null = null;
+  private lastScaleAttribute: string | null = null;
+  private lastScale: ScaleRange | null | 'unchecked' = null;
   private lastDateText = '';
   private lastDate: ReturnType<typeof parseSessionDate> | null = null;
   private readonly parseValue: (text: string) => CellResult<number>;
@@ -214,6 +225,7 @@ class RowReader {
     this.maxAttributes = options.maxColumns ?? DEFAULT_MAX_COLUMNS;
     this.scaleFor = options.scaleFor;
     this.nColumns = layout.headers.length;
+    this.keyColumns = KEY_ROLES.map((role) => layout.index[role] ?? -1);
     this.valueColumns =
       layout.form === 'long'
         ? [{ index: layout.index.value!, attribute: null }]
@@ -235,10 +247,11 @@ class RowReader {
   }
 
   private requiredText(cells: readonly string[], role: KeyRole, row: number, problems: InputProblem[]): string {
-    const column = this.layout.index[role]!;
-    const value = this.text(cells[column]);
+    const roleIndex = KEY_ROLE_INDEX[role];
+    const column = this.keyColumns[roleIndex];
+    const value = cellText(cells[column], this.csv);
     if (value === '') problems.push(this.problem('missing-value', row, this.layout.headers[column], `The ${role} is missing; every row needs one.`, ''));
-    return this.intern(value, KEY_ROLES.indexOf(role));
+    return this.intern(value, roleIndex);
   }
 
   /**
@@ -367,7 +380,12 @@ class RowReader {
     if (replicateText === '') {
       keyProblems.push(this.problem('missing-value', row, headers[ix.replicate!], 'The replicate is missing; replicates are numbered 1, 2, 3, …', ''));
     } else {
-      const parsed = parseCached(this.replicates, replicateText, parseReplicate);
+      // Consecutive rows mostly share the replicate: compare before hashing.
+      if (replicateText !== this.lastReplicateText || this.lastReplicate === null) {
+        this.lastReplicate = parseCached(this.replicates, replicateText, parseReplicate);
+        this.lastReplicateText = replicateText;
+      }
+      const parsed = this.lastReplicate;
       if (parsed.ok) replicate = parsed.value;
       else keyProblems.push(this.problem(parsed.code, row, headers[ix.replicate!], parsed.message, replicateText));
     }
@@ -395,7 +413,15 @@ class RowReader {
         }
         continue;
       }
-      const scale = column.attribute === null ? this.scaleOf(attribute, row, headers[ix.attribute!], out) : this.scales.get(attribute)!;
+      let scale: ScaleRange | null | 'unchecked';
+      if (column.attribute !== null) scale = this.scales.get(attribute)!;
+      else if (attribute === this.lastScaleAttribute) scale = this.lastScale;
+      else {
+        // Long form: consecutive rows often share the attribute; compare before hashing.
+        scale = this.scaleOf(attribute, row, headers[ix.attribute!], out);
+        this.lastScaleAttribute = attribute;
+        this.lastScale = scale;
+      }
       const parsed = parseCached(this.values, text, this.parseValue);
       if (!parsed.ok) {
         const cell = this.rawCell(session, dateText, assessor, product, replicateText, attribute, text, code);
