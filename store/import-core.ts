@@ -78,8 +78,8 @@ export interface ImportEventsRequest {
 
 export type ImportPhase = 'writing' | 'committed';
 
-/** Rows per multi-row INSERT into the staging table (2,304 parameters, under SQLite's 32,766). */
-const STAGE_CHUNK_ROWS = 256;
+/** Rows per multi-row INSERT into the staging table (9,216 parameters, under SQLite's 32,766); 1,024 was measured a little faster than 256 for 10⁶ ratings. */
+const STAGE_CHUNK_ROWS = 1024;
 /** Parameters per staged row. */
 const STAGE_FIELDS = 9;
 /** Findings of one kind listed in the report (the total is in the message). */
@@ -345,15 +345,26 @@ export async function importRatingBatches(
       const date = dates.names[keys[k + F_DATE]];
       insertHeld.run(row, columns.names[column], session, date, assessor, product, String(key[4]), attribute, String(value), laterCode, 'conflicting-duplicate', reason);
     };
+    /** Multi-row INSERTs for chunks shorter than STAGE_CHUNK_ROWS, by power-of-two row count (prepared on first use). */
+    const insertStageRows = new Map<number, ReturnType<Database['prepare']>>([[1, insertStage], [STAGE_CHUNK_ROWS, insertStageChunk]]);
+    const stageRows = (first: number, nRows: number): void => {
+      let insert = insertStageRows.get(nRows);
+      if (insert === undefined) {
+        insert = db.prepare(`INSERT INTO ${stage} ${STAGE_COLUMNS} VALUES ${Array(nRows).fill('(?, ?, ?, ?, ?, ?, ?, ?, ?)').join(', ')} ON CONFLICT DO NOTHING`);
+        insertStageRows.set(nRows, insert);
+      }
+      const args = nRows === STAGE_CHUNK_ROWS ? chunkArgs : chunkArgs.slice(first * STAGE_FIELDS, (first + nRows) * STAGE_FIELDS);
+      // Fast path: every row new. Otherwise look at each row (rare: duplicates).
+      if (insert.run(args).changes === nRows) counts.ratings += nRows;
+      else for (let i = first; i < first + nRows; i++) settle(chunkBatch!, chunkFirst + i);
+    };
     const stageChunk = (): void => {
-      if (chunkRows === STAGE_CHUNK_ROWS) {
-        // Fast path: every row new. Otherwise look at each row of the chunk (rare: duplicates).
-        if (insertStageChunk.run(chunkArgs).changes === STAGE_CHUNK_ROWS) counts.ratings += STAGE_CHUNK_ROWS;
-        else for (let i = 0; i < chunkRows; i++) settle(chunkBatch!, chunkFirst + i);
-      } else {
-        for (let i = 0; i < chunkRows; i++) {
-          if (insertStage.run(chunkArgs.slice(i * STAGE_FIELDS, (i + 1) * STAGE_FIELDS)).changes === 1) counts.ratings += 1;
-          else settle(chunkBatch!, chunkFirst + i);
+      // A short chunk (the end of a batch) goes in as a few power-of-two pieces, not row by row.
+      let done = 0;
+      for (let size = STAGE_CHUNK_ROWS; size >= 1; size >>= 1) {
+        if (chunkRows - done >= size) {
+          stageRows(done, size);
+          done += size;
         }
       }
       chunkRows = 0;
