@@ -46,6 +46,35 @@ describe('importRatingEvents', () => {
   });
 });
 
+describe('staging in multi-row pieces', () => {
+  // 1,501 ratings: one chunk of 1,024 rows, then the rest in pieces of 256, 128, 64, 16, 8, 4 and 1 rows.
+  const lines = (): string[] => {
+    const out: string[] = [];
+    for (let a = 1; a <= 15; a++) for (let p = 1; p <= 10; p++) for (let t = 1; t <= 10; t++) out.push(`S1,2026-01-05,A${a},P${p},1,att${t},${(a + p + t) % 10}`);
+    return out;
+  };
+
+  it('an exact duplicate inside a short piece is counted once and named', async () => {
+    const file = lines();
+    file.splice(1300, 0, file[100]); // row 1302 repeats row 102
+    const report = await run(file);
+    expect(report.outcome).toBe('imported');
+    expect(report.counts.ratings).toBe(1500);
+    expect(report.findings.map((f) => [f.code, f.row])).toEqual([['duplicate-row', 1302]]);
+    expect(db.prepare('SELECT count(*) AS n FROM rating').get()).toEqual({ n: 1500 });
+  });
+
+  it('a conflicting duplicate inside a short piece rejects the file, naming both rows', async () => {
+    const file = lines();
+    file.splice(1450, 0, file[7].replace(/,\d$/, ',9.5')); // row 1452 contradicts row 9
+    const report = await run(file);
+    expect(report.outcome).toBe('rejected');
+    expect(report.errors.map((e) => [e.code, e.row])).toEqual([['conflicting-duplicate', 1452]]);
+    expect(report.errors[0].message).toContain('row 9');
+    expect(db.prepare('SELECT count(*) AS n FROM rating').get()).toEqual({ n: 0 });
+  });
+});
+
 describe('sessions already stored', () => {
   it('leaves an identical session alone, replaces a changed one and keeps the old values', async () => {
     const first = await run(['S1,2026-01-05,A1,P1,1,sweet,5', 'S1,2026-01-05,A1,P2,1,sweet,6', 'S2,2026-01-12,A1,P1,1,sweet,4']);
