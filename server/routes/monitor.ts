@@ -21,7 +21,7 @@ import { cochranQ, productRankConcordance } from '../../analysis/monitor/stabili
 import { productEffectSeriesOf } from '../../analysis/flags/product-flags.js';
 import { loadPeriodFits } from '../../store/fits-results.js';
 import type { StoredPeriodResult } from '../refit.js';
-import { listSessionVersions } from '../../store/fits-sessions.js';
+import { listAssessorCodes, listSessionVersions } from '../../store/fits-sessions.js';
 import { getFlag, listCurrentFlagObjects, listFlags, reviewFlag } from '../../store/monitor-flags.js';
 import { addPanelEvent, addRetraining, deletePanelEvent, listPanelEvents, listRetraining, PANEL_EVENT_KINDS, updateRetraining, type PanelEventKind } from '../../store/monitor-events.js';
 import { getRefitJob, failInterruptedRefitJobs, latestRefitJob } from '../../store/monitor-jobs.js';
@@ -366,7 +366,8 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
       panel: panel.name,
       events: listPanelEvents(db, panel.id),
       sessions: ctx.history.sessions.map((s) => s.label),
-      assessors: ctx.assessors,
+      // From the store, not the fitted indices: events can be marked before the first refit.
+      assessors: listAssessorCodes(db, panel.id),
       minReferenceSessions: ctx.thresholds.charts.minBaselineSessions,
     });
   });

@@ -117,6 +117,20 @@ describe('reference period for chart baselines', () => {
   }, 180_000);
 });
 
+describe('events form before the first refit', () => {
+  it('offers the stored assessors even when no indices have been fitted yet', async () => {
+    const fresh = await makeTestApp();
+    try {
+      const small = smallPanel({ nWeeks: 3, nAssessors: 4 });
+      await importRatings(fresh.db, small);
+      const json = (await fresh.app.inject({ url: `/panels/${encodeURIComponent(small.panelName)}/monitor/events.json` })).json();
+      expect(json.assessorOptions).toEqual(['A01', 'A02', 'A03', 'A04']);
+    } finally {
+      await fresh.close();
+    }
+  });
+});
+
 describe('migration 0003 (reference-period events)', () => {
   it('keeps the events of a store made before it, with their ids, and checks the end session', () => {
     const folder = mkdtempSync(join(tmpdir(), 'ps-mig-'));
