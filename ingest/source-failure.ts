@@ -12,6 +12,8 @@ export class SourceFailure extends Error {
     /** Spreadsheet row (header = 1) when known. */
     readonly row: number | null = null,
     readonly column: string | null = null,
+    /** The reader stopped making progress (a timeout), rather than finding the bytes invalid. */
+    readonly stalled = false,
   ) {
     super(message);
     this.name = 'SourceFailure';

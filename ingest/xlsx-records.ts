@@ -21,7 +21,7 @@ async function nextOrStall<T>(iterator: AsyncIterator<T>, progress: { at: number
   const stalled = new Promise<never>((_, reject) => {
     const check = (): void => {
       const idleMs = Date.now() - progress.at;
-      if (idleMs >= stallTimeoutMs) reject(new SourceFailure('file-unreadable', UNREADABLE_WORKBOOK));
+      if (idleMs >= stallTimeoutMs) reject(new SourceFailure('file-unreadable', UNREADABLE_WORKBOOK, null, null, true));
       else timer = setTimeout(check, stallTimeoutMs - idleMs);
     };
     timer = setTimeout(check, stallTimeoutMs);
@@ -31,6 +31,36 @@ async function nextOrStall<T>(iterator: AsyncIterator<T>, progress: { at: number
   } finally {
     clearTimeout(timer);
   }
+}
+
+/**
+ * Records of a re-readable source, read again once if the first reading stalls. exceljs's
+ * streaming reader can hang at random on a valid workbook (a race in its stream iteration,
+ * upstream exceljs issue #1558), which the stall timeout would otherwise report as a damaged
+ * file; a damaged file stalls again and is reported then. Batches already handed on are not
+ * repeated: the second reading skips them, checking that their row numbers match.
+ */
+export async function* withOneRetryOnStall(open: () => AsyncGenerator<SourceRecord[]>): AsyncGenerator<SourceRecord[]> {
+  const handedOn: number[] = [];
+  try {
+    for await (const batch of open()) {
+      handedOn.push(batch.length > 0 ? batch[0].row : -1);
+      yield batch;
+    }
+    return;
+  } catch (error) {
+    if (!(error instanceof SourceFailure && error.stalled)) throw error;
+  }
+  let index = 0;
+  for await (const batch of open()) {
+    if (index < handedOn.length) {
+      if ((batch.length > 0 ? batch[0].row : -1) !== handedOn[index]) throw new SourceFailure('file-unreadable', UNREADABLE_WORKBOOK);
+      index += 1;
+      continue;
+    }
+    yield batch;
+  }
+  if (index < handedOn.length) throw new SourceFailure('file-unreadable', UNREADABLE_WORKBOOK);
 }
 
 function pad2(n: number): string {
