@@ -6,28 +6,7 @@
  * after adding one session. Run: `npx tsx bench/flags-bench.ts`.
  */
 import { buildFlags } from '../analysis/flags/index.js';
-import type { PanelHistory } from '../analysis/monitor/series.js';
-import { syntheticHistory } from '../test/analysis/flags/helpers/synthetic-history.js';
-import { syntheticRatings } from '../test/analysis/flags/helpers/synthetic-ratings.js';
-
-function yearHistory(nSessions: number, ratingSeed = 9000): PanelHistory {
-  const history = syntheticHistory({
-    seed: 2026,
-    nSessions,
-    nAssessors: 12,
-    nAttributes: 10,
-    faults: [
-      { kind: 'lenient', assessor: 'A03', size: 1.3 },
-      { kind: 'drift', assessor: 'A07', fromSession: 26, size: 0.08 },
-      { kind: 'inconsistent', assessor: 'A10' },
-      { kind: 'unstable-product', product: 'T01', attributes: ['attr2'], fromSession: 26 },
-    ],
-  });
-  history.ratings = history.sessions.flatMap((s, i) =>
-    syntheticRatings({ seed: ratingSeed + i, session: s.label, date: s.date, nAssessors: 12, nAttributes: 10, products: ['REF', 'T01', 'T02', 'T03', 'T04'], nReplicates: 2 }),
-  );
-  return history;
-}
+import { syntheticYear as yearHistory } from '../test/analysis/flags/helpers/equality-histories.js';
 
 const time = (f: () => unknown): number => {
   const start = performance.now();

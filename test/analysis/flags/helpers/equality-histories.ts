@@ -10,7 +10,8 @@ import type { PanelHistory } from '../../../../analysis/monitor/series.js';
 import { syntheticHistory } from './synthetic-history.js';
 import { syntheticRatings } from './synthetic-ratings.js';
 
-export function equalityYear(nSessions = 52): PanelHistory {
+/** The synthetic year of bench/flags-bench.ts: indices with planted faults, plus seeded ratings. */
+export function syntheticYear(nSessions = 52, ratingSeed = 9000): PanelHistory {
   const history = syntheticHistory({
     seed: 2026,
     nSessions,
@@ -24,12 +25,17 @@ export function equalityYear(nSessions = 52): PanelHistory {
     ],
   });
   history.ratings = history.sessions.flatMap((s, i) =>
-    syntheticRatings({ seed: 9000 + i, session: s.label, date: s.date, nAssessors: 12, nAttributes: 10, products: ['REF', 'T01', 'T02', 'T03', 'T04'], nReplicates: 2 }),
+    syntheticRatings({ seed: ratingSeed + i, session: s.label, date: s.date, nAssessors: 12, nAttributes: 10, products: ['REF', 'T01', 'T02', 'T03', 'T04'], nReplicates: 2 }),
   );
+  return history;
+}
+
+export function equalityYear(nSessions = 52): PanelHistory {
+  const history = syntheticYear(nSessions);
   // Data-quality faults for the per-session checks: a straight-lined block and missing cells.
   const straight = history.sessions[50].label;
   const gappy = history.sessions[40].label;
-  history.ratings = history.ratings
+  history.ratings = history.ratings!
     .filter((r) => !(r.session === gappy && r.assessor === 'A05' && r.product !== 'REF'))
     .map((r) => (r.session === straight && r.assessor === 'A08' && (r.attribute === 'attr1' || r.attribute === 'attr2') ? { ...r, value: 5 } : r));
   return history;
