@@ -124,6 +124,42 @@ export interface PackedRatings {
   value: Float64Array;
 }
 
+/**
+ * Empty packed columns for `n` ratings over the given name lists, with a writer that stores a
+ * sample code (numbered in order of first appearance; null → -1).
+ */
+export function allocatePackedRatings(
+  names: Pick<PackedRatings, 'sessions' | 'assessors' | 'products' | 'attributes'>,
+  n: number,
+): { packed: PackedRatings; setCode: (i: number, code: string | null) => void } {
+  const packed: PackedRatings = {
+    ...names,
+    codes: [],
+    sessionIndex: new Int32Array(n),
+    assessorIndex: new Int32Array(n),
+    productIndex: new Int32Array(n),
+    attributeIndex: new Int32Array(n),
+    codeIndex: new Int32Array(n),
+    replicate: new Int32Array(n),
+    value: new Float64Array(n),
+  };
+  const codeOf = new Map<string, number>();
+  const setCode = (i: number, code: string | null): void => {
+    if (code === null) {
+      packed.codeIndex[i] = -1;
+      return;
+    }
+    let c = codeOf.get(code);
+    if (c === undefined) {
+      c = packed.codes.length;
+      codeOf.set(code, c);
+      packed.codes.push(code);
+    }
+    packed.codeIndex[i] = c;
+  };
+  return { packed, setCode };
+}
+
 export function loadPackedRatings(db: Database, panelId: number): PackedRatings {
   const table = (sql: string) => {
     const rows = db.prepare(sql).raw().all(panelId) as [number, string][];
@@ -146,21 +182,10 @@ export function loadPackedRatings(db: Database, panelId: number): PackedRatings 
     .raw()
     .all(panelId) as [number, number, number, number, number, number, string | null][];
   const n = rows.length;
-  const packed: PackedRatings = {
-    sessions: sessionRows.map(([, label, date]) => ({ label, date })),
-    assessors: assessors.names,
-    products: products.names,
-    attributes: attributes.names,
-    codes: [],
-    sessionIndex: new Int32Array(n),
-    assessorIndex: new Int32Array(n),
-    productIndex: new Int32Array(n),
-    attributeIndex: new Int32Array(n),
-    codeIndex: new Int32Array(n),
-    replicate: new Int32Array(n),
-    value: new Float64Array(n),
-  };
-  const codeOf = new Map<string, number>();
+  const { packed, setCode } = allocatePackedRatings(
+    { sessions: sessionRows.map(([, label, date]) => ({ label, date })), assessors: assessors.names, products: products.names, attributes: attributes.names },
+    n,
+  );
   for (let i = 0; i < n; i++) {
     const [sessionId, assessorId, productId, attributeId, replicate, value, code] = rows[i];
     packed.sessionIndex[i] = sessionOf.get(sessionId)!;
@@ -169,16 +194,7 @@ export function loadPackedRatings(db: Database, panelId: number): PackedRatings 
     packed.attributeIndex[i] = attributes.ids.get(attributeId)!;
     packed.replicate[i] = replicate;
     packed.value[i] = value;
-    if (code === null) packed.codeIndex[i] = -1;
-    else {
-      let c = codeOf.get(code);
-      if (c === undefined) {
-        c = packed.codes.length;
-        codeOf.set(code, c);
-        packed.codes.push(code);
-      }
-      packed.codeIndex[i] = c;
-    }
+    setCode(i, code);
   }
   return packed;
 }

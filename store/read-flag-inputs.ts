@@ -19,7 +19,7 @@ import type { FitJson } from '../domain/analysis.js';
 import type { AssessorSessionIndices } from '../analysis/indices/types.js';
 import type { ImportFinding, PanelHistory, PeriodFitSummary, SessionAttributeResult } from '../analysis/monitor/series.js';
 import { loadPeriodFits } from './fits-results.js';
-import { listAttributes, listProducts, listSessionVersions, loadCurrentFindings, type PackedRatings } from './fits-sessions.js';
+import { listAttributes, listProducts, listSessionVersions, allocatePackedRatings, loadCurrentFindings, type PackedRatings } from './fits-sessions.js';
 import { listPanelEvents } from './monitor-events.js';
 
 export interface FlagInputs {
@@ -232,21 +232,10 @@ function packedRatings(db: Database, panelId: number, cache: PanelCache): Packed
     order.set(Array.from(order).sort((a, b) => idAt(a) - idAt(b)));
   }
 
-  const packed: PackedRatings = {
-    sessions: sessionRows.map(([, label, date]) => ({ label, date })),
-    assessors: assessors.names,
-    products: products.names,
-    attributes: attributes.names,
-    codes: [],
-    sessionIndex: new Int32Array(n),
-    assessorIndex: new Int32Array(n),
-    productIndex: new Int32Array(n),
-    attributeIndex: new Int32Array(n),
-    codeIndex: new Int32Array(n),
-    replicate: new Int32Array(n),
-    value: new Float64Array(n),
-  };
-  const codeOf = new Map<string, number>();
+  const { packed, setCode } = allocatePackedRatings(
+    { sessions: sessionRows.map(([, label, date]) => ({ label, date })), assessors: assessors.names, products: products.names, attributes: attributes.names },
+    n,
+  );
   for (let i = 0; i < n; i++) {
     const k = order[i];
     const part = parts[partOf[k]];
@@ -258,17 +247,7 @@ function packedRatings(db: Database, panelId: number, cache: PanelCache): Packed
     packed.attributeIndex[i] = attributes.indexOf[columns.attributeId[row]];
     packed.replicate[i] = columns.replicate[row];
     packed.value[i] = columns.value[row];
-    const code = columns.code[row];
-    if (code === null) packed.codeIndex[i] = -1;
-    else {
-      let c = codeOf.get(code);
-      if (c === undefined) {
-        c = packed.codes.length;
-        codeOf.set(code, c);
-        packed.codes.push(code);
-      }
-      packed.codeIndex[i] = c;
-    }
+    setCode(i, columns.code[row]);
   }
   return packed;
 }
