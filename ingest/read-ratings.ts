@@ -35,7 +35,7 @@ import { detectFileKind } from './file-kind.js';
 import { resolveColumnLayout, truncateText, type ColumnLayout } from './headers.js';
 import { SourceFailure } from './source-failure.js';
 import { restoreFormulaText } from './spreadsheet-safe.js';
-import { readXlsxRecords, withOneRetryOnStall } from './xlsx-records.js';
+import { readXlsxRecords, withOneRetryOnTransientFailure } from './xlsx-records.js';
 
 export { detectFileKind, type FileKind } from './file-kind.js';
 
@@ -578,7 +578,7 @@ export async function* readIntoSink(
   let decimalMark: DecimalMark = '.';
   const records: AsyncGenerator<SourceRecord[]> =
     kind === 'xlsx'
-      ? withOneRetryOnStall(() => readXlsxRecords(byteStream(source), { sheet: options.sheet, stallTimeoutMs: options.stallTimeoutMs ?? DEFAULT_STALL_TIMEOUT_MS }))
+      ? withOneRetryOnTransientFailure(() => readXlsxRecords(byteStream(source), { sheet: options.sheet, stallTimeoutMs: options.stallTimeoutMs ?? DEFAULT_STALL_TIMEOUT_MS }))
       : readCsvRecords('bytes' in source ? sliceBytes(source.bytes) : byteStream(source), {
           // A row may hold every column at full cell length; beyond that it is a broken quote.
           maxRecordChars: maxCellChars * Math.min(maxColumns + 1, 2001) + maxColumns,

@@ -12,8 +12,12 @@ export class SourceFailure extends Error {
     /** Spreadsheet row (header = 1) when known. */
     readonly row: number | null = null,
     readonly column: string | null = null,
-    /** The reader stopped making progress (a timeout), rather than finding the bytes invalid. */
-    readonly stalled = false,
+    /**
+     * The failure may not repeat on a second reading of the same bytes: the reader stopped
+     * making progress (a timeout) or the workbook library threw from inside itself, rather
+     * than our own checks finding the bytes invalid.
+     */
+    readonly transient = false,
   ) {
     super(message);
     this.name = 'SourceFailure';

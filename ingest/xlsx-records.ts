@@ -34,13 +34,16 @@ async function nextOrStall<T>(iterator: AsyncIterator<T>, progress: { at: number
 }
 
 /**
- * Records of a re-readable source, read again once if the first reading stalls. exceljs's
- * streaming reader can hang at random on a valid workbook (a race in its stream iteration,
- * upstream exceljs issue #1558), which the stall timeout would otherwise report as a damaged
- * file; a damaged file stalls again and is reported then. Batches already handed on are not
- * repeated: the second reading skips them, checking that their row numbers match.
+ * Records of a re-readable source, read again once if the first reading fails in a way that may
+ * not repeat. exceljs's streaming reader fails at random on valid workbooks: it can hang (a
+ * race in its stream iteration, upstream exceljs issue #1558), which the stall timeout turns
+ * into a failure, and about one reading in several hundred throws from inside the library
+ * (`Cannot read properties of undefined (reading 'sheets')` when workbook.xml's model is not
+ * ready as the deferred worksheet is parsed). A damaged file fails again and is reported
+ * then. Batches already handed on are not repeated: the second reading skips them, checking
+ * that their row numbers match.
  */
-export async function* withOneRetryOnStall(open: () => AsyncGenerator<SourceRecord[]>): AsyncGenerator<SourceRecord[]> {
+export async function* withOneRetryOnTransientFailure(open: () => AsyncGenerator<SourceRecord[]>): AsyncGenerator<SourceRecord[]> {
   const handedOn: number[] = [];
   try {
     for await (const batch of open()) {
@@ -49,7 +52,7 @@ export async function* withOneRetryOnStall(open: () => AsyncGenerator<SourceReco
     }
     return;
   } catch (error) {
-    if (!(error instanceof SourceFailure && error.stalled)) throw error;
+    if (!(error instanceof SourceFailure && error.transient)) throw error;
   }
   let index = 0;
   for await (const batch of open()) {
@@ -153,7 +156,8 @@ export async function* readXlsxRecords(input: Readable, options: XlsxRecordOptio
     }
   } catch (error) {
     if (error instanceof SourceFailure) throw error;
-    throw new SourceFailure('file-unreadable', UNREADABLE_WORKBOOK);
+    // An exception from inside exceljs: a damaged workbook, or the library's own race.
+    throw new SourceFailure('file-unreadable', UNREADABLE_WORKBOOK, null, null, true);
   } finally {
     input.destroy();
     counted.destroy();
