@@ -14,7 +14,6 @@ import {
   listProducts,
   listSessionVersions,
   listStaleSessions,
-  loadCurrentFindings,
   loadPackedRatings,
   loadSessionRatings,
   unpackRatings,
@@ -34,12 +33,13 @@ import {
 } from '../store/fits-results.js';
 import { closeFlagsByKey, loadFlagBuild, replaceCurrentFlags } from '../store/monitor-flags.js';
 import { loadFlagInputs } from '../store/read-flag-inputs.js';
+import { assemblePanelHistory } from '../store/panel-history.js';
 import { listPanelEvents, listRetraining, updateRetraining } from '../store/monitor-events.js';
 import { loadPanelThresholds } from '../store/monitor-settings.js';
 import { createRefitJob, getRefitJob, markRefitJob, type RefitJob } from '../store/monitor-jobs.js';
 import { relativeSdsFromVariances } from '../analysis/lmm/fit-period-model.js';
 import type { FitRunner } from './fit-pool.js';
-import type { ImportFinding, PanelHistory, PeriodFitSummary, SessionAttributeResult } from '../analysis/monitor/series.js';
+import type { PanelHistory } from '../analysis/monitor/series.js';
 import type { PeriodFitResult, PeriodTask, RatedObservation, RetrainingToEvaluate } from './workers/fit-task-types.js';
 
 /** Recorded with every stored result; bump when a change in analysis/ changes stored numbers. */
@@ -319,54 +319,12 @@ export function buildPanelHistory(
   panelId: number,
   options: { windowSessions?: number; withRatings?: boolean } = {},
 ): PanelHistory {
-  const windowSessions = options.windowSessions ?? DEFAULT_WINDOW_SESSIONS;
-  const sessions = listSessionVersions(db, panelId);
-  const attributes = listAttributes(db, panelId);
-  const scaleOf = new Map(attributes.map((a) => [a.name, a.scale]));
-  const indicesBy = new Map<string, SessionAttributeResult['indices']>();
-  for (const row of loadSessionIndices(db, panelId)) {
-    const key = `${row.session}\u0000${row.attribute}`;
-    let list = indicesBy.get(key);
-    if (!list) indicesBy.set(key, (list = []));
-    list.push(row);
-  }
-  const results: SessionAttributeResult[] = loadSessionFits(db, panelId).map((f) => {
-    const scale = scaleOf.get(f.attribute)!;
-    return {
-      session: f.session,
-      date: f.sessionDate,
-      attribute: f.attribute,
-      scaleMin: scale.min,
-      scaleMax: scale.max,
-      fit: f.fit,
-      indices: indicesBy.get(`${f.session}\u0000${f.attribute}`) ?? [],
-      productTestP: f.fit.productTest?.p ?? null,
-    };
-  });
-  const periodFits: PeriodFitSummary[] = [];
-  for (const p of loadPeriodFits(db, panelId)) {
-    if (p.windowSessions !== windowSessions) continue;
-    const result = p.result as StoredPeriodResult;
-    if ('problem' in result) continue;
-    periodFits.push({
-      attribute: p.attribute,
-      sessions: p.sessions.map(([label]) => label),
-      productSessionVariance: result.json.variance['product:session'] ?? 0,
-      lrt: result.lrt,
-    });
-  }
-  return {
-    sessions: sessions.map((s) => ({ label: s.label, date: s.date })),
-    attributes: attributes.map((a) => ({ name: a.name, scaleMin: a.scale.min, scaleMax: a.scale.max })),
-    referenceProducts: listProducts(db, panelId)
-      .filter((p) => p.role === 'reference')
-      .map((p) => p.code),
-    results,
+  return assemblePanelHistory(db, panelId, {
+    fits: loadSessionFits(db, panelId).map((f) => ({ session: f.session, date: f.sessionDate, attribute: f.attribute, fit: f.fit })),
+    indexLists: [loadSessionIndices(db, panelId)],
+    windowSessions: options.windowSessions ?? DEFAULT_WINDOW_SESSIONS,
     ratings: options.withRatings ? unpackRatings(loadPackedRatings(db, panelId)) : undefined,
-    importFindings: loadCurrentFindings(db, panelId) as ImportFinding[],
-    events: listPanelEvents(db, panelId),
-    periodFits,
-  };
+  });
 }
 
 /**

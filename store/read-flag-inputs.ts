@@ -1,7 +1,7 @@
 /**
  * What a flag build reads from the store, fast enough for the one-new-session refit (issue 4:
- * fits and flags updated in under 1 s): the panel history without ratings (as buildPanelHistory
- * in server/refit.ts gives it) and every rating of the panel packed in columns (as
+ * fits and flags updated in under 1 s): the panel history without ratings (assembled as
+ * buildPanelHistory in server/refit.ts assembles it, by store/panel-history.ts) and every rating of the panel packed in columns (as
  * loadPackedRatings gives them), identical to those two, in a fraction of their time:
  * - stored fit and index JSON is parsed once per distinct text: each call reads the texts
  *   (cheap) and parses only those that differ from the text parsed last time for that cell;
@@ -17,10 +17,9 @@
 import type { Database, Statement } from 'better-sqlite3';
 import type { FitJson } from '../domain/analysis.js';
 import type { AssessorSessionIndices } from '../analysis/indices/types.js';
-import type { ImportFinding, PanelHistory, PeriodFitSummary, SessionAttributeResult } from '../analysis/monitor/series.js';
-import { loadPeriodFits } from './fits-results.js';
-import { listAttributes, listProducts, listSessionVersions, allocatePackedRatings, loadCurrentFindings, type PackedRatings } from './fits-sessions.js';
-import { listPanelEvents } from './monitor-events.js';
+import type { PanelHistory } from '../analysis/monitor/series.js';
+import { allocatePackedRatings, type PackedRatings } from './fits-sessions.js';
+import { assemblePanelHistory } from './panel-history.js';
 
 export interface FlagInputs {
   /** As buildPanelHistory(db, panelId, { windowSessions }) (ratings undefined). */
@@ -28,9 +27,6 @@ export interface FlagInputs {
   /** As loadPackedRatings(db, panelId). */
   ratings: PackedRatings;
 }
-
-/** A stored period result as the refit writes it: the period task's result, or why there is none. */
-type StoredPeriodResult = { json: { variance: Record<string, number> }; lrt: PeriodFitSummary['lrt'] } | { problem: string };
 
 interface ParsedText<T> {
   text: string;
@@ -93,9 +89,6 @@ function parsedTexts<T>(previous: Map<string, ParsedText<T>>, rows: readonly [ke
 
 export function loadFlagInputs(db: Database, panelId: number, options: { windowSessions: number }): FlagInputs {
   const cache = panelCache(db, panelId);
-  const sessions = listSessionVersions(db, panelId);
-  const attributes = listAttributes(db, panelId);
-  const scaleOf = new Map(attributes.map((a) => [a.name, a.scale]));
 
   // Same rows and order as loadSessionFits / loadSessionIndices (store/fits-results.ts).
   const fitRows = statement(
@@ -119,56 +112,11 @@ export function loadFlagInputs(db: Database, panelId: number, options: { windowS
   cache.fits = fits.next;
   cache.indices = indices.next;
 
-  // Grouped by the session and attribute written in each row, as buildPanelHistory does.
-  const indicesBy = new Map<string, AssessorSessionIndices[]>();
-  for (const list of indices.values) {
-    for (const row of list) {
-      const key = `${row.session}\u0000${row.attribute}`;
-      let group = indicesBy.get(key);
-      if (!group) indicesBy.set(key, (group = []));
-      group.push(row);
-    }
-  }
-  const results: SessionAttributeResult[] = fitRows.map(([session, date, attribute], i) => {
-    const fit = fits.values[i];
-    const scale = scaleOf.get(attribute)!;
-    return {
-      session,
-      date,
-      attribute,
-      scaleMin: scale.min,
-      scaleMax: scale.max,
-      fit,
-      indices: indicesBy.get(`${session}\u0000${attribute}`) ?? [],
-      productTestP: fit.productTest?.p ?? null,
-    };
+  const history = assemblePanelHistory(db, panelId, {
+    fits: fitRows.map(([session, date, attribute], i) => ({ session, date, attribute, fit: fits.values[i] })),
+    indexLists: indices.values,
+    windowSessions: options.windowSessions,
   });
-
-  const periodFits: PeriodFitSummary[] = [];
-  for (const p of loadPeriodFits(db, panelId)) {
-    if (p.windowSessions !== options.windowSessions) continue;
-    const result = p.result as StoredPeriodResult;
-    if ('problem' in result) continue;
-    periodFits.push({
-      attribute: p.attribute,
-      sessions: p.sessions.map(([label]: [string, number]) => label),
-      productSessionVariance: result.json.variance['product:session'] ?? 0,
-      lrt: result.lrt,
-    });
-  }
-
-  const history: PanelHistory = {
-    sessions: sessions.map((s) => ({ label: s.label, date: s.date })),
-    attributes: attributes.map((a) => ({ name: a.name, scaleMin: a.scale.min, scaleMax: a.scale.max })),
-    referenceProducts: listProducts(db, panelId)
-      .filter((p) => p.role === 'reference')
-      .map((p) => p.code),
-    results,
-    ratings: undefined,
-    importFindings: loadCurrentFindings(db, panelId) as ImportFinding[],
-    events: listPanelEvents(db, panelId),
-    periodFits,
-  };
   return { history, ratings: packedRatings(db, panelId, cache) };
 }
 
