@@ -321,7 +321,7 @@ export function buildPanelHistory(
 ): PanelHistory {
   return assemblePanelHistory(db, panelId, {
     fits: loadSessionFits(db, panelId).map((f) => ({ session: f.session, date: f.sessionDate, attribute: f.attribute, fit: f.fit })),
-    indexLists: [loadSessionIndices(db, panelId)],
+    indices: loadSessionIndices(db, panelId),
     windowSessions: options.windowSessions ?? DEFAULT_WINDOW_SESSIONS,
     ratings: options.withRatings ? unpackRatings(loadPackedRatings(db, panelId)) : undefined,
   });

@@ -29,8 +29,8 @@ export function assemblePanelHistory(
   panelId: number,
   parts: {
     fits: readonly StoredFitOfHistory[];
-    /** Indices rows in any grouping; each row is placed by the session and attribute it names. */
-    indexLists: readonly (readonly AssessorSessionIndices[])[];
+    /** Indices rows in any order; each row is placed by the session and attribute it names. */
+    indices: readonly AssessorSessionIndices[];
     /** Period fits of this window length are summarised; other lengths are left out. */
     windowSessions: number;
     ratings?: Rating[];
@@ -40,13 +40,11 @@ export function assemblePanelHistory(
   const attributes = listAttributes(db, panelId);
   const scaleOf = new Map(attributes.map((a) => [a.name, a.scale]));
   const indicesBy = new Map<string, AssessorSessionIndices[]>();
-  for (const list of parts.indexLists) {
-    for (const row of list) {
-      const key = `${row.session}\u0000${row.attribute}`;
-      let group = indicesBy.get(key);
-      if (!group) indicesBy.set(key, (group = []));
-      group.push(row);
-    }
+  for (const row of parts.indices) {
+    const key = `${row.session}\u0000${row.attribute}`;
+    let group = indicesBy.get(key);
+    if (!group) indicesBy.set(key, (group = []));
+    group.push(row);
   }
   const results: SessionAttributeResult[] = parts.fits.map(({ session, date, attribute, fit }) => {
     const scale = scaleOf.get(attribute)!;

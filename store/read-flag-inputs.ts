@@ -1,8 +1,9 @@
 /**
  * What a flag build reads from the store, fast enough for the one-new-session refit (issue 4:
- * fits and flags updated in under 1 s): the panel history without ratings (assembled as
- * buildPanelHistory in server/refit.ts assembles it, by store/panel-history.ts) and every rating of the panel packed in columns (as
- * loadPackedRatings gives them), identical to those two, in a fraction of their time:
+ * fits and flags updated in under 1 s): the panel history without ratings (assembled by
+ * store/panel-history.ts, as buildPanelHistory in server/refit.ts assembles it) and every
+ * rating of the panel packed in columns (as loadPackedRatings gives them), identical to those
+ * two, in a fraction of their time:
  * - stored fit and index JSON is parsed once per distinct text: each call reads the texts
  *   (cheap) and parses only those that differ from the text parsed last time for that cell;
  * - ratings are read per session and kept between calls while the session is unchanged. A
@@ -114,7 +115,7 @@ export function loadFlagInputs(db: Database, panelId: number, options: { windowS
 
   const history = assemblePanelHistory(db, panelId, {
     fits: fitRows.map(([session, date, attribute], i) => ({ session, date, attribute, fit: fits.values[i] })),
-    indexLists: indices.values,
+    indices: indices.values.flat(),
     windowSessions: options.windowSessions,
   });
   return { history, ratings: packedRatings(db, panelId, cache) };
