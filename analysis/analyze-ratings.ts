@@ -24,10 +24,6 @@ export interface AnalyzeNote {
   message: string;
 }
 
-export function analyzeRatings(ratings: readonly Observation[], options: AnalyzeOptions): AnalyzeJson {
-  return analyzeRatingsWithNotes(ratings, options).json;
-}
-
 export function analyzeRatingsWithNotes(ratings: readonly Observation[], options: AnalyzeOptions): { json: AnalyzeJson; notes: AnalyzeNote[] } {
   const fits: FitJson[] = [];
   const assessorIndices: AssessorIndicesJson[] = [];
@@ -60,22 +56,18 @@ function tryFit(fit: () => FitJson, where: { session: string | null; attribute: 
 /** Groups in first-seen order; the lookup is nested so no key string is built per rating. */
 function groupBy(rows: readonly Observation[], period: boolean): Observation[][] {
   const groups: Observation[][] = [];
-  const byFirst = new Map<string, Map<string, Observation[]> | Observation[]>();
+  const byAttribute = new Map<string, Observation[]>(); // period: one group per attribute
+  const bySession = new Map<string, Map<string, Observation[]>>(); // else per session, then attribute
   for (const row of rows) {
-    if (period) {
-      let group = byFirst.get(row.attribute) as Observation[] | undefined;
-      if (!group) {
-        byFirst.set(row.attribute, (group = []));
-        groups.push(group);
-      }
-      group.push(row);
-      continue;
+    let within = byAttribute;
+    if (!period) {
+      let inSession = bySession.get(row.session);
+      if (!inSession) bySession.set(row.session, (inSession = new Map()));
+      within = inSession;
     }
-    let byAttribute = byFirst.get(row.session) as Map<string, Observation[]> | undefined;
-    if (!byAttribute) byFirst.set(row.session, (byAttribute = new Map()));
-    let group = byAttribute.get(row.attribute);
+    let group = within.get(row.attribute);
     if (!group) {
-      byAttribute.set(row.attribute, (group = []));
+      within.set(row.attribute, (group = []));
       groups.push(group);
     }
     group.push(row);
