@@ -2,7 +2,7 @@
  * Regularised incomplete beta I_x(a, b) to about 1e-15 relative accuracy.
  * jstat's own continued fraction stops at a 3e-7 tolerance and 100 terms, which limits
  * p-values to ~1e-7 relative and fails for large degrees of freedom, so the continued
- * fraction (modified Lentz; Press et al., Numerical Recipes, 3rd ed., §6.4) is evaluated here
+ * fraction (modified Lentz; Press et al., Numerical Recipes, 3rd ed., section 6.4) is evaluated here
  * to machine precision. log-gamma still comes from jstat (Lanczos, ~1e-15).
  */
 import jstatModule from 'jstat';

@@ -1,7 +1,7 @@
 /**
  * Regularised incomplete gamma functions P(a, x) and Q(a, x) to about 1e-15 relative accuracy:
  * series for x < a + 1, continued fraction (modified Lentz) otherwise (Press et al., Numerical
- * Recipes, 3rd ed., §6.2). jstat's version uses a fixed, short number of terms.
+ * Recipes, 3rd ed., section 6.2). jstat's version uses a fixed, short number of terms.
  */
 import jstatModule from 'jstat';
 

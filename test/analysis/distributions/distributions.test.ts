@@ -41,7 +41,7 @@ const F_TABLE: Array<[number, number, number, number]> = [
   [10, 10, 0.1, 2.323], [10, 10, 0.05, 2.978], [10, 10, 0.01, 4.849],
 ];
 
-describe('quantiles against the NIST/SEMATECH e-Handbook tables (2012, §1.3.6.7)', () => {
+describe('quantiles against the NIST/SEMATECH e-Handbook tables (2012, section 1.3.6.7)', () => {
   it.each(T_TABLE)('t quantile df=%d, level %d', (df, level, printed) => {
     expect(Math.abs(tQuantile(level, df) - printed)).toBeLessThanOrEqual(0.0005 + 1e-12);
   });
