@@ -1,5 +1,5 @@
 /**
- * The `analyze` contract (issue 3, part 5): ratings → { fits, assessorIndices }.
+ * The `analyze` JSON contract (domain/analysis.ts): ratings → { fits, assessorIndices }.
  * Without `period`: one session model per (session, attribute) and the classic indices of every
  * assessor in it. With `period`: one period model per attribute over all sessions, no indices.
  * Groups keep first-seen order. Data a model cannot be fitted to (one assessor, constant

@@ -1,5 +1,5 @@
 /**
- * Model-fitting benchmark (issue 3, "Speed"): panel-steward's mixed-model engine against
+ * Model-fitting benchmark: panel-steward's mixed-model engine against
  * lme4 + lmerTest, whole process against whole process, on the same simulated CSV.
  *
  *   npm run build && npx tsx bench/fit-bench.ts [--reps N] [--r-year-reps N] [--skip-r] [--tasks year,session,…]

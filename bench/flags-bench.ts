@@ -1,5 +1,5 @@
 /**
- * Speed of the flag engine (issue 4: a year of 52 sessions × 10 attributes × 12 assessors, flags
+ * Speed of the flag engine (goal: a year of 52 sessions × 10 attributes × 12 assessors, flags
  * in well under a second). History: seeded synthetic indices (test/analysis/flags/helpers) plus
  * 62 400 seeded ratings for the data-quality checks. Reports the first call in a fresh process
  * (includes sizing the chart limits, memoised afterwards), the median of warm calls, and the call

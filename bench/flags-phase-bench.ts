@@ -1,5 +1,5 @@
 /**
- * Flags phase of the one-new-session refit (issue 4, "Done when": one new session updates fits and
+ * Flags phase of the one-new-session refit (goal: one new session updates fits and
  * flags in under 1 s). Same data and pipeline as bench/refit-bench.ts (demo generator, seed 2026,
  * 12 assessors, 10 attributes; piscina pool; period tasks answered "not fitted" so that only the
  * work besides the period fits is timed), but the last session is imported again and again: odd

@@ -1,5 +1,5 @@
 /**
- * Period-fit CPU per demo window (issue 4 "Done when", the period-fit part of the refit): the
+ * Period-fit CPU per demo window (the period-fit part of the refit): the
  * demo year (seed 2026), windows 1–12, 13–24, 25–36, 37–48, 41–52 (and 40–51) × 10 attributes,
  * `fitPeriodModel` with the product:session LRT, CPU time per fit, evaluations and iterations.
  * `--json FILE` writes every fit's estimates for comparing two builds. `--warm` also fits the

@@ -1,5 +1,5 @@
 /**
- * Refit benchmark (issue 4, "Done when"): a year of a panel — 52 weekly sessions × 10 attributes,
+ * Refit benchmark: a year of a panel — 52 weekly sessions × 10 attributes,
  * 12 assessors (demo generator: 5 products per session, 2 replicates) — refitted from scratch
  * (goal < 5 s), then one new session added and the fits and flags brought up to date (goal < 1 s).
  * Runs the real pipeline: store import, piscina worker pool, session fits, indices, period fits,

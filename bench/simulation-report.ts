@@ -1,5 +1,5 @@
 /**
- * Flag detection on simulated panels (issue 4, "Done when"): runs the suite of
+ * Flag detection on simulated panels: runs the suite of
  * test/simulation/scenarios.ts through the real pipeline and writes the results table into the
  * "## Flag detection (simulation)" section of bench/README.md (replacing it, or appending it).
  * Run: `npx tsx bench/simulation-report.ts [--period-fits]` (a few minutes on two cores; with

@@ -1,5 +1,5 @@
 /**
- * The JSON contract of `panel-steward analyze --format json` (issue 3). Field names are a
+ * The JSON contract of `panel-steward analyze --format json`. Field names are a
  * contract with other tools: do not rename. Numbers at full precision; null where undefined.
  */
 

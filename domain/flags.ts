@@ -1,4 +1,4 @@
-/** The flag contract of `panel-steward flags --format json` and GET /api/panels/:panel/flags (issue 4). */
+/** The flag contract of `panel-steward flags --format json` and GET /api/panels/:panel/flags. */
 
 export const FLAG_KINDS = [
   'lenient',

@@ -19,7 +19,7 @@ export function monitorCrumbs(panel: string, here: string | null): Breadcrumb[] 
   return crumbs;
 }
 
-/** Shown on every monitor page (issue 4; DEVELOPERS.md): what a flag is and is not. */
+/** Shown on every monitor page (DEVELOPERS.md, conventions): what a flag is and is not. */
 export const REVIEW_NOTICE = [
   'Flags are evidence for review, not verdicts: each names the test, the numbers, n and the threshold, for the panel leader to weigh.',
   'No flag is not proof of good performance: it only means no test crossed its threshold with the data available (see the sample sizes).',

@@ -1,5 +1,5 @@
 /**
- * Refit orchestration (issue 4, "fits kept, not recomputed"). After an import, or on demand:
+ * Refit orchestration (fits are stored, not recomputed: docs/decisions/0007-fits-stored-not-recomputed.md). After an import, or on demand:
  * 1. sessions whose stored results are missing or older than the session's data version are
  *    fitted again (fits, per-assessor indices, data-quality findings), one worker task each;
  * 2. period fits of the windows (see periodWindows) whose sessions or versions changed are fitted again;
@@ -45,7 +45,7 @@ import type { PeriodFitResult, PeriodTask, RatedObservation, RetrainingToEvaluat
 /** Recorded with every stored result; bump when a change in analysis/ changes stored numbers. */
 export const ANALYSIS_VERSION = 'analysis-1';
 
-/** Default rolling window of the period model: the last 12 sessions (issue 4 §3). */
+/** Default rolling window of the period model: the last 12 sessions (about three months of weekly sessions). */
 export const DEFAULT_WINDOW_SESSIONS = 12;
 /** A period model needs at least 3 sessions (methods notes §2.8, `short_period`). */
 export const MIN_WINDOW_SESSIONS = 3;

@@ -1,5 +1,5 @@
 /**
- * What a flag build reads from the store, fast enough for the one-new-session refit (issue 4:
+ * What a flag build reads from the store, fast enough for the one-new-session refit (goal:
  * fits and flags updated in under 1 s): the panel history without ratings (assembled by
  * store/panel-history.ts, as buildPanelHistory in server/refit.ts assembles it) and every
  * rating of the panel packed in columns (as loadPackedRatings gives them), identical to those

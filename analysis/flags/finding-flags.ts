@@ -1,6 +1,6 @@
 /**
  * Import findings (duplicate rows, decimal shifts, out-of-scale values from quarantine, missing
- * cells) become flags (issue 4, item 4). Findings of one kind for one assessor in one session are
+ * cells) become flags, so data problems are reviewed with the rest. Findings of one kind for one assessor in one session are
  * grouped into one flag listing the rows, so a bad file does not bury the list.
  * Severities follow methods §5: out-of-scale and out-of-scale decimal shift (5.2, 5.3a) and
  * conflicting duplicates (5.4) are act; exact duplicates and incomplete sessions are watch.

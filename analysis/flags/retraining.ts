@@ -1,5 +1,5 @@
 /**
- * Before/after evidence for a retraining event (issue 4, item 6). The indices behind the
+ * Before/after evidence for a retraining event (methods §6.4). The indices behind the
  * assessor's flags before the event are compared between the sessions before the event (the
  * recent window) and the sessions from the event on: per session, the assessor's index averaged
  * over attributes; improvement tested with a one-sided Welch t test (Welch 1947) on the per-session

@@ -1,5 +1,6 @@
 /**
- * Every threshold the flag engine uses, in ONE settings object per panel (issue 4, item 5).
+ * Every threshold the flag engine uses, in ONE settings object per panel, so that a panel's
+ * thresholds can be read, changed, exported and restored as one JSON file.
  * The TypeBox schema is the documentation: each field's description says what it does and where
  * the value comes from (a source, or "common practice, no source" = CP). Methods notes §6.3 are
  * the starting point; adaptations are marked as ours. Used by the settings page and the JSON file.

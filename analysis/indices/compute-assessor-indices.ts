@@ -14,7 +14,7 @@ export type AssessorIndicesOptions = ScalingOptions;
 
 /**
  * Per-assessor performance indices of one session and attribute, one entry per assessor in
- * first-seen order. The five analyze-contract fields follow issue 3 exactly (offset vs the panel
+ * first-seen order. The five analyze-contract fields follow the analyze JSON contract exactly (offset vs the panel
  * mean including the assessor; one-way ANOVA discrimination and its within-cell mean square;
  * agreement r with the leave-one-out panel; scaling cov/var over the assessor's products).
  * The test fields follow the methods notes: §2.1 paired level test, §2.3 variance-ratio
@@ -72,7 +72,7 @@ export function computeAssessorIndices(observations: readonly Observation[], opt
   });
 }
 
-/** The five index fields of the analyze contract (issue 3) for one assessor. */
+/** The five index fields of the analyze JSON contract for one assessor. */
 export type AnalyzeContractIndices = AssessorIndicesJson;
 
 /**

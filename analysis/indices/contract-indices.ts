@@ -5,7 +5,7 @@ import { mean } from '../descriptive/mean.js';
 import { pearsonCorrelation } from '../descriptive/pearson-correlation.js';
 
 /**
- * The five analyze-contract indices of one session and attribute (issue 3, part 4), one entry
+ * The five analyze-contract indices of one session and attribute, one entry
  * per assessor in first-seen order: the definitions of levelOffset, assessorAnova,
  * agreementEstimate and scalingEstimate over buildCellTable, computed on flat arrays of cell
  * codes instead of maps of maps (a year of sessions: 6,240 assessor rows, about a third of the

@@ -6,7 +6,7 @@ import { cellMean, cellMeansOfProduct, panelMean, productsRatedBy, type CellTabl
 import type { IndexReason } from './types.js';
 
 /**
- * Level offset as the analyze contract defines it (issue 3): over the products P_a the assessor
+ * Level offset as the analyze JSON contract defines it: over the products P_a the assessor
  * rated, mean m_ap − mean M_p, with M_p the mean over all assessors (this one included) of the
  * cell means. null when the assessor rated nothing. In a balanced design this is
  * (A − 1)/A times the leave-one-out offset L_a of the methods notes §2.1.

@@ -1,5 +1,5 @@
 /**
- * The period model for one attribute over many sessions (issue 3, part 3):
+ * The period model for one attribute over many sessions (methods §1.6):
  *   value ~ product + (1|assessor) + (1|session) + (1|assessor:product)
  *           + (1|assessor:session) + (1|product:session)
  * with an optional boundary likelihood-ratio test of product:session (instability of product

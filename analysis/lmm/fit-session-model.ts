@@ -1,5 +1,5 @@
 /**
- * The per-session, per-attribute model (issue 3, part 3):
+ * The per-session, per-attribute model (methods §1.1):
  *   value ~ product + (1|assessor) + (1|assessor:product)   when some assessor × product cell has > 1 value,
  *   value ~ product + (1|assessor)                           otherwise (the interaction is then the error).
  * Balanced sessions take the closed-form fast path when one exists. The REML criterion of a

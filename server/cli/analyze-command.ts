@@ -2,7 +2,7 @@
  * `panel-steward analyze FILE [--period] [--format json] [--sheet NAME]`
  *
  * Reads a long or wide CSV/XLSX with the import parser (no store, no scale check), fits the
- * models and prints the analyze JSON of issue 3 on stdout. Any problem in the file stops it:
+ * models and prints the analyze JSON contract (domain/analysis.ts) on stdout. Any problem in the file stops it:
  * every problem is listed on stderr as `file:row:column: message` and the exit code is 1.
  * Findings and groups that could not be fitted are notes on stderr; stdout stays pure JSON.
  */

@@ -1,5 +1,5 @@
 /**
- * Monitor pages, their JSON twins, the flags API and background refits (issue 4).
+ * Monitor pages, their JSON twins, the flags API and background refits.
  * Registered on the root instance (skip-override) so that `app.refitService` is visible to the
  * import routes, which schedule a refit after an import that changed sessions.
  */

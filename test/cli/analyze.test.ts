@@ -1,5 +1,5 @@
 /**
- * `panel-steward analyze`: end to end from a CSV file to the issue-3 JSON. The assessor indices
+ * `panel-steward analyze`: end to end from a CSV file to the analyze JSON contract. The assessor indices
  * are compared with plain R (test/fixtures/r/indices.R, seeded designs committed in the
  * fixture) at 1e-9; the fits must be exactly what fitSessionModel/fitPeriodModel return (their
  * own R checks live with the model tests), and in balanced sessions with every component inside

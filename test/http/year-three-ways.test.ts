@@ -1,5 +1,5 @@
 /**
- * Issue 2, "Done when": a realistic year (12 assessors × 6 products × 2 replicates × 10 attributes
+ * Import acceptance: a realistic year (12 assessors × 6 products × 2 replicates × 10 attributes
  * × 52 weeks = 74,880 ratings) imports through the CLI, the HTTP API and the web form into
  * identical stores; long and wide forms of the same data give identical stores; re-import is a
  * no-op. "Identical" is checked on the export, which lists every stored rating in a fixed order.

@@ -1,5 +1,5 @@
 /**
- * Property and mutation tests of the reader (issue 5, part 2):
+ * Property and mutation tests of the reader (bad input: clear problems, never a crash):
  * - valid generated data, written by csv-stringify / exceljs in every accepted format,
  *   reads back to exactly the ratings written;
  * - long and wide forms of the same data give identical rating streams;

@@ -1,6 +1,6 @@
 /**
- * A reference period picked by the panel leader (issue 4 §2: "in-control mean and spread estimated
- * from a baseline (the first N sessions, or a reference period the user picks)"): recorded through
+ * A reference period picked by the panel leader (chart baselines come from the first N sessions
+ * or from a reference period the panel leader picks, methods §3.2): recorded through
  * the events form with validation, kept by the store migration, and used by the flag engine and
  * the assessor pages.
  */

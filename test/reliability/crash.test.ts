@@ -1,5 +1,5 @@
 /**
- * Crash safety (issue 5.1): an import killed with SIGKILL at a random moment leaves the store
+ * Crash safety: an import killed with SIGKILL at a random moment leaves the store
  * sound (integrity_check), holding the whole import or none of it, and usable afterwards.
  *
  * Bounded for CI: CRASH_RATINGS ratings (default 300,000) × CRASH_ROUNDS rounds (default 8);

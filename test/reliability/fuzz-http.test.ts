@@ -1,5 +1,5 @@
 /**
- * Bad input against every JSON endpoint (issue 5, part 2), bounded for CI: random paths,
+ * Bad input against every JSON endpoint, bounded for CI: random paths,
  * methods, query strings, headers, bodies and multipart forms. Whatever arrives, the service
  * never answers 5xx, every error is the one JSON shape with a message, and the store changes
  * only when an import says it stored something.

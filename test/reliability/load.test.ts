@@ -1,5 +1,5 @@
 /**
- * Concurrency under load (issue 5, part 4), bounded for CI: the real service in its own process
+ * Concurrency under load, bounded for CI: the real service in its own process
  * on 127.0.0.1 gets 16 uploads over 4 connections at once (each a different weekly file, every
  * fourth one a repeat of an earlier file) while 8 connections keep reading pages and JSON
  * (autocannon), a few seconds in all. Then, with the service stopped, the store is counted:

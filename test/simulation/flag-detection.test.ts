@@ -1,5 +1,5 @@
 /**
- * Issue 4 "Done when": the flag engine on simulated panels (several seeds, 6–12 months, 12–14
+ * Detection goals of the flag engine on simulated panels (several seeds, 6–12 months, 12–14
  * assessors, every flag kind planted, clean assessors). Goals asserted: every kind's planted
  * faults found at watch or act ≥ 95 %; act-level flags on clean assessors ≤ 1 per 10 clean
  * assessor-years; every planted drift flagged (the median delay is reported by

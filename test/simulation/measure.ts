@@ -123,7 +123,7 @@ export function reportMarkdown(report: SimulationReport, commit: string): string
   lines.push('## Flag detection (simulation)');
   lines.push('');
   lines.push(
-    'Written by `npx tsx bench/simulation-report.ts` (issue 4, "Done when"). Simulated panels from the demo generator ' +
+    'Written by `npx tsx bench/simulation-report.ts`. Simulated panels from the demo generator ' +
       '(`demo/generate-panel.ts`, invented oat-yoghurt range, 0–10 scale, 10 attributes, 5 products per session with the ' +
       'reference in every session, 2 replicates) with every flag kind planted, run through the real pipeline ' +
       '(`fitSessionModel` → `computeAssessorIndices` → import of one CSV per session with quarantine → `buildFlags` with ' +

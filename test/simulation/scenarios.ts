@@ -1,5 +1,5 @@
 /**
- * The simulated panels of the flag-detection suite (issue 4, "Done when"): several seeds, 6–12
+ * The simulated panels of the flag-detection suite (test/simulation/flag-detection.test.ts): several seeds, 6–12
  * months of weekly sessions, 10–15 assessors, every flag kind planted, and clean assessors.
  *
  * Two designs alternate over the seeds so every kind is planted on several panels without

@@ -3,8 +3,8 @@
  * data are committed in the fixture: balanced, three replicates with a scale-compressing
  * assessor, no replicates, missing rows, missing whole cells with an assessor who rated only 2
  * products, zero-spread edge cases, and a small unbalanced design without replicates.
- * R computes the contract fields exactly as issue 3 defines them (one-way ANOVA via lm(),
- * cor(), cov()/var()) and the extra tests via t.test() and lm(). Tolerance 1e-9 (issue 3).
+ * R computes the contract fields exactly as the analyze JSON contract defines them (one-way ANOVA via lm(),
+ * cor(), cov()/var()) and the extra tests via t.test() and lm(). Tolerance 1e-9.
  */
 import { describe, expect, it } from 'vitest';
 import { compareSessionIndices, type ExpectedSessionIndices } from './compare-indices.js';
