@@ -21,6 +21,7 @@ import { createViewRenderer, type NavSection } from './plugins/views.js';
 import { apiRoutes } from './routes/api.js';
 import { importPageRoutes } from './routes/import-pages.js';
 import { loginRoutes } from './routes/login.js';
+import { methodsPageRoutes } from './routes/methods-page.js';
 import { monitorRoutes } from './routes/monitor.js';
 import { panelPageRoutes } from './routes/panel-pages.js';
 import { quarantineRoutes } from './routes/quarantine.js';
@@ -117,6 +118,7 @@ export async function buildApp(options: { db: Database; config?: Partial<AppConf
   await app.register(apiRoutes);
   await app.register(quarantineRoutes);
   await app.register(monitorRoutes);
+  await app.register(methodsPageRoutes);
   // ---- end of route modules ----
 
   await app.ready();

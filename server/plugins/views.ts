@@ -7,6 +7,7 @@
 import { readdirSync, readFileSync } from 'node:fs';
 import { basename, join } from 'node:path';
 import Handlebars from 'handlebars';
+import { linkMethodsReferences } from '../../report/methods-references.js';
 
 /** A link in the site navigation. Panel-scoped sections appear on pages about one panel. */
 export interface NavSection {
@@ -57,6 +58,15 @@ function registerHelpers(handlebars: typeof Handlebars): void {
   handlebars.registerHelper('eq', (a: unknown, b: unknown) => a === b);
   // {{plural n "panel" "panels"}}
   handlebars.registerHelper('plural', (n: unknown, one: unknown, many: unknown) => (n === 1 ? one : many));
+  // {{methodsLinks text}}: the text escaped, each "§x.y" a link to that section of the methods page.
+  handlebars.registerHelper('methodsLinks', (text: unknown) => {
+    if (typeof text !== 'string') return '';
+    const escape = handlebars.Utils.escapeExpression;
+    const html = linkMethodsReferences(text)
+      .map((part) => (part.href === null ? escape(part.text) : `<a href="${escape(part.href)}">${escape(part.text)}</a>`))
+      .join('');
+    return new handlebars.SafeString(html);
+  });
 }
 
 function hbsFiles(folder: string): string[] {

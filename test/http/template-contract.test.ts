@@ -37,6 +37,7 @@ describe('templates read only what their views hold', () => {
       ['import', `/imports/${quarantined.importId}.json`],
       ['import', `/imports/${rejected.importId}.json`],
       ['upload', '/upload.json'],
+      ['methods', '/methods.json'],
     ];
     const rendered = new Set<string>();
     for (const [page, url] of twins) {
