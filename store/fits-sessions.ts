@@ -3,6 +3,7 @@
  * observations of one session grouped by attribute (with each attribute's scale).
  */
 import type { Database } from 'better-sqlite3';
+import type { PackedRatings } from '../domain/packed-ratings.js';
 import type { InputFinding } from '../domain/problems.js';
 import type { Observation, Rating, ScaleRange } from '../domain/ratings.js';
 
@@ -103,26 +104,7 @@ export function listStaleSessions(db: Database, panelId: number, analysisVersion
     .all(panelId, analysisVersion) as SessionVersionRow[];
 }
 
-/**
- * Every stored rating of a panel in columns: name tables plus typed arrays of indices into them.
- * A year of a large panel is ~10⁵ ratings; as columns it loads without joins and crosses to a
- * worker thread as a few memory copies instead of 10⁵ cloned objects.
- */
-export interface PackedRatings {
-  sessions: { label: string; date: string }[];
-  assessors: string[];
-  products: string[];
-  attributes: string[];
-  /** Distinct sample codes; codeIndex −1 = no code. */
-  codes: string[];
-  sessionIndex: Int32Array;
-  assessorIndex: Int32Array;
-  productIndex: Int32Array;
-  attributeIndex: Int32Array;
-  codeIndex: Int32Array;
-  replicate: Int32Array;
-  value: Float64Array;
-}
+export type { PackedRatings } from '../domain/packed-ratings.js';
 
 /**
  * Empty packed columns for `n` ratings over the given name lists, with a writer that stores a

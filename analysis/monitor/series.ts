@@ -4,59 +4,12 @@
  * (atanh r); the per-assessor summary over attributes; and the reference (blind control) product
  * series. Transformations make the series closer to normal with steadier variance (CP, §3.1).
  */
-import type { FitJson } from '../../domain/analysis.js';
-import type { InputFinding, ProblemCode } from '../../domain/problems.js';
-import type { Rating } from '../../domain/ratings.js';
+import type { PanelHistory } from '../../domain/panel-history.js';
 import type { AssessorSessionIndices } from '../indices/types.js';
 import { standardiseSegments, type SegmentOptions, type SeriesPoint } from './chart.js';
 
-export interface SessionAttributeResult {
-  session: string;
-  date: string;
-  attribute: string;
-  scaleMin: number;
-  scaleMax: number;
-  fit: FitJson;
-  indices: AssessorSessionIndices[];
-  /** Panel product test p of this session and attribute (null when not defined). */
-  productTestP: number | null;
-}
-
-export interface PanelEvent {
-  id: number;
-  kind: 'retraining' | 'control-batch' | 'note' | 'reference-period';
-  /** Takes effect from this session (for a reference period: its first session). */
-  session: string;
-  /** Last session of a reference period (inclusive); null or absent for other kinds. */
-  untilSession?: string | null;
-  /** null: the whole panel. */
-  assessor: string | null;
-  note: string;
-}
-
-export interface PeriodFitSummary {
-  attribute: string;
-  sessions: string[];
-  /** σ̂²_PS of the period model (a variance). */
-  productSessionVariance: number;
-  lrt: { likelihoodRatio: number; pValue: number } | null;
-}
-
-/** An import finding; quarantine problems ('out-of-scale', 'conflicting-duplicate') may be passed too. */
-export type ImportFinding = Omit<InputFinding, 'code'> & { code: InputFinding['code'] | ProblemCode };
-
-export interface PanelHistory {
-  /** In time order. */
-  sessions: { label: string; date: string }[];
-  attributes: { name: string; scaleMin: number; scaleMax: number }[];
-  referenceProducts: string[];
-  results: SessionAttributeResult[];
-  /** For the data-quality checks; may be limited to recent sessions. */
-  ratings?: Rating[];
-  importFindings: ImportFinding[];
-  events: PanelEvent[];
-  periodFits?: PeriodFitSummary[];
-}
+// The panel history types are shared with store/ and report/: defined in domain/panel-history.ts.
+export type { ImportFinding, PanelEvent, PanelHistory, PeriodFitSummary, SessionAttributeResult } from '../../domain/panel-history.js';
 
 export type IndexSeriesKind = 'level' | 'scaling' | 'repeatability' | 'discrimination' | 'agreement';
 

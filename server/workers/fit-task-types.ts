@@ -8,7 +8,7 @@ import type { Observation, ScaleRange } from '../../domain/ratings.js';
 import type { AssessorSessionIndices } from '../../analysis/indices/types.js';
 import type { PanelHistory } from '../../analysis/monitor/series.js';
 import type { RetrainingEvaluation } from '../../analysis/flags/index.js';
-import type { PackedRatings } from '../../store/fits-sessions.js';
+import type { PackedRatings } from '../../domain/packed-ratings.js';
 
 export type RatedObservation = Observation & { code: string | null };
 
