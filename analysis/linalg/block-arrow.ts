@@ -10,6 +10,11 @@
  * e.g. everything belonging to one session) plus a dense border A_B (effects crossed with
  * that factor). L = [[L_b, 0], [W_bᵀ, L_B]] with L_b L_bᵀ = A_b, W_b = L_b⁻¹ C_b and
  * L_B L_Bᵀ = A_B − Σ W_bᵀ W_b. Cost Σ_b (n_b³/3 + n_b² n_B + n_b n_B²) + n_B³/3 instead of q³/3.
+ *
+ * Why one file of about 450 lines: the factorisation, the solves and the inverse diagonal all
+ * index the same packed storage (BlockArrowWorkspace: blocks, W_b rows, border), and that
+ * index arithmetic is the part most easily got wrong; kept together it is written and checked
+ * once. Each function is short and stands alone.
  */
 import { backSolveTransposeInPlace, choleskyInPlace, forwardSolveInPlace } from './dense.js';
 
