@@ -60,9 +60,9 @@ function registerHelpers(handlebars: typeof Handlebars): void {
   handlebars.registerHelper('plural', (n: unknown, one: unknown, many: unknown) => (n === 1 ? one : many));
   // {{methodsLinks text}}: the text escaped, each "§x.y" a link to that section of the methods page.
   handlebars.registerHelper('methodsLinks', (text: unknown) => {
-    if (typeof text !== 'string') return '';
+    if (text === null || text === undefined) return '';
     const escape = handlebars.Utils.escapeExpression;
-    const html = linkMethodsReferences(text)
+    const html = linkMethodsReferences(String(text))
       .map((part) => (part.href === null ? escape(part.text) : `<a href="${escape(part.href)}">${escape(part.text)}</a>`))
       .join('');
     return new handlebars.SafeString(html);
