@@ -9,6 +9,7 @@ import { MAX_LISTED_PROBLEMS, type InputFinding, type InputProblem } from '../..
 import type { ScaleRange } from '../../domain/ratings.js';
 import { importRatings, fileInput, type ImportReport } from '../../store/import-ratings.js';
 import { openStore, type Database } from '../../store/open-store.js';
+import { StoreDamagedError } from '../../store/store-health.js';
 import { PanelConfigError, readPanelConfigFile, withReferenceProducts, type PanelConfigFile } from '../../store/panel-config.js';
 import { CliError, resolveDbPath } from './cli-error.js';
 
@@ -69,6 +70,8 @@ export function openStoreForCli(dbOption: string | undefined): Database {
   try {
     return openStore(resolveDbPath(dbOption));
   } catch (error) {
+    // Names the store path and the way out; nothing was written.
+    if (error instanceof StoreDamagedError) throw new CliError(error.message);
     // File-system errors name the path; say what to check instead.
     if (error instanceof Error && 'code' in error && typeof error.code === 'string' && error.code.startsWith('E')) {
       throw new CliError(`The store could not be opened (${error.code}): check that the folder of --db (or PANEL_STEWARD_DB) can be written.`);
