@@ -56,6 +56,8 @@ export interface ReadRatingsOptions {
   maxColumns?: number;
   /** Cells longer than this (characters) → 'cell-too-long'. Default 10,000. */
   maxCellChars?: number;
+  /** .xlsx: most bytes the workbook may unzip to, checked while unzipping. Default 200 MB. */
+  maxXlsxExpandedBytes?: number;
   /** .xlsx: give up on a damaged workbook when reading makes no progress for this long. Default 5000 ms. */
   stallTimeoutMs?: number;
 }
@@ -578,7 +580,11 @@ export async function* readIntoSink(
   let decimalMark: DecimalMark = '.';
   const records: AsyncGenerator<SourceRecord[]> =
     kind === 'xlsx'
-      ? withOneRetryOnTransientFailure(() => readXlsxRecords(byteStream(source), { sheet: options.sheet, stallTimeoutMs: options.stallTimeoutMs ?? DEFAULT_STALL_TIMEOUT_MS }))
+      ? withOneRetryOnTransientFailure(() => readXlsxRecords(byteStream(source), {
+            sheet: options.sheet,
+            stallTimeoutMs: options.stallTimeoutMs ?? DEFAULT_STALL_TIMEOUT_MS,
+            limits: { maxCellChars, maxExpandedBytes: options.maxXlsxExpandedBytes },
+          }))
       : readCsvRecords('bytes' in source ? sliceBytes(source.bytes) : byteStream(source), {
           // A row may hold every column at full cell length; beyond that it is a broken quote.
           maxRecordChars: maxCellChars * Math.min(maxColumns + 1, 2001) + maxColumns,
