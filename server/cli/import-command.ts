@@ -9,6 +9,7 @@ import { MAX_LISTED_PROBLEMS, type InputFinding, type InputProblem } from '../..
 import type { ScaleRange } from '../../domain/ratings.js';
 import { importRatings, fileInput, type ImportReport } from '../../store/import-ratings.js';
 import { openStore, type Database } from '../../store/open-store.js';
+import { checkName } from '../../ingest/names.js';
 import { StoreDamagedError } from '../../store/store-health.js';
 import { PanelConfigError, readPanelConfigFile, withReferenceProducts, type PanelConfigFile } from '../../store/panel-config.js';
 import { CliError, resolveDbPath } from './cli-error.js';
@@ -86,12 +87,14 @@ export async function runImportCommand(file: string, options: ImportCommandOptio
   const fileName = basename(file);
   if (!existsSync(file) || !statSync(file).isFile()) throw new CliError(`${fileName}: no such file.`, 2);
   if (!options.panel || options.panel.trim() === '') throw new CliError('--panel NAME is required.', 2);
+  const panelName = checkName(options.panel.trim(), 'panel name');
+  if (!panelName.ok) throw new CliError(`--panel: ${panelName.reason}`, 2);
   const scale = options.scale === undefined ? undefined : parseScaleOption(options.scale);
   const settings = await loadSettings(options.settings, options.reference ?? []);
   const db = openStoreForCli(options.db);
   try {
     const report = await importRatings(db, {
-      panel: options.panel.trim(),
+      panel: panelName.name,
       fileName,
       source: 'cli',
       input: fileInput(file),
