@@ -24,7 +24,8 @@ export type ProblemCode =
   | 'scale-missing'
   | 'sheet-missing'
   | 'too-many-columns'
-  | 'cell-too-long';
+  | 'cell-too-long'
+  | 'name-invalid';
 
 export interface InputProblem {
   code: ProblemCode;

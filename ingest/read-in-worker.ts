@@ -29,6 +29,8 @@ export interface ReadInWorkerOptions {
   fileName: string;
   sheet?: string;
   scales: ScaleLookup;
+  /** The caller's today (YYYY-MM-DD), for the future-date finding. */
+  today?: string;
   /** Batches posted but not yet taken by the consumer, at most (bounds memory). Default 8. */
   maxInFlight?: number;
   /** Events per posted batch, at least (the last may be smaller). Default EVENTS_PER_COMPACT_BATCH. */
@@ -43,6 +45,7 @@ export interface ReadWorkerData {
   fileName: string;
   sheet?: string;
   scales: ScaleLookup;
+  today?: string;
   maxInFlight: number;
   eventsPerBatch: number;
   failAfterBatches?: number;
@@ -106,6 +109,7 @@ export function readInWorker(source: InputSource, options: ReadInWorkerOptions):
     fileName: options.fileName,
     sheet: options.sheet,
     scales: options.scales,
+    today: options.today,
     // Fewer, larger hand-overs: each one may wait for the other thread to be scheduled.
     maxInFlight: options.maxInFlight ?? 8,
     eventsPerBatch: options.eventsPerBatch ?? EVENTS_PER_COMPACT_BATCH,

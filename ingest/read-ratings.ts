@@ -33,6 +33,7 @@ import { parseRatingValue, parseReplicate, parseSessionDate, type CellResult, ty
 import { readCsvRecords, type SourceRecord } from './csv-records.js';
 import { detectFileKind } from './file-kind.js';
 import { resolveColumnLayout, truncateText, type ColumnLayout } from './headers.js';
+import { checkName, showHidden, type NameCheck } from './names.js';
 import { SourceFailure } from './source-failure.js';
 import { restoreFormulaText } from './spreadsheet-safe.js';
 import { readXlsxRecords, withOneRetryOnTransientFailure } from './xlsx-records.js';
@@ -56,6 +57,13 @@ export interface ReadRatingsOptions {
   maxColumns?: number;
   /** Cells longer than this (characters) → 'cell-too-long'. Default 10,000. */
   maxCellChars?: number;
+  /**
+   * Today's date (YYYY-MM-DD) from the caller's clock (this module has none): session dates
+   * more than a year later get a 'future-date' finding. No check when absent.
+   */
+  today?: string;
+  /** .xlsx: most bytes the workbook may unzip to, checked while unzipping. Default 200 MB. */
+  maxXlsxExpandedBytes?: number;
   /** .xlsx: give up on a damaged workbook when reading makes no progress for this long. Default 5000 ms. */
   stallTimeoutMs?: number;
 }
@@ -177,6 +185,13 @@ function parseCached<T>(cache: Map<string, T>, text: string, parse: (text: strin
 const KEY_ROLES = ['session', 'assessor', 'product', 'attribute'] as const;
 type KeyRole = (typeof KEY_ROLES)[number];
 const KEY_ROLE_INDEX: Record<KeyRole, number> = { session: 0, assessor: 1, product: 2, attribute: 3 };
+const KEY_ROLE_NAMES = ['session label', 'assessor', 'product', 'attribute'];
+
+/** The same calendar day a year later (29 February → 1 March), for YYYY-MM-DD text. */
+export function oneYearAfter(isoDate: string): string {
+  const [year, month, day] = isoDate.split('-').map(Number);
+  return new Date(Date.UTC(year + 1, month - 1, day)).toISOString().slice(0, 10);
+}
 
 /** Row reader state for one file; created after the header row is resolved. */
 class RowReader {
@@ -213,6 +228,13 @@ class RowReader {
   private readonly parseValue: (text: string) => CellResult<number>;
   /** Reused per row (cleared at the start of readRow). */
   private readonly keyProblems: InputProblem[] = [];
+  /** Name checks by text, per key role; the last text of each role is compared first. */
+  private readonly nameChecks: Map<string, NameCheck>[] = KEY_ROLES.map(() => new Map());
+  private readonly lastNameTexts: (string | null)[] = KEY_ROLES.map(() => null);
+  private readonly lastNameChecks: (NameCheck | null)[] = KEY_ROLES.map(() => null);
+  /** Dates after this (a year after the caller's today) get a finding, once per date. */
+  private readonly latestExpectedDate: string | null;
+  private readonly futureDatesNoted = new Set<string>();
   nMissing = 0;
   nDataRows = 0;
 
@@ -232,6 +254,31 @@ class RowReader {
         ? [{ index: layout.index.value!, attribute: null }]
         : layout.attributeColumns.map((c) => ({ index: c.index, attribute: c.attribute }));
     this.parseValue = (text) => parseRatingValue(text, decimalMark);
+    this.latestExpectedDate = options.today !== undefined && /^\d{4}-\d{2}-\d{2}$/.test(options.today) ? oneYearAfter(options.today) : null;
+  }
+
+  private checkedName(text: string, roleIndex: number): NameCheck {
+    if (text === this.lastNameTexts[roleIndex]) return this.lastNameChecks[roleIndex]!;
+    const check = parseCached(this.nameChecks[roleIndex], text, (t) => checkName(t, KEY_ROLE_NAMES[roleIndex]));
+    this.lastNameTexts[roleIndex] = text;
+    this.lastNameChecks[roleIndex] = check;
+    return check;
+  }
+
+  private noteFutureDate(date: string, row: number, column: string, session: string, out: ReadSink): void {
+    if (this.futureDatesNoted.has(date) || this.futureDatesNoted.size >= MAX_CACHED_TEXTS) return;
+    this.futureDatesNoted.add(date);
+    out.push({
+      type: 'finding',
+      finding: {
+        code: 'future-date',
+        file: this.file,
+        row,
+        column,
+        message: `The session date ${date} is more than a year after today; check the year (the ratings were read as dated).`,
+        session,
+      },
+    });
   }
 
   private text(cell: string | undefined): string {
@@ -251,8 +298,16 @@ class RowReader {
     const roleIndex = KEY_ROLE_INDEX[role];
     const column = this.keyColumns[roleIndex];
     const value = cellText(cells[column], this.csv);
-    if (value === '') problems.push(this.problem('missing-value', row, this.layout.headers[column], `The ${role} is missing; every row needs one.`, ''));
-    return this.intern(value, roleIndex);
+    if (value === '') {
+      problems.push(this.problem('missing-value', row, this.layout.headers[column], `The ${role} is missing; every row needs one.`, ''));
+      return this.intern(value, roleIndex);
+    }
+    const check = this.checkedName(value, roleIndex);
+    if (!check.ok) {
+      problems.push(this.problem('name-invalid', row, this.layout.headers[column], check.reason, showHidden(value)));
+      return this.intern(value, roleIndex);
+    }
+    return this.intern(check.name, roleIndex);
   }
 
   /**
@@ -372,8 +427,10 @@ class RowReader {
       keyProblems.push(this.problem('missing-value', row, headers[ix.date!], 'The session date is missing; write it as YYYY-MM-DD.', ''));
     } else {
       const parsed = this.parseDate(dateText);
-      if (parsed.ok) date = parsed.value;
-      else keyProblems.push(this.problem(parsed.code, row, headers[ix.date!], parsed.message, dateText));
+      if (parsed.ok) {
+        date = parsed.value;
+        if (this.latestExpectedDate !== null && date > this.latestExpectedDate) this.noteFutureDate(date, row, headers[ix.date!], session, out);
+      } else keyProblems.push(this.problem(parsed.code, row, headers[ix.date!], parsed.message, dateText));
     }
 
     const replicateText = this.text(cells[ix.replicate!]);
@@ -578,7 +635,11 @@ export async function* readIntoSink(
   let decimalMark: DecimalMark = '.';
   const records: AsyncGenerator<SourceRecord[]> =
     kind === 'xlsx'
-      ? withOneRetryOnTransientFailure(() => readXlsxRecords(byteStream(source), { sheet: options.sheet, stallTimeoutMs: options.stallTimeoutMs ?? DEFAULT_STALL_TIMEOUT_MS }))
+      ? withOneRetryOnTransientFailure(() => readXlsxRecords(byteStream(source), {
+            sheet: options.sheet,
+            stallTimeoutMs: options.stallTimeoutMs ?? DEFAULT_STALL_TIMEOUT_MS,
+            limits: { maxCellChars, maxExpandedBytes: options.maxXlsxExpandedBytes },
+          }))
       : readCsvRecords('bytes' in source ? sliceBytes(source.bytes) : byteStream(source), {
           // A row may hold every column at full cell length; beyond that it is a broken quote.
           maxRecordChars: maxCellChars * Math.min(maxColumns + 1, 2001) + maxColumns,
@@ -608,6 +669,20 @@ export async function* readIntoSink(
           const { layout, problems } = resolveColumnLayout(record.cells, record.row, kind === 'csv');
           if (layout === null) {
             for (const p of problems) sink.push({ type: 'problem', cell: null, problem: { ...p, file } });
+            yield;
+            return;
+          }
+          // Wide form: attribute names are header cells; checked (and NFC-normalised) once here.
+          let badAttribute = false;
+          for (const column of layout.attributeColumns) {
+            const check = checkName(column.attribute, 'attribute');
+            if (check.ok) column.attribute = check.name;
+            else {
+              sink.push({ type: 'problem', cell: null, problem: { code: 'name-invalid', file, row: record.row, column: showHidden(column.attribute), message: check.reason } });
+              badAttribute = true;
+            }
+          }
+          if (badAttribute) {
             yield;
             return;
           }

@@ -41,7 +41,7 @@ async function main(): Promise<void> {
     post({ type: 'batch', batch }, [batch.keys.buffer as ArrayBuffer, batch.values.buffer as ArrayBuffer]);
     posted++;
   };
-  for await (const batch of readCompactBatches(data.source, { fileName: data.fileName, sheet: data.sheet, scaleFor }, data.eventsPerBatch)) {
+  for await (const batch of readCompactBatches(data.source, { fileName: data.fileName, sheet: data.sheet, scaleFor, today: data.today }, data.eventsPerBatch)) {
     await send(batch);
   }
   // The consumer expects at least one batch before 'done'.

@@ -1,12 +1,15 @@
 import { Transform, type Readable } from 'node:stream';
 import type { SourceRecord } from './csv-records.js';
 import { SourceFailure } from './source-failure.js';
+import { budgetFor, DEFAULT_MAX_EXPANDED_BYTES, watchUnzip, type XlsxLimits } from './xlsx-budget.js';
 
 export interface XlsxRecordOptions {
   /** Sheet to read, by name (compared trimmed, case-insensitively); the first sheet when absent. */
   sheet?: string;
   /** Give up when the workbook reader makes no progress (no bytes read, no row) for this long. */
   stallTimeoutMs: number;
+  /** Checked while unzipping (ingest/xlsx-budget.ts); unzipped size defaults to 200 MB. */
+  limits?: Partial<XlsxLimits> & Pick<XlsxLimits, 'maxCellChars'>;
 }
 
 const UNREADABLE_WORKBOOK =
@@ -16,7 +19,7 @@ const UNREADABLE_WORKBOOK =
  * Pull the next item, failing when nothing moves for `stallTimeoutMs`. Some damaged zip
  * entries leave exceljs's unzip stage waiting forever; progress is any byte read or row made.
  */
-async function nextOrStall<T>(iterator: AsyncIterator<T>, progress: { at: number }, stallTimeoutMs: number): Promise<IteratorResult<T>> {
+async function nextOrStall<T>(iterator: AsyncIterator<T>, progress: { at: number }, stallTimeoutMs: number, overBudget: Promise<never>): Promise<IteratorResult<T>> {
   let timer: NodeJS.Timeout | undefined;
   const stalled = new Promise<never>((_, reject) => {
     const check = (): void => {
@@ -27,7 +30,7 @@ async function nextOrStall<T>(iterator: AsyncIterator<T>, progress: { at: number
     timer = setTimeout(check, stallTimeoutMs);
   });
   try {
-    return await Promise.race([iterator.next(), stalled]);
+    return await Promise.race([iterator.next(), stalled, overBudget]);
   } finally {
     clearTimeout(timer);
   }
@@ -113,6 +116,12 @@ export async function* readXlsxRecords(input: Readable, options: XlsxRecordOptio
     }),
   );
   input.on('error', (error) => counted.destroy(error));
+  watchUnzip();
+  const budget = budgetFor(counted, {
+    maxExpandedBytes: options.limits?.maxExpandedBytes ?? DEFAULT_MAX_EXPANDED_BYTES,
+    maxCellChars: options.limits?.maxCellChars ?? 10_000,
+  });
+  const nextOf = <T>(iterator: AsyncIterator<T>) => nextOrStall(iterator, progress, options.stallTimeoutMs, budget.failed);
   // Loaded on first use: exceljs costs about 0.3 s of start-up that CSV imports and every CLI
   // command would otherwise pay.
   const { default: ExcelJS } = await import('exceljs');
@@ -130,7 +139,7 @@ export async function* readXlsxRecords(input: Readable, options: XlsxRecordOptio
   const sheets = reader[Symbol.asyncIterator]();
   try {
     for (;;) {
-      const nextSheet = await nextOrStall(sheets, progress, options.stallTimeoutMs);
+      const nextSheet = await nextOf(sheets);
       if (nextSheet.done) break;
       const worksheet = nextSheet.value;
       progress.at = Date.now();
@@ -139,12 +148,12 @@ export async function* readXlsxRecords(input: Readable, options: XlsxRecordOptio
       const rows = worksheet[Symbol.asyncIterator]();
       if (wanted !== undefined && name.trim().toLowerCase() !== wanted) {
         // Drain sheets that are not read so the zip stream moves on.
-        while (!(await nextOrStall(rows, progress, options.stallTimeoutMs)).done) progress.at = Date.now();
+        while (!(await nextOf(rows)).done) progress.at = Date.now();
         continue;
       }
       found = true;
       for (;;) {
-        const next = await nextOrStall(rows, progress, options.stallTimeoutMs);
+        const next = await nextOf(rows);
         if (next.done) break;
         const values = next.value.values as unknown[];
         const cells: string[] = new Array(Math.max(0, values.length - 1));
@@ -155,6 +164,8 @@ export async function* readXlsxRecords(input: Readable, options: XlsxRecordOptio
       break;
     }
   } catch (error) {
+    // A limit passed while unzipping: exceljs then fails too, but the limit is the reason.
+    if (budget.failedWith !== null) throw budget.failedWith;
     if (error instanceof SourceFailure) throw error;
     // An exception from inside exceljs: a damaged workbook, or the library's own race.
     throw new SourceFailure('file-unreadable', UNREADABLE_WORKBOOK, null, null, true);

@@ -10,11 +10,14 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import Fastify, { type FastifyInstance } from 'fastify';
 import type { Database } from 'better-sqlite3';
+import { storeHealthOf } from '../store/open-store.js';
 import { packageRoot } from '../store/package-root.js';
+import { isCorruptionError } from '../store/store-health.js';
 import { AppError, toAppError } from './errors.js';
 import type { AppConfig } from './plugins/app-context.js';
 import { ImportQueue } from './plugins/import-queue.js';
 import { sendError } from './plugins/pages.js';
+import { storeDamagedError } from './store-damage.js';
 import { isLoopbackHost, registerSecurity } from './plugins/security.js';
 import { registerUploadCleanup } from './plugins/uploads.js';
 import { createViewRenderer, type NavSection } from './plugins/views.js';
@@ -66,6 +69,11 @@ export function defaultNavSections(): NavSection[] {
   ];
 }
 
+/** Methods that only read; every other request may write and is refused on a damaged store. */
+const READING_METHODS = new Set(['GET', 'HEAD', 'OPTIONS']);
+/** Writes that do not touch the store. */
+const STORE_FREE_WRITES = new Set(['/login', '/logout']);
+
 export async function buildApp(options: { db: Database; config?: Partial<AppConfig> }): Promise<FastifyInstance> {
   const config = resolveAppConfig(options.config);
   if (!isLoopbackHost(config.host) && (config.accessToken === null || config.accessToken.length < 16)) {
@@ -90,8 +98,22 @@ export async function buildApp(options: { db: Database; config?: Partial<AppConf
   app.decorate('views', createViewRenderer(config.templatesDir));
   app.decorate('navSections', defaultNavSections());
   app.decorate('importQueue', new ImportQueue());
+  app.decorate('storeHealth', storeHealthOf(options.db));
 
   app.setErrorHandler((error, request, reply) => {
+    if (isCorruptionError(error)) {
+      // Damage found while serving: from now on the store is read-only and every page says why.
+      if (app.storeHealth.ok) {
+        app.storeHealth = { ok: false, path: app.storeHealth.path, problems: [error instanceof Error ? error.message : String(error)] };
+        try {
+          app.db.pragma('query_only = ON');
+        } catch {
+          // the refusal hook below still stops every write request
+        }
+      }
+      request.log.error({ err: error }, 'the store is damaged');
+      return sendError(app, request, reply, storeDamagedError(app.storeHealth));
+    }
     const appError = toAppError(error, { uploadLimitBytes: config.uploadLimitBytes, path: request.url.split('?')[0].slice(0, 200), method: request.method });
     if (appError.status >= 500) request.log.error({ err: error }, 'request failed');
     else request.log.info({ code: appError.code, status: appError.status }, appError.message);
@@ -103,6 +125,13 @@ export async function buildApp(options: { db: Database; config?: Partial<AppConf
 
   registerUploadCleanup(app);
   await registerSecurity(app);
+  // After the security hooks (a request without its token still gets 401 first); before the
+  // body is read, so an upload to a damaged store is refused without being stored anywhere.
+  app.addHook('onRequest', async (request) => {
+    if (app.storeHealth.ok || READING_METHODS.has(request.method)) return;
+    if (STORE_FREE_WRITES.has(request.url.split('?')[0])) return;
+    throw storeDamagedError(app.storeHealth);
+  });
 
   // Shutdown: refuse new imports first, then wait for the one in progress before the store closes.
   app.addHook('preClose', async () => {

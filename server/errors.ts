@@ -45,6 +45,7 @@ export const ERROR_REGISTRY = {
   METHOD_NOT_ALLOWED: { status: 405, message: 'The method {method} is not allowed at {path}.' },
   SHUTTING_DOWN: { status: 503, message: 'The service is shutting down; try again when it is back.' },
   STORE_BUSY: { status: 503, message: 'The store is busy with another change; try again in a moment.' },
+  STORE_DAMAGED: { status: 503, message: '{detail}' },
   INTERNAL: { status: 500, message: 'Something went wrong on the server. The details are in the service log.' },
 } as const satisfies Record<string, { status: number; message: string }>;
 

@@ -1,7 +1,9 @@
-import { existsSync, mkdirSync, renameSync, rmSync, statSync } from 'node:fs';
+import { copyFileSync, existsSync, mkdirSync, readFileSync, renameSync, rmSync, statSync } from 'node:fs';
 import { basename, dirname, join } from 'node:path';
 import BetterSqlite3 from 'better-sqlite3';
 import type { Database } from 'better-sqlite3';
+import { defaultMigrationsFolder, listMigrations } from './migrate.js';
+import { integrityCheckProblems, quickCheckProblems, restoreAdvice } from './store-health.js';
 
 export class BackupError extends Error {
   constructor(message: string) {
@@ -23,6 +25,49 @@ export function integrityCheck(db: Database): string[] {
   return (db.pragma('integrity_check') as { integrity_check: string }[]).map((row) => row.integrity_check);
 }
 
+const columnsOf = (db: Database, table: string): string[] =>
+  (db.prepare('SELECT name FROM pragma_table_info(?) ORDER BY name').all(table) as { name: string }[]).map((row) => row.name);
+
+/**
+ * Whether a sound SQLite file is a panel-steward store this version can open: the migrations
+ * record is there, every migration it names is one this version has, and every table those
+ * migrations create is there with its columns (built for comparison in memory from this
+ * version's own files). An older store passes (it is migrated when opened); a newer one is
+ * refused with both versions named.
+ */
+export function schemaProblems(db: Database, migrationsFolder = defaultMigrationsFolder()): string[] {
+  const hasRecord = db.prepare("SELECT count(*) AS n FROM sqlite_master WHERE type = 'table' AND name = 'schema_migrations'").get() as { n: number };
+  if (hasRecord.n === 0) return ['the file is an SQLite database but not a panel-steward store (it has no migrations record)'];
+  const recorded = (db.prepare('SELECT name FROM schema_migrations ORDER BY name').all() as { name: string }[]).map((row) => row.name);
+  const known = listMigrations(migrationsFolder);
+  if (recorded.length === 0 || recorded[0] !== known[0]) return ['the file is an SQLite database but not a panel-steward store (its migrations record does not start with the first store migration)'];
+  const unknown = recorded.filter((name) => !known.includes(name));
+  if (unknown.length > 0) {
+    return [
+      `the store was written by a newer version of panel-steward (its schema is at ${recorded[recorded.length - 1]}; this version knows up to ${known[known.length - 1]}); update panel-steward and restore again`,
+    ];
+  }
+  const reference = new BetterSqlite3(':memory:');
+  try {
+    // This version's schema as far as the file got: the same migration files, applied to nothing.
+    for (const name of known) if (recorded.includes(name)) reference.exec(readFileSync(join(migrationsFolder, name), 'utf8'));
+    const tables = (reference.prepare("SELECT name FROM sqlite_master WHERE type = 'table' AND name NOT LIKE 'sqlite_%' ORDER BY name").all() as { name: string }[]).map((row) => row.name);
+    const problems: string[] = [];
+    for (const table of tables) {
+      const expected = columnsOf(reference, table);
+      const found = columnsOf(db, table);
+      if (found.length === 0) problems.push(`the table ${table} is missing`);
+      else {
+        const missing = expected.filter((column) => !found.includes(column));
+        if (missing.length > 0) problems.push(`the table ${table} lacks the column${missing.length === 1 ? '' : 's'} ${missing.join(', ')}`);
+      }
+    }
+    return problems.length > 0 ? [`the file is not a panel-steward store of a known schema: ${problems.slice(0, 5).join('; ')}`] : [];
+  } finally {
+    reference.close();
+  }
+}
+
 function describeCopy(path: string): { nPanels: number; nRatings: number; problems: string[] } {
   let copy: Database;
   try {
@@ -32,8 +77,9 @@ function describeCopy(path: string): { nPanels: number; nRatings: number; proble
   }
   try {
     const problems = integrityCheck(copy).filter((line) => line !== 'ok');
-    const hasSchema = copy.prepare("SELECT count(*) AS n FROM sqlite_master WHERE type = 'table' AND name IN ('schema_migrations', 'panel', 'rating')").get() as { n: number };
-    if (hasSchema.n !== 3) return { nPanels: 0, nRatings: 0, problems: [...problems, 'the file is not a panel-steward store'] };
+    if (problems.length > 0) return { nPanels: 0, nRatings: 0, problems };
+    const schema = schemaProblems(copy);
+    if (schema.length > 0) return { nPanels: 0, nRatings: 0, problems: schema };
     const nPanels = (copy.prepare('SELECT count(*) AS n FROM panel').get() as { n: number }).n;
     const nRatings = (copy.prepare('SELECT count(*) AS n FROM rating').get() as { n: number }).n;
     return { nPanels, nRatings, problems };
@@ -86,6 +132,11 @@ export async function backupStore(db: Database, outPath: string, options: Backup
   const copy = describeCopy(partial);
   if (copy.problems.length > 0) {
     rmSync(partial, { force: true });
+    // Say which file is damaged: a sound source with a bad copy points at the disk written to.
+    const sourceProblems = integrityCheckProblems(db, 5);
+    if (sourceProblems.length > 0) {
+      throw new BackupError(`No backup was written: the source store ${db.name} is damaged (${sourceProblems.join('; ')}). ${restoreAdvice(db.name)}`);
+    }
     throw new BackupError(`The backup failed its integrity check: ${copy.problems.slice(0, 5).join('; ')}.`);
   }
   renameSync(partial, outPath);
@@ -116,22 +167,32 @@ export async function restoreStore(fromPath: string, dbPath: string, options: { 
   if (copy.problems.length > 0) throw new BackupError(`${basename(fromPath)} cannot be restored: ${copy.problems.slice(0, 5).join('; ')}.`);
 
   let previousSavedAs: string | null = null;
+  let targetDamaged = false;
   if (existsSync(dbPath)) {
     const target = new BetterSqlite3(dbPath, { fileMustExist: true });
     try {
       target.pragma('busy_timeout = 30000');
-      const hasPanels = target.prepare("SELECT count(*) AS n FROM sqlite_master WHERE type = 'table' AND name = 'panel'").get() as { n: number };
-      const nPanels = hasPanels.n ? (target.prepare('SELECT count(*) AS n FROM panel').get() as { n: number }).n : 0;
-      if (nPanels > 0 && !options.force) {
-        throw new BackupError(`The store ${basename(dbPath)} already holds ${nPanels} panel${nPanels === 1 ? '' : 's'}; add --force to replace it (it is saved beside itself first).`);
-      }
-      if (nPanels > 0) {
-        const stamp = (options.now ?? (() => new Date()))().toISOString().replace(/[:.]/g, '-');
-        previousSavedAs = `${dbPath}.before-restore-${stamp}`;
-        await target.backup(previousSavedAs);
+      const stamp = (options.now ?? (() => new Date()))().toISOString().replace(/[:.]/g, '-');
+      // A damaged store is what restore is for: no --force needed, and it is kept, bytes as found.
+      targetDamaged = quickCheckProblems(target, 1).length > 0;
+      if (targetDamaged) {
+        previousSavedAs = `${dbPath}.damaged-${stamp}`;
+        target.close();
+        copyFileSync(dbPath, previousSavedAs);
+        for (const suffix of ['-wal', '-shm']) if (existsSync(dbPath + suffix)) copyFileSync(dbPath + suffix, previousSavedAs + suffix);
+      } else {
+        const hasPanels = target.prepare("SELECT count(*) AS n FROM sqlite_master WHERE type = 'table' AND name = 'panel'").get() as { n: number };
+        const nPanels = hasPanels.n ? (target.prepare('SELECT count(*) AS n FROM panel').get() as { n: number }).n : 0;
+        if (nPanels > 0 && !options.force) {
+          throw new BackupError(`The store ${basename(dbPath)} already holds ${nPanels} panel${nPanels === 1 ? '' : 's'}; add --force to replace it (it is saved beside itself first).`);
+        }
+        if (nPanels > 0) {
+          previousSavedAs = `${dbPath}.before-restore-${stamp}`;
+          await target.backup(previousSavedAs);
+        }
       }
     } finally {
-      target.close();
+      if (target.open) target.close();
     }
   } else {
     mkdirSync(dirname(dbPath), { recursive: true });
@@ -139,7 +200,14 @@ export async function restoreStore(fromPath: string, dbPath: string, options: { 
   // The backup API copies every page of the source into the destination under its locks.
   const source = new BetterSqlite3(fromPath, { readonly: true, fileMustExist: true });
   try {
-    await source.backup(dbPath);
+    try {
+      await source.backup(dbPath);
+    } catch (error) {
+      // A damaged destination header can stop the copy into it; it was saved above, so start afresh.
+      if (!targetDamaged) throw error;
+      for (const suffix of ['', '-wal', '-shm']) rmSync(dbPath + suffix, { force: true });
+      await source.backup(dbPath);
+    }
   } finally {
     source.close();
   }

@@ -94,6 +94,11 @@ export async function hashInput(input: InputSource): Promise<string> {
  * Imports one file into a panel. Never throws for bad input (problems come back in the
  * report, `ok: false`); throws only for faults of the store itself.
  */
+/** Today (UTC) by the request's clock: the reader notes session dates more than a year later. */
+function todayOf(request: ImportRequest): string {
+  return (request.now ?? (() => new Date()))().toISOString().slice(0, 10);
+}
+
 export async function importRatings(db: Database, request: ImportRequest): Promise<ImportReport> {
   // Scales known before reading: the reader checks every value against them. The write
   // phase takes the stored scales again under the write lock.
@@ -105,7 +110,7 @@ export async function importRatings(db: Database, request: ImportRequest): Promi
     const known = new Map<string, ScaleRange>(Object.entries(request.settings?.attributes ?? {}).map(([name, s]) => [name, { min: s.min, max: s.max }]));
     for (const [name, scale] of stored) known.set(name, scale);
     const scales: ScaleLookup = { known: [...known], fallback: request.scale ?? request.settings?.scale ?? null };
-    reading = readInWorker(request.input, { fileName: request.fileName, sheet: request.sheet, scales });
+    reading = readInWorker(request.input, { fileName: request.fileName, sheet: request.sheet, scales, today: todayOf(request) });
   }
   try {
     return await hashCheckAndImport(db, request, stored, reading);
@@ -140,5 +145,5 @@ async function hashCheckAndImport(db: Database, request: ImportRequest, stored: 
   if (earlier) return unchangedReport(db, eventsRequest, earlier);
   if (reading !== null) return importRatingBatches(db, eventsRequest, reading.batches);
   const scaleFor = (attribute: string): ScaleRange | null => stored.get(attribute) ?? scaleForNewAttribute(attribute, request.scale, request.settings) ?? null;
-  return importRatingBatches(db, eventsRequest, readCompactBatches(request.input, { fileName: request.fileName, sheet: request.sheet, scaleFor }));
+  return importRatingBatches(db, eventsRequest, readCompactBatches(request.input, { fileName: request.fileName, sheet: request.sheet, scaleFor, today: todayOf(request) }));
 }

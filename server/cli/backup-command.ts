@@ -5,11 +5,30 @@
 import { basename } from 'node:path';
 import type { Command } from 'commander';
 import { BackupError, backupStore, restoreStore, type BackupResult, type RestoreResult } from '../../store/backup.js';
+import { openStore, type Database } from '../../store/open-store.js';
+import { restoreAdvice, StoreDamagedError } from '../../store/store-health.js';
 import { CliError, resolveDbPath } from './cli-error.js';
 import { openStoreForCli } from './import-command.js';
 
+/** The source is checked when it opens: a backup of a damaged store would carry the damage on. */
+function openBackupSource(dbOption: string | undefined): Database {
+  const dbPath = resolveDbPath(dbOption);
+  try {
+    return openStore(dbPath, { ifDamaged: 'throw' });
+  } catch (error) {
+    if (error instanceof StoreDamagedError) {
+      const problems = error.health.problems;
+      throw new CliError(
+        `No backup was written: the source store ${dbPath} is damaged (SQLite's check found: ${problems[0]}${problems.length > 1 ? ` and ${problems.length - 1} more` : ''}). ` +
+          `A copy would carry the damage on. ${restoreAdvice(dbPath)}`,
+      );
+    }
+    return openStoreForCli(dbOption);
+  }
+}
+
 export async function runBackupCommand(options: { db?: string; out: string }): Promise<BackupResult> {
-  const db = openStoreForCli(options.db);
+  const db = openBackupSource(options.db);
   try {
     return await backupStore(db, options.out);
   } catch (error) {

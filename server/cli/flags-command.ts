@@ -5,12 +5,12 @@
  */
 import type { Command } from 'commander';
 import type { Flag } from '../../domain/flags.js';
-import { openStore } from '../../store/open-store.js';
 import { findPanel, listSessionVersions } from '../../store/fits-sessions.js';
 import { listCurrentFlagObjects, loadFlagBuild } from '../../store/monitor-flags.js';
 import { createFitPool } from '../fit-pool.js';
 import { panelDataSignature, refitPanel } from '../refit.js';
-import { CliError, resolveDbPath } from './cli-error.js';
+import { CliError } from './cli-error.js';
+import { openStoreForCli } from './import-command.js';
 
 /** One line per flag for people: severity, kind, who/what, where it starts, the sentence. */
 export function formatFlagsText(flags: Flag[]): string {
@@ -34,7 +34,7 @@ export function registerFlagsCommand(program: Command): void {
       if (options.format !== 'json' && options.format !== 'text') {
         throw new CliError(`panel-steward flags: --format must be json or text, not "${options.format}".`, 2);
       }
-      const db = openStore(resolveDbPath(options.db));
+      const db = openStoreForCli(options.db);
       try {
         const panel = findPanel(db, options.panel);
         if (!panel) throw new CliError(`panel-steward flags: No panel named "${options.panel}" in this store.`, 2);

@@ -9,6 +9,8 @@ import { MAX_LISTED_PROBLEMS, type InputFinding, type InputProblem } from '../..
 import type { ScaleRange } from '../../domain/ratings.js';
 import { importRatings, fileInput, type ImportReport } from '../../store/import-ratings.js';
 import { openStore, type Database } from '../../store/open-store.js';
+import { checkName } from '../../ingest/names.js';
+import { StoreDamagedError } from '../../store/store-health.js';
 import { PanelConfigError, readPanelConfigFile, withReferenceProducts, type PanelConfigFile } from '../../store/panel-config.js';
 import { CliError, resolveDbPath } from './cli-error.js';
 
@@ -69,6 +71,8 @@ export function openStoreForCli(dbOption: string | undefined): Database {
   try {
     return openStore(resolveDbPath(dbOption));
   } catch (error) {
+    // Names the store path and the way out; nothing was written.
+    if (error instanceof StoreDamagedError) throw new CliError(error.message);
     // File-system errors name the path; say what to check instead.
     if (error instanceof Error && 'code' in error && typeof error.code === 'string' && error.code.startsWith('E')) {
       throw new CliError(`The store could not be opened (${error.code}): check that the folder of --db (or PANEL_STEWARD_DB) can be written.`);
@@ -83,12 +87,14 @@ export async function runImportCommand(file: string, options: ImportCommandOptio
   const fileName = basename(file);
   if (!existsSync(file) || !statSync(file).isFile()) throw new CliError(`${fileName}: no such file.`, 2);
   if (!options.panel || options.panel.trim() === '') throw new CliError('--panel NAME is required.', 2);
+  const panelName = checkName(options.panel.trim(), 'panel name');
+  if (!panelName.ok) throw new CliError(`--panel: ${panelName.reason}`, 2);
   const scale = options.scale === undefined ? undefined : parseScaleOption(options.scale);
   const settings = await loadSettings(options.settings, options.reference ?? []);
   const db = openStoreForCli(options.db);
   try {
     const report = await importRatings(db, {
-      panel: options.panel.trim(),
+      panel: panelName.name,
       fileName,
       source: 'cli',
       input: fileInput(file),

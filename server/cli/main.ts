@@ -15,6 +15,7 @@ const COMMAND_MODULES: Record<string, () => Promise<(program: Command) => void>>
   restore: async () => (await import('./backup-command.js')).registerBackupCommands,
   refit: async () => (await import('./refit-command.js')).registerRefitCommand,
   flags: async () => (await import('./flags-command.js')).registerFlagsCommand,
+  check: async () => (await import('./check-command.js')).registerCheckCommand,
 };
 
 const program = new Command();

@@ -1,10 +1,10 @@
 /** `panel-steward refit --panel NAME [--db PATH]`: recompute a panel's fits, period fits and flags. */
 import type { Command } from 'commander';
 import { SingleBar, Presets } from 'cli-progress';
-import { openStore } from '../../store/open-store.js';
 import { createFitPool } from '../fit-pool.js';
 import { PanelNotFoundError, refitPanel, type RefitProgress, type RefitSummary } from '../refit.js';
-import { CliError, resolveDbPath } from './cli-error.js';
+import { CliError } from './cli-error.js';
+import { openStoreForCli } from './import-command.js';
 
 const PHASE_NAMES: Record<RefitProgress['phase'], string> = {
   sessions: 'session fits',
@@ -67,7 +67,7 @@ export function registerRefitCommand(program: Command): void {
     .option('--changed-only', 'recompute only what changed since the last refit')
     .option('--threads <n>', 'worker threads (default: number of cores)', (v) => Number.parseInt(v, 10))
     .action(async (options: { panel: string; db?: string; changedOnly?: boolean; threads?: number }) => {
-      const db = openStore(resolveDbPath(options.db));
+      const db = openStoreForCli(options.db);
       const runner = createFitPool({ threads: options.threads });
       const progress = makeProgressReporter();
       try {

@@ -9,7 +9,8 @@
 import { randomBytes } from 'node:crypto';
 import type { Command } from 'commander';
 import type { FastifyInstance } from 'fastify';
-import { openStore, type Database } from '../../store/open-store.js';
+import { openStore, storeHealthOf, type Database } from '../../store/open-store.js';
+import { damagedStoreMessage } from '../../store/store-health.js';
 import { readPanelSummaries } from '../../store/read-panels.js';
 import { buildApp, DEFAULT_UPLOAD_LIMIT_BYTES } from '../app.js';
 import { isLoopbackHost } from '../plugins/security.js';
@@ -84,12 +85,16 @@ export async function startServer(options: ServeOptions, out: Output = process.s
 
   let db: Database;
   try {
-    db = openStore(dbPath);
+    // A damaged store is served read-only: /healthz answers 503 and every write is refused.
+    db = openStore(dbPath, { ifDamaged: 'read-only' });
   } catch (error) {
     throw new CliError(`Could not open the store ${dbPath}: ${error instanceof Error ? error.message : String(error)}`);
   }
 
-  if (options.demo && readPanelSummaries(db).length === 0) {
+  const health = storeHealthOf(db);
+  if (!health.ok) out.write(`Warning: ${damagedStoreMessage(dbPath, health.problems)}\nServing it read-only until then.\n`);
+
+  if (options.demo && health.ok && readPanelSummaries(db).length === 0) {
     out.write('The store is empty: loading the demo panel (this takes a few seconds)…\n');
     const reports = await (await demoLoader())(db);
     const nRatings = reports.reduce((sum, report) => sum + report.counts.ratings, 0);

@@ -4,6 +4,7 @@
  * plugins (including later ones such as server/routes/monitor*.ts) are typed.
  */
 import type { Database } from 'better-sqlite3';
+import type { StoreHealth } from '../../store/store-health.js';
 import type { ImportQueue } from './import-queue.js';
 import type { NavSection, ViewRenderer } from './views.js';
 
@@ -32,6 +33,8 @@ declare module 'fastify' {
     /** Sections of the site navigation; route modules push their own. */
     navSections: NavSection[];
     importQueue: ImportQueue;
+    /** Found when the store was opened (or when a request met a damaged page); writes are refused while not ok. */
+    storeHealth: StoreHealth;
   }
   interface FastifyRequest {
     /** Temporary files written for this request; removed when the response is sent. */

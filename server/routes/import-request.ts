@@ -8,6 +8,7 @@ import type { FastifyInstance } from 'fastify';
 import type { ScaleRange } from '../../domain/ratings.js';
 import type { ImportReport } from '../../store/import-core.js';
 import { importRatings } from '../../store/import-ratings.js';
+import { checkName } from '../../ingest/names.js';
 import { validatePanelConfig, type PanelConfigFile } from '../../store/panel-config.js';
 import { AppError, type ErrorItem } from '../errors.js';
 import type { ReceivedFile } from '../plugins/uploads.js';
@@ -74,9 +75,14 @@ export function parseImportOptions(source: Record<string, unknown>): ImportOptio
   return { scale, quarantine, sheet: sheetText === '' ? undefined : sheetText };
 }
 
-/** A panel name from a path or a form field: 1–200 characters, no control characters. */
+/**
+ * A panel name from a path or a form field: 1–200 characters, no control, invisible or bidi
+ * characters, not only punctuation (not "." or ".."); returned in Unicode NFC.
+ */
 export function checkPanelName(raw: unknown): string {
   const name = textOption(raw);
+  const checked = checkName(name, 'panel name');
+  if (!checked.ok) throw new AppError('UPLOAD_BAD_OPTION', { option: 'panel', detail: checked.reason }, [{ column: 'panel', message: checked.reason }]);
   // eslint-disable-next-line no-control-regex
   if (name === '' || name.length > MAX_NAME_CHARS || /[\u0000-\u001f\u007f]/.test(name)) {
     throw new AppError(
@@ -85,7 +91,7 @@ export function checkPanelName(raw: unknown): string {
       [{ column: 'panel', message: `Give the panel a name of 1 to ${MAX_NAME_CHARS} characters.` }],
     );
   }
-  return name;
+  return checked.name;
 }
 
 /**

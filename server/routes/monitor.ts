@@ -113,7 +113,8 @@ function thresholdsFromForm(body: unknown, fields: ThresholdFieldInput[]): Recor
 async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesOptions): Promise<void> {
   const db: Database = app.db;
   const runner = options.runner ?? createFitPool();
-  failInterruptedRefitJobs(db);
+  // A damaged store is read-only: no job bookkeeping, no background refits.
+  if (app.storeHealth.ok) failInterruptedRefitJobs(db);
   const service = new RefitService(db, runner, {
     onError: (error, job) => app.log.error({ err: error, jobId: job.id }, 'refit failed'),
   });
@@ -133,6 +134,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
 
   /** Pages read stored results; when they are older than the ratings, a refit is queued. */
   const scheduleIfStale = (panelName: string, panelId: number) => {
+    if (!app.storeHealth.ok) return;
     const status = refitStatus(db, panelId);
     if (status.isStale && status.status !== 'queued' && status.status !== 'running') service.schedule(panelName, 'stale results');
   };

@@ -2,9 +2,16 @@
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import type { FastifyInstance } from 'fastify';
+import { storeDamagedError } from '../store-damage.js';
 
 export async function serviceRoutes(app: FastifyInstance): Promise<void> {
-  app.get('/healthz', async () => {
+  app.get('/healthz', async (_request, reply) => {
+    // Non-200 with the reason when the store opened damaged (or a request met a damaged page);
+    // JSON whatever the client accepts, as monitoring tools read it.
+    if (!app.storeHealth.ok) {
+      const error = storeDamagedError(app.storeHealth);
+      return reply.code(error.status).type('application/json; charset=utf-8').send(error.toBody());
+    }
     app.db.prepare('SELECT 1').get(); // the store answers
     return { ok: true, status: 'ok', importsWaiting: app.importQueue.size };
   });

@@ -29,6 +29,7 @@ describe('validation-long.csv (scale 0–10)', async () => {
       [18, null, 'row-field-count'], // fields missing
       // row 19 is blank and skipped
       [20, 'value', 'not-a-number'], // "1,500": decimal mark or thousands separator?
+      [22, 'session', 'name-invalid'], // "two⏎lines": a line break in a name (a control character)
       [23, 'value', 'out-of-scale'], // 1100 (line 24: row 22 spans two lines): neither /10 nor /100 is on the scale
     ]);
     expect(r.problems.every((p) => p.file === 'validation-long.csv')).toBe(true);
@@ -45,11 +46,10 @@ describe('validation-long.csv (scale 0–10)', async () => {
     expect(byRow.get(17)!.message).toMatch(/8 cells but the header row has 7 columns/);
   });
 
-  it('keeps the good rows: decimal comma in quotes, a quoted line break, HTML and formula text as data, dotted dates', () => {
+  it('keeps the good rows: decimal comma in quotes, HTML and formula text as data, dotted dates; reads past a quoted line break', () => {
     expect(r.ratingEvents.map((e) => [e.row, e.rating.session, e.rating.assessor, e.rating.product, e.rating.date, e.rating.value])).toEqual([
       [2, 'W01', 'A01', 'Ref', '2025-03-04', 5.5],
       [21, 'W01', 'A01', 'Ref', '2025-03-04', 4.5],
-      [22, 'two\nlines', 'A01', 'Ref', '2025-03-04', 5],
       [24, 'W01', 'A01', '<b onmouseover="x">B</b>', '2025-03-04', 5],
       [25, 'W01', '=HYPERLINK("x")', 'Ref', '2025-03-04', 5],
       [26, 'W01', 'A01', 'Ref', '2025-03-04', 5],
@@ -60,7 +60,7 @@ describe('validation-long.csv (scale 0–10)', async () => {
   it('hands each rejected value cell to the quarantine once, with its raw text', () => {
     const cellRows = r.problemEvents.filter((e) => e.cell !== null).map((e) => e.problem.row);
     // Field-count rows have no reliable cells; every other problem row carries its one value cell.
-    expect(cellRows).toEqual([3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14, 15, 16, 20, 23]);
+    expect(cellRows).toEqual([3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13, 14, 15, 16, 20, 22, 23]);
     const shift = r.problemEvents.find((e) => e.problem.row === 14)!;
     expect(shift.cell).toEqual({ session: 'W01', date: '2025-03-04', assessor: 'A01', product: 'Ref', replicate: '1', attribute: 'crunchy', rawValue: '73', code: null });
     expect(r.problemEvents.find((e) => e.problem.row === 12)!.cell!.rawValue).toBeNull();

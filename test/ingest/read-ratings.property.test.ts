@@ -17,6 +17,7 @@ import iconv from 'iconv-lite';
 import { describe, expect, it } from 'vitest';
 import type { Rating } from '../../domain/ratings.js';
 import { HEADER_SYNONYMS, normaliseHeaderName } from '../../ingest/headers.js';
+import { checkName } from '../../ingest/names.js';
 import { UNEXPECTED_READ_FAILURE } from '../../ingest/read-ratings.js';
 import { neutralizeFormulaText } from '../../ingest/spreadsheet-safe.js';
 import { readAll, SCALE_0_10, type ReadResult } from './helpers.js';
@@ -33,6 +34,8 @@ const identifier = fc
   .array(nameChar, { minLength: 1, maxLength: 6 })
   .map((parts) => parts.join(''))
   .filter((s) => s.trim() === s && s !== '');
+/** Names (session, assessor, product, attribute): identifiers the name rules accept (no tab or line break, not punctuation only). */
+const name = identifier.filter((s) => checkName(s, 'name').ok);
 
 const dateText = fc
   .integer({ min: Date.UTC(1990, 0, 1), max: Date.UTC(2090, 11, 31) })
@@ -56,15 +59,15 @@ interface DataSet {
 
 const dataSet: fc.Arbitrary<DataSet> = fc
   .record({
-    attributes: fc.uniqueArray(identifier, { minLength: 1, maxLength: 4, selector: normaliseHeaderName }),
+    attributes: fc.uniqueArray(name, { minLength: 1, maxLength: 4, selector: normaliseHeaderName }),
     withCode: fc.boolean(),
     nRows: fc.integer({ min: 1, max: 8 }),
     seedRows: fc.array(
       fc.record({
-        session: identifier,
+        session: name,
         date: dateText,
-        assessor: identifier,
-        product: identifier,
+        assessor: name,
+        product: name,
         replicate: fc.integer({ min: 1, max: 12 }),
         code: identifier,
         values: fc.array(fc.option(fc.integer({ min: 0, max: 1000 }).map((n) => n / 100), { freq: 6 }), { minLength: 4, maxLength: 4 }),

@@ -5,6 +5,8 @@ import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { backupStore, BackupError, integrityCheck, restoreStore } from '../../store/backup.js';
 import { fileInput, importRatings } from '../../store/import-ratings.js';
 import { openStore, type Database } from '../../store/open-store.js';
+import { listMigrations } from '../../store/migrate.js';
+import { packageRoot } from '../../store/package-root.js';
 import { exportText, tempFolder } from './helpers.js';
 import { writeSyntheticLongCsv } from './synthetic-ratings.js';
 
@@ -90,5 +92,47 @@ describe('online backup', () => {
     const forced = await restoreStore(out, target, { force: true, now: () => new Date('2026-03-01T10:00:00Z') });
     expect(forced.previousSavedAs).toMatch(/target\.db\.before-restore-2026-03-01T10-00-00-000Z$/);
     expect(existsSync(forced.previousSavedAs!)).toBe(true);
+  });
+});
+
+describe('restore checks what it restores', () => {
+  it('refuses a plain SQLite database, a look-alike with the wrong columns, and a store from a newer version', async () => {
+    const target = join(folder, 'target.db');
+    const plain = join(folder, 'plain.db');
+    const p = new BetterSqlite3(plain);
+    p.exec('CREATE TABLE notes (id INTEGER PRIMARY KEY, body TEXT); INSERT INTO notes (body) VALUES (\'hello\');');
+    p.close();
+    await expect(restoreStore(plain, target)).rejects.toThrow(/plain\.db cannot be restored: the file is an SQLite database but not a panel-steward store/);
+
+    // Tables with the store's names but not its columns (the case that used to pass).
+    const lookalike = join(folder, 'lookalike.db');
+    const l = new BetterSqlite3(lookalike);
+    l.exec("CREATE TABLE schema_migrations (name TEXT PRIMARY KEY, applied_at TEXT); INSERT INTO schema_migrations VALUES ('0001_store.sql', 'x'); CREATE TABLE panel (id INTEGER PRIMARY KEY); CREATE TABLE rating (id INTEGER PRIMARY KEY);");
+    l.close();
+    await expect(restoreStore(lookalike, target)).rejects.toThrow(/not a panel-steward store of a known schema: .*the table panel lacks the columns created_at, name, settings_json/);
+
+    const newer = join(folder, 'newer.db');
+    await backupStore(db, newer);
+    const n = new BetterSqlite3(newer);
+    n.prepare('INSERT INTO schema_migrations (name, applied_at) VALUES (?, ?)').run('9999_from_the_future.sql', '2030-01-01T00:00:00Z');
+    n.close();
+    const known = listMigrations(join(packageRoot(), 'migrations'));
+    await expect(restoreStore(newer, target)).rejects.toThrow(
+      `newer version of panel-steward (its schema is at 9999_from_the_future.sql; this version knows up to ${known[known.length - 1]})`,
+    );
+    expect(existsSync(target)).toBe(false);
+
+    // A backup from before the latest migration restores and is brought up to date when opened.
+    const older = join(folder, 'older.db');
+    await backupStore(db, older);
+    const o = new BetterSqlite3(older);
+    const last = known[known.length - 1];
+    o.prepare('DELETE FROM schema_migrations WHERE name = ?').run(last);
+    o.close();
+    // (only the record is removed: the later tables are extra, which the check allows)
+    await restoreStore(older, target);
+    const opened = openStore(target);
+    expect((opened.prepare('SELECT count(*) AS n FROM schema_migrations').get() as { n: number }).n).toBe(known.length);
+    opened.close();
   });
 });
