@@ -11,6 +11,7 @@
  * diagnostics are asked for.
  */
 import type { FitJson } from '../../domain/analysis.js';
+import { LevelCoder } from '../../domain/level-coder.js';
 import type { Observation } from '../../domain/ratings.js';
 import { fUpperTail } from '../distributions/index.js';
 import { balancedAnova, type BalancedAnova } from './balanced-anova.js';
@@ -191,23 +192,12 @@ function closedFormJson(
  */
 function codeLevels(values: readonly string[]): { levels: string[]; codes: Int32Array } {
   const n = values.length;
-  const firstSeen = new Map<string, number>();
+  const coder = new LevelCoder<string>();
   const codes = new Int32Array(n);
-  let last: string | undefined;
-  let lastCode = -1;
-  for (let i = 0; i < n; i++) {
-    const value = values[i];
-    if (value !== last) {
-      let code = firstSeen.get(value);
-      if (code === undefined) firstSeen.set(value, (code = firstSeen.size));
-      last = value;
-      lastCode = code;
-    }
-    codes[i] = lastCode;
-  }
-  const levels = [...firstSeen.keys()].sort(compareLevels);
+  for (let i = 0; i < n; i++) codes[i] = coder.code(values[i]);
+  const levels = [...coder.names].sort(compareLevels);
   const sortedCode = new Int32Array(levels.length);
-  levels.forEach((level, position) => (sortedCode[firstSeen.get(level)!] = position));
+  levels.forEach((level, position) => (sortedCode[coder.find(level)!] = position));
   for (let i = 0; i < n; i++) codes[i] = sortedCode[codes[i]];
   return { levels, codes };
 }

@@ -10,6 +10,7 @@ import { existsSync, statSync } from 'node:fs';
 import { basename } from 'node:path';
 import type { Command } from 'commander';
 import { analyzeRatingsWithNotes } from '../../analysis/analyze-ratings.js';
+import { LevelCoder } from '../../domain/level-coder.js';
 import { MAX_LISTED_PROBLEMS, type InputFinding, type InputProblem } from '../../domain/problems.js';
 import type { Observation } from '../../domain/ratings.js';
 import { readRatingBatches } from '../../ingest/read-ratings.js';
@@ -112,7 +113,7 @@ function checkDuplicates(observations: readonly Observation[], fileName: string)
  */
 function ratingKeyIndex(observations: readonly Observation[]): Int32Array {
   const n = observations.length;
-  const coders = [new LevelCoder(), new LevelCoder(), new LevelCoder(), new LevelCoder(), new LevelCoder()];
+  const coders = [new LevelCoder<string | number>(), new LevelCoder<string | number>(), new LevelCoder<string | number>(), new LevelCoder<string | number>(), new LevelCoder<string | number>()];
   const codes = coders.map(() => new Int32Array(n));
   const [session, attribute, assessor, product, replicate] = coders;
   const [sessionCodes, attributeCodes, assessorCodes, productCodes, replicateCodes] = codes;
@@ -143,27 +144,6 @@ function ratingKeyIndex(observations: readonly Observation[]): Int32Array {
     firstRow[i] = firstOfKey[keys[i]];
   }
   return firstRow;
-}
-
-/** Codes the values of one key column 0, 1, 2, … in first-seen order. */
-class LevelCoder {
-  private readonly codeOf = new Map<string | number, number>();
-  private last: string | number | undefined;
-  private lastCode = -1;
-
-  get size(): number {
-    return this.codeOf.size;
-  }
-
-  code(value: string | number): number {
-    // Consecutive rows mostly repeat session, attribute and assessor: compare before hashing.
-    if (value === this.last && this.lastCode >= 0) return this.lastCode;
-    let code = this.codeOf.get(value);
-    if (code === undefined) this.codeOf.set(value, (code = this.codeOf.size));
-    this.last = value;
-    this.lastCode = code;
-    return code;
-  }
 }
 
 /** Replaces each key by a dense code (first-seen order); returns the number of codes. */
