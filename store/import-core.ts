@@ -21,6 +21,7 @@ import type { InputFinding, InputProblem, ProblemCode } from '../domain/problems
 import { LevelCoder } from '../domain/level-coder.js';
 import { MAX_LISTED_PROBLEMS } from '../domain/problems.js';
 import type { ImportSource, Rating, ScaleRange } from '../domain/ratings.js';
+import { classifyRepeat } from '../ingest/duplicate-rule.js';
 import type { RawCell, ReadEvent } from '../ingest/read-ratings.js';
 import {
   compactBatches,
@@ -310,7 +311,7 @@ export async function importRatingBatches(
         return;
       }
       const [session, attribute, assessor, product] = [sessions.names[key[0]], attributes.names[key[1]], assessors.names[key[2]], products.names[key[3]]];
-      if (earlier.value === value && earlier.code === code) {
+      if (classifyRepeat(earlier, { value, code }) === 'exact-repeat') {
         // An exact copy: keep one and name it once per row (a wide row repeats for every attribute).
         if (row !== lastDuplicateRow) {
           lastDuplicateRow = row;
