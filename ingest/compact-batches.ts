@@ -8,6 +8,7 @@
  * A batch lists the names it uses for the first time (`newNames`), in id order, so a decoder
  * that applies batches in order knows every name an id stands for.
  */
+import { LevelCoder } from '../domain/level-coder.js';
 import { readIntoSink, type InputSource, type ReadEvent, type ReadRatingsOptions, type ReadSink } from './read-ratings.js';
 
 /** Kinds of interned names, in the order of CompactBatch.newNames. */
@@ -52,49 +53,14 @@ export interface CompactBatch {
   maxRow: number;
 }
 
-/** Interns names to dense 1-based ids, remembering the ones not yet handed on. */
-class NameIds {
-  private readonly ids = new Map<string, number>();
-  private readonly names: string[] = [''];
-  /** The id that followed each id last time: files repeat their order (attributes, codes, assessors). */
-  private readonly follower: number[] = [0];
-  private fresh: string[] = [];
-  private lastName = '';
-  private lastId = 0;
-
-  id(name: string): number {
-    // Consecutive ratings mostly repeat a name, or give the one that followed it last time:
-    // a comparison or two instead of hashing the name.
-    if (name === this.lastName && this.lastId !== 0) return this.lastId;
-    const guess = this.follower[this.lastId];
-    let id: number | undefined = guess !== 0 && this.names[guess] === name ? guess : this.ids.get(name);
-    if (id === undefined) {
-      id = this.names.length;
-      this.ids.set(name, id);
-      this.names.push(name);
-      this.follower.push(0);
-      this.fresh.push(name);
-    }
-    this.follower[this.lastId] = id;
-    this.lastName = name;
-    this.lastId = id;
-    return id;
-  }
-
-  takeFresh(): string[] {
-    const fresh = this.fresh;
-    this.fresh = [];
-    return fresh;
-  }
-}
-
 /**
  * Builds compact batches from a reader's events (a ReadSink: ratings arrive as fields, with no
  * object per rating); one builder per file (ids continue across batches). The typed arrays
  * grow as needed and are reused; take() hands over exact-size copies.
  */
 export class CompactBuilder implements ReadSink {
-  private readonly tables = NAME_KINDS.map(() => new NameIds());
+  // Ids are 1-based: 0 stands for "no code".
+  private readonly tables = NAME_KINDS.map(() => new LevelCoder<string>(''));
   private keys = new Int32Array(1024 * KEY_FIELDS);
   private values = new Float64Array(1024);
   private nRatings = 0;
@@ -119,15 +85,15 @@ export class CompactBuilder implements ReadSink {
     const tables = this.tables;
     const keysOut = this.keys;
     const at = r * KEY_FIELDS;
-    keysOut[at + F_SESSION] = tables[KIND_SESSION].id(session);
-    keysOut[at + F_ATTRIBUTE] = tables[KIND_ATTRIBUTE].id(attribute);
-    keysOut[at + F_ASSESSOR] = tables[KIND_ASSESSOR].id(assessor);
-    keysOut[at + F_PRODUCT] = tables[KIND_PRODUCT].id(product);
+    keysOut[at + F_SESSION] = tables[KIND_SESSION].code(session);
+    keysOut[at + F_ATTRIBUTE] = tables[KIND_ATTRIBUTE].code(attribute);
+    keysOut[at + F_ASSESSOR] = tables[KIND_ASSESSOR].code(assessor);
+    keysOut[at + F_PRODUCT] = tables[KIND_PRODUCT].code(product);
     keysOut[at + F_REPLICATE] = replicate;
     keysOut[at + F_ROW] = row;
-    keysOut[at + F_COLUMN] = tables[KIND_COLUMN].id(column);
-    keysOut[at + F_CODE] = code === null || code === undefined ? 0 : tables[KIND_CODE].id(code);
-    keysOut[at + F_DATE] = tables[KIND_DATE].id(date);
+    keysOut[at + F_COLUMN] = tables[KIND_COLUMN].code(column);
+    keysOut[at + F_CODE] = code === null || code === undefined ? 0 : tables[KIND_CODE].code(code);
+    keysOut[at + F_DATE] = tables[KIND_DATE].code(date);
     this.values[r] = value;
     if (row > this.maxRow) this.maxRow = row;
     this.nRatings = r + 1;

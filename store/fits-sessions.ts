@@ -6,6 +6,7 @@ import type { Database } from 'better-sqlite3';
 import type { PackedRatings } from '../domain/packed-ratings.js';
 import type { InputFinding } from '../domain/problems.js';
 import type { Observation, Rating, ScaleRange } from '../domain/ratings.js';
+import { readSessionRatingRows } from './read-sessions.js';
 
 export interface PanelRow {
   id: number;
@@ -69,17 +70,7 @@ export interface SessionRatings {
 }
 
 export function loadSessionRatings(db: Database, session: SessionVersionRow): SessionRatings {
-  const rows = db
-    .prepare(
-      `SELECT at.name AS attribute, a.code AS assessor, p.code AS product, r.replicate, r.value, r.sample_code AS code
-         FROM rating r
-         JOIN attribute at ON at.id = r.attribute_id
-         JOIN assessor a ON a.id = r.assessor_id
-         JOIN product p ON p.id = r.product_id
-        WHERE r.session_id = ?
-        ORDER BY at.name, a.code, p.code, r.replicate`,
-    )
-    .all(session.id) as { attribute: string; assessor: string; product: string; replicate: number; value: number; code: string | null }[];
+  const rows = readSessionRatingRows(db, session.id, 'assessor-first');
   const byAttribute = new Map<string, (Observation & { code: string | null })[]>();
   for (const row of rows) {
     let list = byAttribute.get(row.attribute);

@@ -18,8 +18,10 @@
  */
 import type { Database } from 'better-sqlite3';
 import type { InputFinding, InputProblem, ProblemCode } from '../domain/problems.js';
+import { LevelCoder } from '../domain/level-coder.js';
 import { MAX_LISTED_PROBLEMS } from '../domain/problems.js';
 import type { ImportSource, Rating, ScaleRange } from '../domain/ratings.js';
+import { classifyRepeat } from '../ingest/duplicate-rule.js';
 import type { RawCell, ReadEvent } from '../ingest/read-ratings.js';
 import {
   compactBatches,
@@ -175,18 +177,6 @@ function ensurePanel(db: Database, name: string, nowIso: string): number {
   return (db.prepare('SELECT id FROM panel WHERE name = ?').get(name) as { id: number }).id;
 }
 
-/** The names a compact batch's ids stand for (ids 1-based, in the order the reader met them). */
-class NameList {
-  readonly ids = new Map<string, number>();
-  readonly names: string[] = [''];
-  add(fresh: readonly string[]): void {
-    for (const name of fresh) {
-      this.ids.set(name, this.names.length);
-      this.names.push(name);
-    }
-  }
-}
-
 interface SessionInFile {
   date: string;
   /** Id of the date in the reader's name list. */
@@ -276,7 +266,8 @@ export async function importRatingBatches(
       attribute TEXT, raw_value TEXT, code TEXT, reason_code TEXT NOT NULL, reason TEXT NOT NULL
     );`);
   try {
-    const nameLists = NAME_KINDS.map(() => new NameList());
+    // The names a compact batch's ids stand for (ids 1-based, in the order the reader met them).
+    const nameLists = NAME_KINDS.map(() => new LevelCoder<string>(''));
     const [sessions, attributes, assessors, products, columns, codes, dates] = nameLists;
     const sessionInfo: SessionInFile[] = [undefined as unknown as SessionInFile];
     const dateConflictSeen = new Set<string>();
@@ -320,7 +311,7 @@ export async function importRatingBatches(
         return;
       }
       const [session, attribute, assessor, product] = [sessions.names[key[0]], attributes.names[key[1]], assessors.names[key[2]], products.names[key[3]]];
-      if (earlier.value === value && earlier.code === code) {
+      if (classifyRepeat(earlier, { value, code }) === 'exact-repeat') {
         // An exact copy: keep one and name it once per row (a wide row repeats for every attribute).
         if (row !== lastDuplicateRow) {
           lastDuplicateRow = row;
@@ -425,7 +416,7 @@ export async function importRatingBatches(
     };
     /** One batch, in reading order, in one staging transaction. */
     const flush = db.transaction((batch: CompactBatch) => {
-      for (let kind = 0; kind < nameLists.length; kind++) nameLists[kind].add(batch.newNames[kind] ?? []);
+      for (let kind = 0; kind < nameLists.length; kind++) nameLists[kind].codeAll(batch.newNames[kind] ?? []);
       if (batch.maxRow > maxRow) maxRow = batch.maxRow;
       counts.missingCells += batch.nMissing;
       const { keys, values, others } = batch;
@@ -591,13 +582,13 @@ interface WriteContext {
   nowIso: string;
   stage: string;
   held: string;
-  sessions: NameList;
-  attributes: NameList;
-  assessors: NameList;
-  products: NameList;
+  sessions: LevelCoder<string>;
+  attributes: LevelCoder<string>;
+  assessors: LevelCoder<string>;
+  products: LevelCoder<string>;
   /** Column headers and sample codes by the ids staged in `col` and `code`. */
-  columns: NameList;
-  codes: NameList;
+  columns: LevelCoder<string>;
+  codes: LevelCoder<string>;
   sessionInfo: SessionInFile[];
   scaleOf: Map<number, ScaleRange>;
   counts: ImportCounts;
@@ -701,7 +692,7 @@ function writeImport(db: Database, ctx: WriteContext): { importId: number; chang
     for (const code of productCodes) {
       const own = ctx.settings?.products?.[code];
       // The file's products come first, so a settings-only product's automatic id lies above the chosen ones.
-      const idx = products.ids.get(code);
+      const idx = products.find(code);
       const row = upsertProduct.get(chosenId(offsets.product, idx), panelId, code, own?.name ?? null, own?.role ?? null, own?.role ?? null) as { id: number };
       if (idx !== undefined) putDim(KIND_PRODUCT, idx, row.id);
     }

@@ -19,8 +19,20 @@ export interface SessionRatingRow {
   code: string | null;
 }
 
-/** Every stored rating of one session, ordered attribute → product → assessor → replicate. */
-export function readSessionRatingRows(db: Database, sessionId: number): SessionRatingRow[] {
+/**
+ * How a session's ratings are ordered within an attribute: by product for the page and the CSV
+ * (a reader compares assessors on one product), by assessor for the fits (each assessor's ratings
+ * together: the order the stored fits were computed from, so their last digits do not move).
+ */
+export type SessionRatingOrder = 'product-first' | 'assessor-first';
+
+const ORDER_BY: Record<SessionRatingOrder, string> = {
+  'product-first': 'at.name, p.code, a.code, r.replicate',
+  'assessor-first': 'at.name, a.code, p.code, r.replicate',
+};
+
+/** Every stored rating of one session, attribute first, then as `order` says, replicate last. */
+export function readSessionRatingRows(db: Database, sessionId: number, order: SessionRatingOrder = 'product-first'): SessionRatingRow[] {
   return db
     .prepare(
       `SELECT at.name AS attribute, a.code AS assessor, p.code AS product, r.replicate AS replicate,
@@ -30,7 +42,7 @@ export function readSessionRatingRows(db: Database, sessionId: number): SessionR
        JOIN assessor a ON a.id = r.assessor_id
        JOIN product p ON p.id = r.product_id
        WHERE r.session_id = ?
-       ORDER BY at.name, p.code, a.code, r.replicate`,
+       ORDER BY ${ORDER_BY[order]}`,
     )
     .all(sessionId) as SessionRatingRow[];
 }

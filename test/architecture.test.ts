@@ -87,7 +87,7 @@ const RULES: Record<string, FolderRule> = {
     mayUseNode: true,
   },
   analysis: {
-    // domain holds types and constant lists only, so value imports of it carry no logic.
+    // domain holds types, constant lists and the level coder only (see DOMAIN_CODE below).
     folders: ['domain', 'analysis'],
     typeOnlyFolders: [],
     // typebox: pure validation of threshold settings (no I/O).
@@ -147,7 +147,21 @@ function violations(folder: string): string[] {
   return problems;
 }
 
+/**
+ * domain/ is types and constant lists; the files here may also hold code because every stage
+ * needs the same one and it has no dependencies (DEVELOPERS.md).
+ */
+const DOMAIN_CODE = ['domain/level-coder.ts'];
+
 describe('folder import rules (DEVELOPERS.md)', () => {
+  it('domain/ holds no functions or classes outside the listed files', () => {
+    const problems = listFiles('domain', '.ts')
+      .filter((file) => !DOMAIN_CODE.includes(file))
+      .filter((file) => /^\s*(export\s+)?(async\s+)?(function|class)\s|=>/m.test(readFileSync(join(ROOT, file), 'utf8').replace(/\/\*[\s\S]*?\*\//g, '')))
+      .map((file) => `${file}: code in domain/ (types and constants only, or list it in DOMAIN_CODE with its reason)`);
+    expect(problems).toEqual([]);
+  });
+
   it.each(Object.keys(RULES))('%s/ imports only what it may', (folder) => {
     expect(violations(folder)).toEqual([]);
   });

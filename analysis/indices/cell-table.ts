@@ -21,6 +21,11 @@ export interface CellTable {
   /** Per assessor: Σ_p Σ_r (y_apr − m_ap)² and its df Σ_p (n_ap − 1). */
   withinSumOfSquares: Map<string, number>;
   withinDf: Map<string, number>;
+  /**
+   * Per product, the assessors who rated it (table order) and their cell means: built once with
+   * the table, since the leave-one-out indices ask for every (assessor, product) pair (A² P lookups).
+   */
+  productColumns: Map<string, { assessors: string[]; means: number[] }>;
 }
 
 export function buildCellTable(observations: readonly Observation[]): CellTable {
@@ -75,7 +80,15 @@ export function buildCellTable(observations: readonly Observation[]): CellTable 
     }
     panelMeans.set(product, mean(means));
   }
-  return { session, attribute, assessors, products, values, cellMeans, panelMeans, withinSumOfSquares, withinDf };
+  const productColumns = new Map(products.map((product) => [product, { assessors: [] as string[], means: [] as number[] }]));
+  for (const assessor of assessors) {
+    for (const [product, m] of cellMeans.get(assessor)!) {
+      const column = productColumns.get(product)!;
+      column.assessors.push(assessor);
+      column.means.push(m);
+    }
+  }
+  return { session, attribute, assessors, products, values, cellMeans, panelMeans, withinSumOfSquares, withinDf, productColumns };
 }
 
 /** Products the assessor rated, in table order. */
@@ -91,32 +104,11 @@ export function cellMean(table: CellTable, assessor: string, product: string): n
 
 /** Cell means of product p for every assessor who rated it, optionally leaving one assessor out. */
 export function cellMeansOfProduct(table: CellTable, product: string, leaveOut?: string): number[] {
-  const column = productColumns(table).get(product);
+  const column = table.productColumns.get(product);
   const means: number[] = [];
   if (!column) return means;
   for (let i = 0; i < column.assessors.length; i++) if (column.assessors[i] !== leaveOut) means.push(column.means[i]);
   return means;
-}
-
-/**
- * Per product, the assessors who rated it (table order) and their cell means: built once per
- * table, since the leave-one-out indices ask for every (assessor, product) pair (A² P lookups).
- */
-const productColumnsOf = new WeakMap<CellTable, Map<string, { assessors: string[]; means: number[] }>>();
-function productColumns(table: CellTable): Map<string, { assessors: string[]; means: number[] }> {
-  let columns = productColumnsOf.get(table);
-  if (!columns) {
-    columns = new Map(table.products.map((product) => [product, { assessors: [] as string[], means: [] as number[] }]));
-    for (const assessor of table.assessors) {
-      for (const [product, m] of table.cellMeans.get(assessor)!) {
-        const column = columns.get(product)!;
-        column.assessors.push(assessor);
-        column.means.push(m);
-      }
-    }
-    productColumnsOf.set(table, columns);
-  }
-  return columns;
 }
 
 /** M_p = mean over assessors of m_ap (null if nobody rated p). */

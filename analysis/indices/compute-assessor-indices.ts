@@ -5,7 +5,7 @@ import { balancedAnova } from './balanced-anova.js';
 import { buildCellTable } from './cell-table.js';
 import { contractIndices } from './contract-indices.js';
 import { assessorAnova } from './discrimination.js';
-import { levelOffset, pairedLevelTest } from './level.js';
+import { pairedLevelTest } from './level.js';
 import { repeatabilityTest } from './repeatability.js';
 import { scalingCoefficient, type ScalingOptions } from './scaling.js';
 import type { AssessorSessionIndices, IndexReason } from './types.js';
@@ -27,7 +27,11 @@ export function computeAssessorIndices(observations: readonly Observation[], opt
   if (observations.length === 0) return [];
   const table = buildCellTable(observations);
   const anova = balancedAnova(table);
+  // The five contract values come from the one flat-array implementation; the modules below
+  // add the tests and their df (their own estimates are the same numbers, used inside the tests).
+  const contract = contractIndices(observations);
   return table.assessors.map((assessor, assessorIndex) => {
+    const fields = contract[assessorIndex];
     const oneWay = assessorAnova(table, assessor);
     const level = pairedLevelTest(table, assessor);
     const repeatability = repeatabilityTest(table, assessor, oneWay);
@@ -48,23 +52,23 @@ export function computeAssessorIndices(observations: readonly Observation[], opt
       assessor,
       nProducts: oneWay.nProducts,
       nRatings: oneWay.nRatings,
-      offset: levelOffset(table, assessor),
+      offset: fields.offset,
       offsetT: level.t,
       offsetDf: level.df,
       offsetP: level.pValue,
-      discriminationF: oneWay.F,
+      discriminationF: fields.discriminationF,
       discriminationDfNumerator: oneWay.dfNumerator,
       discriminationDfDenominator: oneWay.dfDenominator,
-      discriminationP: oneWay.pValue,
-      repeatabilityMSE: oneWay.withinMeanSquare,
+      discriminationP: fields.discriminationP,
+      repeatabilityMSE: fields.repeatabilityMSE,
       repeatabilityDf: oneWay.withinDf > 0 ? oneWay.withinDf : null,
       repeatabilitySdRatio: repeatability.sdRatio,
       repeatabilityF: repeatability.F,
       repeatabilityP: repeatability.pValue,
-      agreementR: agreement.r,
+      agreementR: fields.agreementR,
       disagreementF: disagreement.F,
       disagreementP: disagreement.pValue,
-      scaling: scaling.scaling,
+      scaling: fields.scaling,
       scalingT: scaling.t,
       scalingP: scaling.pValue,
       reasons: [...reasons],
@@ -76,10 +80,9 @@ export function computeAssessorIndices(observations: readonly Observation[], opt
 export type AnalyzeContractIndices = AssessorIndicesJson;
 
 /**
- * The same values as the matching fields of `computeAssessorIndices` (same definitions, same
- * order of summation), without the tests the analyze JSON does not print (level, repeatability,
- * disagreement and scaling tests, the agreement interval), on flat arrays: for a year of sessions
- * those cost more than the fits.
+ * The matching fields of `computeAssessorIndices` (which takes them from here), without the tests
+ * the analyze JSON does not print (level, repeatability, disagreement and scaling tests, the
+ * agreement interval): for a year of sessions those cost more than the fits.
  */
 export function computeAnalyzeContractIndices(observations: readonly Observation[]): AnalyzeContractIndices[] {
   return contractIndices(observations);

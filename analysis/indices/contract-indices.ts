@@ -5,12 +5,15 @@ import { mean } from '../descriptive/mean.js';
 import { pearsonCorrelation } from '../descriptive/pearson-correlation.js';
 
 /**
- * The five analyze-contract indices of one session and attribute, one entry
- * per assessor in first-seen order: the definitions of levelOffset, assessorAnova,
- * agreementEstimate and scalingEstimate over buildCellTable, computed on flat arrays of cell
- * codes instead of maps of maps (a year of sessions: 6,240 assessor rows, about a third of the
- * analyze command's work before). Sums run in the same order as there, so the values are the
- * same to the last bit; a property test holds the two to equality.
+ * The five analyze-contract indices of one session and attribute, one entry per assessor in
+ * first-seen order; the only implementation of these values (computeAssessorIndices takes them
+ * from here and adds the tests). Level offset: over the products P_a the assessor rated, mean
+ * m_ap − mean M_p, with M_p the mean over all assessors (this one included) of the cell means; in
+ * a balanced design (A − 1)/A times the leave-one-out offset of methods §2.1. Discrimination: the
+ * one-way ANOVA of the assessor's ratings on product; agreement r with the leave-one-out panel;
+ * scaling cov/var over the assessor's products. Flat arrays of cell codes instead of maps of
+ * maps: a year of sessions is 6,240 assessor rows, and the map version was about a third of the
+ * analyze command's work. Checked against plain R in contract-indices.test.ts.
  *
  * Throws when the observations mix sessions or attributes or hold a non-finite value (a
  * programming error), with buildCellTable's messages.

@@ -2,7 +2,7 @@ export type { AssessorSessionIndices, IndexReason } from './types.js';
 export { computeAnalyzeContractIndices, computeAssessorIndices, type AnalyzeContractIndices, type AssessorIndicesOptions } from './compute-assessor-indices.js';
 export { buildCellTable, balancedReplicates, cellMean, panelMean, productsRatedBy, type CellTable } from './cell-table.js';
 export { balancedAnova, type BalancedAnova } from './balanced-anova.js';
-export { levelOffset, pairedLevelTest, pooledLevelTest, type LevelTest } from './level.js';
+export { pairedLevelTest, pooledLevelTest, type LevelTest } from './level.js';
 export { assessorAnova, type AssessorAnova } from './discrimination.js';
 export { repeatabilityTest, type RepeatabilityTest } from './repeatability.js';
 export { agreementCorrelation, agreementEstimate, interactionShare, disagreementTest, type AgreementCorrelation, type DisagreementTest } from './agreement.js';

@@ -2,22 +2,8 @@ import { tTwoSidedP } from '../distributions/index.js';
 import { mean } from '../descriptive/mean.js';
 import { sampleVariance } from '../descriptive/sample-variance.js';
 import type { BalancedAnova } from './balanced-anova.js';
-import { cellMean, cellMeansOfProduct, panelMean, productsRatedBy, type CellTable } from './cell-table.js';
+import { cellMean, cellMeansOfProduct, productsRatedBy, type CellTable } from './cell-table.js';
 import type { IndexReason } from './types.js';
-
-/**
- * Level offset as the analyze JSON contract defines it: over the products P_a the assessor
- * rated, mean m_ap − mean M_p, with M_p the mean over all assessors (this one included) of the
- * cell means. null when the assessor rated nothing. In a balanced design this is
- * (A − 1)/A times the leave-one-out offset L_a of the methods notes §2.1.
- */
-export function levelOffset(table: CellTable, assessor: string): number | null {
-  const products = productsRatedBy(table, assessor);
-  if (products.length === 0) return null;
-  const own = products.map((product) => cellMean(table, assessor, product) as number);
-  const panel = products.map((product) => panelMean(table, product) as number);
-  return mean(own) - mean(panel);
-}
 
 export interface LevelTest {
   /** L_a = mean over products of d_ap = m_ap − m_(−a)p (leave-one-out panel). */

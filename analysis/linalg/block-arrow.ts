@@ -40,6 +40,8 @@ export interface BlockArrowWorkspace {
   couplings: Float64Array[];
   /** Row-major n_B×n_B: A_B, then L_B. */
   border: Float64Array;
+  /** Work arrays of blockArrowInverseDiagonalAll, made on its first call with this workspace. */
+  inverseScratch?: InverseScratch;
 }
 
 export function makeBlockArrowLayout(blockSizes: number[], borderSize: number): BlockArrowLayout {
@@ -402,18 +404,17 @@ export function blockArrowInverseDiagonalAll(workspace: BlockArrowWorkspace, out
   }
 }
 
-/** Work arrays of blockArrowInverseDiagonalAll, kept per workspace (it is called once per gradient). */
-interface InverseScratch {
+/** Work arrays of blockArrowInverseDiagonalAll, kept in the workspace (it is called once per gradient). */
+export interface InverseScratch {
   borderT: Float64Array;
   denseRows: Int32Array;
   block: Float64Array;
   g: Float64Array;
   combined: Float64Array;
 }
-const inverseScratches = new WeakMap<BlockArrowWorkspace, InverseScratch>();
 
 function inverseScratch(workspace: BlockArrowWorkspace): InverseScratch {
-  let scratch = inverseScratches.get(workspace);
+  let scratch = workspace.inverseScratch;
   if (!scratch) {
     const { blockSizes, borderSize } = workspace.layout;
     const largest = Math.max(0, ...blockSizes);
@@ -424,7 +425,7 @@ function inverseScratch(workspace: BlockArrowWorkspace): InverseScratch {
       g: new Float64Array(largest * borderSize),
       combined: new Float64Array(borderSize),
     };
-    inverseScratches.set(workspace, scratch);
+    workspace.inverseScratch = scratch;
   }
   return scratch;
 }

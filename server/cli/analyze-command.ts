@@ -10,8 +10,10 @@ import { existsSync, statSync } from 'node:fs';
 import { basename } from 'node:path';
 import type { Command } from 'commander';
 import { analyzeRatingsWithNotes } from '../../analysis/analyze-ratings.js';
+import { LevelCoder } from '../../domain/level-coder.js';
 import { MAX_LISTED_PROBLEMS, type InputFinding, type InputProblem } from '../../domain/problems.js';
-import type { Observation } from '../../domain/ratings.js';
+import type { Observation, Rating } from '../../domain/ratings.js';
+import { classifyRepeat } from '../../ingest/duplicate-rule.js';
 import { readRatingBatches } from '../../ingest/read-ratings.js';
 import { CliError } from './cli-error.js';
 import type { CommandOutput } from './import-command.js';
@@ -40,13 +42,13 @@ export async function runAnalyzeCommand(file: string, options: AnalyzeCommandOpt
   const fileName = basename(file);
   if (!existsSync(file) || !statSync(file).isFile()) throw new CliError(`${fileName}: no such file.`, 2);
 
-  const observations: Observation[] = [];
+  const observations: Rating[] = [];
   const problems: InputProblem[] = [];
   const findings: InputFinding[] = [];
   // Batches, not single events: one await per batch instead of one per rating.
   for await (const batch of readRatingBatches({ path: file }, { fileName, sheet: options.sheet, scaleFor: () => 'unchecked' })) {
     for (const event of batch) {
-      // A Rating is an Observation (plus date and code, which the models ignore): no copy.
+      // A Rating is an Observation (plus date and code: the models ignore them, the duplicate rule reads the code): no copy.
       if (event.type === 'rating') observations.push(event.rating);
       else if (event.type === 'problem') problems.push(event.problem);
       else if (event.type === 'finding') findings.push(event.finding);
@@ -79,26 +81,27 @@ export async function runAnalyzeCommand(file: string, options: AnalyzeCommandOpt
 }
 
 /**
- * The same session, attribute, assessor, product and replicate twice with different values
- * cannot be analysed (the store refuses it too): one problem per later row that differs from the
- * first. Row numbers are not kept per rating, so the problem names the keys. An exact repeat is
- * counted once (`kept` holds the first of each key, in order).
+ * The import's duplicate rule (ingest/duplicate-rule.ts) over the file: a conflicting copy cannot
+ * be analysed, one problem per later row that differs from the first; an exact repeat is counted
+ * once (`kept` holds the first of each key, in order). Row numbers are not kept per rating, so
+ * the problem names the keys.
  */
-function checkDuplicates(observations: readonly Observation[], fileName: string): { problems: InputProblem[]; kept: Observation[] } {
+function checkDuplicates(observations: readonly Rating[], fileName: string): { problems: InputProblem[]; kept: Rating[] } {
   const firstRowOfKey = ratingKeyIndex(observations);
   const problems: InputProblem[] = [];
-  const kept: Observation[] = [];
+  const kept: Rating[] = [];
   observations.forEach((row, i) => {
     const first = firstRowOfKey[i];
     if (first === i) kept.push(row);
-    else if (observations[first].value !== row.value) {
+    else if (classifyRepeat(observations[first], row) === 'conflict') {
       const previous = observations[first].value;
+      const [earlierCode, laterCode] = [observations[first].code ?? null, row.code ?? null];
       problems.push({
         code: 'conflicting-duplicate',
         file: fileName,
         row: null,
         column: null,
-        message: `Session ${row.session}, assessor ${row.assessor}, product ${row.product}, replicate ${row.replicate}, attribute ${row.attribute} has two different values (${previous} and ${row.value}); keep one or number the replicates.`,
+        message: `Session ${row.session}, assessor ${row.assessor}, product ${row.product}, replicate ${row.replicate}, attribute ${row.attribute} has ${previous !== row.value ? `two different values (${previous} and ${row.value})` : `the value ${row.value} twice`}${earlierCode !== laterCode ? ` with sample codes ${earlierCode ?? 'none'} and ${laterCode ?? 'none'}` : ''}; keep one or number the replicates.`,
       });
     }
   });
@@ -112,7 +115,7 @@ function checkDuplicates(observations: readonly Observation[], fileName: string)
  */
 function ratingKeyIndex(observations: readonly Observation[]): Int32Array {
   const n = observations.length;
-  const coders = [new LevelCoder(), new LevelCoder(), new LevelCoder(), new LevelCoder(), new LevelCoder()];
+  const coders = [new LevelCoder<string | number>(), new LevelCoder<string | number>(), new LevelCoder<string | number>(), new LevelCoder<string | number>(), new LevelCoder<string | number>()];
   const codes = coders.map(() => new Int32Array(n));
   const [session, attribute, assessor, product, replicate] = coders;
   const [sessionCodes, attributeCodes, assessorCodes, productCodes, replicateCodes] = codes;
@@ -143,27 +146,6 @@ function ratingKeyIndex(observations: readonly Observation[]): Int32Array {
     firstRow[i] = firstOfKey[keys[i]];
   }
   return firstRow;
-}
-
-/** Codes the values of one key column 0, 1, 2, … in first-seen order. */
-class LevelCoder {
-  private readonly codeOf = new Map<string | number, number>();
-  private last: string | number | undefined;
-  private lastCode = -1;
-
-  get size(): number {
-    return this.codeOf.size;
-  }
-
-  code(value: string | number): number {
-    // Consecutive rows mostly repeat session, attribute and assessor: compare before hashing.
-    if (value === this.last && this.lastCode >= 0) return this.lastCode;
-    let code = this.codeOf.get(value);
-    if (code === undefined) this.codeOf.set(value, (code = this.codeOf.size));
-    this.last = value;
-    this.lastCode = code;
-    return code;
-  }
 }
 
 /** Replaces each key by a dense code (first-seen order); returns the number of codes. */

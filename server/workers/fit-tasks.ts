@@ -35,7 +35,8 @@ export function runSessionTask(task: SessionTask): SessionTaskResult {
     try {
       const result = fitSessionModel(a.observations);
       fit = result.json;
-      diagnostics = { ...result.diagnostics, withInteraction: result.withInteraction };
+      // No diagnostics: the closed form answered (the refit does not run the optimiser to confirm it).
+      diagnostics = { ...(result.diagnostics ?? { balancedFastPath: true }), withInteraction: result.withInteraction };
     } catch (error) {
       problem = problemSentence(error);
       findings.push({

@@ -180,6 +180,22 @@ describe('analyze: files with problems and odd data', () => {
     expect(JSON.parse(repeated.stdout).fits[0].n).toBe(rows.length);
   });
 
+  it('applies the import rule to sample codes: the same value under two codes is a conflict', async () => {
+    const rows = allObservations.filter((row) => row.session === 'S01');
+    const lines = ['session,date,assessor,product,replicate,attribute,value,code'];
+    for (const row of rows) lines.push([row.session, '2026-03-03', row.assessor, row.product, row.replicate, row.attribute, row.value, `C${row.product}`].join(','));
+    const first = rows[0];
+    const withSecondCode = [...lines, [first.session, '2026-03-03', first.assessor, first.product, first.replicate, first.attribute, first.value, 'X999'].join(',')];
+    const path = join(folder, 'two-codes.csv');
+    writeFileSync(path, `${withSecondCode.join('\n')}\n`);
+    const out = await analyze(path);
+    expect(out.exitCode).toBe(1);
+    expect(out.stderr).toMatch(/twice with sample codes C\S+ and X999/);
+    const samePath = join(folder, 'same-code.csv');
+    writeFileSync(samePath, `${[...lines, lines[1]].join('\n')}\n`);
+    expect((await analyze(samePath)).exitCode).toBe(0);
+  });
+
   it('a session that cannot be fitted gets a note on stderr; its indices are still printed', async () => {
     const rows = allObservations.filter((row) => row.session === 'S01').map((row) => ({ ...row, value: 5 }));
     const out = await analyze(writeLongCsv('constant.csv', rows));

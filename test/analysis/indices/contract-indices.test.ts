@@ -1,59 +1,46 @@
 /**
- * The analyze contract's flat-array indices (contract-indices.ts) against the general
- * composition (computeAssessorIndices over buildCellTable, itself checked against plain R in
- * indices-designs.test.ts): the same five values, to the last bit, on random panels with
- * missing ratings, missing whole cells, lone raters of a product and shuffled row order.
+ * The analyze contract's five indices (contract-indices.ts, the one implementation that
+ * computeAssessorIndices also takes them from) against plain R (test/fixtures/r/indices.R:
+ * one-way ANOVA via lm(), cor(), cov()/var()) on the seeded designs of indices-designs.json,
+ * in the rows' own order and with the rows reversed (first-seen order of assessors changes,
+ * the values must not).
  */
-import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
 import type { Observation } from '../../../domain/ratings.js';
-import { computeAnalyzeContractIndices, computeAssessorIndices } from '../../../analysis/indices/compute-assessor-indices.js';
+import { computeAnalyzeContractIndices } from '../../../analysis/indices/compute-assessor-indices.js';
+import type { ExpectedSessionIndices } from './compare-indices.js';
+import { expectCloseOrNull, expectPValueClose, readFixture, toObservations, type ColumnData } from './fixture-helpers.js';
 
-const panelArbitrary = fc
-  .record({
-    nAssessors: fc.integer({ min: 1, max: 6 }),
-    nProducts: fc.integer({ min: 1, max: 6 }),
-    nReplicates: fc.integer({ min: 1, max: 3 }),
-    values: fc.array(fc.integer({ min: 0, max: 100 }), { minLength: 108, maxLength: 108 }),
-    keep: fc.array(fc.integer({ min: 0, max: 9 }), { minLength: 108, maxLength: 108 }),
-    dropRate: fc.integer({ min: 0, max: 6 }),
-    order: fc.array(fc.nat(), { minLength: 108, maxLength: 108 }),
-  })
-  .map(({ nAssessors, nProducts, nReplicates, values, keep, dropRate, order }) => {
-    const rows: { row: Observation; key: number }[] = [];
-    let i = 0;
-    for (let a = 0; a < nAssessors; a++) {
-      for (let p = 0; p < nProducts; p++) {
-        for (let r = 1; r <= nReplicates; r++, i++) {
-          if (keep[i] < dropRate) continue;
-          rows.push({ row: { session: 'S1', attribute: 'crisp', assessor: `A${a}`, product: String(100 + p), replicate: r, value: values[i] / 10 }, key: order[i] });
+interface DesignFixture extends ExpectedSessionIndices {
+  name: string;
+  data: ColumnData;
+}
+
+const fixture = readFixture<{ designs: DesignFixture[] }>('indices-designs.json');
+
+describe('analyze-contract indices vs plain R (indices-designs.json)', () => {
+  for (const design of fixture.designs) {
+    for (const order of ['as written', 'reversed'] as const) {
+      it(`${design.name}, rows ${order}`, () => {
+        const observations = toObservations(design.data, 'S01', 'attr');
+        if (order === 'reversed') observations.reverse();
+        const rows = computeAnalyzeContractIndices(observations);
+        expect(rows.map((row) => row.assessor).sort()).toEqual(design.assessors.map((row) => row.assessor).sort());
+        for (const want of design.assessors) {
+          const got = rows.find((row) => row.assessor === want.assessor)!;
+          const where = `${design.name} ${want.assessor}`;
+          expect(got.session).toBe('S01');
+          expect(got.attribute).toBe('attr');
+          expectCloseOrNull(got.offset, want.offset, `${where} offset`);
+          expectCloseOrNull(got.discriminationF, want.discriminationF, `${where} discriminationF`);
+          expectPValueClose(got.discriminationP, want.discriminationP, `${where} discriminationP`);
+          expectCloseOrNull(got.repeatabilityMSE, want.repeatabilityMSE, `${where} repeatabilityMSE`);
+          expectCloseOrNull(got.agreementR, want.agreementR, `${where} agreementR`);
+          expectCloseOrNull(got.scaling, want.scaling, `${where} scaling`);
         }
-      }
+      });
     }
-    return rows.sort((x, y) => x.key - y.key).map((entry) => entry.row);
-  });
-
-const contractFields = (row: ReturnType<typeof computeAssessorIndices>[number]) => ({
-  session: row.session,
-  attribute: row.attribute,
-  assessor: row.assessor,
-  offset: row.offset,
-  discriminationF: row.discriminationF,
-  discriminationP: row.discriminationP,
-  repeatabilityMSE: row.repeatabilityMSE,
-  agreementR: row.agreementR,
-  scaling: row.scaling,
-});
-
-describe('analyze-contract indices on flat arrays', () => {
-  it('equal the matching fields of computeAssessorIndices exactly', () => {
-    fc.assert(
-      fc.property(panelArbitrary, (observations) => {
-        expect(computeAnalyzeContractIndices(observations)).toEqual(computeAssessorIndices(observations).map(contractFields));
-      }),
-      { numRuns: 300, seed: 20261202 },
-    );
-  });
+  }
 
   it('refuses mixed groups and non-finite values as buildCellTable does', () => {
     const base: Observation = { session: 'S1', attribute: 'crisp', assessor: 'A1', product: '101', replicate: 1, value: 5 };

@@ -103,9 +103,9 @@ describe('balanced fast path', () => {
     fc.assert(
       fc.property(fc.integer({ min: 1, max: 1_000_000 }), fc.integer({ min: 3, max: 8 }), fc.integer({ min: 2, max: 5 }), fc.integer({ min: 1, max: 3 }), (seed, nAssessors, nProducts, nReplicates) => {
         const rows = simulateSession(seed, nAssessors, nProducts, nReplicates, [0.6, 0.4, 0.8]);
-        const fast = fitSessionModel(rows);
+        const fast = fitSessionModel(rows, { withDiagnostics: true });
         const general = fitFromObjective(makeRemlObjective(fast.fit.frame), { randomEffectTerms: ['assessor'] });
-        if (!fast.diagnostics.balancedFastPath) return;
+        if (!fast.diagnostics!.balancedFastPath) return;
         fastPathCases++;
         expect(general.criterion).toBeGreaterThanOrEqual(fast.json.remlCriterion - 1e-8);
         expect(Math.abs(general.criterion - fast.json.remlCriterion)).toBeLessThan(1e-7);
@@ -183,9 +183,18 @@ describe('awkward data', () => {
     expect(result.json.variance['assessor:product']).toBeNull();
   });
 
+  it('runs the general machinery for a closed-form session only when diagnostics are asked for', () => {
+    const rows = simulateSession(20261204, 6, 4, 2, [0.6, 0.4, 0.8]);
+    const quick = fitSessionModel(rows);
+    const full = fitSessionModel(rows, { withDiagnostics: true });
+    expect(full.diagnostics!.balancedFastPath).toBe(true);
+    expect(quick.diagnostics).toBeNull();
+    expect(quick.json).toEqual(full.json);
+  });
+
   it('two assessors: fitted with a note that the assessor variance is poorly determined', () => {
-    const result = fitSessionModel(base.filter((row) => row.assessor === 'A10' || row.assessor === 'A11'));
-    expect(result.diagnostics.messages.join(' ')).toMatch(/too few assessors/);
+    const result = fitSessionModel(base.filter((row) => row.assessor === 'A10' || row.assessor === 'A11'), { withDiagnostics: true });
+    expect(result.diagnostics!.messages.join(' ')).toMatch(/too few assessors/);
     expect(Number.isFinite(result.json.remlCriterion)).toBe(true);
   });
 

@@ -110,10 +110,10 @@ function runCase(expected: ExpectedFit, observations: Observation[]): void {
   }
   it('fit: variances, criterion, F-test, product means, assessor BLUPs', () => {
     if (expected.model === 'session') {
-      const result = fitSessionModel(observations);
+      const result = fitSessionModel(observations, { withDiagnostics: true });
       expect(result.withInteraction).toBe(expected.terms.includes('assessor:product'));
-      expect(result.diagnostics.converged).toBe(true);
-      expect(result.diagnostics.singular).toBe(expected.singular);
+      expect(result.diagnostics!.converged).toBe(true);
+      expect(result.diagnostics!.singular).toBe(expected.singular);
       expectFitMatches(result.json, expected);
       if (expected.lrt) {
         const lrt = boundaryLikelihoodRatioTest(makeRemlObjective(result.fit.frame), { theta: result.fit.theta, criterion: result.fit.criterion }, expected.lrt.term);

@@ -49,11 +49,11 @@ describe('balanced session JSON in closed form', () => {
         fc.constantFrom(0, 0.2, 0.8),
         fc.constantFrom(0, 0.15, 0.5),
         (seed, nAssessors, nProducts, nReplicates, sdAssessor, sdInteraction) => {
-          const result = fitSessionModel(balancedSession(seed, nAssessors, nProducts, nReplicates, sdAssessor, sdInteraction));
+          const result = fitSessionModel(balancedSession(seed, nAssessors, nProducts, nReplicates, sdAssessor, sdInteraction), { withDiagnostics: true });
           const json = result.json;
           const fit = result.fit;
           // Sessions without a closed form (two components on the boundary) take the general path for the JSON too.
-          if (!result.diagnostics.balancedFastPath) return;
+          if (!result.diagnostics!.balancedFastPath) return;
           closedForms++;
           close(json.variance.assessor, fit.variances.assessor, 1e-9);
           close(json.variance['assessor:product'], result.withInteraction ? fit.variances['assessor:product'] : null, 1e-9);
