@@ -11,7 +11,7 @@ function fitLine(fit: FitJson): string {
   const satterthwaite = t.denDf !== null && Math.abs(t.denDf - Math.round(t.denDf)) > 1e-6 ? ', Satterthwaite df' : '';
   const test = t.F === null ? 'no product test' : `products F = ${fixed(t.F, 1)} on ${dfText(t.numDf)} and ${dfText(t.denDf)} df${satterthwaite}, ${pClause(t.p)}`;
   const shares = varianceShares(fit)
-    .map((s) => `${s.key === 'assessor:product' ? 'assessor × product' : s.key} ${s.shareText}`)
+    .map((s) => `${s.key === 'assessor:product' ? 'assessor × product' : s.key === 'residual' ? 'replicate noise' : 'assessor'} ${s.shareText}`)
     .join(', ');
   return `  ${fit.attribute}: ${test}; variance shares ${shares}`;
 }
