@@ -166,6 +166,7 @@ export function buildAttributeSummary(
   input: StoredAttributeInput,
   scale: ReportAttributeScale | undefined,
   referenceProducts: ReadonlySet<string>,
+  options: { withCharts: boolean } = { withCharts: true },
 ): AttributeSummaryView {
   const base = { attribute: input.attribute, anchor: attributeAnchor(input.attribute), scaleText: scaleText(scale) };
   const fit = input.fit;
@@ -230,12 +231,12 @@ export function buildAttributeSummary(
     reliabilityAbsolute: input.reliability?.absoluteCoefficient ?? null,
     reliabilityText: reliabilityText(relative),
     productMeans,
-    sharesChart: shareBar(
+    sharesChart: !options.withCharts ? null : shareBar(
       shares.map((s) => ({ label: s.label.replace(/ \(.*\)$/, ''), share: s.sharePercent / 100 })),
       `${input.attribute}: variance shares`,
       shares.map((s) => `${s.label} ${s.shareText}`).join('; '),
     ),
-    meansChart: dotRows(
+    meansChart: !options.withCharts ? null : dotRows(
       productMeans.map((m) => ({
         label: m.product,
         value: m.mean,

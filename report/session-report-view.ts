@@ -97,11 +97,11 @@ function fitNotice(sessions: readonly ReportSessionInput[]): string | null {
   return parts.length === 0 ? null : `${parts.join('; ')}: run a refit (monitor page or \`panel-steward refit\`) for current numbers.`;
 }
 
-function attributeViews(session: ReportSessionInput, scales: readonly ReportAttributeScale[], references: ReadonlySet<string>): AttributeSummaryView[] {
+function attributeViews(session: ReportSessionInput, scales: readonly ReportAttributeScale[], references: ReadonlySet<string>, withCharts = true): AttributeSummaryView[] {
   const scaleOf = new Map(scales.map((s) => [s.name, s]));
   return [...session.attributes]
     .sort((a, b) => (a.attribute < b.attribute ? -1 : a.attribute > b.attribute ? 1 : 0))
-    .map((a) => buildAttributeSummary(a, scaleOf.get(a.attribute), references));
+    .map((a) => buildAttributeSummary(a, scaleOf.get(a.attribute), references, { withCharts }));
 }
 
 function presentAssessors(session: ReportSessionInput): Set<string> {
@@ -273,7 +273,7 @@ export function buildRangeReportView(input: RangeReportInput): RangeReportView {
   const first = sessions[0];
   const last = sessions[sessions.length - 1];
   const references = new Set(input.referenceProducts);
-  const perSession = sessions.map((s) => ({ session: s, views: new Map(attributeViews(s, input.attributes, references).map((v) => [v.attribute, v])) }));
+  const perSession = sessions.map((s) => ({ session: s, views: new Map(attributeViews(s, input.attributes, references, false).map((v) => [v.attribute, v])) }));
   const names = [...new Set(sessions.flatMap((s) => s.attributes.map((a) => a.attribute)))].sort();
   const shareLabels = ['Assessors', 'Assessor × product', 'Replicate noise'];
   const attributes: RangeAttributeView[] = names.map((attribute) => {

@@ -34,7 +34,27 @@ export interface StoredSessionAnalysis {
   fittedAt: string | null;
 }
 
-/** Stored fits, indices and refit notes of the given sessions (one query per table). */
+/**
+ * Parsed JSON of stored fits and indices, keyed by store connection, row and write time: a year's indices are ~4 MB
+ * of JSON, and parsing them dominated the range report's time. A refit rewrites the row with a
+ * new time, so a stale entry is never used; the cache is dropped whole when it grows past its cap.
+ */
+const parsedCaches = new WeakMap<Database, Map<string, unknown>>();
+const PARSED_CACHE_CAP = 8192;
+
+function parsedOnce<T>(db: Database, key: string, json: string): T {
+  let parsedCache = parsedCaches.get(db);
+  if (!parsedCache) parsedCaches.set(db, (parsedCache = new Map()));
+  let value = parsedCache.get(key);
+  if (value === undefined) {
+    if (parsedCache.size >= PARSED_CACHE_CAP) parsedCache.clear();
+    value = JSON.parse(json);
+    parsedCache.set(key, value);
+  }
+  return value as T;
+}
+
+/** Stored fits, indices and refit notes of the given sessions (one query per table). Treat the results as read-only (shared). */
 export function loadSessionAnalyses(db: Database, sessions: readonly ReportSessionRow[]): Map<string, StoredSessionAnalysis> {
   const out = new Map<string, StoredSessionAnalysis>();
   if (sessions.length === 0) return out;
@@ -48,18 +68,20 @@ export function loadSessionAnalyses(db: Database, sessions: readonly ReportSessi
   const placeholders = ids.map(() => '?').join(',');
   const fits = db
     .prepare(
-      `SELECT f.session_id AS sessionId, at.name AS attribute, f.fit_json AS json FROM session_fit f
+      `SELECT f.session_id AS sessionId, at.name AS attribute, f.fit_json AS json, f.fitted_at AS at FROM session_fit f
          JOIN attribute at ON at.id = f.attribute_id WHERE f.session_id IN (${placeholders})`,
     )
-    .all(...ids) as { sessionId: number; attribute: string; json: string }[];
-  for (const row of fits) byId.get(row.sessionId)!.fits.set(row.attribute, JSON.parse(row.json) as FitJson);
+    .all(...ids) as { sessionId: number; attribute: string; json: string; at: string }[];
+  for (const row of fits) byId.get(row.sessionId)!.fits.set(row.attribute, parsedOnce<FitJson>(db, `fit|${row.sessionId}|${row.attribute}|${row.at}`, row.json));
   const indices = db
     .prepare(
-      `SELECT i.session_id AS sessionId, at.name AS attribute, i.indices_json AS json FROM session_indices i
+      `SELECT i.session_id AS sessionId, at.name AS attribute, i.indices_json AS json, i.computed_at AS at FROM session_indices i
          JOIN attribute at ON at.id = i.attribute_id WHERE i.session_id IN (${placeholders})`,
     )
-    .all(...ids) as { sessionId: number; attribute: string; json: string }[];
-  for (const row of indices) byId.get(row.sessionId)!.indices.set(row.attribute, JSON.parse(row.json) as AssessorSessionIndices[]);
+    .all(...ids) as { sessionId: number; attribute: string; json: string; at: string }[];
+  for (const row of indices) {
+    byId.get(row.sessionId)!.indices.set(row.attribute, parsedOnce<AssessorSessionIndices[]>(db, `indices|${row.sessionId}|${row.attribute}|${row.at}`, row.json));
+  }
   const quality = db
     .prepare(
       `SELECT session_id AS sessionId, data_version AS dataVersion, findings_json AS json, computed_at AS computedAt
