@@ -138,10 +138,10 @@ function measureSentence(known: readonly FeedbackRow[], within: string, title: s
   for (const row of known) (groups.get(row.words) ?? groups.set(row.words, []).get(row.words)!).push(row);
   const capital = (text: string) => text.charAt(0).toUpperCase() + text.slice(1);
   const nWithin = groups.get(within)?.length ?? 0;
-  const parts = [`${capital(within)} on ${nWithin} of ${counted(known.length, 'attribute')}.`];
+  const parts = nWithin === 0 ? [] : [`${capital(within)} on ${nWithin} of ${counted(known.length, 'attribute')}.`];
   for (const [words, rows] of groups) {
     if (words === within) continue;
-    parts.push(`${capital(words)} on ${rows.length}: ${rows.map((r) => `${r.attribute} (${r.ownText})`).join(', ')}.`);
+    parts.push(`${capital(words)} on ${rows.length}${nWithin === 0 ? ` of ${counted(known.length, 'attribute')}` : ''}: ${rows.map((r) => `${r.attribute} (${r.ownText})`).join(', ')}.`);
   }
   return parts.join(' ');
 }
