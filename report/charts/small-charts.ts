@@ -49,7 +49,8 @@ export function niceTicks(lo: number, hi: number, count = 5): number[] {
 }
 
 function tickLabel(v: number, step: number): string {
-  const decimals = step >= 1 ? 0 : Math.min(3, Math.ceil(-Math.log10(step) - 1e-9));
+  // As many decimals as the step has (0.25 → 2, 0.5 → 1, 2 → 0).
+  const decimals = Math.min(3, (String(Number(step.toPrecision(6))).split('.')[1] ?? '').length);
   return v.toFixed(decimals);
 }
 
