@@ -339,11 +339,13 @@ export function buildIndexTables(sessions: readonly ReportSessionInput[], attrib
   for (const c of openCases) {
     if (c.assessor === null || DATA_ENTRY_KINDS.has(c.kind)) continue;
     const text = `${c.severity === 'act' ? 'Act' : 'Watch'}: ${c.message}`;
+    const table = INDEX_OF_KIND[c.kind] ?? 'level';
     if (c.attribute === null) {
-      (rowCases.get(c.assessor) ?? rowCases.set(c.assessor, []).get(c.assessor)!).push(text);
+      const rowKey = `${table}\u0000${c.assessor}`;
+      (rowCases.get(rowKey) ?? rowCases.set(rowKey, []).get(rowKey)!).push(text);
       continue;
     }
-    const key = `${INDEX_OF_KIND[c.kind] ?? 'level'}\u0000${c.assessor}\u0000${c.attribute}`;
+    const key = `${table}\u0000${c.assessor}\u0000${c.attribute}`;
     (cases.get(key) ?? cases.set(key, []).get(key)!).push(text);
   }
   const sortedAssessors = [...assessors].sort();
@@ -354,7 +356,7 @@ export function buildIndexTables(sessions: readonly ReportSessionInput[], attrib
     attributes: [...attributes],
     rows: sortedAssessors.map((assessor) => ({
       assessor,
-      assessorCaseText: (rowCases.get(assessor) ?? []).join(' '),
+      assessorCaseText: (rowCases.get(`${def.key}\u0000${assessor}`) ?? []).join(' '),
       cells: attributes.map((attribute) => {
         const key = `${assessor}\u0000${attribute}`;
         const rows = byCell.get(key) ?? [];
