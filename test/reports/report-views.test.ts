@@ -166,7 +166,7 @@ describe('assessor feedback sheet', () => {
   it('places the assessor against the panel middle half in plain words', () => {
     const level = view.measures.find((m) => m.key === 'level')!;
     expect(level.rows[0]).toMatchObject({ ownText: '+0.90', words: 'higher than most of the panel' });
-    expect(level.sentence).toContain('Higher than most of the panel on 1: sweetness (+0.90)');
+    expect(level.sentence).toBe('Higher than most of the panel on 1 of 1 attribute: sweetness (+0.90).');
     const repeatability = view.measures.find((m) => m.key === 'repeatability')!;
     expect(repeatability.rows[0].ownText).toBe('0.50'); // √0.25
     expect(view.reference.rows[0]).toMatchObject({ product: 'P3', ownMeanText: '5.00', panelMeanText: '4.00', differenceText: '+1.00', nOwn: 2 });
