@@ -2,7 +2,7 @@
  * One session's ratings, one table per attribute: a row per assessor, a column per product and
  * replicate, and the product means (arithmetic mean of the ratings present) under the table.
  */
-import { completenessPercent, HOME_CRUMB, panelHref, type PageViewBase } from './page-common.js';
+import { completenessPercent, HOME_CRUMB, panelHref, sessionHref, type PageViewBase } from './page-common.js';
 import type { AttributeScaleInput, SessionCountsInput } from './panel-view.js';
 
 export interface RatingInput {
@@ -60,6 +60,8 @@ export interface SessionView extends PageViewBase {
   products: ProductRoleInput[];
   attributes: AttributeRatingsTable[];
   csvHref: string;
+  /** The session report: product tests, variance components, indices, what changed. */
+  reportHref: string;
 }
 
 /** Decimals needed to show a value as recorded (1.25 → 2), capped at 3. */
@@ -143,5 +145,6 @@ export function buildSessionView(input: {
       .sort(([a], [b]) => (a < b ? -1 : a > b ? 1 : 0))
       .map(([attribute, ratings]) => buildAttributeTable(attribute, ratings, scales.get(attribute))),
     csvHref: input.csvHref,
+    reportHref: `${sessionHref(input.panel, summary.label)}/report`,
   };
 }

@@ -26,6 +26,7 @@ import { importPageRoutes } from './routes/import-pages.js';
 import { loginRoutes } from './routes/login.js';
 import { methodsPageRoutes } from './routes/methods-page.js';
 import { monitorRoutes } from './routes/monitor.js';
+import { reportPageRoutes } from './routes/report-pages.js';
 import { panelPageRoutes } from './routes/panel-pages.js';
 import { quarantineRoutes } from './routes/quarantine.js';
 import { serviceRoutes } from './routes/service.js';
@@ -148,6 +149,7 @@ export async function buildApp(options: { db: Database; config?: Partial<AppConf
   await app.register(quarantineRoutes);
   await app.register(monitorRoutes);
   await app.register(methodsPageRoutes);
+  await app.register(reportPageRoutes);
   // ---- end of route modules ----
 
   await app.ready();

@@ -200,6 +200,11 @@ export type StoredFinding = Omit<InputFinding, 'code'> & { code: string };
  * session (older imports' findings were replaced with the data), plus cells held in quarantine.
  */
 export function loadCurrentFindings(db: Database, panelId: number): StoredFinding[] {
+  return [...loadImportFindings(db, panelId), ...loadHeldFindings(db, panelId)];
+}
+
+/** Findings of the imports that last wrote each session (older imports' findings were replaced with the data). */
+export function loadImportFindings(db: Database, panelId: number): StoredFinding[] {
   const imports = db
     .prepare(
       `SELECT i.id, i.report_json AS json FROM import i
@@ -218,12 +223,16 @@ export function loadCurrentFindings(db: Database, panelId: number): StoredFindin
     }
     for (const f of findings) if (!f.session || current.has(f.session)) out.push(f);
   }
-  const held = db
+  return out;
+}
+
+/** Cells held in quarantine, as findings (code = the quarantine reason). */
+export function loadHeldFindings(db: Database, panelId: number): StoredFinding[] {
+  return db
     .prepare(
       `SELECT reason_code AS code, file_name AS file, row_number AS row, column_name AS "column", reason AS message,
               session_label AS session, assessor, product, attribute
          FROM quarantine WHERE panel_id = ? AND status = 'held' ORDER BY id`,
     )
     .all(panelId) as StoredFinding[];
-  return [...out, ...held];
 }

@@ -10,3 +10,4 @@ export {
   type VarianceComponentsForReliability,
 } from './generalizability.js';
 export { seededRandom } from './seeded-random.js';
+export { productMeanReliability, type ProductMeanReliability } from './product-mean-reliability.js';

@@ -1,5 +1,5 @@
 /**
- * `panel-steward analyze FILE [--period] [--format json] [--sheet NAME]`
+ * `panel-steward analyze FILE [--period] [--format json|text] [--sheet NAME]`
  *
  * Reads a long or wide CSV/XLSX with the import parser (no store, no scale check), fits the
  * models and prints the analyze JSON contract (domain/analysis.ts) on stdout. Any problem in the file stops it:
@@ -33,7 +33,7 @@ export interface AnalyzeCommandOptions {
   sheet?: string;
 }
 
-const FORMATS = ['json'] as const;
+const FORMATS = ['json', 'text'] as const;
 
 /** Runs one analysis; returns the exit code (0 = JSON printed, 1 = problems in the file). */
 export async function runAnalyzeCommand(file: string, options: AnalyzeCommandOptions, output: CommandOutput = process): Promise<number> {
@@ -75,6 +75,10 @@ export async function runAnalyzeCommand(file: string, options: AnalyzeCommandOpt
   const { json, notes: fitNotes } = analyzeRatingsWithNotes(duplicates.kept, { period: options.period ?? false });
   for (const note of fitNotes) notes.push(`note: ${note.session === null ? '' : `session ${note.session}, `}attribute ${note.attribute}: ${note.message}`);
   if (notes.length > 0) output.stderr.write(`${notes.join('\n')}\n`);
+  if (format === 'text') {
+    output.stdout.write((await import('./analyze-text.js')).formatAnalyzeText(json));
+    return 0;
+  }
   // JSON.stringify writes the shortest text that reads back to the same double (full precision).
   output.stdout.write(`${JSON.stringify(json, null, 2)}\n`);
   return 0;
@@ -165,7 +169,7 @@ export function registerAnalyzeCommand(program: Command): void {
     .description('Fit the panel models to a ratings file (CSV long or wide form, or .xlsx) and print the results; no store needed.')
     .argument('<file>', 'the ratings file')
     .option('--period', 'one period model per attribute over all sessions instead of one model per session and attribute')
-    .option('--format <format>', 'output format (json)', 'json')
+    .option('--format <format>', 'output format: json (every number) or text (a readable summary)', 'json')
     .option('--sheet <name>', 'worksheet of an .xlsx file (default: the first)')
     .action(async (file: string, options: AnalyzeCommandOptions) => {
       const exitCode = await runAnalyzeCommand(file, options);

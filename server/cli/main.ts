@@ -3,6 +3,7 @@
  * itself on the program; errors reach the user as one plain message, never a stack trace.
  */
 import { Command, CommanderError } from 'commander';
+import { readFileSync } from 'node:fs';
 import { CliError } from './cli-error.js';
 // Command modules, loaded lazily: a command loads only its own module (the others cost about
 // 0.3 s of start-up); help and unknown commands load them all so every command is listed.
@@ -16,17 +17,39 @@ const COMMAND_MODULES: Record<string, () => Promise<(program: Command) => void>>
   refit: async () => (await import('./refit-command.js')).registerRefitCommand,
   flags: async () => (await import('./flags-command.js')).registerFlagsCommand,
   check: async () => (await import('./check-command.js')).registerCheckCommand,
+  report: async () => (await import('./report-command.js')).registerReportCommand,
 };
+
+// A reader that stops early (`| head`) closes the pipe: end quietly instead of "write EPIPE".
+process.stdout.on('error', (error: NodeJS.ErrnoException) => {
+  if (error.code === 'EPIPE') process.exit(0);
+  throw error;
+});
+
+/** The version of package.json, found by walking up from this module (source, build or bundle). */
+function packageVersion(): string {
+  for (let url = new URL('.', import.meta.url); ; url = new URL('..', url)) {
+    try {
+      const manifest = JSON.parse(readFileSync(new URL('package.json', url), 'utf8')) as { name?: string; version?: string };
+      if (manifest.name === 'panel-steward') return manifest.version ?? 'unknown';
+    } catch {
+      // no package.json here: keep walking up
+    }
+    if (url.pathname === '/') return 'unknown';
+  }
+}
 
 const program = new Command();
 program
   .name('panel-steward')
   .description('Checks whether a trained sensory panel works as a measuring instrument.')
+  .version(packageVersion(), '-V, --version', 'print the version and exit')
   .showHelpAfterError()
   .exitOverride();
 
 const requested = process.argv[2];
-const loaders = requested !== undefined && Object.hasOwn(COMMAND_MODULES, requested) ? [COMMAND_MODULES[requested]] : Object.values(COMMAND_MODULES);
+const isVersion = requested === '--version' || requested === '-V';
+const loaders = isVersion ? [] : requested !== undefined && Object.hasOwn(COMMAND_MODULES, requested) ? [COMMAND_MODULES[requested]] : Object.values(COMMAND_MODULES);
 const registered = new Set<(program: Command) => void>();
 for (const load of loaders) {
   const register = await load();

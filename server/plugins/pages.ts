@@ -105,9 +105,11 @@ export function registerPage<View extends object>(app: FastifyInstance, options:
 
   if (lastParam === null) {
     const jsonUrls = options.url === '/' ? ['/.json', '/index.json'] : [`${options.url}.json`];
-    app.get(options.url, (request, reply) => answer(request, reply, 'html', {}));
-    for (const url of jsonUrls) app.get(url, (request, reply) => answer(request, reply, 'json', {}));
-    if (options.csv) app.get(`${options.url}.csv`, (request, reply) => answer(request, reply, 'csv', {}));
+    // Parameters before a fixed last segment (e.g. /panels/:panel/report) are passed on as they are.
+    const paramsOf = (request: FastifyRequest) => ({ ...(request.params as Record<string, string>) });
+    app.get(options.url, (request, reply) => answer(request, reply, 'html', paramsOf(request)));
+    for (const url of jsonUrls) app.get(url, (request, reply) => answer(request, reply, 'json', paramsOf(request)));
+    if (options.csv) app.get(`${options.url}.csv`, (request, reply) => answer(request, reply, 'csv', paramsOf(request)));
     return;
   }
 

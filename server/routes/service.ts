@@ -1,4 +1,4 @@
-/** Service basics: the health check and the one stylesheet. */
+/** Service basics: the health check and the stylesheets (site-wide, and the reports' own). */
 import { readFileSync } from 'node:fs';
 import { join } from 'node:path';
 import type { FastifyInstance } from 'fastify';
@@ -22,5 +22,9 @@ export async function serviceRoutes(app: FastifyInstance): Promise<void> {
   const stylesheet = readFileSync(join(app.appConfig.templatesDir, 'static', 'style.css'), 'utf8');
   app.get('/static/style.css', async (_request, reply) =>
     reply.type('text/css; charset=utf-8').header('Cache-Control', 'public, max-age=300').send(stylesheet),
+  );
+  const reportStylesheet = readFileSync(join(app.appConfig.templatesDir, 'static', 'report.css'), 'utf8');
+  app.get('/static/report.css', async (_request, reply) =>
+    reply.type('text/css; charset=utf-8').header('Cache-Control', 'public, max-age=300').send(reportStylesheet),
   );
 }

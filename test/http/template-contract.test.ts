@@ -38,6 +38,10 @@ describe('templates read only what their views hold', () => {
       ['import', `/imports/${rejected.importId}.json`],
       ['upload', '/upload.json'],
       ['methods', '/methods.json'],
+      // reports before any refit: every attribute says it has no stored model yet
+      ['report-session', '/panels/oat/sessions/W01/report.json'],
+      ['report-range', '/panels/oat/report.json'],
+      ['report-feedback', '/panels/oat/assessors/A01/feedback.json'],
     ];
     const rendered = new Set<string>();
     for (const [page, url] of twins) {
