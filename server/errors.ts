@@ -133,6 +133,10 @@ export function toAppError(error: unknown, context: { uploadLimitBytes: number; 
     return new AppError('UPLOAD_TOO_LARGE', { limit: formatBytes(context.uploadLimitBytes) });
   }
   if (code === 'FST_ERR_CTP_INVALID_MEDIA_TYPE' || framework.statusCode === 415) return new AppError('UNSUPPORTED_MEDIA_TYPE');
+  // Node refused a header built from the request (a control or non-Latin-1 character in it).
+  if (code === 'ERR_INVALID_CHAR' || code === 'ERR_HTTP_INVALID_HEADER_VALUE' || code === 'ERR_INVALID_HTTP_TOKEN') {
+    return new AppError('BAD_REQUEST', { detail: 'the address holds characters that cannot be sent back (control or invisible characters).' });
+  }
   const status = framework.statusCode ?? 500;
   if (status >= 400 && status < 500) {
     // fastify's own 4xx messages (schema validation, malformed JSON or multipart) name no paths;

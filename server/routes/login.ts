@@ -8,10 +8,35 @@ import { AppError } from '../errors.js';
 import { sendPage } from '../plugins/pages.js';
 import { equalSecret, hasValidCredentials, sessionCookieValue, TOKEN_COOKIE } from '../plugins/security.js';
 
-/** Only paths on this service are followed after sign-in (never another site). */
-function safeNext(raw: unknown): string {
-  const next = typeof raw === 'string' ? raw : '/';
-  return next.startsWith('/') && !next.startsWith('//') && !next.startsWith('/\\') && next.length <= 2000 ? next : '/';
+/** A fixed base: `next` is resolved against it, so only its own origin counts as "this service". */
+const NEXT_BASE = new URL('http://panel-steward.invalid/');
+const MAX_NEXT_CHARS = 2000;
+/**
+ * Characters a browser may strip or treat specially in a URL (so that `/\t/host` becomes `//host`)
+ * or that cannot go into a Location header: controls, every kind of white space, and invisible
+ * format characters (zero-width spaces and joiners, bidi controls, the byte-order mark).
+ */
+const UNSAFE_IN_NEXT = /[\p{Cc}\p{Cf}\p{Z}\p{White_Space}\p{Default_Ignorable_Code_Point}\p{Cs}\p{Co}\p{Cn}]/u;
+
+/**
+ * Where to go after sign-in: only a path of this service. Anything else (another origin, a
+ * protocol-relative `//host`, a backslash, a control or invisible character, an address that
+ * does not parse) goes to `/`. The answer is the parsed path, so it is plain ASCII.
+ */
+export function safeNext(raw: unknown): string {
+  if (typeof raw !== 'string' || raw.length === 0 || raw.length > MAX_NEXT_CHARS) return '/';
+  if (raw[0] !== '/' || raw[1] === '/' || raw.includes('\\') || UNSAFE_IN_NEXT.test(raw)) return '/';
+  let url: URL;
+  try {
+    url = new URL(raw, NEXT_BASE);
+  } catch {
+    return '/';
+  }
+  if (url.origin !== NEXT_BASE.origin) return '/';
+  const path = `${url.pathname}${url.search}${url.hash}`;
+  // Dot segments can collapse into a leading "//" ("/.//host"): still another origin to a browser.
+  if (!path.startsWith('/') || path.startsWith('//') || path.includes('\\') || path.length > MAX_NEXT_CHARS) return '/';
+  return path;
 }
 
 export async function loginRoutes(app: FastifyInstance): Promise<void> {
