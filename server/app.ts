@@ -6,6 +6,7 @@
  * about a panel pushes its navigation entry to `app.navSections` (see server/plugins/views.ts).
  */
 import { readFileSync } from 'node:fs';
+import { rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import Fastify, { type FastifyInstance } from 'fastify';
@@ -16,6 +17,7 @@ import type { AppConfig } from './plugins/app-context.js';
 import { ImportQueue } from './plugins/import-queue.js';
 import { sendError } from './plugins/pages.js';
 import { isLoopbackHost, registerSecurity } from './plugins/security.js';
+import { createUploadDir, removeLeftoverUploadDirs } from './plugins/upload-dir.js';
 import { registerUploadCleanup } from './plugins/uploads.js';
 import { createViewRenderer, type NavSection } from './plugins/views.js';
 import { apiRoutes } from './routes/api.js';
@@ -47,7 +49,7 @@ export function resolveAppConfig(partial: Partial<AppConfig> = {}): AppConfig {
     host: partial.host ?? '127.0.0.1',
     accessToken: partial.accessToken ?? null,
     uploadLimitBytes: partial.uploadLimitBytes ?? DEFAULT_UPLOAD_LIMIT_BYTES,
-    uploadTmpDir: partial.uploadTmpDir ?? join(tmpdir(), 'panel-steward-uploads'),
+    uploadTmpDir: partial.uploadTmpDir ?? tmpdir(),
     templatesDir: partial.templatesDir ?? join(root, 'templates'),
     version: partial.version ?? packageVersion(root),
     logger: partial.logger ?? false,
@@ -89,9 +91,22 @@ export async function buildApp(options: { db: Database; config?: Partial<AppConf
   app.decorate('views', createViewRenderer(config.templatesDir));
   app.decorate('navSections', defaultNavSections());
   app.decorate('importQueue', new ImportQueue());
+  const removedLeftovers = await removeLeftoverUploadDirs(config.uploadTmpDir);
+  if (removedLeftovers.length > 0) app.log.info({ removed: removedLeftovers }, 'removed upload folders left by earlier starts');
+  app.decorate('uploadDir', await createUploadDir(config.uploadTmpDir));
+  app.addHook('onClose', async () => {
+    await rm(app.uploadDir, { recursive: true, force: true });
+  });
 
   app.setErrorHandler((error, request, reply) => {
-    const appError = toAppError(error, { uploadLimitBytes: config.uploadLimitBytes, path: request.url.split('?')[0].slice(0, 200), method: request.method });
+    const appError = toAppError(error, {
+      uploadLimitBytes: config.uploadLimitBytes,
+      path: request.url.split('?')[0].slice(0, 200),
+      method: request.method,
+      bodyLimitBytes: request.routeOptions.bodyLimit,
+      storePath: options.db.name,
+      uploadDir: app.uploadDir,
+    });
     if (appError.status >= 500) request.log.error({ err: error }, 'request failed');
     else request.log.info({ code: appError.code, status: appError.status }, appError.message);
     return sendError(app, request, reply, appError);

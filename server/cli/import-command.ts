@@ -10,6 +10,7 @@ import type { ScaleRange } from '../../domain/ratings.js';
 import { importRatings, fileInput, type ImportReport } from '../../store/import-ratings.js';
 import { openStore, type Database } from '../../store/open-store.js';
 import { PanelConfigError, readPanelConfigFile, withReferenceProducts, type PanelConfigFile } from '../../store/panel-config.js';
+import { describeStorageError } from '../storage-errors.js';
 import { CliError, resolveDbPath } from './cli-error.js';
 
 export interface ImportCommandOptions {
@@ -66,10 +67,13 @@ export async function loadSettings(path: string | undefined, references: readonl
 }
 
 export function openStoreForCli(dbOption: string | undefined): Database {
+  const storePath = resolveDbPath(dbOption);
   try {
-    return openStore(resolveDbPath(dbOption));
+    return openStore(storePath);
   } catch (error) {
-    // File-system errors name the path; say what to check instead.
+    const storage = describeStorageError(error, { storePath });
+    if (storage !== null) throw new CliError(storage.message);
+    // Other file-system errors name the path; say what to check instead.
     if (error instanceof Error && 'code' in error && typeof error.code === 'string' && error.code.startsWith('E')) {
       throw new CliError(`The store could not be opened (${error.code}): check that the folder of --db (or PANEL_STEWARD_DB) can be written.`);
     }

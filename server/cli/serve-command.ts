@@ -13,6 +13,7 @@ import { openStore, type Database } from '../../store/open-store.js';
 import { readPanelSummaries } from '../../store/read-panels.js';
 import { buildApp, DEFAULT_UPLOAD_LIMIT_BYTES } from '../app.js';
 import { isLoopbackHost } from '../plugins/security.js';
+import { describeStorageError } from '../storage-errors.js';
 import { CliError, resolveDbPath } from './cli-error.js';
 
 export interface ServeOptions {
@@ -86,7 +87,8 @@ export async function startServer(options: ServeOptions, out: Output = process.s
   try {
     db = openStore(dbPath);
   } catch (error) {
-    throw new CliError(`Could not open the store ${dbPath}: ${error instanceof Error ? error.message : String(error)}`);
+    const storage = describeStorageError(error, { storePath: dbPath });
+    throw new CliError(storage?.message ?? `Could not open the store ${dbPath}: ${error instanceof Error ? error.message : String(error)}`);
   }
 
   if (options.demo && readPanelSummaries(db).length === 0) {

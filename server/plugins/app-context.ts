@@ -14,7 +14,10 @@ export interface AppConfig {
   accessToken: string | null;
   /** Largest accepted upload, in bytes. */
   uploadLimitBytes: number;
-  /** Folder for uploads on their way into the store (deleted after each request). */
+  /**
+   * Where each start makes its private upload folder (default: the system's temporary folder).
+   * Uploads on their way into the store live there until the response is sent.
+   */
   uploadTmpDir: string;
   /** Folder holding layouts/, partials/, pages/ and static/. */
   templatesDir: string;
@@ -32,6 +35,8 @@ declare module 'fastify' {
     /** Sections of the site navigation; route modules push their own. */
     navSections: NavSection[];
     importQueue: ImportQueue;
+    /** This start's private upload folder (mode 0700), removed when the app closes. */
+    uploadDir: string;
   }
   interface FastifyRequest {
     /** Temporary files written for this request; removed when the response is sent. */
