@@ -18,6 +18,7 @@ import { ImportQueue } from './plugins/import-queue.js';
 import { sendError } from './plugins/pages.js';
 import { isLoopbackHost, registerSecurity } from './plugins/security.js';
 import { createUploadDir, removeLeftoverUploadDirs } from './plugins/upload-dir.js';
+import { weakTokenReason } from './plugins/token-guard.js';
 import { registerUploadCleanup } from './plugins/uploads.js';
 import { createViewRenderer, type NavSection } from './plugins/views.js';
 import { apiRoutes } from './routes/api.js';
@@ -69,9 +70,11 @@ export function defaultNavSections(): NavSection[] {
 
 export async function buildApp(options: { db: Database; config?: Partial<AppConfig> }): Promise<FastifyInstance> {
   const config = resolveAppConfig(options.config);
-  if (!isLoopbackHost(config.host) && (config.accessToken === null || config.accessToken.length < 16)) {
+  if (!isLoopbackHost(config.host) && config.accessToken === null) {
     throw new Error(`Listening on ${config.host} (reachable from other computers) needs an access token of at least 16 characters.`);
   }
+  const weakToken = config.accessToken === null ? null : weakTokenReason(config.accessToken);
+  if (weakToken !== null) throw new Error(weakToken);
 
   const app: FastifyInstance = Fastify({
     logger: config.logger,

@@ -5,6 +5,7 @@
  */
 import type { Database } from 'better-sqlite3';
 import type { ImportQueue } from './import-queue.js';
+import type { FailedAttemptBrake } from './token-guard.js';
 import type { NavSection, ViewRenderer } from './views.js';
 
 export interface AppConfig {
@@ -37,6 +38,8 @@ declare module 'fastify' {
     importQueue: ImportQueue;
     /** This start's private upload folder (mode 0700), removed when the app closes. */
     uploadDir: string;
+    /** Wrong access tokens per client address (token mode). */
+    failedAttempts: FailedAttemptBrake;
   }
   interface FastifyRequest {
     /** Temporary files written for this request; removed when the response is sent. */

@@ -6,7 +6,7 @@
 import type { FastifyInstance, FastifyReply, FastifyRequest } from 'fastify';
 import { AppError } from '../errors.js';
 import { sendPage } from '../plugins/pages.js';
-import { equalSecret, hasValidCredentials, sessionCookieValue, TOKEN_COOKIE } from '../plugins/security.js';
+import { checkPresentedCredentials, equalSecret, refuseWhileBraked, SESSION_MAX_AGE_SECONDS, sessionCookieValue, TOKEN_COOKIE } from '../plugins/security.js';
 
 /** A fixed base: `next` is resolved against it, so only its own origin counts as "this service". */
 const NEXT_BASE = new URL('http://panel-steward.invalid/');
@@ -52,7 +52,15 @@ export async function loginRoutes(app: FastifyInstance): Promise<void> {
   app.get('/login', async (request, reply) => {
     const next = safeNext((request.query as Record<string, unknown>).next);
     const accessToken = app.appConfig.accessToken;
-    if (accessToken === null || hasValidCredentials(request, accessToken)) return reply.redirect(next, 303);
+    if (accessToken === null) return reply.redirect(next, 303);
+    let presented: 'none' | 'valid' | 'wrong';
+    try {
+      presented = checkPresentedCredentials(app.failedAttempts, request, reply, accessToken);
+    } catch (error) {
+      if (!(error instanceof AppError)) throw error;
+      return loginPage(request, reply, next, { message: error.message, errors: [] }, error.status);
+    }
+    if (presented === 'valid') return reply.redirect(next, 303);
     return loginPage(request, reply, next, null);
   });
 
@@ -61,10 +69,19 @@ export async function loginRoutes(app: FastifyInstance): Promise<void> {
     const next = safeNext(body.next);
     const accessToken = app.appConfig.accessToken;
     if (accessToken === null) return reply.redirect(next, 303);
+    try {
+      refuseWhileBraked(app.failedAttempts, request, reply);
+    } catch (error) {
+      if (!(error instanceof AppError)) throw error;
+      return loginPage(request, reply, next, { message: error.message, errors: [] }, error.status);
+    }
     if (typeof body.token !== 'string' || !equalSecret(body.token.trim(), accessToken)) {
+      app.failedAttempts.failed(request.ip);
       return loginPage(request, reply, next, { message: new AppError('AUTH_INVALID').message, errors: [] }, 401);
     }
-    reply.setCookie(TOKEN_COOKIE, sessionCookieValue(accessToken), { path: '/', httpOnly: true, sameSite: 'strict' });
+    app.failedAttempts.succeeded(request.ip);
+    // Expires after a working day in the browser, and the service refuses it after that too.
+    reply.setCookie(TOKEN_COOKIE, sessionCookieValue(accessToken), { path: '/', httpOnly: true, sameSite: 'strict', maxAge: SESSION_MAX_AGE_SECONDS });
     return reply.redirect(next, 303);
   });
 }
