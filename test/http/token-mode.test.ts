@@ -177,3 +177,25 @@ describe('the sign-in cookie expires', () => {
     expect(isValidSessionCookie(value.replace(/^\d+/, String(Math.floor(now / 1000) + 5)), TOKEN, now)).toBe(false);
   });
 });
+
+describe('behind a TLS reverse proxy on the same computer (README)', () => {
+  const fresh = freshApps();
+
+  it('works with the headers the README tells the proxy to send (Host of the service, no Origin)', async () => {
+    const { app } = await fresh({ host: '127.0.0.1', accessToken: TOKEN });
+    // What the proxy forwards: Host rewritten to the service's own address, Origin dropped, the
+    // browser's Sec-Fetch-Site passed through.
+    const proxied = { host: '127.0.0.1:8080', 'sec-fetch-site': 'same-origin' };
+    expect((await app.inject({ url: '/imports', headers: proxied })).statusCode).toBe(303); // to sign in
+    const login = await app.inject({ url: '/login?next=/imports', headers: proxied });
+    const { token: csrf, cookie } = csrfFrom(login);
+    const good = await app.inject({ method: 'POST', url: '/login', headers: { ...proxied, cookie }, payload: { _csrf: csrf, token: TOKEN, next: '/imports' } });
+    expect(good.statusCode).toBe(303);
+    const session = good.cookies.find((c) => c.name === 'panel_steward_session');
+    expect((await app.inject({ url: '/imports', headers: { ...proxied, cookie: `panel_steward_session=${session!.value}` } })).statusCode).toBe(200);
+    // A page of another site still cannot post through the proxy.
+    const crossSite = await app.inject({ method: 'POST', url: '/login', headers: { ...proxied, 'sec-fetch-site': 'cross-site', cookie }, payload: { _csrf: csrf, token: TOKEN } });
+    expect(crossSite.statusCode).toBe(403);
+  });
+});
+
