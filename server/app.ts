@@ -17,7 +17,7 @@ import type { AppConfig } from './plugins/app-context.js';
 import { ImportQueue } from './plugins/import-queue.js';
 import { sendError } from './plugins/pages.js';
 import { isLoopbackHost, registerSecurity } from './plugins/security.js';
-import { createUploadDir, removeLeftoverUploadDirs } from './plugins/upload-dir.js';
+import { createUploadDir, removeLeftoverUploadDirsOnce } from './plugins/upload-dir.js';
 import { weakTokenReason } from './plugins/token-guard.js';
 import { registerUploadCleanup } from './plugins/uploads.js';
 import { createViewRenderer, type NavSection } from './plugins/views.js';
@@ -94,7 +94,7 @@ export async function buildApp(options: { db: Database; config?: Partial<AppConf
   app.decorate('views', createViewRenderer(config.templatesDir));
   app.decorate('navSections', defaultNavSections());
   app.decorate('importQueue', new ImportQueue());
-  const removedLeftovers = await removeLeftoverUploadDirs(config.uploadTmpDir);
+  const removedLeftovers = await removeLeftoverUploadDirsOnce(config.uploadTmpDir);
   if (removedLeftovers.length > 0) app.log.info({ removed: removedLeftovers }, 'removed upload folders left by earlier starts');
   app.decorate('uploadDir', await createUploadDir(config.uploadTmpDir));
   app.addHook('onClose', async () => {

@@ -6,7 +6,7 @@
  * A killed service cannot remove its folder, so each start removes the folders of earlier
  * starts: only names with our prefix, only real folders (never through a symbolic link) owned by
  * this user, and only when the process that made the folder is gone. The fixed folder that
- * earlier versions shared (`panel-steward-uploads`) loses its files from before this start.
+ * earlier versions shared (`panel-steward-uploads`) loses its files older than an hour.
  */
 import { lstat, mkdir, mkdtemp, readdir, rm, rmdir } from 'node:fs/promises';
 import { join } from 'node:path';
@@ -67,6 +67,24 @@ export async function ensurePrivateDir(path: string): Promise<void> {
   }
 }
 
+/** Legacy files younger than this may belong to an older version's upload still in progress. */
+const LEGACY_FILE_MIN_AGE_MS = 60 * 60_000;
+
+const sweptBaseDirs = new Map<string, Promise<string[]>>();
+
+/**
+ * Removes, once per process and folder, what earlier starts left there (a folder with thousands
+ * of entries takes about 0.1 s to list; apps built again in the same process need not repeat it).
+ */
+export function removeLeftoverUploadDirsOnce(baseDir: string): Promise<string[]> {
+  let sweep = sweptBaseDirs.get(baseDir);
+  if (sweep === undefined) {
+    sweep = removeLeftoverUploadDirs(baseDir);
+    sweptBaseDirs.set(baseDir, sweep);
+  }
+  return sweep;
+}
+
 /** Removes folders (and legacy files) left by earlier starts; returns what was removed. */
 export async function removeLeftoverUploadDirs(baseDir: string): Promise<string[]> {
   const uid = currentUid();
@@ -104,7 +122,7 @@ export async function removeLeftoverUploadDirs(baseDir: string): Promise<string[
   return removed;
 }
 
-/** Files in the shared folder of earlier versions, from before this start (never a file being written now). */
+/** Files in the shared folder of earlier versions, an hour older than this start (never one an older version still reads). */
 async function removeLegacyFiles(dir: string, uid: number): Promise<string[]> {
   const stats = await lstat(dir);
   if (!stats.isDirectory() || stats.isSymbolicLink() || stats.uid !== uid) return [];
@@ -113,7 +131,7 @@ async function removeLegacyFiles(dir: string, uid: number): Promise<string[]> {
     if (!name.startsWith(LEGACY_FILE_PREFIX)) continue;
     const path = join(dir, name);
     const file = await lstat(path);
-    if (!file.isFile() || file.uid !== uid || file.mtimeMs >= PROCESS_START_MS) continue;
+    if (!file.isFile() || file.uid !== uid || file.mtimeMs >= PROCESS_START_MS - LEGACY_FILE_MIN_AGE_MS) continue;
     await rm(path, { force: true });
     removed.push(path);
   }

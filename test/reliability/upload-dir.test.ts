@@ -121,9 +121,10 @@ describe('leftovers of earlier starts', () => {
     mkdirSync(legacy);
     const oldFile = join(legacy, 'panel-steward-upload-old.csv');
     writeFileSync(oldFile, 'old');
-    utimesSync(oldFile, new Date(PROCESS_START_MS - 3_600_000), new Date(PROCESS_START_MS - 3_600_000));
+    utimesSync(oldFile, new Date(PROCESS_START_MS - 7_200_000), new Date(PROCESS_START_MS - 7_200_000));
     const newFile = join(legacy, 'panel-steward-upload-new.csv');
-    writeFileSync(newFile, 'new');
+    writeFileSync(newFile, 'new'); // an older version's upload may still be in progress
+    utimesSync(newFile, new Date(PROCESS_START_MS - 600_000), new Date(PROCESS_START_MS - 600_000));
     const otherFile = join(legacy, 'someone-else.txt');
     writeFileSync(otherFile, 'x');
     utimesSync(otherFile, new Date(0), new Date(0));
