@@ -152,12 +152,13 @@ function isBlankRecord(cells: readonly string[]): boolean {
  */
 function cellText(text: string | undefined, restoreFormulas: boolean): string {
   if (text === undefined) return '';
-  // Common case first: printable ASCII at both ends (nothing to trim) and no apostrophe prefix.
+  // Common case first: printable ASCII at both ends (nothing to trim) and no apostrophe that the
+  // export could have added (at the start, or after a line break inside the cell).
   const first = text.charCodeAt(0);
   const last = text.charCodeAt(text.length - 1);
-  if (first > 32 && first < 127 && first !== 39 && last > 32 && last < 127) return text;
+  if (first > 32 && first < 127 && last > 32 && last < 127 && (!restoreFormulas || text.indexOf("'") === -1)) return text;
   const trimmed = text.trim();
-  if (!restoreFormulas || trimmed.charCodeAt(0) !== 39) return trimmed;
+  if (!restoreFormulas) return trimmed;
   return restoreFormulaText(trimmed).trim();
 }
 

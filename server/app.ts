@@ -6,6 +6,7 @@
  * about a panel pushes its navigation entry to `app.navSections` (see server/plugins/views.ts).
  */
 import { readFileSync } from 'node:fs';
+import { rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import Fastify, { type FastifyInstance } from 'fastify';
@@ -19,6 +20,8 @@ import { ImportQueue } from './plugins/import-queue.js';
 import { sendError } from './plugins/pages.js';
 import { storeDamagedError } from './store-damage.js';
 import { isLoopbackHost, registerSecurity } from './plugins/security.js';
+import { createUploadDir, removeLeftoverUploadDirsOnce } from './plugins/upload-dir.js';
+import { weakTokenReason } from './plugins/token-guard.js';
 import { registerUploadCleanup } from './plugins/uploads.js';
 import { createViewRenderer, type NavSection } from './plugins/views.js';
 import { apiRoutes } from './routes/api.js';
@@ -52,7 +55,7 @@ export function resolveAppConfig(partial: Partial<AppConfig> = {}): AppConfig {
     host: partial.host ?? '127.0.0.1',
     accessToken: partial.accessToken ?? null,
     uploadLimitBytes: partial.uploadLimitBytes ?? DEFAULT_UPLOAD_LIMIT_BYTES,
-    uploadTmpDir: partial.uploadTmpDir ?? join(tmpdir(), 'panel-steward-uploads'),
+    uploadTmpDir: partial.uploadTmpDir ?? tmpdir(),
     templatesDir: partial.templatesDir ?? join(root, 'templates'),
     version: partial.version ?? packageVersion(root),
     logger: partial.logger ?? false,
@@ -77,9 +80,11 @@ const STORE_FREE_WRITES = new Set(['/login', '/logout']);
 
 export async function buildApp(options: { db: Database; config?: Partial<AppConfig> }): Promise<FastifyInstance> {
   const config = resolveAppConfig(options.config);
-  if (!isLoopbackHost(config.host) && (config.accessToken === null || config.accessToken.length < 16)) {
+  if (!isLoopbackHost(config.host) && config.accessToken === null) {
     throw new Error(`Listening on ${config.host} (reachable from other computers) needs an access token of at least 16 characters.`);
   }
+  const weakToken = config.accessToken === null ? null : weakTokenReason(config.accessToken);
+  if (weakToken !== null) throw new Error(weakToken);
 
   const app: FastifyInstance = Fastify({
     logger: config.logger,
@@ -100,6 +105,12 @@ export async function buildApp(options: { db: Database; config?: Partial<AppConf
   app.decorate('navSections', defaultNavSections());
   app.decorate('importQueue', new ImportQueue());
   app.decorate('storeHealth', storeHealthOf(options.db));
+  const removedLeftovers = await removeLeftoverUploadDirsOnce(config.uploadTmpDir);
+  if (removedLeftovers.length > 0) app.log.info({ removed: removedLeftovers }, 'removed upload folders left by earlier starts');
+  app.decorate('uploadDir', await createUploadDir(config.uploadTmpDir));
+  app.addHook('onClose', async () => {
+    await rm(app.uploadDir, { recursive: true, force: true });
+  });
 
   app.setErrorHandler((error, request, reply) => {
     if (isCorruptionError(error)) {
@@ -115,7 +126,14 @@ export async function buildApp(options: { db: Database; config?: Partial<AppConf
       request.log.error({ err: error }, 'the store is damaged');
       return sendError(app, request, reply, storeDamagedError(app.storeHealth));
     }
-    const appError = toAppError(error, { uploadLimitBytes: config.uploadLimitBytes, path: request.url.split('?')[0].slice(0, 200), method: request.method });
+    const appError = toAppError(error, {
+      uploadLimitBytes: config.uploadLimitBytes,
+      path: request.url.split('?')[0].slice(0, 200),
+      method: request.method,
+      bodyLimitBytes: request.routeOptions.bodyLimit,
+      storePath: options.db.name,
+      uploadDir: app.uploadDir,
+    });
     if (appError.status >= 500) request.log.error({ err: error }, 'request failed');
     else request.log.info({ code: appError.code, status: appError.status }, appError.message);
     return sendError(app, request, reply, appError);

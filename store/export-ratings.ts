@@ -2,9 +2,8 @@ import { once } from 'node:events';
 import type { Writable } from 'node:stream';
 import BetterSqlite3 from 'better-sqlite3';
 import type { Database } from 'better-sqlite3';
-import { stringify } from 'csv-stringify/sync';
 import { LONG_COLUMNS, type Rating } from '../domain/ratings.js';
-import { neutralizeFormulaText } from '../ingest/spreadsheet-safe.js';
+import { csvRecord, csvRecords } from '../ingest/csv-writer.js';
 
 export type ExportFormat = 'csv' | 'json';
 
@@ -44,9 +43,9 @@ const EXPORT_SQL = `
 const CHUNK_ROWS = 2000;
 
 /**
- * Writes a panel's stored ratings to `out` (which is not ended). Numbers are written as
- * JavaScript's shortest round-trip form, so they read back exactly. CSV text cells that a
- * spreadsheet would run as formulas are prefixed with an apostrophe (the reader strips it).
+ * Writes a panel's stored ratings to `out` (which is not ended). CSV goes through the one CSV
+ * writer (ingest/csv-writer.ts): numbers in their shortest round-trip form, text cells that a
+ * spreadsheet would run as formulas prefixed with an apostrophe (the reader strips it).
  *
  * On a file store the rows are read through a second, read-only connection inside one read
  * transaction: the export is a consistent snapshot even while imports commit, and waiting
@@ -61,7 +60,7 @@ export async function exportRatings(db: Database, request: ExportRequest, out: W
     if (reader !== db) reader.exec('BEGIN');
     const statement = reader.prepare(EXPORT_SQL);
     const format = request.format === 'csv' ? csvChunk : jsonChunk;
-    if (request.format === 'csv') await write(out, stringify([LONG_COLUMNS as unknown as string[]], { record_delimiter: '\n' }));
+    if (request.format === 'csv') await write(out, csvRecord(LONG_COLUMNS, { recordDelimiter: '\n' }));
     else await write(out, '[');
     let chunk: Rating[] = [];
     const flush = async (): Promise<void> => {
@@ -93,17 +92,10 @@ export async function exportRatings(db: Database, request: ExportRequest, out: W
 }
 
 function csvChunk(rows: Rating[]): string {
-  const records = rows.map((r) => [
-    neutralizeFormulaText(r.session),
-    neutralizeFormulaText(r.date),
-    neutralizeFormulaText(r.assessor),
-    neutralizeFormulaText(r.product),
-    String(r.replicate),
-    neutralizeFormulaText(r.attribute),
-    numberText(r.value),
-    r.code === null ? '' : neutralizeFormulaText(r.code),
-  ]);
-  return stringify(records, { record_delimiter: '\n' });
+  return csvRecords(
+    rows.map((r) => [r.session, r.date, r.assessor, r.product, r.replicate, r.attribute, r.value, r.code]),
+    { recordDelimiter: '\n' },
+  );
 }
 
 function jsonChunk(rows: Rating[], first: boolean): string {
@@ -112,11 +104,6 @@ function jsonChunk(rows: Rating[], first: boolean): string {
 
 function pickLong(r: Rating): Rating {
   return { session: r.session, date: r.date, assessor: r.assessor, product: r.product, replicate: r.replicate, attribute: r.attribute, value: r.value, code: r.code };
-}
-
-/** Shortest text that reads back to the same double (ECMAScript Number::toString); -0 as 0. */
-function numberText(value: number): string {
-  return Object.is(value, -0) ? '0' : String(value);
 }
 
 async function write(out: Writable, text: string): Promise<void> {

@@ -1,5 +1,5 @@
 /** `panel-steward export --panel NAME [--db PATH] --format csv|json [--out FILE]` */
-import { createWriteStream, renameSync, rmSync } from 'node:fs';
+import { createWriteStream, openSync, renameSync, rmSync } from 'node:fs';
 import { once } from 'node:events';
 import { basename, dirname, join } from 'node:path';
 import type { Writable } from 'node:stream';
@@ -24,7 +24,9 @@ export async function runExportCommand(options: ExportCommandOptions, stdout: Wr
     // Write beside the target and rename at the end: an interrupted export never leaves a
     // truncated file under the requested name.
     const partial = join(dirname(options.out), `.${basename(options.out)}.partial`);
-    const file = createWriteStream(partial);
+    // Opened here, so a missing folder or a full disk is an error of this command (with its
+    // message), not an unhandled error event of the stream.
+    const file = createWriteStream('', { fd: openSync(partial, 'w') });
     try {
       const result = await exportOrExplain(db, options.panel, format, file);
       file.end();

@@ -12,6 +12,7 @@ import { openStore, type Database } from '../../store/open-store.js';
 import { checkName } from '../../ingest/names.js';
 import { StoreDamagedError } from '../../store/store-health.js';
 import { PanelConfigError, readPanelConfigFile, withReferenceProducts, type PanelConfigFile } from '../../store/panel-config.js';
+import { describeStorageError } from '../storage-errors.js';
 import { CliError, resolveDbPath } from './cli-error.js';
 
 export interface ImportCommandOptions {
@@ -68,12 +69,15 @@ export async function loadSettings(path: string | undefined, references: readonl
 }
 
 export function openStoreForCli(dbOption: string | undefined): Database {
+  const storePath = resolveDbPath(dbOption);
   try {
-    return openStore(resolveDbPath(dbOption));
+    return openStore(storePath);
   } catch (error) {
     // Names the store path and the way out; nothing was written.
     if (error instanceof StoreDamagedError) throw new CliError(error.message);
-    // File-system errors name the path; say what to check instead.
+    const storage = describeStorageError(error, { storePath });
+    if (storage !== null) throw new CliError(storage.message);
+    // Other file-system errors name the path; say what to check instead.
     if (error instanceof Error && 'code' in error && typeof error.code === 'string' && error.code.startsWith('E')) {
       throw new CliError(`The store could not be opened (${error.code}): check that the folder of --db (or PANEL_STEWARD_DB) can be written.`);
     }

@@ -4,7 +4,7 @@
  */
 import { Command, CommanderError } from 'commander';
 import { readFileSync } from 'node:fs';
-import { CliError } from './cli-error.js';
+import { CliError, unexpectedErrorMessage } from './cli-error.js';
 // Command modules, loaded lazily: a command loads only its own module (the others cost about
 // 0.3 s of start-up); help and unknown commands load them all so every command is listed.
 const COMMAND_MODULES: Record<string, () => Promise<(program: Command) => void>> = {
@@ -67,8 +67,7 @@ try {
     process.stderr.write(`${error.message}\n`);
     process.exitCode = error.exitCode;
   } else {
-    const message = error instanceof Error ? error.message : String(error);
-    process.stderr.write(`panel-steward: ${message}\n`);
+    process.stderr.write(`panel-steward: ${unexpectedErrorMessage(error, process.argv.slice(2))}\n`);
     process.exitCode = 1;
   }
 }

@@ -14,6 +14,8 @@ import { damagedStoreMessage } from '../../store/store-health.js';
 import { readPanelSummaries } from '../../store/read-panels.js';
 import { buildApp, DEFAULT_UPLOAD_LIMIT_BYTES } from '../app.js';
 import { isLoopbackHost } from '../plugins/security.js';
+import { weakTokenReason } from '../plugins/token-guard.js';
+import { describeStorageError } from '../storage-errors.js';
 import { CliError, resolveDbPath } from './cli-error.js';
 
 export interface ServeOptions {
@@ -80,7 +82,8 @@ export async function startServer(options: ServeOptions, out: Output = process.s
   const dbPath = resolveDbPath(options.db || process.env.PANEL_STEWARD_DB || undefined);
   const isLoopback = isLoopbackHost(host);
   const envToken = process.env.PANEL_STEWARD_TOKEN?.trim() || null;
-  if (envToken !== null && envToken.length < 16) throw new CliError('PANEL_STEWARD_TOKEN must be at least 16 characters long.', 2);
+  const weakToken = envToken === null ? null : weakTokenReason(envToken);
+  if (weakToken !== null) throw new CliError(`PANEL_STEWARD_TOKEN is refused. ${weakToken}`, 2);
   const accessToken = envToken ?? (isLoopback ? null : randomBytes(24).toString('base64url'));
 
   let db: Database;
@@ -88,7 +91,8 @@ export async function startServer(options: ServeOptions, out: Output = process.s
     // A damaged store is served read-only: /healthz answers 503 and every write is refused.
     db = openStore(dbPath, { ifDamaged: 'read-only' });
   } catch (error) {
-    throw new CliError(`Could not open the store ${dbPath}: ${error instanceof Error ? error.message : String(error)}`);
+    const storage = describeStorageError(error, { storePath: dbPath });
+    throw new CliError(storage?.message ?? `Could not open the store ${dbPath}: ${error instanceof Error ? error.message : String(error)}`);
   }
 
   const health = storeHealthOf(db);

@@ -6,6 +6,7 @@
 import type { Database } from 'better-sqlite3';
 import type { StoreHealth } from '../../store/store-health.js';
 import type { ImportQueue } from './import-queue.js';
+import type { FailedAttemptBrake } from './token-guard.js';
 import type { NavSection, ViewRenderer } from './views.js';
 
 export interface AppConfig {
@@ -15,7 +16,10 @@ export interface AppConfig {
   accessToken: string | null;
   /** Largest accepted upload, in bytes. */
   uploadLimitBytes: number;
-  /** Folder for uploads on their way into the store (deleted after each request). */
+  /**
+   * Where each start makes its private upload folder (default: the system's temporary folder).
+   * Uploads on their way into the store live there until the response is sent.
+   */
   uploadTmpDir: string;
   /** Folder holding layouts/, partials/, pages/ and static/. */
   templatesDir: string;
@@ -35,6 +39,10 @@ declare module 'fastify' {
     importQueue: ImportQueue;
     /** Found when the store was opened (or when a request met a damaged page); writes are refused while not ok. */
     storeHealth: StoreHealth;
+    /** This start's private upload folder (mode 0700), removed when the app closes. */
+    uploadDir: string;
+    /** Wrong access tokens per client address (token mode). */
+    failedAttempts: FailedAttemptBrake;
   }
   interface FastifyRequest {
     /** Temporary files written for this request; removed when the response is sent. */

@@ -4,6 +4,7 @@
  * CSV download at the path plus `.csv`). Both come from the same `build` call, so the numbers
  * in the page and in its twin cannot disagree.
  */
+import { validateHeaderName, validateHeaderValue } from 'node:http';
 import type { FastifyInstance, FastifyReply, FastifyRequest } from 'fastify';
 import { AppError, type ErrorBody } from '../errors.js';
 import { wantsJson } from './security.js';
@@ -131,8 +132,31 @@ export function registerPage<View extends object>(app: FastifyInstance, options:
   });
 }
 
+function isSendable(name: string, value: unknown): boolean {
+  try {
+    validateHeaderName(name);
+    for (const item of Array.isArray(value) ? value : [value]) validateHeaderValue(name, item);
+    return true;
+  } catch {
+    return false;
+  }
+}
+
+/**
+ * An error answer never redirects, and never carries a header Node cannot send (say a Location
+ * built from an address with a line feed): left in place, such a header would make the error
+ * answer fail too, and fastify would send its own bare body instead of the app's error shape.
+ */
+function clearHeadersForError(reply: FastifyReply): void {
+  reply.removeHeader('location');
+  for (const [name, value] of Object.entries(reply.getHeaders())) {
+    if (!isSendable(name, value)) reply.removeHeader(name);
+  }
+}
+
 /** Sends an error as JSON (API, twins, JSON clients) or as an HTML page. */
 export function sendError(app: FastifyInstance, request: FastifyRequest, reply: FastifyReply, error: AppError): FastifyReply {
+  clearHeadersForError(reply);
   const body: ErrorBody = error.toBody();
   if (wantsJson(request)) return reply.code(error.status).type('application/json; charset=utf-8').send(body);
   try {

@@ -7,7 +7,8 @@
  *   another site cannot reach the store through DNS rebinding);
  * - requests that change data are refused when the browser says they come from another site;
  * - with an access token (required off loopback), every request for panel data needs it, as
- *   `Authorization: Bearer <token>` or the cookie set by the sign-in page.
+ *   `Authorization: Bearer <token>` or the cookie set by the sign-in page (which expires); wrong
+ *   tokens are braked per client address (server/plugins/token-guard.ts).
  */
 import { createHash, timingSafeEqual } from 'node:crypto';
 import type { FastifyInstance, FastifyReply, FastifyRequest } from 'fastify';
@@ -16,6 +17,9 @@ import fastifyCsrf from '@fastify/csrf-protection';
 import fastifyFormbody from '@fastify/formbody';
 import fastifyHelmet from '@fastify/helmet';
 import { AppError } from '../errors.js';
+import { FailedAttemptBrake, isValidSessionCookie } from './token-guard.js';
+
+export { sessionCookieValue, SESSION_MAX_AGE_SECONDS } from './token-guard.js';
 
 export const TOKEN_COOKIE = 'panel_steward_session';
 
@@ -41,11 +45,6 @@ function digest(text: string): Buffer {
   return createHash('sha256').update(text, 'utf8').digest();
 }
 
-/** The cookie value that stands for a signed-in browser: derived from the token, not the token. */
-export function sessionCookieValue(accessToken: string): string {
-  return digest(`panel-steward-session\u0000${accessToken}`).toString('hex');
-}
-
 /** Constant-time comparison (of digests, so lengths need not match). */
 export function equalSecret(given: string, expected: string): boolean {
   return timingSafeEqual(digest(given), digest(expected));
@@ -62,7 +61,7 @@ export function hasValidCredentials(request: FastifyRequest, accessToken: string
   const bearer = bearerToken(request);
   if (bearer !== null && equalSecret(bearer, accessToken)) return true;
   const cookie = request.cookies?.[TOKEN_COOKIE];
-  return typeof cookie === 'string' && equalSecret(cookie, sessionCookieValue(accessToken));
+  return typeof cookie === 'string' && isValidSessionCookie(cookie, accessToken);
 }
 
 /** Requests answered in JSON: the API, JSON twins and downloads, or clients asking for JSON. */
@@ -126,13 +125,16 @@ export async function registerSecurity(app: FastifyInstance): Promise<void> {
 
   const isLoopback = isLoopbackHost(config.host);
   const accessToken = config.accessToken;
+  const brake = new FailedAttemptBrake();
+  app.decorate('failedAttempts', brake);
 
   app.addHook('onRequest', async (request: FastifyRequest, reply: FastifyReply) => {
     const path = request.url.split('?')[0];
     if (isLoopback && !isLoopbackHost(hostName(request.headers.host ?? ''))) throw new AppError('HOST_NOT_ALLOWED');
     if (UNSAFE_METHODS.has(request.method) && isCrossSite(request)) throw new AppError('CROSS_SITE_REQUEST');
     if (accessToken === null || OPEN_PATHS.has(path)) return;
-    if (hasValidCredentials(request, accessToken)) return;
+    const presented = checkPresentedCredentials(brake, request, reply, accessToken);
+    if (presented === 'valid') return;
     if (bearerToken(request) !== null) throw new AppError('AUTH_INVALID');
     if (!wantsJson(request) && request.method === 'GET') {
       return reply.redirect(`/login?next=${encodeURIComponent(request.url)}`, 303);
@@ -140,4 +142,31 @@ export async function registerSecurity(app: FastifyInstance): Promise<void> {
     reply.header('WWW-Authenticate', 'Bearer realm="panel-steward"');
     throw new AppError('AUTH_REQUIRED');
   });
+}
+
+/** While a client must wait after wrong tokens, its requests with a token are not even checked: 429. */
+export function refuseWhileBraked(brake: FailedAttemptBrake, request: FastifyRequest, reply: FastifyReply): void {
+  const seconds = brake.retryAfterSeconds(request.ip);
+  if (seconds === 0) return;
+  reply.header('Retry-After', String(seconds));
+  throw new AppError('TOO_MANY_ATTEMPTS', { seconds });
+}
+
+/**
+ * Checks the token or sign-in cookie a request carries: 'none' when it carries neither. A wrong
+ * one counts against the client; while the client must wait, nothing is checked (429). A cookie
+ * can be a guess too (it is derived from the token), so it counts as well, and a wrong or
+ * outdated one is dropped so that a browser sends it once, not with every request.
+ */
+export function checkPresentedCredentials(brake: FailedAttemptBrake, request: FastifyRequest, reply: FastifyReply, accessToken: string): 'none' | 'valid' | 'wrong' {
+  const cookie = request.cookies?.[TOKEN_COOKIE];
+  if (bearerToken(request) === null && typeof cookie !== 'string') return 'none';
+  refuseWhileBraked(brake, request, reply);
+  if (hasValidCredentials(request, accessToken)) {
+    brake.succeeded(request.ip);
+    return 'valid';
+  }
+  brake.failed(request.ip);
+  if (typeof cookie === 'string') reply.clearCookie(TOKEN_COOKIE, { path: '/' });
+  return 'wrong';
 }

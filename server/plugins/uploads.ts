@@ -1,18 +1,20 @@
 /**
  * Getting an upload onto disk: multipart forms (the web page and API clients) and raw bodies
  * (`text/csv`, or an .xlsx as application/octet-stream) are streamed to a temporary file, never
- * held in memory, and cut off with a clear 413 above the size limit. The files are removed when
- * the response has been sent (or the client went away).
+ * held in memory, and cut off with a clear 413 above the size limit. They go into this start's
+ * private folder (server/plugins/upload-dir.ts) as 0600 files, and are removed when the response
+ * has been sent (or the client went away).
  */
 import { randomUUID } from 'node:crypto';
 import { createWriteStream } from 'node:fs';
-import { mkdir, rm } from 'node:fs/promises';
+import { rm } from 'node:fs/promises';
 import { basename, extname, join } from 'node:path';
 import { Transform } from 'node:stream';
 import { pipeline } from 'node:stream/promises';
 import type { FastifyInstance, FastifyRequest } from 'fastify';
 import fastifyMultipart from '@fastify/multipart';
 import { AppError, formatBytes } from '../errors.js';
+import { ensurePrivateDir, UploadDirError } from './upload-dir.js';
 
 export interface ReceivedFile {
   /** Temporary file holding the upload. */
@@ -60,12 +62,17 @@ export function cleanFileName(raw: string | undefined | null, fallback: string):
 }
 
 async function newTempPath(request: FastifyRequest, tmpDir: string, fileName: string): Promise<string> {
-  await mkdir(tmpDir, { recursive: true });
+  await ensurePrivateDir(tmpDir);
   const extension = extname(fileName).toLowerCase().replace(/[^.a-z0-9]/g, '').slice(0, 8);
   const path = join(tmpDir, `panel-steward-upload-${randomUUID()}${extension}`);
   request.uploadTempPaths ??= [];
   request.uploadTempPaths.push(path);
   return path;
+}
+
+/** A new file only this user can read (0600); never an existing file or a link planted at that name. */
+function privateWriteStream(path: string) {
+  return createWriteStream(path, { flags: 'wx', mode: 0o600 });
 }
 
 function tooLarge(limitBytes: number): AppError {
@@ -107,7 +114,7 @@ const INTERRUPTED_CODES = new Set(['ECONNRESET', 'ECONNABORTED', 'ERR_STREAM_PRE
  * File-system errors (ENOSPC, EACCES: they have a code) stay server errors.
  */
 function asUploadError(error: unknown, what = 'the multipart form'): unknown {
-  if (error instanceof AppError) return error;
+  if (error instanceof AppError || error instanceof UploadDirError) return error;
   const { code, statusCode, message } = (error ?? {}) as { code?: unknown; statusCode?: unknown; message?: unknown };
   if (typeof code === 'string' && INTERRUPTED_CODES.has(code)) {
     return new AppError('BAD_REQUEST', { detail: 'the upload was interrupted before the whole file arrived.' });
@@ -138,7 +145,7 @@ async function readParts(request: FastifyRequest, limitBytes: number, tmpDir: st
     const fileName = cleanFileName(part.filename, slot === 'settings' ? 'settings.json' : 'upload.csv');
     const path = await newTempPath(request, tmpDir, fileName);
     const counter = { nBytes: 0 };
-    await pipeline(part.file, byteLimiter(slotLimitBytes, counter), createWriteStream(path));
+    await pipeline(part.file, byteLimiter(slotLimitBytes, counter), privateWriteStream(path));
     if (part.file.truncated) throw tooLarge(limitBytes);
     files[slot] = { path, fileName, nBytes: counter.nBytes };
   }
@@ -151,7 +158,8 @@ async function readParts(request: FastifyRequest, limitBytes: number, tmpDir: st
  * whose name comes from `?fileName=`.
  */
 export async function registerUploadParsers(app: FastifyInstance): Promise<void> {
-  const { uploadLimitBytes, uploadTmpDir } = app.appConfig;
+  const { uploadLimitBytes } = app.appConfig;
+  const uploadTmpDir = app.uploadDir;
   await app.register(fastifyMultipart, { limits: { fileSize: uploadLimitBytes } });
   app.addContentTypeParser(RAW_UPLOAD_TYPES, (request, payload, done) => {
     const query = request.query as Record<string, unknown>;
@@ -159,7 +167,7 @@ export async function registerUploadParsers(app: FastifyInstance): Promise<void>
     const counter = { nBytes: 0 };
     newTempPath(request, uploadTmpDir, fileName)
       .then((path) =>
-        pipeline(payload, byteLimiter(uploadLimitBytes, counter), createWriteStream(path)).then(() => {
+        pipeline(payload, byteLimiter(uploadLimitBytes, counter), privateWriteStream(path)).then(() => {
           const body: ReceivedFile = { path, fileName, nBytes: counter.nBytes };
           done(null, body);
         }),

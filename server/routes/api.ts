@@ -56,7 +56,7 @@ export async function apiRoutes(app: FastifyInstance): Promise<void> {
       // A multipart form is read (file to disk) before validation so its fields can be checked.
       preValidation: async (request: FastifyRequest) => {
         if (request.isMultipart()) {
-          request.body = await receiveMultipart(request, app.appConfig.uploadLimitBytes, app.appConfig.uploadTmpDir);
+          request.body = await receiveMultipart(request, app.appConfig.uploadLimitBytes, app.uploadDir);
         }
       },
     },

@@ -1,8 +1,7 @@
 /** Home (the panels), one panel (its sessions), one session (its ratings, also as CSV). */
 import type { FastifyInstance } from 'fastify';
-import { stringify } from 'csv-stringify/sync';
 import { LONG_COLUMNS } from '../../domain/ratings.js';
-import { neutralizeFormulaText } from '../../ingest/spreadsheet-safe.js';
+import { csvRecords } from '../../ingest/csv-writer.js';
 import { sessionHref } from '../../report/page-common.js';
 import { buildPanelView } from '../../report/panel-view.js';
 import { buildPanelsView } from '../../report/panels-view.js';
@@ -24,12 +23,6 @@ function requireSession(db: Database, panel: string, session: string) {
   const sessionRow = readSessionSummary(db, summary.panelId, session);
   if (sessionRow === null) throw new AppError('SESSION_NOT_FOUND', { panel: panel.slice(0, 200), session: session.slice(0, 200) });
   return { panelRow: summary, sessionRow };
-}
-
-/** A CSV cell: numbers as JavaScript writes them (shortest exact form), text made spreadsheet-safe. */
-function csvCell(value: string | number | null): string {
-  if (value === null) return '';
-  return typeof value === 'number' ? String(value) : neutralizeFormulaText(value);
 }
 
 export async function panelPageRoutes(app: FastifyInstance): Promise<void> {
@@ -71,14 +64,19 @@ export async function panelPageRoutes(app: FastifyInstance): Promise<void> {
     // Long form, the same columns as `panel-steward export`, so the download imports back as is.
     csv: ({ params }) => {
       const { panelRow, sessionRow } = requireSession(db, params.panel, params.session);
-      const rows = readSessionRatingRows(db, sessionRow.sessionId).map((rating) =>
-        [sessionRow.label, sessionRow.date, rating.assessor, rating.product, rating.replicate, rating.attribute, rating.value, rating.code].map(
-          csvCell,
-        ),
-      );
+      const rows = readSessionRatingRows(db, sessionRow.sessionId).map((rating) => [
+        sessionRow.label,
+        sessionRow.date,
+        rating.assessor,
+        rating.product,
+        rating.replicate,
+        rating.attribute,
+        rating.value,
+        rating.code,
+      ]);
       return {
         fileName: `${panelRow.name}-${sessionRow.label}.csv`,
-        text: stringify(rows, { header: true, columns: [...LONG_COLUMNS], record_delimiter: '\r\n' }),
+        text: csvRecords([LONG_COLUMNS, ...rows], { recordDelimiter: '\r\n' }),
       };
     },
   });

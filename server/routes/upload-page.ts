@@ -43,7 +43,7 @@ export async function uploadPageRoutes(app: FastifyInstance): Promise<void> {
       onRequest: async (request) => checkDeclaredLength(request, app.appConfig.uploadLimitBytes),
       preValidation: async (request: FastifyRequest) => {
         if (!request.isMultipart()) throw new AppError('UNSUPPORTED_MEDIA_TYPE');
-        request.body = await receiveMultipart(request, app.appConfig.uploadLimitBytes, app.appConfig.uploadTmpDir);
+        request.body = await receiveMultipart(request, app.appConfig.uploadLimitBytes, app.uploadDir);
       },
       preHandler: app.csrfProtection,
     },
