@@ -1,8 +1,8 @@
 /**
  * The mixed-model engine against lme4 1.1-31 + lmerTest 3.1-3 (R 4.2.2), fixtures written by
- * test/fixtures/r/lmm.R (tight bobyqa). Seeded designs carry their data in the fixture and always
- * run; the lmerTest data sets (TVbo, ham, carrots) are GPL, so their data come from the
- * git-ignored cache the R script writes, and those cases are skipped when it is absent.
+ * test/fixtures/r/lmm.R (tight bobyqa). Seeded designs carry their data in the fixture; the data
+ * of the lmerTest data sets (TVbo, ham, carrots; GPL >= 2) are in test/fixtures/json/gpl/, the
+ * separate folder of GPL test data the R script writes.
  * Two separate checks per case: our criterion at lme4's θ (the objective alone), then the
  * whole fit (objective + optimiser + inference).
  */
@@ -21,7 +21,7 @@ import { fitVarianceComponents } from '../../../analysis/lmm/fit.js';
 import { buildModelFrame } from '../../../analysis/lmm/model-frame.js';
 import { productContrastRows } from '../../../analysis/lmm/satterthwaite.js';
 import * as tol from '../../helpers/tolerances.js';
-import { FIXTURE_DIR, loadCases, observationsFromData, readCacheCsv, type ExpectedFit } from './lmm-fixtures.js';
+import { FIXTURE_DIR, loadCases, observationsFromData, readGplCsv, type ExpectedFit } from './lmm-fixtures.js';
 
 function expectRelative(actual: number | null, expected: number, tolerance: number, label: string): void {
   expect(actual, label).not.toBeNull();
@@ -188,15 +188,12 @@ describe('nlme ergoStool (published example, data in lmm-ergostool.json)', () =>
   for (const expected of loadCases('lmm-ergostool.json')) runCase(expected, observationsFromData(expected.data!, 'effort'));
 });
 
-const SKIP_NOTE = '(skipped: GPL data cache absent; run bash test/fixtures/r/generate.sh DIR to create test/fixtures/cache)';
-
 describe('lmerTest TVbo: 15 attributes, an unbalanced subset and two period fits', () => {
-  const rows = readCacheCsv('tvbo.csv');
+  const rows = readGplCsv('tvbo.csv');
   for (const expected of loadCases('lmm-tvbo.json')) {
-    const name = rows ? expected.name : `${expected.name} ${SKIP_NOTE}`;
-    describe.skipIf(!rows)(name, () => {
+    describe(expected.name, () => {
       const dropped = new Set((expected.rowsDropped ?? []).map((row) => row - 1));
-      const observations: Observation[] = (rows ?? [])
+      const observations: Observation[] = rows
         .filter((_, index) => !dropped.has(index))
         .map((row) => ({
           session: expected.model === 'period' ? row.tvset : 'S1',
@@ -213,9 +210,9 @@ describe('lmerTest TVbo: 15 attributes, an unbalanced subset and two period fits
 
 describe('lmerTest ham and carrots (consumer data, large sessions)', () => {
   for (const expected of loadCases('lmm-consumer.json')) {
-    const rows = readCacheCsv(expected.cache!);
-    describe.skipIf(!rows)(rows ? expected.name : `${expected.name} ${SKIP_NOTE}`, () => {
-      const observations: Observation[] = (rows ?? []).map((row) => ({
+    const rows = readGplCsv(expected.cache!);
+    describe(expected.name, () => {
+      const observations: Observation[] = rows.map((row) => ({
         session: 'S1',
         assessor: row.assessor,
         product: row.product,
