@@ -56,7 +56,7 @@ describe('analyze FILE --format json (per session)', async () => {
 
   it('exits 0 and prints one JSON document with only the contract keys', () => {
     expect(result.exitCode).toBe(0);
-    expect(Object.keys(json).sort()).toEqual(['assessorIndices', 'fits']);
+    expect(Object.keys(json).sort()).toEqual(['assessorIndices', 'fits', 'notFitted']);
     expect(result.stdout).not.toMatch(/NaN|Infinity/);
     for (const row of json.assessorIndices) {
       expect(Object.keys(row).sort()).toEqual(['agreementR', 'assessor', 'attribute', 'discriminationF', 'discriminationP', 'offset', 'repeatabilityMSE', 'scaling', 'session'].sort());
@@ -187,7 +187,10 @@ describe('analyze: files with problems and odd data', () => {
     const parsed = JSON.parse(out.stdout) as AnalyzeJson;
     expect(parsed.fits).toEqual([]);
     expect(parsed.assessorIndices.length).toBeGreaterThan(0);
-    expect(out.stderr).toMatch(/^note: session S01, attribute crispness: not fitted/m);
+    expect(out.stderr).toMatch(/^note: session S01, attribute crispness: could not be fitted: /m);
+    expect(parsed.notFitted).toEqual([
+      { session: 'S01', attribute: 'crispness', model: 'session', status: 'not-fitted', code: 'constant-response', reason: expect.any(String) },
+    ]);
   });
 
   it('usage errors: missing file and unknown format are CliErrors with exit code 2', async () => {
