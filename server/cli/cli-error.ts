@@ -1,3 +1,5 @@
+import type { FitFailureLogger } from '../refit.js';
+
 /** An error meant for the person at the terminal: printed as-is, no stack trace. */
 export class CliError extends Error {
   constructor(
@@ -13,3 +15,12 @@ export class CliError extends Error {
 export function resolveDbPath(dbOption: string | undefined): string {
   return dbOption ?? process.env.PANEL_STEWARD_DB ?? 'data/panel-steward.db';
 }
+
+/** Unexpected fit errors on stderr, with where they happened and the stack (for a bug report). */
+export const stderrFitLogger: FitFailureLogger = {
+  error(details, message) {
+    const { stack, ...where } = details;
+    const place = Object.entries(where).map(([key, value]) => `${key} ${String(value)}`).join(', ');
+    process.stderr.write(`error: ${message} (${place})\n${typeof stack === 'string' ? `${stack}\n` : ''}`);
+  },
+};

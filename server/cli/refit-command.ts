@@ -4,7 +4,7 @@ import { SingleBar, Presets } from 'cli-progress';
 import { openStore } from '../../store/open-store.js';
 import { createFitPool } from '../fit-pool.js';
 import { PanelNotFoundError, refitPanel, type RefitProgress, type RefitSummary } from '../refit.js';
-import { CliError, resolveDbPath } from './cli-error.js';
+import { CliError, resolveDbPath, stderrFitLogger } from './cli-error.js';
 
 const PHASE_NAMES: Record<RefitProgress['phase'], string> = {
   sessions: 'session fits',
@@ -75,6 +75,7 @@ export function registerRefitCommand(program: Command): void {
           runner,
           scope: options.changedOnly ? 'stale' : 'all',
           onProgress: (p) => progress.update(p),
+          logger: stderrFitLogger,
         });
         progress.stop();
         process.stdout.write(`${describeRefit(summary)}\n`);
