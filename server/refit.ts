@@ -43,7 +43,7 @@ import type { PanelHistory } from '../analysis/monitor/series.js';
 import type { PeriodFitResult, PeriodTask, RatedObservation, RetrainingToEvaluate } from './workers/fit-task-types.js';
 
 /** Recorded with every stored result; bump when a change in analysis/ changes stored numbers. */
-export const ANALYSIS_VERSION = 'analysis-1';
+export const ANALYSIS_VERSION = 'analysis-2';
 
 /** Default rolling window of the period model: the last 12 sessions (issue 4 §3). */
 export const DEFAULT_WINDOW_SESSIONS = 12;
