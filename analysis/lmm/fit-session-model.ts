@@ -52,7 +52,7 @@ export function fitSessionModel(observations: Observation[]): SessionModelFit {
 
   // With one product the interaction would duplicate the assessor term (not identifiable).
   const withInteraction = nProducts > 1 && hasReplicatedCell(assessorCoding.codes, productCoding.codes, nProducts);
-  if (withInteraction) checkReplicateVariation(values, assessorCoding.codes, productCoding.codes, nProducts);
+  if (withInteraction) checkReplicateVariation(values, assessorCoding.codes, productCoding.codes, nAssessors, nProducts);
   // Level codes in sorted order, as the model frame codes them, so the ANOVA is the frame's.
   const anova = nProducts > 1 ? balancedAnova(values, assessorCoding.codes, productCoding.codes, nAssessors, nProducts) : null;
   const closedForm = anova ? balancedClosedForm(anova, withInteraction) : null;
@@ -372,13 +372,12 @@ export function checkResponse(values: number[]): void {
  * are then unbounded and the REML criterion has no minimum (lmer stops with a residual SD near 0
  * and convergence warnings). Such data have no model, only a note.
  */
-function checkReplicateVariation(values: number[], assessorCodes: Int32Array, productCodes: Int32Array, nProducts: number): void {
-  const first = new Map<number, number>();
+function checkReplicateVariation(values: number[], assessorCodes: Int32Array, productCodes: Int32Array, nAssessors: number, nProducts: number): void {
+  const first = new Float64Array(nAssessors * nProducts).fill(Number.NaN);
   for (let i = 0; i < values.length; i++) {
     const cell = assessorCodes[i] * nProducts + productCodes[i];
-    const seen = first.get(cell);
-    if (seen === undefined) first.set(cell, values[i]);
-    else if (seen !== values[i]) return;
+    if (Number.isNaN(first[cell])) first[cell] = values[i];
+    else if (first[cell] !== values[i]) return;
   }
   throw new LmmFitError('no-residual-variation', 'no replicate variation: every assessor gave identical ratings to each product');
 }
