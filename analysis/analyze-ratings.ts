@@ -3,10 +3,12 @@
  * Without `period`: one session model per (session, attribute) and the classic indices of every
  * assessor in it. With `period`: one period model per attribute over all sessions, no indices.
  * Groups keep first-seen order. Data a model cannot be fitted to (one assessor, constant
- * ratings, …) leaves that group out of `fits` and says why in `notes`; its indices are still
- * computed. Pure: no I/O.
+ * ratings, replicates that never differ, …) leaves that group out of `fits`, lists it in
+ * `notFitted` and says why in `notes`; its indices are still computed. An unexpected error of a
+ * fit is a fault of the program, not of the data: it is handed to `onFitFailure` (the caller
+ * logs it with its stack) and the group is listed as not fitted; other groups go on. Pure: no I/O.
  */
-import type { AnalyzeJson, AssessorIndicesJson, FitJson } from '../domain/analysis.js';
+import type { AnalyzeJson, AssessorIndicesJson, FitJson, NotFittedJson } from '../domain/analysis.js';
 import type { Observation } from '../domain/ratings.js';
 import { computeAnalyzeContractIndices } from './indices/compute-assessor-indices.js';
 import { LmmFitError } from './lmm/errors.js';
@@ -15,7 +17,12 @@ import { fitSessionModel } from './lmm/fit-session-model.js';
 
 export interface AnalyzeOptions {
   period: boolean;
+  /** Receives unexpected errors of a fit (not data conditions), e.g. to log them with the stack. */
+  onFitFailure?: (error: unknown, where: { session: string | null; attribute: string }) => void;
 }
+
+/** The sentence shown for a group without a fit (the CLI note and the service's pages). */
+export const UNEXPECTED_FIT_FAILURE = 'the model failed unexpectedly on these data (a fault of the program, reported in the log)';
 
 /** Why a group has no fit: a plain sentence for people. */
 export interface AnalyzeNote {
@@ -27,30 +34,24 @@ export interface AnalyzeNote {
 export function analyzeRatingsWithNotes(ratings: readonly Observation[], options: AnalyzeOptions): { json: AnalyzeJson; notes: AnalyzeNote[] } {
   const fits: FitJson[] = [];
   const assessorIndices: AssessorIndicesJson[] = [];
+  const notFitted: NotFittedJson[] = [];
   const notes: AnalyzeNote[] = [];
   const groups = groupBy(ratings, options.period);
   for (const observations of groups) {
-    const { session, attribute } = observations[0];
-    const fit = tryFit(() => (options.period ? fitPeriodModel(observations).json : fitSessionModel(observations).json), {
-      session: options.period ? null : session,
-      attribute,
-      notes,
-    });
-    if (fit) fits.push(fit);
+    const where = { session: options.period ? null : observations[0].session, attribute: observations[0].attribute };
+    try {
+      fits.push(options.period ? fitPeriodModel(observations).json : fitSessionModel(observations).json);
+    } catch (error) {
+      const expected = error instanceof LmmFitError;
+      if (!expected) options.onFitFailure?.(error, where);
+      const reason = expected ? error.message : UNEXPECTED_FIT_FAILURE;
+      notFitted.push({ ...where, model: options.period ? 'period' : 'session', status: 'not-fitted', code: expected ? error.code : 'fit-failed', reason });
+      notes.push({ ...where, message: `could not be fitted: ${reason}` });
+    }
     if (options.period) continue;
     for (const row of computeAnalyzeContractIndices(observations)) assessorIndices.push(row);
   }
-  return { json: { fits, assessorIndices }, notes };
-}
-
-function tryFit(fit: () => FitJson, where: { session: string | null; attribute: string; notes: AnalyzeNote[] }): FitJson | null {
-  try {
-    return fit();
-  } catch (error) {
-    if (!(error instanceof LmmFitError)) throw error;
-    where.notes.push({ session: where.session, attribute: where.attribute, message: `not fitted: ${error.message}` });
-    return null;
-  }
+  return { json: { fits, assessorIndices, notFitted }, notes };
 }
 
 /** Groups in first-seen order; the lookup is nested so no key string is built per rating. */

@@ -58,7 +58,28 @@ export interface AssessorIndicesJson {
   scaling: number | null;
 }
 
+/**
+ * A group (session × attribute, or an attribute over the period) that has no fit, and why. Its
+ * assessor indices are still in `assessorIndices`.
+ */
+export interface NotFittedJson {
+  session: string | null;
+  attribute: string;
+  model: 'session' | 'period';
+  status: 'not-fitted';
+  /**
+   * Why, for programs: a data condition ("no-residual-variation", "constant-response",
+   * "too-few-assessors", "too-few-sessions", "too-few-observations", "not-finite") or
+   * "fit-failed" (an unexpected fault of the program, reported on stderr).
+   */
+  code: string;
+  /** Why, for people: a plain sentence. */
+  reason: string;
+}
+
 export interface AnalyzeJson {
   fits: FitJson[];
   assessorIndices: AssessorIndicesJson[];
+  /** Groups without a fit (added after the first release of the contract; older output lacks it). */
+  notFitted: NotFittedJson[];
 }

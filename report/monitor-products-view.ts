@@ -50,6 +50,8 @@ export interface ProductStabilityInput {
   confLevel: number;
   /** Current unstable-product flags of the attribute (step changes, period LRT). */
   flags: Flag[];
+  /** Sessions whose model of the chosen attribute could not be fitted, with the sentence saying why. */
+  notFitted?: { session: string; reason: string }[];
 }
 
 export interface ProductStabilityView extends PageViewBase {
@@ -66,6 +68,8 @@ export interface ProductStabilityView extends PageViewBase {
   minSessions: number;
   concordance: ProductStabilityInput['concordance'];
   lrtNote: string;
+  /** Sessions of the chosen attribute without a model fit ("Could not be fitted: …"). */
+  notFitted: { session: string; reason: string }[];
   flags: { severity: string; product: string | null; firstSession: string; message: string; evidence: EvidenceItem[] }[];
 }
 
@@ -112,6 +116,7 @@ export function buildProductStabilityView(input: ProductStabilityInput): Product
     }),
     minSessions: input.minSessions,
     concordance: input.concordance,
+    notFitted: input.notFitted ?? [],
     flags: input.flags.map((f) => ({ severity: f.severity, product: f.product, firstSession: f.firstSession, message: f.message, evidence: evidenceItems(f.evidence) })),
     lrtNote:
       'The test of product:session is the boundary likelihood-ratio test of the period model (REML, with and without the term): p = ½·P(χ²₁ ≥ LR) (Self & Liang 1987). With few sessions it tends to be conservative.',

@@ -43,7 +43,7 @@ import type { PanelHistory } from '../analysis/monitor/series.js';
 import type { PeriodFitResult, PeriodTask, RatedObservation, RetrainingToEvaluate } from './workers/fit-task-types.js';
 
 /** Recorded with every stored result; bump when a change in analysis/ changes stored numbers. */
-export const ANALYSIS_VERSION = 'analysis-1';
+export const ANALYSIS_VERSION = 'analysis-2';
 
 /** Default rolling window of the period model: the last 12 sessions (about three months of weekly sessions). */
 export const DEFAULT_WINDOW_SESSIONS = 12;
@@ -65,8 +65,18 @@ export interface RefitProgress {
   label: string;
 }
 
+/** Where unexpected fit errors are reported (pino's logger fits; the CLI writes to stderr). */
+export interface FitFailureLogger {
+  error(details: Record<string, unknown>, message: string): void;
+}
+
 export interface RefitOptions {
   runner: FitRunner;
+  /**
+   * Receives each fit that failed for an unexpected reason (a fault of the program), with its
+   * stack, at error level. Data that cannot be fitted are stored as a sentence and not logged.
+   */
+  logger?: FitFailureLogger;
   /** 'stale' (default): only what changed; 'all': every session, window and the flags. */
   scope?: 'stale' | 'all';
   windowSessions?: number;
@@ -149,6 +159,9 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
         })),
         referenceProducts,
       });
+      for (const a of result.attributes) {
+        if (a.failure) options.logger?.error({ panel: panel.name, session: session.label, attribute: a.attribute, stack: a.failure.stack }, `session fit failed: ${a.failure.message}`);
+      }
       saveSessionResults(db, {
         sessionId: session.id,
         dataVersion: session.dataVersion,
@@ -194,6 +207,10 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
         observations,
         ...warmStarts.nearest(job.attribute, job.window[job.window.length - 1]),
       });
+      if (result.failure) {
+        const window = `${job.window[0].label} to ${job.window[job.window.length - 1].label}`;
+        options.logger?.error({ panel: panel.name, attribute: job.attribute, window, stack: result.failure.stack }, `period fit failed: ${result.failure.message}`);
+      }
       savePeriodFit(db, panel.id, {
         attributeId: job.attributeId,
         windowSessions,
@@ -338,7 +355,7 @@ export class RefitService {
   constructor(
     private readonly db: Database,
     private readonly runner: FitRunner,
-    private readonly options: { windowSessions?: number; onError?: (error: unknown, job: RefitJob) => void } = {},
+    private readonly options: { windowSessions?: number; onError?: (error: unknown, job: RefitJob) => void; logger?: FitFailureLogger } = {},
   ) {}
 
   /** Queue a refit of what changed in the panel; a job already queued for it is reused. */
@@ -377,6 +394,7 @@ export class RefitService {
     try {
       const summary = await refitPanel(this.db, panelName, {
         runner: this.runner,
+        logger: this.options.logger,
         windowSessions: this.options.windowSessions,
         onProgress: (p) => markRefitJob(this.db, jobId, { nTasks: p.total, nDone: p.done, message: `${p.phase}: ${p.label}` }),
       });

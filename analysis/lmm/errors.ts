@@ -6,7 +6,8 @@ export type LmmFitErrorCode =
   | 'too-few-assessors'
   | 'too-few-sessions'
   | 'too-few-observations'
-  | 'not-finite';
+  | 'not-finite'
+  | 'no-residual-variation';
 
 export class LmmFitError extends Error {
   readonly code: LmmFitErrorCode;

@@ -13,7 +13,8 @@ import { boundaryLikelihoodRatioTest } from './boundary-lrt.js';
 import { makeRemlObjective, type RemlObjective } from './criterion.js';
 import { LmmFitError } from './errors.js';
 import { confirmClosedForm, fitFromObjective, type LmmDiagnostics, type LmmFit } from './fit.js';
-import { checkOneGroup, checkResponse } from './fit-session-model.js';
+import { checkOneGroup, checkResidualVariation, checkResponse, noResidualVariation } from './fit-session-model.js';
+import { reproducedExactly } from './exact-fit.js';
 import { buildModelFrame } from './model-frame.js';
 import { balancedPeriodSolution, periodMomentStart } from './period-start.js';
 
@@ -87,6 +88,26 @@ export function fitPeriodModel(observations: Observation[], options: PeriodModel
     nProducts: frame.nFixed,
     nSessions,
   };
+  try {
+    return fitPeriodFrame(objective, cells, { attribute, randomTerms, withProductSession, oneProduct, options });
+  } catch (error) {
+    if (!(error instanceof LmmFitError) && reproducedExactly(frame)) throw noResidualVariation(PERIOD_LEVELS);
+    throw error;
+  }
+}
+
+const PERIOD_LEVELS = 'assessor, product and session';
+
+/** The fit itself, once the frame is built: closed form or REML, then the product:session LRT. */
+function fitPeriodFrame(
+  objective: RemlObjective,
+  cells: Parameters<typeof periodMomentStart>[0],
+  setting: { attribute: string; randomTerms: string[][]; withProductSession: boolean; oneProduct: boolean; options: PeriodModelOptions },
+): PeriodModelFit {
+  const { attribute, randomTerms, withProductSession, oneProduct, options } = setting;
+  const { frame } = objective;
+  const { nAssessors, nSessions } = cells;
+  const { values } = cells;
   const momentStart = oneProduct ? null : periodMomentStart(cells, withProductSession);
   // Balanced with all components positive: closed form (confirmed by the optimiser); else REML.
   const closedForm = oneProduct ? null : balancedPeriodSolution(cells, withProductSession);
@@ -100,6 +121,7 @@ export function fitPeriodModel(observations: Observation[], options: PeriodModel
     randomEffectTerms: ['assessor'],
     averageInformation: true,
   });
+  checkResidualVariation(fit.residualVariance, values, PERIOD_LEVELS);
   if (nAssessors < 3) fit.diagnostics.messages.push(`too few assessors (${nAssessors}): the assessor variance is poorly determined`);
 
   let productSessionLrt: PeriodModelFit['productSessionLrt'] = null;

@@ -17,6 +17,7 @@ import { fUpperTail } from '../distributions/index.js';
 import { balancedAnova, type BalancedAnova } from './balanced-anova.js';
 import { makeRemlObjective } from './criterion.js';
 import { LmmFitError } from './errors.js';
+import { reproducedExactly } from './exact-fit.js';
 import { confirmClosedForm, fitFromObjective, type LmmDiagnostics, type LmmFit } from './fit.js';
 import { buildModelFrame, compareLevels } from './model-frame.js';
 import type { ProductTest } from './satterthwaite.js';
@@ -45,6 +46,7 @@ export interface SessionModelFit {
 }
 
 export const ASSESSOR = 'assessor';
+const SESSION_LEVELS = 'assessor and product';
 export const ASSESSOR_PRODUCT = 'assessor:product';
 
 export function fitSessionModel(observations: Observation[], options: SessionModelOptions = {}): SessionModelFit {
@@ -61,12 +63,14 @@ export function fitSessionModel(observations: Observation[], options: SessionMod
 
   // With one product the interaction would duplicate the assessor term (not identifiable).
   const withInteraction = nProducts > 1 && hasReplicatedCell(assessorCoding.codes, productCoding.codes, nProducts);
+  if (withInteraction) checkReplicateVariation(values, assessorCoding.codes, productCoding.codes, nAssessors, nProducts);
   // Level codes in sorted order, as the model frame codes them, so the ANOVA is the frame's.
   const anova = nProducts > 1 ? balancedAnova(values, assessorCoding.codes, productCoding.codes, nAssessors, nProducts) : null;
   const closedForm = anova ? balancedClosedForm(anova, withInteraction) : null;
   const general = (): { fit: LmmFit; diagnostics: SessionModelDiagnostics } => fitThroughFrame(values, assessors, products, attribute, withInteraction, anova, closedForm);
 
   if (anova && closedForm && closedForm.variances.residual > 0) {
+    checkResidualVariation(closedForm.variances.residual, values, SESSION_LEVELS);
     // The closed form is the REML solution (module comment), so the JSON needs no model frame,
     // criterion or optimiser: about 0.6 s less for a year of sessions. The general machinery
     // (its confirmation and diagnostics) runs when asked for, or when the LmmFit is read.
@@ -83,6 +87,7 @@ export function fitSessionModel(observations: Observation[], options: SessionMod
     };
   }
   const { fit, diagnostics } = general();
+  checkResidualVariation(fit.residualVariance, values, SESSION_LEVELS);
   const json: FitJson = {
     session,
     attribute,
@@ -130,12 +135,17 @@ function fitThroughFrame(
   const objective = makeRemlObjective(frame);
   let fit: LmmFit;
   let fastPath = false;
-  if (anova && closedForm) {
-    const confirmed = confirmClosedForm(objective, closedForm.theta, closedFormProductTest(anova, closedForm), [ASSESSOR]);
-    fit = confirmed.fit;
-    fastPath = confirmed.confirmed;
-  } else {
-    fit = fitFromObjective(objective, { startTheta: startTheta(anova, withInteraction), randomEffectTerms: [ASSESSOR] });
+  try {
+    if (anova && closedForm) {
+      const confirmed = confirmClosedForm(objective, closedForm.theta, closedFormProductTest(anova, closedForm), [ASSESSOR]);
+      fit = confirmed.fit;
+      fastPath = confirmed.confirmed;
+    } else {
+      fit = fitFromObjective(objective, { startTheta: startTheta(anova, withInteraction), randomEffectTerms: [ASSESSOR] });
+    }
+  } catch (error) {
+    if (!(error instanceof LmmFitError) && reproducedExactly(frame)) throw noResidualVariation(SESSION_LEVELS);
+    throw error;
   }
   const nAssessors = frame.terms[0].levels.length;
   if (nAssessors < 3) fit.diagnostics.messages.push(`too few assessors (${nAssessors}): the assessor variance is poorly determined`);
@@ -230,11 +240,14 @@ function balancedClosedForm(anova: BalancedAnova, withInteraction: boolean): Clo
   const { nReplicates: n, nProducts: p } = anova;
   const ssA = anova.msAssessor * anova.dfAssessor;
   const ssAP = anova.msInteraction * anova.dfInteraction;
+  // A component is positive only when its mean square exceeds the one below it by more than
+  // rounding: at an exact tie the REML estimate is 0 and the test uses the pooled line.
+  const above = (upper: number, lower: number): number => (exceeds(upper, lower, anova.grandMean) ? upper - lower : 0);
   if (withInteraction) {
     const residual = anova.msError;
     if (!(residual > 0)) return null;
-    const interaction = (anova.msInteraction - anova.msError) / n;
-    const assessor = (anova.msAssessor - anova.msInteraction) / (n * p);
+    const interaction = above(anova.msInteraction, anova.msError) / n;
+    const assessor = above(anova.msAssessor, anova.msInteraction) / (n * p);
     if (interaction > 0 && assessor > 0) {
       return {
         theta: Float64Array.of(Math.sqrt(assessor / residual), Math.sqrt(interaction / residual)),
@@ -247,7 +260,7 @@ function balancedClosedForm(anova: BalancedAnova, withInteraction: boolean): Clo
       // Interaction at 0: error and interaction lines pooled.
       const dfPooled = anova.dfInteraction + anova.dfError;
       const pooled = (ssAP + anova.msError * anova.dfError) / dfPooled;
-      const pooledAssessor = (anova.msAssessor - pooled) / (n * p);
+      const pooledAssessor = above(anova.msAssessor, pooled) / (n * p);
       if (!(pooledAssessor > 0)) return null;
       return {
         theta: Float64Array.of(Math.sqrt(pooledAssessor / pooled), 0),
@@ -260,7 +273,7 @@ function balancedClosedForm(anova: BalancedAnova, withInteraction: boolean): Clo
       // Assessor at 0: assessor and interaction lines pooled.
       const dfPooled = anova.dfAssessor + anova.dfInteraction;
       const pooled = (ssA + ssAP) / dfPooled;
-      const pooledInteraction = (pooled - residual) / n;
+      const pooledInteraction = above(pooled, residual) / n;
       if (!(pooledInteraction > 0)) return null;
       return {
         theta: Float64Array.of(0, Math.sqrt(pooledInteraction / residual)),
@@ -274,7 +287,7 @@ function balancedClosedForm(anova: BalancedAnova, withInteraction: boolean): Clo
   if (n !== 1) return null;
   const residual = anova.msInteraction;
   if (!(residual > 0)) return null;
-  const assessor = (anova.msAssessor - anova.msInteraction) / p;
+  const assessor = above(anova.msAssessor, anova.msInteraction) / p;
   if (assessor > 0) {
     return {
       theta: Float64Array.of(Math.sqrt(assessor / residual)),
@@ -286,6 +299,25 @@ function balancedClosedForm(anova: BalancedAnova, withInteraction: boolean): Clo
   const dfPooled = anova.dfAssessor + anova.dfInteraction;
   const pooled = (ssA + ssAP) / dfPooled;
   return { theta: Float64Array.of(0), variances: { assessor: 0, interaction: 0, residual: pooled }, denominatorMeanSquare: pooled, denominatorDf: dfPooled };
+}
+
+/**
+ * Relative tolerance of a mean-square comparison: 64 units in the last place. Mean squares of
+ * equal rational value (integer ratings tie exactly about once in 300 small sessions) come out
+ * a few ulps apart, because they are sums of squared deviations from means computed in floating
+ * point.
+ */
+export const MEAN_SQUARE_TIE_ULPS = 64;
+
+/**
+ * True when mean square `upper` exceeds `lower` by more than rounding. A deviation from a mean
+ * of size |ȳ| carries an absolute error of about ε|ȳ|, so a mean square MS carries one of about
+ * ε(MS + |ȳ|√MS): the tolerance scales with both the mean squares and the data's level.
+ */
+export function exceeds(upper: number, lower: number, grandMean: number): boolean {
+  const scale = Math.max(Math.abs(upper), Math.abs(lower));
+  const tolerance = MEAN_SQUARE_TIE_ULPS * Number.EPSILON * (scale + Math.abs(grandMean) * Math.sqrt(scale));
+  return upper - lower > tolerance;
 }
 
 function closedFormProductTest(anova: BalancedAnova, closedForm: ClosedForm): ProductTest {
@@ -332,4 +364,41 @@ export function checkResponse(values: number[]): void {
   if (values.every((value) => value === values[0])) {
     throw new LmmFitError('constant-response', 'all ratings are identical: there is no variation to model');
   }
+}
+
+/**
+ * Replicates that never differ leave the residual variance at 0: the relative SDs θ = σ_term/σ
+ * are then unbounded and the REML criterion has no minimum (lmer stops with a residual SD near 0
+ * and convergence warnings). Such data have no model, only a note.
+ */
+function checkReplicateVariation(values: number[], assessorCodes: Int32Array, productCodes: Int32Array, nAssessors: number, nProducts: number): void {
+  const first = new Float64Array(nAssessors * nProducts).fill(Number.NaN);
+  for (let i = 0; i < values.length; i++) {
+    const cell = assessorCodes[i] * nProducts + productCodes[i];
+    if (Number.isNaN(first[cell])) first[cell] = values[i];
+    else if (first[cell] !== values[i]) return;
+  }
+  throw new LmmFitError('no-residual-variation', 'no replicate variation: every assessor gave identical ratings to each product');
+}
+
+/**
+ * A residual variance below this fraction of the ratings' variance is rounding, not an estimate:
+ * the model's terms reproduce every rating exactly (e.g. ratings that are exactly an assessor
+ * level plus a product level), so the F-test would divide by zero.
+ */
+export const RESIDUAL_VARIANCE_FLOOR = 1e-10;
+
+/** `levels` names the model's factors for the sentence, e.g. "assessor and product". */
+export function checkResidualVariation(residualVariance: number, values: ArrayLike<number>, levels: string): void {
+  const n = values.length;
+  let mean = 0;
+  for (let i = 0; i < n; i++) mean += values[i] / n;
+  let sumOfSquares = 0;
+  for (let i = 0; i < n; i++) sumOfSquares += (values[i] - mean) ** 2;
+  if (residualVariance > RESIDUAL_VARIANCE_FLOOR * (sumOfSquares / (values.length - 1))) return;
+  throw noResidualVariation(levels);
+}
+
+export function noResidualVariation(levels: string): LmmFitError {
+  return new LmmFitError('no-residual-variation', `no residual variation: the ${levels} levels reproduce every rating exactly, so the variances cannot be estimated`);
 }

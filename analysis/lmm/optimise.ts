@@ -109,6 +109,11 @@ export function minimizeBounded(
         const polished = searchFace(functions, face.gamma, new Uint8Array(k), settings);
         best = polished.value <= face.value ? polished : face;
         best.iterations += face.iterations;
+      } else if (face.converged && face.value <= best.value + BOUNDARY_TIE_ABSOLUTE && zeroCount(face.gamma) > zeroCount(best.gamma)) {
+        // As good as the interior answer: at an exact tie of two mean squares the criterion is
+        // flat to fourth order in θ at the boundary and the search stops short of it, where the
+        // Satterthwaite df would lie between the interior and the boundary answers.
+        best = { ...face, iterations: best.iterations + face.iterations };
       }
     }
   }
@@ -122,6 +127,18 @@ export function minimizeBounded(
     projectedGradient,
     messages: [...best.messages],
   };
+}
+
+/**
+ * A boundary face whose criterion is at most this much above the best point found is taken
+ * instead of it (the same rule as the reference fixtures' test/fixtures/r/lmm.R, settle_on_boundary).
+ */
+export const BOUNDARY_TIE_ABSOLUTE = 1e-9;
+
+function zeroCount(gamma: Float64Array): number {
+  let zeros = 0;
+  for (const value of gamma) if (value === 0) zeros++;
+  return zeros;
 }
 
 interface FaceResult {

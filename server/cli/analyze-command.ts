@@ -72,7 +72,12 @@ export async function runAnalyzeCommand(file: string, options: AnalyzeCommandOpt
   }
   const dropped = observations.length - duplicates.kept.length;
   if (dropped > 0) notes.push(`note: ${dropped} repeated rating${dropped === 1 ? '' : 's'} (same keys and value) counted once.`);
-  const { json, notes: fitNotes } = analyzeRatingsWithNotes(duplicates.kept, { period: options.period ?? false });
+  const { json, notes: fitNotes } = analyzeRatingsWithNotes(duplicates.kept, {
+    period: options.period ?? false,
+    // A fault of the program, not of the file: its stack goes to stderr for the bug report.
+    onFitFailure: (error, where) =>
+      output.stderr.write(`error: ${where.session === null ? '' : `session ${where.session}, `}attribute ${where.attribute}: the fit failed unexpectedly\n${error instanceof Error ? (error.stack ?? error.message) : String(error)}\n`),
+  });
   for (const note of fitNotes) notes.push(`note: ${note.session === null ? '' : `session ${note.session}, `}attribute ${note.attribute}: ${note.message}`);
   if (notes.length > 0) output.stderr.write(`${notes.join('\n')}\n`);
   if (format === 'text') {

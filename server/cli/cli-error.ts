@@ -1,4 +1,5 @@
 import { describeStorageError } from '../storage-errors.js';
+import type { FitFailureLogger } from '../refit.js';
 
 /** An error meant for the person at the terminal: printed as-is, no stack trace. */
 export class CliError extends Error {
@@ -36,3 +37,11 @@ export function unexpectedErrorMessage(error: unknown, args: readonly string[]):
   const storage = describeStorageError(error, { storePath: storePathFromArgs(args) });
   return storage?.message ?? (error instanceof Error ? error.message : String(error));
 }
+/** Unexpected fit errors on stderr, with where they happened and the stack (for a bug report). */
+export const stderrFitLogger: FitFailureLogger = {
+  error(details, message) {
+    const { stack, ...where } = details;
+    const place = Object.entries(where).map(([key, value]) => `${key} ${String(value)}`).join(', ');
+    process.stderr.write(`error: ${message} (${place})\n${typeof stack === 'string' ? `${stack}\n` : ''}`);
+  },
+};

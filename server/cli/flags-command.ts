@@ -9,7 +9,7 @@ import { findPanel, listSessionVersions } from '../../store/fits-sessions.js';
 import { listCurrentFlagObjects, loadFlagBuild } from '../../store/monitor-flags.js';
 import { createFitPool } from '../fit-pool.js';
 import { panelDataSignature, refitPanel } from '../refit.js';
-import { CliError } from './cli-error.js';
+import { CliError, stderrFitLogger } from './cli-error.js';
 import { openStoreForCli } from './import-command.js';
 
 /** One line per flag for people: severity, kind, who/what, where it starts, the sentence. */
@@ -43,7 +43,7 @@ export function registerFlagsCommand(program: Command): void {
           process.stderr.write('Flags are older than the data: recomputing what changed first.\n');
           const runner = createFitPool();
           try {
-            await refitPanel(db, options.panel, { runner });
+            await refitPanel(db, options.panel, { runner, logger: stderrFitLogger });
           } finally {
             await runner.close();
           }

@@ -3,7 +3,7 @@ import type { Command } from 'commander';
 import { SingleBar, Presets } from 'cli-progress';
 import { createFitPool } from '../fit-pool.js';
 import { PanelNotFoundError, refitPanel, type RefitProgress, type RefitSummary } from '../refit.js';
-import { CliError } from './cli-error.js';
+import { CliError, stderrFitLogger } from './cli-error.js';
 import { openStoreForCli } from './import-command.js';
 
 const PHASE_NAMES: Record<RefitProgress['phase'], string> = {
@@ -75,6 +75,7 @@ export function registerRefitCommand(program: Command): void {
           runner,
           scope: options.changedOnly ? 'stale' : 'all',
           onProgress: (p) => progress.update(p),
+          logger: stderrFitLogger,
         });
         progress.stop();
         process.stdout.write(`${describeRefit(summary)}\n`);

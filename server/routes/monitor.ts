@@ -19,7 +19,7 @@ import { monitorSeries, type SeriesPoint } from '../../analysis/monitor/chart.js
 import { buildReferenceSeries, referencePeriodFor } from '../../analysis/monitor/series.js';
 import { cochranQ, productRankConcordance } from '../../analysis/monitor/stability.js';
 import { productEffectSeriesOf } from '../../analysis/flags/product-flags.js';
-import { loadPeriodFits } from '../../store/fits-results.js';
+import { loadPeriodFits, loadSessionQuality } from '../../store/fits-results.js';
 import type { StoredPeriodResult } from '../refit.js';
 import { listAssessorCodes, listSessionVersions } from '../../store/fits-sessions.js';
 import { getFlag, listCurrentFlagObjects, listFlags, reviewFlag } from '../../store/monitor-flags.js';
@@ -117,6 +117,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
   if (app.storeHealth.ok) failInterruptedRefitJobs(db);
   const service = new RefitService(db, runner, {
     onError: (error, job) => app.log.error({ err: error, jobId: job.id }, 'refit failed'),
+    logger: app.log,
   });
   app.decorate('refitService', service);
   // Shutdown: stopping the pool rejects the fits still queued, so a long refit ends at once as
@@ -248,7 +249,14 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
       ? results.slice(results.findIndex((r) => r.session === latestWindow.firstSession), results.findIndex((r) => r.session === latestWindow.lastSession) + 1)
       : results;
     const concordance = productRankConcordance(windowResults);
+    // The session fits of this attribute that could not be made (stored as the session's findings by the refit).
+    const notFitted = loadSessionQuality(db, ctx.panel.id).flatMap((q) =>
+      (q.findings as { attribute?: string; message?: string }[])
+        .filter((f) => f.attribute === attribute && typeof f.message === 'string')
+        .map((f) => ({ session: q.session, reason: f.message! })),
+    );
     return buildProductStabilityView({
+      notFitted,
       panel: ctx.panel.name,
       attributes: ctx.attributes,
       attribute,

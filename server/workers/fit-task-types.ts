@@ -22,6 +22,12 @@ export interface SessionTask {
   referenceProducts: string[];
 }
 
+/** An unexpected error of a fit (a fault of the program), for the log. */
+export interface FitFailure {
+  message: string;
+  stack: string | null;
+}
+
 export interface AttributeOutcome {
   attribute: string;
   /** null when no model could be fitted (the reason is in `problem`). */
@@ -30,6 +36,8 @@ export interface AttributeOutcome {
   indices: AssessorSessionIndices[];
   /** A plain sentence when the attribute could not be analysed this session. */
   problem: string | null;
+  /** Set when the reason was an unexpected error rather than the data: logged by the main thread. */
+  failure: FitFailure | null;
 }
 
 export interface SessionTaskResult {
@@ -70,6 +78,8 @@ export interface PeriodTaskResult {
   /** null when the window could not be fitted (the sentence is in `problem`). */
   result: PeriodFitResult | null;
   problem: string | null;
+  /** Set when the reason was an unexpected error rather than the data: logged by the main thread. */
+  failure: FitFailure | null;
 }
 
 /** A retraining recorded as done, to be judged from the sessions from `eventSession` on. */

@@ -4,12 +4,14 @@
  */
 import { buildFlags, evaluateRetraining, validateThresholds } from '../../analysis/flags/index.js';
 import { computeAssessorIndices } from '../../analysis/indices/compute-assessor-indices.js';
+import { UNEXPECTED_FIT_FAILURE } from '../../analysis/analyze-ratings.js';
 import { LmmFitError } from '../../analysis/lmm/errors.js';
 import { fitPeriodModel } from '../../analysis/lmm/fit-period-model.js';
 import { fitSessionModel } from '../../analysis/lmm/fit-session-model.js';
 import { unpackRatings } from '../../store/fits-sessions.js';
 import type {
   AttributeOutcome,
+  FitFailure,
   FitTask,
   FitTaskResult,
   FlagsTask,
@@ -20,10 +22,17 @@ import type {
   SessionTaskResult,
 } from './fit-task-types.js';
 
-/** A plain sentence for a fit that could not be made; unexpected errors are not shown verbatim. */
-function problemSentence(error: unknown): string {
-  if (error instanceof LmmFitError) return `Not fitted: ${error.message}.`;
-  return 'Not fitted: the model failed unexpectedly on these data.';
+/**
+ * A fit that could not be made: a plain sentence for the pages, and for an unexpected error (a
+ * fault of the program, not a data condition) its message and stack for the log. The worker has
+ * no logger: the failure travels back with the result and the main thread logs it.
+ */
+function describeFailure(error: unknown): { problem: string; failure: FitFailure | null } {
+  if (error instanceof LmmFitError) return { problem: `Could not be fitted: ${error.message}.`, failure: null };
+  return {
+    problem: `Could not be fitted: ${UNEXPECTED_FIT_FAILURE}.`,
+    failure: error instanceof Error ? { message: error.message, stack: error.stack ?? null } : { message: String(error), stack: null },
+  };
 }
 
 export function runSessionTask(task: SessionTask): SessionTaskResult {
@@ -32,13 +41,14 @@ export function runSessionTask(task: SessionTask): SessionTaskResult {
     let fit: AttributeOutcome['fit'] = null;
     let diagnostics: unknown = {};
     let problem: string | null = null;
+    let failure: FitFailure | null = null;
     try {
       const result = fitSessionModel(a.observations);
       fit = result.json;
       // No diagnostics: the closed form answered (the refit does not run the optimiser to confirm it).
       diagnostics = { ...(result.diagnostics ?? { balancedFastPath: true }), withInteraction: result.withInteraction };
     } catch (error) {
-      problem = problemSentence(error);
+      ({ problem, failure } = describeFailure(error));
       findings.push({
         code: error instanceof LmmFitError ? error.code : 'fit-failed',
         session: task.session,
@@ -48,7 +58,7 @@ export function runSessionTask(task: SessionTask): SessionTaskResult {
     }
     // Indices do not need the model; the panel's product p (when fitted) gates the scaling test.
     const indices = computeAssessorIndices(a.observations, { panelProductPValue: fit?.productTest.p ?? null });
-    return { attribute: a.attribute, fit, diagnostics, indices, problem };
+    return { attribute: a.attribute, fit, diagnostics, indices, problem, failure };
   });
   return { session: task.session, attributes, findings };
 }
@@ -63,9 +73,10 @@ export function runPeriodTask(task: PeriodTask): PeriodTaskResult {
       attribute: task.attribute,
       result: { json: result.json, diagnostics: result.diagnostics, lrt: result.productSessionLrt, reducedRelativeSds: result.reducedRelativeSds },
       problem: null,
+      failure: null,
     };
   } catch (error) {
-    return { attribute: task.attribute, result: null, problem: problemSentence(error) };
+    return { attribute: task.attribute, result: null, ...describeFailure(error) };
   }
 }
 

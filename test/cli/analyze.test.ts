@@ -56,7 +56,7 @@ describe('analyze FILE --format json (per session)', async () => {
 
   it('exits 0 and prints one JSON document with only the contract keys', () => {
     expect(result.exitCode).toBe(0);
-    expect(Object.keys(json).sort()).toEqual(['assessorIndices', 'fits']);
+    expect(Object.keys(json).sort()).toEqual(['assessorIndices', 'fits', 'notFitted']);
     expect(result.stdout).not.toMatch(/NaN|Infinity/);
     for (const row of json.assessorIndices) {
       expect(Object.keys(row).sort()).toEqual(['agreementR', 'assessor', 'attribute', 'discriminationF', 'discriminationP', 'offset', 'repeatabilityMSE', 'scaling', 'session'].sort());
@@ -203,7 +203,33 @@ describe('analyze: files with problems and odd data', () => {
     const parsed = JSON.parse(out.stdout) as AnalyzeJson;
     expect(parsed.fits).toEqual([]);
     expect(parsed.assessorIndices.length).toBeGreaterThan(0);
-    expect(out.stderr).toMatch(/^note: session S01, attribute crispness: not fitted/m);
+    expect(out.stderr).toMatch(/^note: session S01, attribute crispness: could not be fitted: /m);
+    expect(parsed.notFitted).toEqual([
+      { session: 'S01', attribute: 'crispness', model: 'session', status: 'not-fitted', code: 'constant-response', reason: expect.any(String) },
+    ]);
+  });
+
+  it('an attribute whose replicates never differ is listed as not fitted; the other attributes and the file go on', async () => {
+    // The zero-residual design of test/fixtures/r/lmm.R, where lmer gives no usable fit (lmm-zero-residual.json).
+    const zero = readFixture<{ cases: { data: ColumnData & { replicate: number[] } }[] }>('lmm-zero-residual.json').cases[0].data;
+    const flat = toObservations(zero, 'S01', 'sweetness');
+    const rows = [...allObservations.filter((row) => row.session === 'S01'), ...flat];
+    const out = await analyze(writeLongCsv('zero-residual.csv', rows));
+    expect(out.exitCode, out.stderr).toBe(0);
+    const parsed = JSON.parse(out.stdout) as AnalyzeJson;
+    expect(parsed.fits.map((fit) => fit.attribute)).toEqual(['crispness']);
+    expect(parsed.notFitted).toEqual([
+      {
+        session: 'S01',
+        attribute: 'sweetness',
+        model: 'session',
+        status: 'not-fitted',
+        code: 'no-residual-variation',
+        reason: 'no replicate variation: every assessor gave identical ratings to each product',
+      },
+    ]);
+    expect(out.stderr).toMatch(/^note: session S01, attribute sweetness: could not be fitted: no replicate variation: every assessor gave identical ratings to each product$/m);
+    expect(parsed.assessorIndices.some((row) => row.attribute === 'sweetness')).toBe(true);
   });
 
   it('usage errors: missing file and unknown format are CliErrors with exit code 2', async () => {

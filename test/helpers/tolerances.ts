@@ -1,6 +1,6 @@
 /**
  * Tolerances of the comparisons with external references, each with the largest error actually
- * observed beside it (on the committed fixtures, GPL data sets included via the cache; Node 20, R 4.2.2 with
+ * observed beside it (on the committed fixtures, GPL data sets included (test/fixtures/json/gpl/); Node 20, R 4.2.2 with
  * lme4 1.1-31 and lmerTest 3.1-3 with a tight bobyqa). Required bounds are the agreement with lme4/lmerTest the analyze contract promises.
  * Other sections may add their own constants here; keep one constant per purpose.
  */

@@ -2,7 +2,7 @@
  * Shared by the index and reliability tests: turning the column-wise data of the R fixtures into
  * observations, and comparing numbers-or-null with a tolerance.
  */
-import { existsSync, readFileSync } from 'node:fs';
+import { readFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { expect } from 'vitest';
@@ -10,7 +10,8 @@ import type { Observation } from '../../../domain/ratings.js';
 
 const here = dirname(fileURLToPath(import.meta.url));
 export const FIXTURE_DIR = join(here, '..', '..', 'fixtures', 'json');
-export const CACHE_DIR = join(here, '..', '..', 'fixtures', 'cache');
+/** GPL (>= 2) test data of lmerTest, written by the R scripts beside the fixtures (see its README). */
+export const GPL_DATA_DIR = join(FIXTURE_DIR, 'gpl');
 
 /**
  * Classic indices against plain R on the same data: the issue's tolerance is 1e-9. Observed
@@ -30,9 +31,8 @@ export function readFixture<T>(name: string): T {
   return JSON.parse(readFileSync(join(FIXTURE_DIR, name), 'utf8')) as T;
 }
 
-export function readCache<T>(name: string): T | null {
-  const path = join(CACHE_DIR, name);
-  return existsSync(path) ? (JSON.parse(readFileSync(path, 'utf8')) as T) : null;
+export function readGplData<T>(name: string): T {
+  return JSON.parse(readFileSync(join(GPL_DATA_DIR, name), 'utf8')) as T;
 }
 
 export function toObservations(data: ColumnData, session: string, attribute: string): Observation[] {

@@ -1,9 +1,8 @@
 /**
  * Per-assessor indices on lmerTest's TVbo (8 assessors × 12 products × 2 replicates, 15
  * attributes), balanced and with rows and cells removed, against plain R (indices-tvbo.json).
- * TVbo is GPL data: test/fixtures/r/indices.R writes it to the git-ignored test/fixtures/cache/
- * at generation time. Without that file (no R on this machine) these cases are skipped; the
- * seeded designs in indices-designs.test.ts always run.
+ * TVbo is GPL (>= 2) data: test/fixtures/r/indices.R writes it to test/fixtures/json/gpl/, the
+ * committed folder of GPL test data (its README names origin and licence).
  */
 import { describe, expect, it } from 'vitest';
 import { balancedAnova } from '../../../analysis/indices/balanced-anova.js';
@@ -14,29 +13,27 @@ import { computeAssessorIndices } from '../../../analysis/indices/compute-assess
 import { scalingDisagreementPartition } from '../../../analysis/indices/scaling-partition.js';
 import { kendallW } from '../../../analysis/reliability/kendall-w.js';
 import { shroutFleissIcc } from '../../../analysis/reliability/shrout-fleiss-icc.js';
-import { deviationLog, readCache, readFixture, toObservations, type ColumnData } from './fixture-helpers.js';
+import { deviationLog, readFixture, readGplData, toObservations, type ColumnData } from './fixture-helpers.js';
 import { compareSessionIndices, type ExpectedSessionIndices } from './compare-indices.js';
 
 interface TvboExpected extends ExpectedSessionIndices {
   attribute: string;
 }
 const expected = readFixture<{ balanced: TvboExpected[]; unbalanced: TvboExpected[] }>('indices-tvbo.json');
-const cache = readCache<{ balanced: { attribute: string; data: ColumnData }[]; unbalanced: { attribute: string; data: ColumnData }[] }>('tvbo-indices-data.json');
-const describeWithData = cache ? describe : describe.skip;
-if (!cache) console.info('TVbo index checks skipped: run `bash test/fixtures/r/generate.sh test/fixtures/json` (needs R with lmerTest) to write test/fixtures/cache/.');
+const cache = readGplData<{ balanced: { attribute: string; data: ColumnData }[]; unbalanced: { attribute: string; data: ColumnData }[] }>('tvbo-indices-data.json');
 
-describeWithData('per-assessor indices vs plain R on TVbo (cache data, committed expected values)', () => {
+describe('per-assessor indices vs plain R on TVbo (data in gpl/, committed expected values)', () => {
   for (const variant of ['balanced', 'unbalanced'] as const) {
     for (const want of expected[variant]) {
       it(`${variant} ${want.attribute}`, () => {
-        const data = cache![variant].find((entry) => entry.attribute === want.attribute)!.data;
+        const data = cache[variant].find((entry) => entry.attribute === want.attribute)!.data;
         compareSessionIndices(toObservations(data, 'TVbo', want.attribute), want, `${variant} ${want.attribute}`);
       });
     }
   }
 
   it('Coloursaturation reproduces the methods notes §7.6 table (self-computed in R by a colleague, 03_assessor.R)', () => {
-    const data = cache!.balanced.find((entry) => entry.attribute === 'Coloursaturation')!.data;
+    const data = cache.balanced.find((entry) => entry.attribute === 'Coloursaturation')!.data;
     const observations = toObservations(data, 'TVbo', 'Coloursaturation');
     const table = buildCellTable(observations);
     const anova = balancedAnova(table)!;
@@ -69,7 +66,7 @@ describeWithData('per-assessor indices vs plain R on TVbo (cache data, committed
   });
 
   it('Coloursaturation reliability reproduces methods §7.6 (ICC(3,1) 0.56011, ICC(3,8) 0.91061, partition) except W', () => {
-    const data = cache!.balanced.find((entry) => entry.attribute === 'Coloursaturation')!.data;
+    const data = cache.balanced.find((entry) => entry.attribute === 'Coloursaturation')!.data;
     const anova = balancedAnova(buildCellTable(toObservations(data, 'TVbo', 'Coloursaturation')))!;
     const matrix = anova.cellMeans[0].map((_, p) => anova.cellMeans.map((row) => row[p]));
     const icc = shroutFleissIcc(matrix).estimates;

@@ -1,11 +1,13 @@
 /**
  * The mixed-model engine against lme4 1.1-31 + lmerTest 3.1-3 (R 4.2.2), fixtures written by
- * test/fixtures/r/lmm.R (tight bobyqa). Seeded designs carry their data in the fixture and always
- * run; the lmerTest data sets (TVbo, ham, carrots) are GPL, so their data come from the
- * git-ignored cache the R script writes, and those cases are skipped when it is absent.
+ * test/fixtures/r/lmm.R (tight bobyqa). Seeded designs carry their data in the fixture; the data
+ * of the lmerTest data sets (TVbo, ham, carrots; GPL >= 2) are in test/fixtures/json/gpl/, the
+ * separate folder of GPL test data the R script writes.
  * Two separate checks per case: our criterion at lme4's θ (the objective alone), then the
  * whole fit (objective + optimiser + inference).
  */
+import { readFileSync } from 'node:fs';
+import { join } from 'node:path';
 import { describe, expect, it } from 'vitest';
 import type { FitJson } from '../../../domain/analysis.js';
 import type { Observation } from '../../../domain/ratings.js';
@@ -14,11 +16,12 @@ import { boundaryLikelihoodRatioTest } from '../../../analysis/lmm/boundary-lrt.
 import { makeRemlObjective } from '../../../analysis/lmm/criterion.js';
 import { fitPeriodModel } from '../../../analysis/lmm/fit-period-model.js';
 import { fitSessionModel } from '../../../analysis/lmm/fit-session-model.js';
+import { LmmFitError } from '../../../analysis/lmm/errors.js';
 import { fitVarianceComponents } from '../../../analysis/lmm/fit.js';
 import { buildModelFrame } from '../../../analysis/lmm/model-frame.js';
 import { productContrastRows } from '../../../analysis/lmm/satterthwaite.js';
 import * as tol from '../../helpers/tolerances.js';
-import { loadCases, observationsFromData, readCacheCsv, type ExpectedFit } from './lmm-fixtures.js';
+import { FIXTURE_DIR, loadCases, observationsFromData, readGplCsv, type ExpectedFit } from './lmm-fixtures.js';
 
 function expectRelative(actual: number | null, expected: number, tolerance: number, label: string): void {
   expect(actual, label).not.toBeNull();
@@ -140,19 +143,57 @@ describe('seeded panel designs (data committed in lmm-seeded.json)', () => {
   }
 });
 
+describe('exact ties of two mean squares, integer ratings (data committed in lmm-ties.json)', () => {
+  for (const expected of loadCases('lmm-ties.json')) {
+    describe(`${expected.name}: ${expected.description}`, () => {
+      const observations = observationsFromData(expected.data!);
+      runCase(expected, observations);
+      it('the tied component is exactly 0 (not a rounding residue) and the test uses the pooled line', () => {
+        const json = fitSessionModel(observations).json;
+        const variances = json.variance as unknown as Record<string, number>;
+        for (const term of expected.terms) if (expected.variances[term] === 0) expect(variances[term], term).toBe(0);
+        expect(json.productTest.denDf).toBeCloseTo(expected.productTest!.denDf, 6);
+      });
+    });
+  }
+});
+
+describe('zero residual: both replicates of every cell equal (lmm-zero-residual.json)', () => {
+  const [reference] = JSON.parse(readFileSync(join(FIXTURE_DIR, 'lmm-zero-residual.json'), 'utf8')).cases as {
+    data: NonNullable<ExpectedFit['data']>;
+    lmer: { error: string | null; warned: boolean; residualSdBelow1e6: boolean | null };
+  }[];
+  const observations = observationsFromData(reference.data);
+  it('lmer gives no usable fit there (the reference behaviour: an error, or warnings and a residual SD near 0)', () => {
+    expect(reference.lmer.error !== null || (reference.lmer.warned && reference.lmer.residualSdBelow1e6 === true)).toBe(true);
+  });
+  it('the session model is not fitted, with a sentence saying why', () => {
+    expect(() => fitSessionModel(observations)).toThrow(LmmFitError);
+    expect(() => fitSessionModel(observations)).toThrow('no replicate variation: every assessor gave identical ratings to each product');
+  });
+  it('nor is a period model over sessions that repeat the same ratings (the model reproduces every rating)', () => {
+    const sessions = ['S1', 'S2', 'S3'].flatMap((session, s) => observations.map((row) => ({ ...row, session, value: row.value + s })));
+    let error: unknown = null;
+    try {
+      fitPeriodModel(sessions);
+    } catch (caught) {
+      error = caught;
+    }
+    expect(error).toBeInstanceOf(LmmFitError);
+    expect((error as LmmFitError).code).toBe('no-residual-variation');
+  });
+});
+
 describe('nlme ergoStool (published example, data in lmm-ergostool.json)', () => {
   for (const expected of loadCases('lmm-ergostool.json')) runCase(expected, observationsFromData(expected.data!, 'effort'));
 });
 
-const SKIP_NOTE = '(skipped: GPL data cache absent; run bash test/fixtures/r/generate.sh DIR to create test/fixtures/cache)';
-
 describe('lmerTest TVbo: 15 attributes, an unbalanced subset and two period fits', () => {
-  const rows = readCacheCsv('tvbo.csv');
+  const rows = readGplCsv('tvbo.csv');
   for (const expected of loadCases('lmm-tvbo.json')) {
-    const name = rows ? expected.name : `${expected.name} ${SKIP_NOTE}`;
-    describe.skipIf(!rows)(name, () => {
+    describe(expected.name, () => {
       const dropped = new Set((expected.rowsDropped ?? []).map((row) => row - 1));
-      const observations: Observation[] = (rows ?? [])
+      const observations: Observation[] = rows
         .filter((_, index) => !dropped.has(index))
         .map((row) => ({
           session: expected.model === 'period' ? row.tvset : 'S1',
@@ -169,9 +210,9 @@ describe('lmerTest TVbo: 15 attributes, an unbalanced subset and two period fits
 
 describe('lmerTest ham and carrots (consumer data, large sessions)', () => {
   for (const expected of loadCases('lmm-consumer.json')) {
-    const rows = readCacheCsv(expected.cache!);
-    describe.skipIf(!rows)(rows ? expected.name : `${expected.name} ${SKIP_NOTE}`, () => {
-      const observations: Observation[] = (rows ?? []).map((row) => ({
+    const rows = readGplCsv(expected.cache!);
+    describe(expected.name, () => {
+      const observations: Observation[] = rows.map((row) => ({
         session: 'S1',
         assessor: row.assessor,
         product: row.product,

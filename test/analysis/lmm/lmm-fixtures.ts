@@ -1,5 +1,5 @@
 /** Loading of the lme4/lmerTest reference fixtures written by test/fixtures/r/lmm.R. */
-import { existsSync, readFileSync } from 'node:fs';
+import { readFileSync } from 'node:fs';
 import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import type { Observation } from '../../../domain/ratings.js';
@@ -31,7 +31,8 @@ export interface ExpectedFit {
 
 const here = dirname(fileURLToPath(import.meta.url));
 export const FIXTURE_DIR = join(here, '../../fixtures/json');
-export const CACHE_DIR = join(here, '../../fixtures/cache');
+/** GPL (>= 2) test data of lmerTest, written by test/fixtures/r/lmm.R (see the folder's README). */
+export const GPL_DATA_DIR = join(FIXTURE_DIR, 'gpl');
 
 export function loadCases(name: string): ExpectedFit[] {
   return (JSON.parse(readFileSync(join(FIXTURE_DIR, name), 'utf8')) as { cases: ExpectedFit[] }).cases;
@@ -48,10 +49,9 @@ export function observationsFromData(data: NonNullable<ExpectedFit['data']>, att
   }));
 }
 
-/** Minimal reader of the cache CSVs the R script writes (quoted strings, no embedded commas). */
-export function readCacheCsv(file: string): Record<string, string>[] | null {
-  const path = join(CACHE_DIR, file);
-  if (!existsSync(path)) return null;
+/** Minimal reader of the data CSVs the R script writes (quoted strings, no embedded commas). */
+export function readGplCsv(file: string): Record<string, string>[] {
+  const path = join(GPL_DATA_DIR, file);
   const lines = readFileSync(path, 'utf8').trim().split(/\r?\n/);
   const header = lines[0].split(',').map((cell) => cell.replace(/^"|"$/g, ''));
   return lines.slice(1).map((line) => {

@@ -1,7 +1,7 @@
 /**
  * The exact Satterthwaite pieces (criterion.secondOrderPieces, varparCovariance's default) against
  * (1) lmerTest 3.1-3's denominator df and p-values in the committed fixtures (test/fixtures/r/lmm.R:
- * balanced, unbalanced, boundary and period designs; TVbo when the GPL cache exists), recomputed at
+ * balanced, unbalanced, boundary and period designs; TVbo from the GPL data folder), recomputed at
  * our fitted θ with each method; (2) Richardson-extrapolated central differences of the analytic
  * gradient and of cov(β̂) (outside the code under test), for REML and ML and for both ways the
  * trace products are summed (θ ≥ 10⁻² and a component below 10⁻²).
@@ -14,7 +14,7 @@ import { fitSessionModel } from '../../../analysis/lmm/fit-session-model.js';
 import { buildModelFrame } from '../../../analysis/lmm/model-frame.js';
 import { productContrastRows, productFTest, varparCovariance } from '../../../analysis/lmm/satterthwaite.js';
 import * as tol from '../../helpers/tolerances.js';
-import { loadCases, observationsFromData, readCacheCsv, type ExpectedFit } from './lmm-fixtures.js';
+import { loadCases, observationsFromData, readGplCsv, type ExpectedFit } from './lmm-fixtures.js';
 
 /** Exact vs previous (differences) method at the same θ, relative: observed ≤ 2e-8 on these cases. */
 const METHODS_AGREE_RELATIVE = 1e-6;
@@ -54,11 +54,11 @@ function checkCase(expected: ExpectedFit, observations: Observation[]): void {
 describe('exact Satterthwaite df vs lmerTest fixtures', () => {
   for (const expected of loadCases('lmm-seeded.json').filter((c) => c.reml && c.productTest)) checkCase(expected, observationsFromData(expected.data!));
   for (const expected of loadCases('lmm-ergostool.json').filter((c) => c.reml && c.productTest)) checkCase(expected, observationsFromData(expected.data!, 'effort'));
-  const rows = readCacheCsv('tvbo.csv');
-  describe.skipIf(!rows)('TVbo (GPL data cache)', () => {
+  const rows = readGplCsv('tvbo.csv');
+  describe('TVbo (GPL data in test/fixtures/json/gpl/)', () => {
     for (const expected of loadCases('lmm-tvbo.json').filter((c) => c.model === 'session')) {
       const dropped = new Set((expected.rowsDropped ?? []).map((row) => row - 1));
-      const observations: Observation[] = (rows ?? [])
+      const observations: Observation[] = rows
         .filter((_, index) => !dropped.has(index))
         .map((row) => ({ session: 'S1', assessor: row.assessor, product: row.product, replicate: Number(row.replicate), attribute: expected.attribute!, value: Number(row[expected.attribute!]) }));
       checkCase(expected, observations);

@@ -11,7 +11,7 @@ import { shroutFleissIcc, type IccForm } from '../../../analysis/reliability/shr
 import { twoWayMeanSquares } from '../../../analysis/reliability/two-way-mean-squares.js';
 import { balancedAnova } from '../../../analysis/indices/balanced-anova.js';
 import { buildCellTable } from '../../../analysis/indices/cell-table.js';
-import { deviationLog, expectCloseOrNull, expectPValueClose, readCache, readFixture, toObservations, type ColumnData } from '../indices/fixture-helpers.js';
+import { deviationLog, expectCloseOrNull, expectPValueClose, readGplData, readFixture, toObservations, type ColumnData } from '../indices/fixture-helpers.js';
 
 /** psych::ICC values and F: the same closed forms as ours, compared at the issue's 1e-9 for classic indices. */
 const ICC_TOLERANCE = 1e-9;
@@ -168,10 +168,8 @@ describe('reliability on the seeded designs and TVbo vs psych and friedman.test'
     .filter((design) => design.reliability !== null)
     .map((design) => ({ label: design.name, data: design.data, reliability: design.reliability! }));
   const tvboExpected = readFixture<{ balanced: { attribute: string; reliability: PsychReliability }[] }>('indices-tvbo.json').balanced;
-  const tvboData = readCache<{ balanced: { attribute: string; data: ColumnData }[] }>('tvbo-indices-data.json');
-  if (tvboData) {
-    for (const want of tvboExpected) cases.push({ label: `TVbo ${want.attribute}`, data: tvboData.balanced.find((entry) => entry.attribute === want.attribute)!.data, reliability: want.reliability });
-  } else console.info('TVbo reliability checks skipped: test/fixtures/cache/ not generated (needs R with lmerTest).');
+  const tvboData = readGplData<{ balanced: { attribute: string; data: ColumnData }[] }>('tvbo-indices-data.json');
+  for (const want of tvboExpected) cases.push({ label: `TVbo ${want.attribute}`, data: tvboData.balanced.find((entry) => entry.attribute === want.attribute)!.data, reliability: want.reliability });
 
   it('has the seeded cases', () => expect(cases.length).toBeGreaterThanOrEqual(5));
 
