@@ -43,3 +43,18 @@ export interface Flag {
   evidence: FlagEvidence;
   message: string;
 }
+
+export type FlagStatus = 'open' | 'dismissed' | 'closed';
+
+/**
+ * A flag as a case: the same kind + assessor + product + attribute keeps one `id` across refits
+ * and weeks while its evidence is updated in place. Every field of Flag, plus the case fields.
+ */
+export interface FlagCase extends Flag {
+  id: number;
+  status: FlagStatus;
+  /** The session whose data first raised the case. */
+  detectedSession: string;
+  /** The newest session the current evidence reflects. */
+  updatedSession: string;
+}

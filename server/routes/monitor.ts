@@ -321,7 +321,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
       if (status !== 'dismissed' && status !== 'open') throw new AppError('BAD_REQUEST', { detail: 'the review status must be "dismissed" or "open".' });
       if (status === 'dismissed' && note === '') throw new AppError('BAD_REQUEST', { detail: 'dismissing a flag needs a note saying why.' });
       if (!Number.isInteger(flagId) || !getFlag(db, panel.id, flagId)) throw new AppError('NOT_FOUND', { path: request.url.slice(0, 200) });
-      reviewFlag(db, panel.id, flagId, status, note);
+      reviewFlag(db, panel.id, flagId, status, note, new Date().toISOString(), text(request.body, 'reviewedBy', 200));
       return back(reply, `${monitorHref(panel.name, 'flags')}#flag-${flagId}`);
     },
   );
