@@ -1,6 +1,8 @@
 -- Flags become cases: one row per kind + assessor + product + attribute (the scope), whatever
--- session its evidence window starts at, so a weekly refit updates the evidence in place and a
--- review (dismissed with a note) stays with the case. flag_key is now that scope key.
+-- session its evidence window starts at (findings about one session's data -- data-entry checks
+-- and straight-lining -- keep the session in their scope: each is about that session's cells),
+-- so a weekly refit updates the evidence in place and a review (dismissed with a note) stays with
+-- the case. flag_key is now that scope key.
 -- Existing rows of one scope are merged: the row with the latest review keeps its id, status and
 -- note; the evidence comes from the row the latest build produced (if any).
 CREATE TABLE flag_next (
@@ -41,14 +43,13 @@ INSERT INTO flag_next (id, panel_id, flag_key, kind, assessor, product, attribut
                        data_signature, detected_session, updated_session, status_session, worsened_session,
                        dismissed_severity, dismissed_evidence_json)
 SELECT k.id, k.panel_id,
-       k.kind || '|' || IFNULL(k.assessor, '') || '|' || IFNULL(k.product, '') || '|' || IFNULL(k.attribute, ''),
+       k.scope,
        k.kind, k.assessor, k.product, k.attribute,
        IFNULL(c.first_session, k.first_session), IFNULL(c.severity, k.severity),
        IFNULL(c.evidence_json, k.evidence_json), IFNULL(c.message, k.message),
        CASE WHEN c.id IS NULL THEN 0 ELSE 1 END,
        k.status, k.review_note, k.reviewed_at,
-       (SELECT MIN(o.first_seen_at) FROM flag o WHERE o.panel_id = k.panel_id AND o.kind = k.kind
-          AND o.assessor IS k.assessor AND o.product IS k.product AND o.attribute IS k.attribute),
+       (SELECT MIN(o.first_seen_at) FROM flag o WHERE o.panel_id = k.panel_id AND o.kind || '|' || IFNULL(o.assessor, '') || '|' || IFNULL(o.product, '') || '|' || IFNULL(o.attribute, '') || CASE WHEN o.kind IN ('out-of-scale', 'decimal-shift', 'duplicate', 'swapped-codes', 'missing-cells', 'straight-lining') THEN '|' || o.first_session ELSE '' END = k.scope),
        IFNULL(c.data_signature, k.data_signature),
        IFNULL(json_extract(k.evidence_json, '$.lastSession'), k.first_session),
        IFNULL(json_extract(IFNULL(c.evidence_json, k.evidence_json), '$.lastSession'), IFNULL(c.first_session, k.first_session)),
@@ -56,13 +57,12 @@ SELECT k.id, k.panel_id,
        CASE WHEN k.status = 'dismissed' THEN k.severity END,
        CASE WHEN k.status = 'dismissed' THEN k.evidence_json END
 FROM (
-  SELECT f.*, ROW_NUMBER() OVER (
-           PARTITION BY f.panel_id, f.kind, IFNULL(f.assessor, ''), IFNULL(f.product, ''), IFNULL(f.attribute, '')
+  SELECT f.*, f.kind || '|' || IFNULL(f.assessor, '') || '|' || IFNULL(f.product, '') || '|' || IFNULL(f.attribute, '') || CASE WHEN f.kind IN ('out-of-scale', 'decimal-shift', 'duplicate', 'swapped-codes', 'missing-cells', 'straight-lining') THEN '|' || f.first_session ELSE '' END AS scope, ROW_NUMBER() OVER (
+           PARTITION BY f.panel_id, f.kind || '|' || IFNULL(f.assessor, '') || '|' || IFNULL(f.product, '') || '|' || IFNULL(f.attribute, '') || CASE WHEN f.kind IN ('out-of-scale', 'decimal-shift', 'duplicate', 'swapped-codes', 'missing-cells', 'straight-lining') THEN '|' || f.first_session ELSE '' END
            ORDER BY (f.status <> 'open') DESC, IFNULL(f.reviewed_at, '') DESC, f.current DESC, f.id DESC) AS rn
   FROM flag f
 ) k
-LEFT JOIN flag c ON c.panel_id = k.panel_id AND c.current = 1 AND c.kind = k.kind
-  AND c.assessor IS k.assessor AND c.product IS k.product AND c.attribute IS k.attribute
+LEFT JOIN flag c ON c.panel_id = k.panel_id AND c.current = 1 AND c.kind || '|' || IFNULL(c.assessor, '') || '|' || IFNULL(c.product, '') || '|' || IFNULL(c.attribute, '') || CASE WHEN c.kind IN ('out-of-scale', 'decimal-shift', 'duplicate', 'swapped-codes', 'missing-cells', 'straight-lining') THEN '|' || c.first_session ELSE '' END = k.scope
 WHERE k.rn = 1;
 
 -- Retraining links named the old keys (with the evidence start); point them at the case keys.
@@ -73,7 +73,7 @@ CREATE TABLE retraining_flag_next (
 );
 INSERT OR IGNORE INTO retraining_flag_next (retraining_id, flag_key)
 SELECT rf.retraining_id,
-       IFNULL((SELECT o.kind || '|' || IFNULL(o.assessor, '') || '|' || IFNULL(o.product, '') || '|' || IFNULL(o.attribute, '')
+       IFNULL((SELECT o.kind || '|' || IFNULL(o.assessor, '') || '|' || IFNULL(o.product, '') || '|' || IFNULL(o.attribute, '') || CASE WHEN o.kind IN ('out-of-scale', 'decimal-shift', 'duplicate', 'swapped-codes', 'missing-cells', 'straight-lining') THEN '|' || o.first_session ELSE '' END
                FROM flag o WHERE o.flag_key = rf.flag_key LIMIT 1), rf.flag_key)
 FROM retraining_flag rf;
 DROP TABLE retraining_flag;

@@ -12,7 +12,7 @@
  */
 import type { Database } from 'better-sqlite3';
 import type { Flag, FlagCase, FlagEvidence, FlagKind, FlagSeverity, FlagStatus } from '../domain/flags.js';
-import { effectSize, worseningReason } from './flag-case-rules.js';
+import { effectSize, isSessionScoped, worseningReason } from './flag-case-rules.js';
 
 export type { FlagStatus } from '../domain/flags.js';
 
@@ -48,9 +48,11 @@ export interface FlagRecord {
   dismissed: { severity: FlagSeverity; evidence: FlagEvidence } | null;
 }
 
-/** "Same case" across rebuilds: kind, who, which product, which attribute. */
-export function flagKey(flag: Pick<Flag, 'kind' | 'assessor' | 'product' | 'attribute'>): string {
-  return [flag.kind, flag.assessor ?? '', flag.product ?? '', flag.attribute ?? ''].join('|');
+/** "Same case" across rebuilds: kind, who, which product, which attribute (and the session, for findings about one session's data). */
+export function flagKey(flag: Pick<Flag, 'kind' | 'assessor' | 'product' | 'attribute' | 'firstSession'>): string {
+  const scope = [flag.kind, flag.assessor ?? '', flag.product ?? '', flag.attribute ?? ''];
+  if (isSessionScoped(flag.kind)) scope.push(flag.firstSession);
+  return scope.join('|');
 }
 
 /** A Flag with exactly the fields of the contract (domain/flags.ts), in its order. */
