@@ -22,6 +22,13 @@ export type FlagKind = (typeof FLAG_KINDS)[number];
 
 export type FlagSeverity = 'watch' | 'act';
 
+/** Findings about how one session's data was entered: checked and corrected, never a reason for retraining. */
+export const DATA_ENTRY_KINDS: readonly FlagKind[] = ['decimal-shift', 'out-of-scale', 'duplicate', 'swapped-codes', 'missing-cells'];
+
+export function isDataEntryKind(kind: FlagKind): boolean {
+  return DATA_ENTRY_KINDS.includes(kind);
+}
+
 /** The numbers behind a flag: the test, its statistic, n, and the threshold that fired. */
 export interface FlagEvidence {
   test: string;

@@ -72,7 +72,7 @@ function toItem(panel: string, record: FlagRecordInput): FlagItem {
     attribute: f.attribute,
     firstSession: f.firstSession,
     message: f.message,
-    evidence: evidenceItems(f.evidence),
+    evidence: evidenceItems(f),
     status: record.status,
     isOpen: record.status === 'open',
     reviewNote: record.reviewNote,

@@ -22,6 +22,7 @@ import { apiRoutes } from './routes/api.js';
 import { importPageRoutes } from './routes/import-pages.js';
 import { loginRoutes } from './routes/login.js';
 import { monitorRoutes } from './routes/monitor.js';
+import { reviewRoutes } from './routes/review.js';
 import { panelPageRoutes } from './routes/panel-pages.js';
 import { quarantineRoutes } from './routes/quarantine.js';
 import { serviceRoutes } from './routes/service.js';
@@ -117,6 +118,7 @@ export async function buildApp(options: { db: Database; config?: Partial<AppConf
   await app.register(apiRoutes);
   await app.register(quarantineRoutes);
   await app.register(monitorRoutes);
+  await app.register(reviewRoutes);
   // ---- end of route modules ----
 
   await app.ready();

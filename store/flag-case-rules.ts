@@ -2,14 +2,7 @@
  * When a dismissed case counts as materially worse (and re-opens), and the effect size the review
  * page ranks by. The rule is written out in docs/methods.md, "Flag cases and re-opening".
  */
-import type { Flag, FlagEvidence, FlagKind } from '../domain/flags.js';
-
-/** Findings about how one session's data was entered: checked and corrected, never a reason for retraining. */
-export const DATA_ENTRY_KINDS: readonly FlagKind[] = ['decimal-shift', 'out-of-scale', 'duplicate', 'swapped-codes', 'missing-cells'];
-
-export function isDataEntryKind(kind: FlagKind): boolean {
-  return DATA_ENTRY_KINDS.includes(kind);
-}
+import { isDataEntryKind, type Flag, type FlagEvidence, type FlagKind } from '../domain/flags.js';
 
 /** Kinds whose case is one session's finding: the session is part of the case's scope. */
 export function isSessionScoped(kind: FlagKind): boolean {

@@ -33,6 +33,8 @@ export interface PageChrome {
   csrfToken: string | null;
   isTokenRequired: boolean;
   version: string;
+  /** Seconds until the page reloads itself (a view's refreshSeconds, while a refit runs); null: never. */
+  refreshSeconds: number | null;
 }
 
 export interface ViewRenderer {

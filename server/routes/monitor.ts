@@ -23,7 +23,7 @@ import { loadPeriodFits } from '../../store/fits-results.js';
 import type { StoredPeriodResult } from '../refit.js';
 import { listAssessorCodes, listSessionVersions } from '../../store/fits-sessions.js';
 import { getFlag, listCurrentFlagObjects, listFlags, reviewFlag } from '../../store/monitor-flags.js';
-import { addPanelEvent, addRetraining, deletePanelEvent, listPanelEvents, listRetraining, PANEL_EVENT_KINDS, updateRetraining, type PanelEventKind } from '../../store/monitor-events.js';
+import { addPanelEvent, addRetraining, syncRetrainingEvents, deletePanelEvent, listPanelEvents, listRetraining, PANEL_EVENT_KINDS, updateRetraining, type PanelEventKind } from '../../store/monitor-events.js';
 import { getRefitJob, failInterruptedRefitJobs, latestRefitJob } from '../../store/monitor-jobs.js';
 import { savePanelThresholds } from '../../store/monitor-settings.js';
 import { AppError } from '../errors.js';
@@ -125,6 +125,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
     await service.whenIdle();
   });
   app.navSections.push(
+    { label: 'Review', scope: 'panel', href: (panel) => `${monitorHref(panel)}/review`, order: 39 },
     { label: 'Monitor', scope: 'panel', href: (panel) => monitorHref(panel), order: 40 },
     { label: 'Flags', scope: 'panel', href: (panel) => monitorHref(panel, 'flags'), order: 41 },
     { label: 'Retraining', scope: 'panel', href: (panel) => monitorHref(panel, 'retraining'), order: 42 },
@@ -322,6 +323,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
       if (status === 'dismissed' && note === '') throw new AppError('BAD_REQUEST', { detail: 'dismissing a flag needs a note saying why.' });
       if (!Number.isInteger(flagId) || !getFlag(db, panel.id, flagId)) throw new AppError('NOT_FOUND', { path: request.url.slice(0, 200) });
       reviewFlag(db, panel.id, flagId, status, note, new Date().toISOString(), text(request.body, 'reviewedBy', 200));
+      if (text(request.body, 'back') === 'case') return back(reply, `${monitorHref(panel.name)}/cases/${flagId}`);
       return back(reply, `${monitorHref(panel.name, 'flags')}#flag-${flagId}`);
     },
   );
@@ -342,6 +344,8 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
     if (!isIsoDate(date)) throw new AppError('BAD_REQUEST', { detail: 'the date must be a calendar date (YYYY-MM-DD).' });
     const flagKeys = text(request.body, 'flagKeys', 100_000).split('\n').map((k) => k.trim()).filter(Boolean);
     addRetraining(db, panel.id, { assessor, status, date, note: text(request.body, 'note'), flagKeys });
+    // The record done is also the event that restarts the assessor's chart baselines.
+    syncRetrainingEvents(db, panel.id);
     if (status === 'done') service.schedule(panel.name, 'retraining recorded');
     return back(reply, monitorHref(panel.name, 'retraining'));
   });
@@ -354,6 +358,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
     if (date !== '' && !isIsoDate(date)) throw new AppError('BAD_REQUEST', { detail: 'the date must be a calendar date (YYYY-MM-DD).' });
     const found = updateRetraining(db, panel.id, Number.parseInt(request.params.id, 10), { status, date: date || undefined });
     if (!found) throw new AppError('NOT_FOUND', { path: request.url.slice(0, 200) });
+    syncRetrainingEvents(db, panel.id);
     service.schedule(panel.name, 'retraining recorded');
     return back(reply, monitorHref(panel.name, 'retraining'));
   });
