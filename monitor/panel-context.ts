@@ -8,6 +8,7 @@
 import type { Database } from 'better-sqlite3';
 import type { PanelHistory } from '../analysis/monitor/series.js';
 import type { RefitStatusView } from '../report/monitor-common.js';
+import { localTime } from '../report/words.js';
 import { findPanel, listSessionVersions, type PanelRow } from '../store/fits-sessions.js';
 import { flagHistories, listFlags, loadFlagBuild, type FlagHistoryEntry, type FlagRecord } from '../store/monitor-flags.js';
 import { latestRefitJob } from '../store/monitor-jobs.js';
@@ -82,6 +83,7 @@ export function loadPanelContext(db: Database, panelName: string, memo: HistoryM
       nTasks: job?.nTasks ?? 0,
       message: job?.message ?? null,
       flagsBuiltAt: build?.builtAt ?? null,
+      flagsBuiltAtText: build ? localTime(build.builtAt) : null,
       isStale: build?.dataSignature !== panelDataSignature(versions),
     },
     heldCells: listQuarantined(db, panel.name),

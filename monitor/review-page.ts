@@ -8,7 +8,7 @@ import { isDataEntryKind } from '../domain/flags.js';
 import { monitorCrumbs, monitorHref } from '../report/monitor-common.js';
 import type { PageViewBase } from '../report/page-common.js';
 import { importHref } from '../report/page-common.js';
-import { caseCounts, caseSummary, countsSentence, foldRelated, groupByAssessor, type AssessorCases, type CaseCounts, type CaseSummary } from './cases.js';
+import { byEffect, caseCounts, caseSummary, countsSentence, foldRelated, groupByAssessor, type AssessorCases, type CaseCounts, type CaseSummary } from './cases.js';
 import type { PanelContext } from './panel-context.js';
 import { refitNotice, type RefitNotice } from './refit-notice.js';
 
@@ -33,7 +33,7 @@ export interface ReviewPageView extends PageViewBase {
   refreshSeconds: number | null;
   counts: CaseCounts;
   countsText: string;
-  sinceLast: { newCases: CaseSummary[]; worse: CaseSummary[]; closed: CaseSummary[]; isEmpty: boolean };
+  sinceLast: { newCases: CaseSummary[]; newAct: CaseSummary[]; newWatch: CaseSummary[]; worse: CaseSummary[]; closed: CaseSummary[]; isEmpty: boolean };
   act: AssessorCases[];
   watch: AssessorCases[];
   nWatch: number;
@@ -56,7 +56,7 @@ export function buildReviewPage(ctx: PanelContext): ReviewPageView {
     return r.statusSession === latest && r.status === 'open' && (last?.source === 'reopened' || last?.source === 'fires-again');
   };
   const isNew = (r: (typeof ctx.records)[number]) => r.status === 'open' && (r.detectedSession === latest || reopenedNow(r));
-  const newCases = foldRelated(open.filter(isNew).map(summary));
+  const newCases = foldRelated(open.filter(isNew).map(summary)).sort((a, b) => (a.severity === b.severity ? byEffect(a, b) : a.severity === 'act' ? -1 : 1));
   const worse = foldRelated(open.filter((r) => !isNew(r) && r.worsenedSession === latest).map(summary));
   const closed = ctx.records.filter((r) => r.status === 'closed' && r.statusSession === latest && !isDataEntryKind(r.flag.kind)).map(summary);
 
@@ -93,7 +93,7 @@ export function buildReviewPage(ctx: PanelContext): ReviewPageView {
     refreshSeconds: refit.isRunning ? 5 : null,
     counts,
     countsText: countsSentence(counts),
-    sinceLast: { newCases, worse, closed, isEmpty: newCases.length + worse.length + closed.length === 0 },
+    sinceLast: { newCases, newAct: newCases.filter((c) => c.severity === 'act'), newWatch: newCases.filter((c) => c.severity === 'watch'), worse, closed, isEmpty: newCases.length + worse.length + closed.length === 0 },
     act: groupByAssessor(act),
     watch: groupByAssessor(watch),
     nWatch: watch.length,

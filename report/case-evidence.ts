@@ -73,19 +73,40 @@ function measured(flag: Flag): EvidenceRow {
   }
 }
 
+/** The field holding a kind's main number (a flag summarising several attributes carries its average as the statistic). */
+const MAIN_FIELD: Partial<Record<Flag['kind'], string>> = {
+  lenient: 'meanOffset',
+  harsh: 'meanOffset',
+  inconsistent: 'geometricMeanSdRatio',
+  'non-discriminating': 'shareNotDiscriminating',
+  disagreement: 'pooledR',
+  reversed: 'pooledR',
+  'scale-compression': 'pooledScaling',
+  'scale-expansion': 'pooledScaling',
+};
+
+/** Whether the flag summarises the same finding on several attributes (its statistic is the average over them). */
+function isSummaryOverAttributes(flag: Flag): boolean {
+  return typeof flag.evidence.nAttributesFlagged === 'number';
+}
+
 /** The labelled rows of one flag's evidence. */
 export function evidenceRows(flag: Flag): EvidenceRow[] {
-  const e = flag.evidence;
+  const summary = isSummaryOverAttributes(flag);
+  const field = MAIN_FIELD[flag.kind];
+  const e = summary && field ? { ...flag.evidence, [field]: flag.evidence.statistic } : flag.evidence;
   const rows: EvidenceRow[] = [];
-  const first = measured(flag);
-  rows.push({ label: 'What was measured', value: first.label }, { label: 'Value', value: first.value });
+  const first = measured({ ...flag, evidence: e });
+  rows.push({ label: 'What was measured', value: summary ? `${first.label}, averaged over the attributes flagged` : first.label }, { label: 'Value', value: first.value });
+  if (summary) rows.push({ label: 'Attributes flagged', value: `${e.nAttributesFlagged} of ${num(e.nAttributes) ?? '?'}` });
   const statistic = num(e.statistic);
-  if (statistic !== null) {
+  if (statistic !== null && !summary) {
     const df = num(e.df);
     rows.push({ label: 'Test statistic', value: `${readable(statistic)}${df !== null ? ` (${readable(df, df % 1 === 0 ? 0 : 1)} degrees of freedom)` : ''}` });
   }
-  if (num(e.pValue) !== null) rows.push({ label: 'p-value', value: formatP(e.pValue) });
-  if (num(e.qValue) !== null) rows.push({ label: 'p-value adjusted for many tests (false discovery rate)', value: formatP(e.qValue, 'q') });
+  const smallest = summary ? ', smallest over the attributes' : '';
+  if (num(e.pValue) !== null) rows.push({ label: `p-value${smallest}`, value: formatP(e.pValue) });
+  if (num(e.qValue) !== null) rows.push({ label: `p-value adjusted for many tests (false discovery rate)${smallest}`, value: formatP(e.qValue, 'q') });
   if (typeof e.signalSession === 'string') rows.push({ label: 'Chart signalled at', value: `session ${e.signalSession}` });
   const limit = num(e.limit);
   if (limit !== null) rows.push({ label: 'Chart limit', value: readable(limit) });

@@ -74,6 +74,8 @@ export interface RefitStatusView {
   message: string | null;
   /** When the current flags were built; null when never. */
   flagsBuiltAt: string | null;
+  /** The same instant in the server's local time, for the page ("4 Dec 2026, 15:40"). */
+  flagsBuiltAtText: string | null;
   /** The stored results are older than the ratings (a refit is due or running). */
   isStale: boolean;
 }

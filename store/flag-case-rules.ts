@@ -31,6 +31,9 @@ export function effectSize(evidence: FlagEvidence): { value: number; unit: 'poin
     if (v !== null) return { value: Math.abs(v), unit: 'points' };
   }
   const statistic = finite(evidence.statistic);
+  // A level flag summarising several attributes carries the average offset (points) as its statistic.
+  const perAttribute = Array.isArray(evidence.attributes) ? (evidence.attributes as Record<string, unknown>[]) : [];
+  if (statistic !== null && perAttribute.some((a) => typeof a === 'object' && a !== null && 'meanOffset' in a)) return { value: Math.abs(statistic), unit: 'points' };
   if (statistic !== null) return { value: Math.abs(statistic), unit: 'statistic' };
   return { value: evidence.n, unit: 'count' };
 }

@@ -20,6 +20,7 @@ import {
 } from '../../analysis/monitor/series.js';
 import type { MonitoredSeriesInput } from '../../report/monitor-overview-view.js';
 import type { RefitStatusView } from '../../report/monitor-common.js';
+import { localTime } from '../../report/words.js';
 import { findPanel, listSessionVersions, type PanelRow } from '../../store/fits-sessions.js';
 import { loadFlagBuild } from '../../store/monitor-flags.js';
 import { latestRefitJob } from '../../store/monitor-jobs.js';
@@ -85,6 +86,7 @@ export function refitStatus(db: Database, panelId: number): RefitStatusView {
     nTasks: job?.nTasks ?? 0,
     message: job?.message ?? null,
     flagsBuiltAt: build?.builtAt ?? null,
+    flagsBuiltAtText: build ? localTime(build.builtAt) : null,
     isStale: build?.dataSignature !== panelDataSignature(listSessionVersions(db, panelId)),
   };
 }
