@@ -44,11 +44,38 @@ export class PanelNotFound extends Error {
  * every request. Created by the caller (one per app), not a module-level cache.
  */
 export interface HistoryMemo {
-  entries: Map<number, { key: string; history: PanelHistory }>;
+  entries: Map<number, { key: string; history: PanelHistory; derived: Map<string, unknown> }>;
+}
+
+/**
+ * A value computed from a memoised history (charts of every assessor, say), kept with it and
+ * dropped with it when the data changes. `name` must say everything else it depends on.
+ */
+export function derivedFromHistory<T>(memo: HistoryMemo, history: PanelHistory, name: string, compute: () => T): T {
+  const entry = [...memo.entries.values()].find((e) => e.history === history);
+  if (!entry) return compute();
+  if (!entry.derived.has(name)) entry.derived.set(name, compute());
+  return entry.derived.get(name) as T;
 }
 
 export function createHistoryMemo(): HistoryMemo {
   return { entries: new Map() };
+}
+
+/**
+ * The panel history through the memo: read again only when the sessions' data versions, the
+ * events or the flag build changed. With ratings (the control-product page) it is kept apart.
+ */
+export function panelHistoryFor(db: Database, panelId: number, memo: HistoryMemo, options: { withRatings?: boolean } = {}): PanelHistory {
+  const versions = listSessionVersions(db, panelId);
+  const events = db.prepare('SELECT COUNT(*) AS n, IFNULL(MAX(id), 0) AS last FROM panel_event WHERE panel_id = ?').get(panelId) as { n: number; last: number };
+  const key = `${panelDataSignature(versions)}|${events.n}|${events.last}|${loadFlagBuild(db, panelId)?.builtAt ?? ''}`;
+  const slot = options.withRatings ? -panelId : panelId;
+  const cached = memo.entries.get(slot);
+  if (cached && cached.key === key) return cached.history;
+  const history = buildPanelHistory(db, panelId, { withRatings: options.withRatings });
+  memo.entries.set(slot, { key, history, derived: new Map() });
+  return history;
 }
 
 export function loadPanelContext(db: Database, panelName: string, memo: HistoryMemo = createHistoryMemo()): PanelContext {
@@ -63,15 +90,7 @@ export function loadPanelContext(db: Database, panelName: string, memo: HistoryM
   );
   const job = latestRefitJob(db, panel.id);
   const build = loadFlagBuild(db, panel.id);
-  const events = db.prepare('SELECT COUNT(*) AS n, IFNULL(MAX(id), 0) AS last FROM panel_event WHERE panel_id = ?').get(panel.id) as { n: number; last: number };
-  const memoKey = `${panelDataSignature(versions)}|${events.n}|${events.last}|${build?.builtAt ?? ''}`;
-  const history = (): PanelHistory => {
-    const cached = memo.entries.get(panel.id);
-    if (cached && cached.key === memoKey) return cached.history;
-    const fresh = buildPanelHistory(db, panel.id);
-    memo.entries.set(panel.id, { key: memoKey, history: fresh });
-    return fresh;
-  };
+  const history = (): PanelHistory => panelHistoryFor(db, panel.id, memo);
   return {
     panel,
     sessions: versions.map((s) => ({ label: s.label, date: s.date, importId: imports.get(s.label) ?? null })),

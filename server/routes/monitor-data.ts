@@ -25,6 +25,7 @@ import { findPanel, listSessionVersions, type PanelRow } from '../../store/fits-
 import { loadFlagBuild } from '../../store/monitor-flags.js';
 import { latestRefitJob } from '../../store/monitor-jobs.js';
 import { loadPanelThresholds } from '../../store/monitor-settings.js';
+import { panelHistoryFor, type HistoryMemo } from '../../monitor/panel-context.js';
 import { AppError } from '../errors.js';
 import { buildPanelHistory, panelDataSignature } from '../refit.js';
 
@@ -99,9 +100,9 @@ export interface MonitorContext {
   attributes: string[];
 }
 
-export function loadMonitorContext(db: Database, panelName: string, options: { withRatings?: boolean } = {}): MonitorContext {
+export function loadMonitorContext(db: Database, panelName: string, options: { withRatings?: boolean; memo?: HistoryMemo } = {}): MonitorContext {
   const panel = requireMonitorPanel(db, panelName);
-  const history = buildPanelHistory(db, panel.id, { withRatings: options.withRatings });
+  const history = options.memo ? panelHistoryFor(db, panel.id, options.memo, options) : buildPanelHistory(db, panel.id, { withRatings: options.withRatings });
   const assessors = [...indexLookup(history).keys()].sort();
   return { panel, history, thresholds: panelThresholds(db, panel.id), assessors, attributes: history.attributes.map((a) => a.name) };
 }

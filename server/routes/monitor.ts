@@ -30,6 +30,7 @@ import { AppError } from '../errors.js';
 import { createFitPool, type FitRunner } from '../fit-pool.js';
 import { jsonView, registerPage, sendPage } from '../plugins/pages.js';
 import { RefitService } from '../refit.js';
+import { createHistoryMemo, derivedFromHistory, type HistoryMemo } from '../../monitor/panel-context.js';
 import {
   assessorSampleSizes,
   chartDesigns,
@@ -46,6 +47,8 @@ declare module 'fastify' {
   interface FastifyInstance {
     /** Background refits; `schedule(panel, reason)` returns at once with the queued job. */
     refitService: RefitService;
+    /** Panel histories kept between page requests, keyed by the data they are read from. */
+    historyMemo: HistoryMemo;
   }
 }
 
@@ -118,6 +121,8 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
     onError: (error, job) => app.log.error({ err: error, jobId: job.id }, 'refit failed'),
   });
   app.decorate('refitService', service);
+  const memo = createHistoryMemo();
+  app.decorate('historyMemo', memo);
   // Shutdown: stopping the pool rejects the fits still queued, so a long refit ends at once as
   // "failed" (its earlier results stay; the next start refits what is stale); then the store may close.
   app.addHook('onClose', async () => {
@@ -156,7 +161,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
 
   // ---- overview ----
   registerFormPage('/panels/:panel/monitor', 'monitor', (request) => {
-    const ctx = loadMonitorContext(db, (request.params as PanelParams).panel);
+    const ctx = loadMonitorContext(db, (request.params as PanelParams).panel, { memo });
     scheduleIfStale(ctx.panel.name, ctx.panel.id);
     const { designs, baseline } = chartDesigns(ctx.thresholds, ctx.assessors.length);
     const sizes = assessorSampleSizes(ctx.history);
@@ -164,11 +169,14 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
       panel: ctx.panel.name,
       sessions: ctx.history.sessions,
       nAttributes: ctx.attributes.length,
-      assessors: ctx.assessors.map((assessor) => ({
-        assessor,
-        ...(sizes.get(assessor) ?? { nSessions: 0, nRatings: 0 }),
-        summary: monitoredSummary(ctx.history, assessor, designs, baseline),
-      })),
+      // The summary charts change only with the data and the chart settings.
+      assessors: derivedFromHistory(memo, ctx.history, `overview ${JSON.stringify(ctx.thresholds.charts)}`, () =>
+        ctx.assessors.map((assessor) => ({
+          assessor,
+          ...(sizes.get(assessor) ?? { nSessions: 0, nRatings: 0 }),
+          summary: monitoredSummary(ctx.history, assessor, designs, baseline),
+        })),
+      ),
       openFlags: listFlags(db, ctx.panel.id, { status: 'open' }).map((r) => r.flag),
       events: ctx.history.events,
       designs,
@@ -181,7 +189,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
     url: '/panels/:panel/monitor/assessors/:assessor',
     template: 'monitor-assessor',
     build: ({ params, query }) => {
-      const ctx = loadMonitorContext(db, params.panel);
+      const ctx = loadMonitorContext(db, params.panel, { memo });
       if (!ctx.assessors.includes(params.assessor)) {
         throw new AppError('NOT_FOUND', { path: `${monitorHref(ctx.panel.name)}/assessors/${params.assessor}`.slice(0, 200) });
       }
@@ -210,7 +218,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
   /** sessionProductEffects' default confidence level (analysis/monitor/stability.ts). */
   const CONF_LEVEL = 0.95;
   registerFormPage('/panels/:panel/monitor/products', 'monitor-products', (request) => {
-    const ctx = loadMonitorContext(db, (request.params as PanelParams).panel);
+    const ctx = loadMonitorContext(db, (request.params as PanelParams).panel, { memo });
     const requested = (request.query as { attribute?: string }).attribute;
     const attribute = requested && ctx.attributes.includes(requested) ? requested : (ctx.attributes[0] ?? null);
     const windows: PeriodWindowInput[] = loadPeriodFits(db, ctx.panel.id)
@@ -273,7 +281,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
 
   // ---- control (reference) product ----
   registerFormPage('/panels/:panel/monitor/control', 'monitor-control', (request) => {
-    const ctx = loadMonitorContext(db, (request.params as PanelParams).panel, { withRatings: true });
+    const ctx = loadMonitorContext(db, (request.params as PanelParams).panel, { withRatings: true, memo });
     const requested = (request.query as { attribute?: string }).attribute;
     const attribute = requested && ctx.attributes.includes(requested) ? requested : (ctx.attributes[0] ?? null);
     const product = ctx.history.referenceProducts[0] ?? null;
@@ -366,7 +374,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
   // ---- events ----
   registerFormPage('/panels/:panel/monitor/events', 'monitor-events', (request) => {
     const panel = requireMonitorPanel(db, (request.params as PanelParams).panel);
-    const ctx = loadMonitorContext(db, panel.name);
+    const ctx = loadMonitorContext(db, panel.name, { memo });
     return buildEventsView({
       panel: panel.name,
       events: listPanelEvents(db, panel.id),
