@@ -10,6 +10,7 @@ import { afterEach, describe, expect, it } from 'vitest';
 import type { Flag } from '../../domain/flags.js';
 import { findPanel } from '../../store/fits-sessions.js';
 import { defaultMigrationsFolder, migrate } from '../../store/migrate.js';
+import { addRetraining, listPanelEvents, syncRetrainingEvents, updateRetraining } from '../../store/monitor-events.js';
 import { flagHistory, getFlag, listFlags, replaceCurrentFlags, reviewFlag } from '../../store/monitor-flags.js';
 import { openStore, type Database } from '../../store/open-store.js';
 import { importRatings, smallPanel } from '../monitor/helpers.js';
@@ -159,5 +160,23 @@ describe('migration 0004', () => {
     expect(cases[0].dismissed?.evidence.meanOffset).toBe(0.8);
     expect(flagHistory(db, dismissedId)).toEqual([expect.objectContaining({ status: 'dismissed', note: 'Known batch.' })]);
     expect(db.prepare('SELECT flag_key AS k FROM retraining_flag').all()).toEqual([{ k: 'lenient|A02||sweet' }]);
+  });
+});
+
+describe('one retraining record', () => {
+  it('a retraining recorded as done creates the baseline-restarting event at the first session on or after its date; back to planned removes it', async () => {
+    const { db, panelId, labels } = await storeWithSessions();
+    const sessions = db.prepare('SELECT label, session_date AS date FROM session WHERE panel_id = ? ORDER BY session_date').all(panelId) as { label: string; date: string }[];
+    const id = addRetraining(db, panelId, { assessor: 'A02', status: 'done', date: sessions[2].date, note: 'calibration', flagKeys: [] });
+    expect(syncRetrainingEvents(db, panelId)).toBe(1);
+    const events = listPanelEvents(db, panelId).filter((e) => e.kind === 'retraining');
+    expect(events).toEqual([expect.objectContaining({ session: labels[2], assessor: 'A02' })]);
+    expect(syncRetrainingEvents(db, panelId)).toBe(0); // once
+    updateRetraining(db, panelId, id, { status: 'planned' });
+    syncRetrainingEvents(db, panelId);
+    expect(listPanelEvents(db, panelId).filter((e) => e.kind === 'retraining')).toEqual([]);
+    // a date after the last session: the event waits for that session
+    addRetraining(db, panelId, { assessor: 'A03', status: 'done', date: '2099-01-01', note: '', flagKeys: [] });
+    expect(syncRetrainingEvents(db, panelId)).toBe(0);
   });
 });
