@@ -91,12 +91,19 @@ export function thresholdLabel(path: string): string {
   return THRESHOLD_LABELS[path] ?? path;
 }
 
+/** A p-value alone, for a table cell: "0.003", "0.04", "0.50", "< 0.001". */
+export function formatPValue(p: number | null | undefined): string {
+  if (p === null || p === undefined || !Number.isFinite(p)) return '—';
+  if (p < 0.001) return '< 0.001';
+  if (p >= 0.1) return p.toFixed(2);
+  return Number(p.toPrecision(1)) >= 0.01 ? p.toFixed(2) : p.toFixed(3);
+}
+
 /** The one p-value format of the pages: "p = 0.003", "p = 0.04", "p < 0.001". */
 export function formatP(p: number | null | undefined, symbol = 'p'): string {
-  if (p === null || p === undefined || !Number.isFinite(p)) return '—';
-  if (p < 0.001) return `${symbol} < 0.001`;
-  if (p >= 0.1) return `${symbol} = ${p.toFixed(2)}`;
-  return `${symbol} = ${Number(p.toPrecision(1)) >= 0.01 ? p.toFixed(2) : p.toFixed(3)}`;
+  const value = formatPValue(p);
+  if (value === '—') return value;
+  return value.startsWith('<') ? `${symbol} ${value}` : `${symbol} = ${value}`;
 }
 
 /** A number rounded for reading: 2 decimals below 10, 1 below 100, none above; never "-0". */
