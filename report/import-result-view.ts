@@ -45,6 +45,8 @@ export interface ImportResultView {
   panel: string;
   /** null when a rejected import named a panel that is not in the store (nothing was written). */
   panelHref: string | null;
+  /** The panel's weekly review page (what changed with this import), when sessions were written. */
+  reviewHref: string | null;
   fileName: string;
   counts: LabelledCount[];
   changedSessions: { label: string; href: string }[];
@@ -87,6 +89,7 @@ export function buildImportResultView(answer: ImportAnswerInput): ImportResultVi
     panel: answer.panel,
     // A rejected import under a new panel name leaves no panel behind, so there is no page to link.
     panelHref: answer.outcome === 'rejected' && answer.importId === null ? null : panelHref(answer.panel),
+    reviewHref: (answer.changedSessions ?? []).length > 0 ? `${panelHref(answer.panel)}/monitor/review` : null,
     fileName: answer.fileName,
     counts: COUNT_LABELS.map(([key, label]) => ({ key, label, value: answer.counts?.[key] ?? 0 })),
     changedSessions: (answer.changedSessions ?? []).map((label) => ({ label, href: sessionHref(answer.panel, label) })),

@@ -125,7 +125,7 @@ export function buildAssessorMonitorView(input: AssessorMonitorInput): AssessorM
         product: f.product,
         firstSession: f.firstSession,
         message: f.message,
-        evidence: evidenceItems(f.evidence),
+        evidence: evidenceItems(f),
       })),
     events: input.events.filter((e) => e.assessor === null || e.assessor === input.assessor).map((e) => ({ ...e })),
   };

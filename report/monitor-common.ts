@@ -1,4 +1,5 @@
 /** Shared pieces of the monitor pages: links, the review notice, chart designs, flag display. */
+import { evidenceRows } from './case-evidence.js';
 import type { ChartDesigns } from '../analysis/monitor/chart.js';
 import type { Flag, FlagKind, FlagSeverity } from '../domain/flags.js';
 import { HOME_CRUMB, panelHref, pathSegment, type Breadcrumb } from './page-common.js';
@@ -41,22 +42,12 @@ export interface EvidenceItem {
   value: string;
 }
 
-function formatEvidenceValue(value: unknown): string {
-  if (typeof value === 'number') {
-    if (!Number.isFinite(value)) return String(value);
-    if (Number.isInteger(value)) return String(value);
-    return Math.abs(value) < 1e-3 ? value.toExponential(2) : Number(value.toPrecision(4)).toString();
-  }
-  if (value === null || value === undefined) return '—';
-  if (typeof value === 'string') return value;
-  return JSON.stringify(value);
-}
-
-/** The evidence object as name/value lines: test, statistic, p, q, n, threshold first, then the rest. */
-export function evidenceItems(evidence: Flag['evidence']): EvidenceItem[] {
-  const first = ['test', 'statistic', 'pValue', 'qValue', 'n', 'threshold'];
-  const keys = [...first.filter((k) => k in evidence), ...Object.keys(evidence).filter((k) => !first.includes(k))];
-  return keys.map((name) => ({ name, value: formatEvidenceValue(evidence[name]) }));
+/**
+ * A flag's evidence as labelled lines for a page (report/case-evidence.ts): readable values with
+ * units, one p-value format; raw field names and nested objects only in the JSON twin.
+ */
+export function evidenceItems(flag: Flag): EvidenceItem[] {
+  return evidenceRows(flag).map((row) => ({ name: row.label, value: row.value }));
 }
 
 export interface KindCount {
@@ -83,6 +74,8 @@ export interface RefitStatusView {
   message: string | null;
   /** When the current flags were built; null when never. */
   flagsBuiltAt: string | null;
+  /** The same instant in the server's local time, for the page ("4 Dec 2026, 15:40"). */
+  flagsBuiltAtText: string | null;
   /** The stored results are older than the ratings (a refit is due or running). */
   isStale: boolean;
 }

@@ -1,6 +1,7 @@
 /** The flags list (filter by kind, severity, status) and the retraining list (open act flags by assessor). */
 import type { RetrainingEvaluation } from '../analysis/flags/retraining.js';
-import { FLAG_KINDS, type Flag, type FlagKind, type FlagSeverity } from '../domain/flags.js';
+import { FLAG_KINDS, isDataEntryKind, type Flag, type FlagKind, type FlagSeverity } from '../domain/flags.js';
+import { kindLabel, localTime } from './words.js';
 import { assessorMonitorHref, evidenceItems, monitorCrumbs, monitorHref, REVIEW_NOTICE, type EvidenceItem } from './monitor-common.js';
 import type { PageViewBase } from './page-common.js';
 
@@ -18,6 +19,10 @@ export interface FlagItem {
   id: number;
   key: string;
   kind: FlagKind;
+  /** The kind in words about the ratings (the kind code stays in `kind` and in `flag`). */
+  kindLabel: string;
+  /** The case page: evidence table and chart. */
+  caseHref: string;
   severity: FlagSeverity;
   assessor: string | null;
   assessorHref: string | null;
@@ -45,7 +50,7 @@ export interface FlagsListView extends PageViewBase {
   panel: string;
   notices: readonly string[];
   filter: FlagFilter;
-  kindOptions: { value: string; isSelected: boolean }[];
+  kindOptions: { value: string; label: string; isSelected: boolean }[];
   severityOptions: { value: string; isSelected: boolean }[];
   statusOptions: { value: string; isSelected: boolean }[];
   nTotal: number;
@@ -65,6 +70,8 @@ function toItem(panel: string, record: FlagRecordInput): FlagItem {
     id: record.id,
     key: record.key,
     kind: f.kind,
+    kindLabel: kindLabel(f.kind),
+    caseHref: `${monitorHref(panel)}/cases/${record.id}`,
     severity: f.severity,
     assessor: f.assessor,
     assessorHref: f.assessor === null ? null : assessorMonitorHref(panel, f.assessor, f.attribute ?? undefined),
@@ -72,11 +79,11 @@ function toItem(panel: string, record: FlagRecordInput): FlagItem {
     attribute: f.attribute,
     firstSession: f.firstSession,
     message: f.message,
-    evidence: evidenceItems(f.evidence),
+    evidence: evidenceItems(f),
     status: record.status,
     isOpen: record.status === 'open',
     reviewNote: record.reviewNote,
-    reviewedAt: record.reviewedAt,
+    reviewedAt: record.reviewedAt === null ? null : localTime(record.reviewedAt),
     reviewAction: flagReviewAction(panel, record.id),
     flag: f,
   };
@@ -106,7 +113,7 @@ export function buildFlagsListView(input: { panel: string; records: readonly Fla
     panel: input.panel,
     notices: REVIEW_NOTICE,
     filter,
-    kindOptions: options(FLAG_KINDS, filter.kind),
+    kindOptions: options(FLAG_KINDS, filter.kind).map((o) => ({ ...o, label: kindLabel(o.value) })),
     severityOptions: options(['act', 'watch'], filter.severity),
     statusOptions: options(['open', 'dismissed', 'closed'], filter.status),
     nTotal: input.records.length,
@@ -188,7 +195,8 @@ export interface RetrainingView extends PageViewBase {
 
 /** Open act-level flags grouped by assessor, with the retraining records of each (also assessors with records only). */
 export function buildRetrainingView(input: { panel: string; records: readonly FlagRecordInput[]; retraining: readonly RetrainingRecordInput[] }): RetrainingView {
-  const openAct = input.records.filter((r) => r.status === 'open' && r.flag.severity === 'act' && r.flag.assessor !== null);
+  // Data-entry findings are corrected in the data; they never put anyone on the retraining list.
+  const openAct = input.records.filter((r) => r.status === 'open' && r.flag.severity === 'act' && r.flag.assessor !== null && !isDataEntryKind(r.flag.kind));
   const assessors = [...new Set([...openAct.map((r) => r.flag.assessor as string), ...input.retraining.map((r) => r.assessor)])].sort();
   const base = monitorHref(input.panel, 'retraining');
   const groups = assessors.map((assessor): RetrainingGroup => {

@@ -117,7 +117,7 @@ export function buildProductStabilityView(input: ProductStabilityInput): Product
     minSessions: input.minSessions,
     concordance: input.concordance,
     notFitted: input.notFitted ?? [],
-    flags: input.flags.map((f) => ({ severity: f.severity, product: f.product, firstSession: f.firstSession, message: f.message, evidence: evidenceItems(f.evidence) })),
+    flags: input.flags.map((f) => ({ severity: f.severity, product: f.product, firstSession: f.firstSession, message: f.message, evidence: evidenceItems(f) })),
     lrtNote:
       'The test of product:session is the boundary likelihood-ratio test of the period model (REML, with and without the term): p = ½·P(χ²₁ ≥ LR) (Self & Liang 1987). With few sessions it tends to be conservative.',
   };

@@ -1,5 +1,6 @@
 /** The panel thresholds page: every threshold with its value, default and documentation/source. */
 import { monitorCrumbs, monitorHref } from './monitor-common.js';
+import { thresholdLabel } from './words.js';
 import type { PageViewBase } from './page-common.js';
 
 export interface ThresholdFieldInput {
@@ -13,6 +14,8 @@ export interface ThresholdFieldInput {
 }
 
 export interface ThresholdField extends ThresholdFieldInput {
+  /** The threshold in plain words (the code name `path` is shown as secondary text). */
+  label: string;
   group: string;
   name: string;
   isChanged: boolean;
@@ -48,6 +51,7 @@ export function buildSettingsView(input: {
     if (!list) groups.set(group, (list = []));
     list.push({
       ...f,
+      label: thresholdLabel(f.path),
       group,
       name: dot === -1 ? f.path : f.path.slice(dot + 1),
       isChanged: f.value !== f.defaultValue,

@@ -30,6 +30,7 @@ import { loginRoutes } from './routes/login.js';
 import { methodsPageRoutes } from './routes/methods-page.js';
 import { monitorRoutes } from './routes/monitor.js';
 import { reportPageRoutes } from './routes/report-pages.js';
+import { reviewRoutes } from './routes/review.js';
 import { panelPageRoutes } from './routes/panel-pages.js';
 import { quarantineRoutes } from './routes/quarantine.js';
 import { serviceRoutes } from './routes/service.js';
@@ -168,6 +169,7 @@ export async function buildApp(options: { db: Database; config?: Partial<AppConf
   await app.register(monitorRoutes);
   await app.register(methodsPageRoutes);
   await app.register(reportPageRoutes);
+  await app.register(reviewRoutes);
   // ---- end of route modules ----
 
   await app.ready();

@@ -33,8 +33,11 @@ import {
 } from '../store/fits-results.js';
 import { closeFlagsByKey, loadFlagBuild, replaceCurrentFlags } from '../store/monitor-flags.js';
 import { loadFlagInputs } from '../store/read-flag-inputs.js';
-import { assemblePanelHistory } from '../store/panel-history.js';
-import { listPanelEvents, listRetraining, updateRetraining } from '../store/monitor-events.js';
+import { ANALYSIS_VERSION, DEFAULT_WINDOW_SESSIONS, panelDataSignature } from '../store/panel-history.js';
+
+// The read model moved to the store; these names stay importable from here for the refit's callers.
+export { ANALYSIS_VERSION, buildPanelHistory, DEFAULT_WINDOW_SESSIONS, panelDataSignature } from '../store/panel-history.js';
+import { listPanelEvents, listRetraining, syncRetrainingEvents, updateRetraining } from '../store/monitor-events.js';
 import { loadPanelThresholds } from '../store/monitor-settings.js';
 import { createRefitJob, getRefitJob, markRefitJob, type RefitJob } from '../store/monitor-jobs.js';
 import { relativeSdsFromVariances } from '../analysis/lmm/fit-period-model.js';
@@ -42,11 +45,7 @@ import type { FitRunner } from './fit-pool.js';
 import type { PanelHistory } from '../analysis/monitor/series.js';
 import type { PeriodFitResult, PeriodTask, RatedObservation, RetrainingToEvaluate } from './workers/fit-task-types.js';
 
-/** Recorded with every stored result; bump when a change in analysis/ changes stored numbers. */
-export const ANALYSIS_VERSION = 'analysis-2';
 
-/** Default rolling window of the period model: the last 12 sessions (about three months of weekly sessions). */
-export const DEFAULT_WINDOW_SESSIONS = 12;
 /** A period model needs at least 3 sessions (methods notes §2.8, `short_period`). */
 export const MIN_WINDOW_SESSIONS = 3;
 
@@ -112,11 +111,6 @@ export function periodWindows<T>(sessions: readonly T[], windowSessions: number)
   return windows;
 }
 
-/** What the whole panel's stored results depend on: every session label with its data version. */
-export function panelDataSignature(sessions: readonly { label: string; dataVersion: number }[]): string {
-  const text = `${ANALYSIS_VERSION}\n${sessions.map((s) => `${s.label}\t${s.dataVersion}`).join('\n')}`;
-  return createHash('sha256').update(text).digest('hex').slice(0, 32);
-}
 
 function hashJson(value: unknown): string {
   return createHash('sha256').update(JSON.stringify(value ?? null)).digest('hex').slice(0, 32);
@@ -127,6 +121,8 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
   const panel = findPanel(db, panelName);
   if (!panel) throw new PanelNotFoundError(panelName);
   const windowSessions = options.windowSessions ?? DEFAULT_WINDOW_SESSIONS;
+  // A retraining recorded as done before its first session existed gets its event now.
+  syncRetrainingEvents(db, panel.id);
   const sessions = listSessionVersions(db, panel.id);
   const attributes = listAttributes(db, panel.id);
   const scaleOf = new Map(attributes.map((a) => [a.name, a.scale]));
@@ -327,22 +323,6 @@ function retrainingToEvaluate(db: Database, panelId: number, sessions: readonly 
 /** What a stored period fit holds: the period task's result, or the sentence saying why there is none. */
 export type StoredPeriodResult = PeriodFitResult | { problem: string };
 
-/**
- * Everything the flag engine and the monitor pages read, from the store (structured-clone safe).
- * The ratings are left out unless asked for: the refit sends them packed (loadPackedRatings).
- */
-export function buildPanelHistory(
-  db: Database,
-  panelId: number,
-  options: { windowSessions?: number; withRatings?: boolean } = {},
-): PanelHistory {
-  return assemblePanelHistory(db, panelId, {
-    fits: loadSessionFits(db, panelId).map((f) => ({ session: f.session, date: f.sessionDate, attribute: f.attribute, fit: f.fit })),
-    indices: loadSessionIndices(db, panelId),
-    windowSessions: options.windowSessions ?? DEFAULT_WINDOW_SESSIONS,
-    ratings: options.withRatings ? unpackRatings(loadPackedRatings(db, panelId)) : undefined,
-  });
-}
 
 /**
  * Background refits for the service: one job at a time (a queue), jobs recorded in the store

@@ -120,3 +120,40 @@ export function listRetraining(db: Database, panelId: number): RetrainingRecord[
     outcome: outcomeJson === null ? null : JSON.parse(outcomeJson),
   }));
 }
+
+/**
+ * One retraining record: every retraining recorded as done has its baseline-restarting panel
+ * event (kind 'retraining', naming the record) at the first session on or after its date; a
+ * record set back to planned loses it. Events wait until such a session exists. Returns the
+ * number of events added, moved or removed.
+ */
+export function syncRetrainingEvents(db: Database, panelId: number, now = new Date().toISOString()): number {
+  const records = db.prepare('SELECT id, assessor, status, retraining_date AS date, note FROM retraining WHERE panel_id = ?').all(panelId) as {
+    id: number;
+    assessor: string;
+    status: RetrainingStatus;
+    date: string;
+    note: string;
+  }[];
+  const firstSessionFrom = db.prepare('SELECT label FROM session WHERE panel_id = ? AND session_date >= ? ORDER BY session_date, label LIMIT 1');
+  const eventOf = db.prepare("SELECT id, session_label AS session FROM panel_event WHERE panel_id = ? AND retraining_id = ? AND kind = 'retraining'");
+  const insert = db.prepare(
+    "INSERT INTO panel_event (panel_id, kind, session_label, assessor, note, created_at, retraining_id) VALUES (?, 'retraining', ?, ?, ?, ?, ?)",
+  );
+  const move = db.prepare('UPDATE panel_event SET session_label = ? WHERE id = ?');
+  const remove = db.prepare('DELETE FROM panel_event WHERE id = ?');
+  return db.transaction(() => {
+    let changes = 0;
+    for (const r of records) {
+      const event = eventOf.get(panelId, r.id) as { id: number; session: string } | undefined;
+      const session = r.status === 'done' ? ((firstSessionFrom.get(panelId, r.date) as { label: string } | undefined)?.label ?? null) : null;
+      if (session === null) {
+        if (event && r.status !== 'done') changes += remove.run(event.id).changes;
+        continue;
+      }
+      if (!event) changes += insert.run(panelId, session, r.assessor, `Retraining done on ${r.date}${r.note ? `: ${r.note}` : ''} (retraining record ${r.id})`, now, r.id).changes;
+      else if (event.session !== session) changes += move.run(session, event.id).changes;
+    }
+    return changes;
+  })();
+}

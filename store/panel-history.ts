@@ -9,8 +9,9 @@ import type { FitJson } from '../domain/analysis.js';
 import type { Rating } from '../domain/ratings.js';
 import type { AssessorSessionIndices } from '../analysis/indices/types.js';
 import type { ImportFinding, PanelHistory, PeriodFitSummary, SessionAttributeResult } from '../analysis/monitor/series.js';
-import { loadPeriodFits } from './fits-results.js';
-import { listAttributes, listProducts, listSessionVersions, loadCurrentFindings } from './fits-sessions.js';
+import { createHash } from 'node:crypto';
+import { loadPeriodFits, loadSessionFits, loadSessionIndices } from './fits-results.js';
+import { listAttributes, listProducts, listSessionVersions, loadCurrentFindings, loadPackedRatings, unpackRatings } from './fits-sessions.js';
 import { listPanelEvents } from './monitor-events.js';
 
 /** One stored session × attribute fit, in the store's order (session date, label, attribute). */
@@ -83,4 +84,33 @@ export function assemblePanelHistory(
     events: listPanelEvents(db, panelId),
     periodFits,
   };
+}
+
+/** Recorded with every stored result; bump when a change in analysis/ changes stored numbers. */
+export const ANALYSIS_VERSION = 'analysis-2';
+
+/** Default rolling window of the period model: the last 12 sessions. */
+export const DEFAULT_WINDOW_SESSIONS = 12;
+
+/** What the whole panel's stored results depend on: every session label with its data version. */
+export function panelDataSignature(sessions: readonly { label: string; dataVersion: number }[]): string {
+  const text = `${ANALYSIS_VERSION}\n${sessions.map((s) => `${s.label}\t${s.dataVersion}`).join('\n')}`;
+  return createHash('sha256').update(text).digest('hex').slice(0, 32);
+}
+
+/**
+ * Everything the flag engine and the monitor pages read, from the store (structured-clone safe).
+ * The ratings are left out unless asked for: the refit sends them packed (loadPackedRatings).
+ */
+export function buildPanelHistory(
+  db: Database,
+  panelId: number,
+  options: { windowSessions?: number; withRatings?: boolean } = {},
+): PanelHistory {
+  return assemblePanelHistory(db, panelId, {
+    fits: loadSessionFits(db, panelId).map((f) => ({ session: f.session, date: f.sessionDate, attribute: f.attribute, fit: f.fit })),
+    indices: loadSessionIndices(db, panelId),
+    windowSessions: options.windowSessions ?? DEFAULT_WINDOW_SESSIONS,
+    ratings: options.withRatings ? unpackRatings(loadPackedRatings(db, panelId)) : undefined,
+  });
 }

@@ -101,6 +101,14 @@ const RULES: Record<string, FolderRule> = {
     packages: { 'd3-scale': null, 'd3-shape': null },
     mayUseNode: false,
   },
+  monitor: {
+    // The application layer of the review pages: loads one panel context from the store, then
+    // pure page builders over it (analysis for the series, report for the view pieces).
+    folders: ['domain', 'analysis', 'report', 'store', 'monitor'],
+    typeOnlyFolders: [],
+    packages: { 'better-sqlite3': null },
+    mayUseNode: false,
+  },
   demo: {
     folders: ['domain', 'demo'],
     typeOnlyFolders: [],
@@ -175,6 +183,17 @@ describe('folder import rules (DEVELOPERS.md)', () => {
       ),
     );
     expect(problems).toEqual([]);
+  });
+
+  it('the review routes compute nothing: they import no analysis/ module (monitor/ builds their pages)', () => {
+    const routes = ['server/routes/review.ts'];
+    const problems = routes.flatMap((file) =>
+      readImports(file)
+        .filter((line) => target(line).kind === 'folder' && target(line).name === 'analysis')
+        .map((line) => `${file}: import '${line.specifier}'`),
+    );
+    expect(problems).toEqual([]);
+    expect(readImports('server/routes/review.ts').some((line) => target(line).name === 'monitor')).toBe(true);
   });
 
   it('production code never imports tests or benchmarks', () => {

@@ -28,7 +28,7 @@ export function registerFlagsCommand(program: Command): void {
     .description("Print a panel's current flags (evidence for review, not verdicts).")
     .requiredOption('--panel <name>', 'panel name')
     .option('--db <path>', 'store file (default: PANEL_STEWARD_DB or data/panel-steward.db)')
-    .option('--since <session>', 'only flags whose evidence starts at or after this session')
+    .option('--since <session>', 'only cases detected, or whose status changed, at or after this session')
     .option('--format <format>', 'json or text', 'text')
     .action(async (options: { panel: string; db?: string; since?: string; format: string }) => {
       if (options.format !== 'json' && options.format !== 'text') {

@@ -58,7 +58,7 @@ export function renderReportFile(options: Omit<ReportCommandOptions, 'out'>, gen
       if (error instanceof AppError) throw new CliError(`panel-steward report: ${error.message}`, 2);
       throw error;
     }
-    const chrome: PageChrome = { nav: [], panel: null, panelNav: [], jsonHref: null, csrfToken: null, isTokenRequired: false, version: '' };
+    const chrome: PageChrome = { nav: [], panel: null, panelNav: [], jsonHref: null, csrfToken: null, isTokenRequired: false, version: '', refreshSeconds: null };
     return inlineStylesheets(renderer.render(page, view, chrome), templatesDir);
   } finally {
     db.close();

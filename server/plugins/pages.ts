@@ -44,7 +44,7 @@ export function sendPage(
   reply: FastifyReply,
   options: { template: string; view: object; jsonHref: string | null; withCsrf?: boolean; status?: number },
 ): FastifyReply {
-  const view = options.view as { panel?: unknown };
+  const view = options.view as { panel?: unknown; refreshSeconds?: unknown };
   const panel = typeof view.panel === 'string' ? view.panel : null;
   const { nav, panelNav } = buildNav(app.navSections, panel, request.url);
   const html = app.views.render(options.template, options.view, {
@@ -55,6 +55,7 @@ export function sendPage(
     csrfToken: options.withCsrf ? reply.generateCsrf() : null,
     isTokenRequired: app.appConfig.accessToken !== null,
     version: app.appConfig.version,
+    refreshSeconds: typeof view.refreshSeconds === 'number' ? view.refreshSeconds : null,
   });
   if (options.jsonHref !== null) reply.header('Link', `<${options.jsonHref}>; rel="alternate"; type="application/json"`);
   return reply

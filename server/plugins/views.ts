@@ -4,6 +4,7 @@
  * `chrome` object (navigation, JSON link, CSRF token). Output is escaped: templates use `{{ }}`
  * only (test/architecture.test.ts rejects triple braces). Helpers format; they never decide.
  */
+import { formatP, formatPValue } from '../../report/words.js';
 import { readdirSync, readFileSync } from 'node:fs';
 import { basename, join } from 'node:path';
 import Handlebars from 'handlebars';
@@ -34,6 +35,8 @@ export interface PageChrome {
   csrfToken: string | null;
   isTokenRequired: boolean;
   version: string;
+  /** Seconds until the page reloads itself (a view's refreshSeconds, while a refit runs); null: never. */
+  refreshSeconds: number | null;
 }
 
 export interface ViewRenderer {
@@ -56,6 +59,9 @@ function registerHelpers(handlebars: typeof Handlebars): void {
     typeof value === 'number' && Number.isFinite(value) ? `${value.toFixed(1)} %` : '—',
   );
   handlebars.registerHelper('eq', (a: unknown, b: unknown) => a === b);
+  // {{pvalue p}} in a table cell ("0.003", "< 0.001"); {{pformat p}} in a sentence ("p = 0.003"): one format everywhere.
+  handlebars.registerHelper('pvalue', (value: unknown) => formatPValue(typeof value === 'number' ? value : null));
+  handlebars.registerHelper('pformat', (value: unknown) => formatP(typeof value === 'number' ? value : null));
   // {{plural n "panel" "panels"}}
   handlebars.registerHelper('plural', (n: unknown, one: unknown, many: unknown) => (n === 1 ? one : many));
   // {{methodsLinks text}}: the text escaped, each "§x.y" a link to that section of the methods page.

@@ -20,10 +20,12 @@ import {
 } from '../../analysis/monitor/series.js';
 import type { MonitoredSeriesInput } from '../../report/monitor-overview-view.js';
 import type { RefitStatusView } from '../../report/monitor-common.js';
+import { localTime } from '../../report/words.js';
 import { findPanel, listSessionVersions, type PanelRow } from '../../store/fits-sessions.js';
 import { loadFlagBuild } from '../../store/monitor-flags.js';
 import { latestRefitJob } from '../../store/monitor-jobs.js';
 import { loadPanelThresholds } from '../../store/monitor-settings.js';
+import { panelHistoryFor, type HistoryMemo } from '../../monitor/panel-context.js';
 import { AppError } from '../errors.js';
 import { buildPanelHistory, panelDataSignature } from '../refit.js';
 
@@ -85,6 +87,7 @@ export function refitStatus(db: Database, panelId: number): RefitStatusView {
     nTasks: job?.nTasks ?? 0,
     message: job?.message ?? null,
     flagsBuiltAt: build?.builtAt ?? null,
+    flagsBuiltAtText: build ? localTime(build.builtAt) : null,
     isStale: build?.dataSignature !== panelDataSignature(listSessionVersions(db, panelId)),
   };
 }
@@ -97,9 +100,9 @@ export interface MonitorContext {
   attributes: string[];
 }
 
-export function loadMonitorContext(db: Database, panelName: string, options: { withRatings?: boolean } = {}): MonitorContext {
+export function loadMonitorContext(db: Database, panelName: string, options: { withRatings?: boolean; memo?: HistoryMemo } = {}): MonitorContext {
   const panel = requireMonitorPanel(db, panelName);
-  const history = buildPanelHistory(db, panel.id, { withRatings: options.withRatings });
+  const history = options.memo ? panelHistoryFor(db, panel.id, options.memo, options) : buildPanelHistory(db, panel.id, { withRatings: options.withRatings });
   const assessors = [...indexLookup(history).keys()].sort();
   return { panel, history, thresholds: panelThresholds(db, panel.id), assessors, attributes: history.attributes.map((a) => a.name) };
 }

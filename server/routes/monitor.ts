@@ -23,13 +23,14 @@ import { loadPeriodFits, loadSessionQuality } from '../../store/fits-results.js'
 import type { StoredPeriodResult } from '../refit.js';
 import { listAssessorCodes, listSessionVersions } from '../../store/fits-sessions.js';
 import { getFlag, listCurrentFlagObjects, listFlags, reviewFlag } from '../../store/monitor-flags.js';
-import { addPanelEvent, addRetraining, deletePanelEvent, listPanelEvents, listRetraining, PANEL_EVENT_KINDS, updateRetraining, type PanelEventKind } from '../../store/monitor-events.js';
+import { addPanelEvent, addRetraining, syncRetrainingEvents, deletePanelEvent, listPanelEvents, listRetraining, PANEL_EVENT_KINDS, updateRetraining, type PanelEventKind } from '../../store/monitor-events.js';
 import { getRefitJob, failInterruptedRefitJobs, latestRefitJob } from '../../store/monitor-jobs.js';
 import { savePanelThresholds } from '../../store/monitor-settings.js';
 import { AppError } from '../errors.js';
 import { createFitPool, type FitRunner } from '../fit-pool.js';
 import { jsonView, registerPage, sendPage } from '../plugins/pages.js';
 import { RefitService } from '../refit.js';
+import { createHistoryMemo, derivedFromHistory, type HistoryMemo } from '../../monitor/panel-context.js';
 import {
   assessorSampleSizes,
   chartDesigns,
@@ -46,6 +47,8 @@ declare module 'fastify' {
   interface FastifyInstance {
     /** Background refits; `schedule(panel, reason)` returns at once with the queued job. */
     refitService: RefitService;
+    /** Panel histories kept between page requests, keyed by the data they are read from. */
+    historyMemo: HistoryMemo;
   }
 }
 
@@ -120,6 +123,8 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
     logger: app.log,
   });
   app.decorate('refitService', service);
+  const memo = createHistoryMemo();
+  app.decorate('historyMemo', memo);
   // Shutdown: stopping the pool rejects the fits still queued, so a long refit ends at once as
   // "failed" (its earlier results stay; the next start refits what is stale); then the store may close.
   app.addHook('onClose', async () => {
@@ -127,6 +132,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
     await service.whenIdle();
   });
   app.navSections.push(
+    { label: 'Review', scope: 'panel', href: (panel) => `${monitorHref(panel)}/review`, order: 39 },
     { label: 'Monitor', scope: 'panel', href: (panel) => monitorHref(panel), order: 40 },
     { label: 'Flags', scope: 'panel', href: (panel) => monitorHref(panel, 'flags'), order: 41 },
     { label: 'Retraining', scope: 'panel', href: (panel) => monitorHref(panel, 'retraining'), order: 42 },
@@ -158,7 +164,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
 
   // ---- overview ----
   registerFormPage('/panels/:panel/monitor', 'monitor', (request) => {
-    const ctx = loadMonitorContext(db, (request.params as PanelParams).panel);
+    const ctx = loadMonitorContext(db, (request.params as PanelParams).panel, { memo });
     scheduleIfStale(ctx.panel.name, ctx.panel.id);
     const { designs, baseline } = chartDesigns(ctx.thresholds, ctx.assessors.length);
     const sizes = assessorSampleSizes(ctx.history);
@@ -166,11 +172,14 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
       panel: ctx.panel.name,
       sessions: ctx.history.sessions,
       nAttributes: ctx.attributes.length,
-      assessors: ctx.assessors.map((assessor) => ({
-        assessor,
-        ...(sizes.get(assessor) ?? { nSessions: 0, nRatings: 0 }),
-        summary: monitoredSummary(ctx.history, assessor, designs, baseline),
-      })),
+      // The summary charts change only with the data and the chart settings.
+      assessors: derivedFromHistory(memo, ctx.history, `overview ${JSON.stringify(ctx.thresholds.charts)}`, () =>
+        ctx.assessors.map((assessor) => ({
+          assessor,
+          ...(sizes.get(assessor) ?? { nSessions: 0, nRatings: 0 }),
+          summary: monitoredSummary(ctx.history, assessor, designs, baseline),
+        })),
+      ),
       openFlags: listFlags(db, ctx.panel.id, { status: 'open' }).map((r) => r.flag),
       events: ctx.history.events,
       designs,
@@ -183,7 +192,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
     url: '/panels/:panel/monitor/assessors/:assessor',
     template: 'monitor-assessor',
     build: ({ params, query }) => {
-      const ctx = loadMonitorContext(db, params.panel);
+      const ctx = loadMonitorContext(db, params.panel, { memo });
       if (!ctx.assessors.includes(params.assessor)) {
         throw new AppError('NOT_FOUND', { path: `${monitorHref(ctx.panel.name)}/assessors/${params.assessor}`.slice(0, 200) });
       }
@@ -212,7 +221,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
   /** sessionProductEffects' default confidence level (analysis/monitor/stability.ts). */
   const CONF_LEVEL = 0.95;
   registerFormPage('/panels/:panel/monitor/products', 'monitor-products', (request) => {
-    const ctx = loadMonitorContext(db, (request.params as PanelParams).panel);
+    const ctx = loadMonitorContext(db, (request.params as PanelParams).panel, { memo });
     const requested = (request.query as { attribute?: string }).attribute;
     const attribute = requested && ctx.attributes.includes(requested) ? requested : (ctx.attributes[0] ?? null);
     const windows: PeriodWindowInput[] = loadPeriodFits(db, ctx.panel.id)
@@ -282,7 +291,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
 
   // ---- control (reference) product ----
   registerFormPage('/panels/:panel/monitor/control', 'monitor-control', (request) => {
-    const ctx = loadMonitorContext(db, (request.params as PanelParams).panel, { withRatings: true });
+    const ctx = loadMonitorContext(db, (request.params as PanelParams).panel, { withRatings: true, memo });
     const requested = (request.query as { attribute?: string }).attribute;
     const attribute = requested && ctx.attributes.includes(requested) ? requested : (ctx.attributes[0] ?? null);
     const product = ctx.history.referenceProducts[0] ?? null;
@@ -331,7 +340,8 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
       if (status !== 'dismissed' && status !== 'open') throw new AppError('BAD_REQUEST', { detail: 'the review status must be "dismissed" or "open".' });
       if (status === 'dismissed' && note === '') throw new AppError('BAD_REQUEST', { detail: 'dismissing a flag needs a note saying why.' });
       if (!Number.isInteger(flagId) || !getFlag(db, panel.id, flagId)) throw new AppError('NOT_FOUND', { path: request.url.slice(0, 200) });
-      reviewFlag(db, panel.id, flagId, status, note);
+      reviewFlag(db, panel.id, flagId, status, note, new Date().toISOString(), text(request.body, 'reviewedBy', 200));
+      if (text(request.body, 'back') === 'case') return back(reply, `${monitorHref(panel.name)}/cases/${flagId}`);
       return back(reply, `${monitorHref(panel.name, 'flags')}#flag-${flagId}`);
     },
   );
@@ -352,6 +362,8 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
     if (!isIsoDate(date)) throw new AppError('BAD_REQUEST', { detail: 'the date must be a calendar date (YYYY-MM-DD).' });
     const flagKeys = text(request.body, 'flagKeys', 100_000).split('\n').map((k) => k.trim()).filter(Boolean);
     addRetraining(db, panel.id, { assessor, status, date, note: text(request.body, 'note'), flagKeys });
+    // The record done is also the event that restarts the assessor's chart baselines.
+    syncRetrainingEvents(db, panel.id);
     if (status === 'done') service.schedule(panel.name, 'retraining recorded');
     return back(reply, monitorHref(panel.name, 'retraining'));
   });
@@ -364,6 +376,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
     if (date !== '' && !isIsoDate(date)) throw new AppError('BAD_REQUEST', { detail: 'the date must be a calendar date (YYYY-MM-DD).' });
     const found = updateRetraining(db, panel.id, Number.parseInt(request.params.id, 10), { status, date: date || undefined });
     if (!found) throw new AppError('NOT_FOUND', { path: request.url.slice(0, 200) });
+    syncRetrainingEvents(db, panel.id);
     service.schedule(panel.name, 'retraining recorded');
     return back(reply, monitorHref(panel.name, 'retraining'));
   });
@@ -371,7 +384,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
   // ---- events ----
   registerFormPage('/panels/:panel/monitor/events', 'monitor-events', (request) => {
     const panel = requireMonitorPanel(db, (request.params as PanelParams).panel);
-    const ctx = loadMonitorContext(db, panel.name);
+    const ctx = loadMonitorContext(db, panel.name, { memo });
     return buildEventsView({
       panel: panel.name,
       events: listPanelEvents(db, panel.id),

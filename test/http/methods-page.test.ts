@@ -54,7 +54,7 @@ describe('the methods page', () => {
       jsonAction: '/y',
       apiHref: '/z',
     };
-    const chrome = { nav: [], panel: 'oat', panelNav: [], jsonHref: null, csrfToken: 't', isTokenRequired: false, version: '0' };
+    const chrome = { nav: [], panel: 'oat', panelNav: [], jsonHref: null, csrfToken: 't', isTokenRequired: false, version: '0', refreshSeconds: null };
     const html = renderer.render('monitor-settings', view, chrome);
     expect(html).toContain('Size &lt;b&gt; guard, methods <a href="/methods#s6-3">§6.3</a> (CP).');
   });

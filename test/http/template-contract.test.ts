@@ -18,6 +18,7 @@ const chrome: PageChrome = {
   csrfToken: 'token',
   isTokenRequired: true,
   version: '0.0.0',
+  refreshSeconds: null,
 };
 
 describe('templates read only what their views hold', () => {

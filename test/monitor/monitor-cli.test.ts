@@ -35,7 +35,15 @@ describe('CLI', () => {
     const printed = JSON.parse(stdout);
     expect(Array.isArray(printed)).toBe(true);
     expect(printed.some((f: { kind: string; assessor: string }) => f.kind === 'harsh' && f.assessor === 'A03')).toBe(true);
-    for (const f of printed) expect(Object.keys(f)).toEqual(['kind', 'assessor', 'product', 'attribute', 'firstSession', 'severity', 'evidence', 'message']);
+    // every field of the original contract in its order, then the case fields
+    for (const f of printed) {
+      expect(Object.keys(f)).toEqual(['kind', 'assessor', 'product', 'attribute', 'firstSession', 'severity', 'evidence', 'message', 'id', 'status', 'detectedSession', 'updatedSession']);
+      expect(Number.isInteger(f.id)).toBe(true);
+      expect(f.status).toBe('open');
+      expect(panel.sessions.map((s) => s.label)).toContain(f.detectedSession);
+      expect(panel.sessions.map((s) => s.label)).toContain(f.updatedSession);
+    }
+    expect(new Set(printed.map((f: { id: number }) => f.id)).size).toBe(printed.length);
 
     const db = openStore(dbPath);
     const app = await buildApp({ db });

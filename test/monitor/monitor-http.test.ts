@@ -4,7 +4,7 @@
  * requested over HTTP returns at once while the worker pool does the work.
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import type { Flag } from '../../domain/flags.js';
+import type { Flag, FlagCase } from '../../domain/flags.js';
 import { FLAG_KINDS } from '../../domain/flags.js';
 import { createFitPool } from '../../server/fit-pool.js';
 import { refitPanel } from '../../server/refit.js';
@@ -35,13 +35,16 @@ describe('flags API', () => {
     const response = await t.app.inject({ url: `/api/panels/${enc}/flags` });
     expect(response.statusCode).toBe(200);
     expect(response.headers['x-flags-stale']).toBe('false');
-    const flags = response.json() as Flag[];
+    const flags = response.json() as FlagCase[];
     expect(Array.isArray(flags)).toBe(true);
     const panelId = findPanel(t.db, name)!.id;
     expect(flags).toEqual(listFlags(t.db, panelId).map((r) => r.flag));
     expect(flags.length).toBeGreaterThan(0);
     for (const f of flags) {
-      expect(Object.keys(f)).toEqual(['kind', 'assessor', 'product', 'attribute', 'firstSession', 'severity', 'evidence', 'message']);
+      // every field of the original contract, in its order, then the case fields
+      expect(Object.keys(f)).toEqual(['kind', 'assessor', 'product', 'attribute', 'firstSession', 'severity', 'evidence', 'message', 'id', 'status', 'detectedSession', 'updatedSession']);
+      expect(Number.isInteger((f as FlagCase).id)).toBe(true);
+      expect(['open', 'dismissed', 'closed']).toContain((f as FlagCase).status);
       expect(FLAG_KINDS).toContain(f.kind);
       expect(['watch', 'act']).toContain(f.severity);
       expect(typeof f.evidence.n).toBe('number');

@@ -25,7 +25,7 @@ beforeAll(async () => {
 }, 120_000);
 afterAll(async () => t.close());
 
-const chrome: PageChrome = { nav: [], panel: 'p', panelNav: [], jsonHref: '/x.json', csrfToken: null, isTokenRequired: false, version: '0' };
+const chrome: PageChrome = { nav: [], panel: 'p', panelNav: [], jsonHref: '/x.json', csrfToken: null, isTokenRequired: false, version: '0', refreshSeconds: null };
 
 describe('report pages', () => {
   it('the session report answers as HTML, JSON and three CSV tables, with a test and variance components per attribute', async () => {

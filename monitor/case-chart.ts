@@ -1,0 +1,75 @@
+/**
+ * The chart that shows a case: the assessor's per-session index on the case's attribute (or
+ * averaged over attributes for a panel-wide drift), with the sessions behind the flag marked and
+ * the assessor's retraining events drawn. Values are shown on their natural scale (points,
+ * ratios, correlations), not the log scale the tests use, so the chart reads like the table.
+ */
+import type { AssessorSessionIndices } from '../analysis/indices/types.js';
+import { indexLookup, type PanelHistory } from '../analysis/monitor/series.js';
+import type { Flag } from '../domain/flags.js';
+import { buildControlChart, type ChartView } from '../report/charts/control-chart.js';
+import { kindLabel } from '../report/words.js';
+
+interface Measure {
+  yLabel: string;
+  title: string;
+  value: (row: AssessorSessionIndices) => number | null;
+  /** The rest of the panel on this scale. */
+  reference: number;
+  referenceName: string;
+}
+
+const LEVEL: Measure = { yLabel: 'level difference (points)', title: 'Level difference from the rest of the panel', value: (r) => r.offset, reference: 0, referenceName: 'panel' };
+const MEASURES: Partial<Record<Flag['kind'], Measure>> = {
+  lenient: LEVEL,
+  harsh: LEVEL,
+  drift: LEVEL,
+  inconsistent: { yLabel: 'spread ratio (×)', title: "Replicate spread relative to the rest of the panel", value: (r) => r.repeatabilitySdRatio, reference: 1, referenceName: 'panel' },
+  'non-discriminating': { yLabel: 'F (products)', title: 'Product separation (F ratio of the products)', value: (r) => r.discriminationF, reference: 1, referenceName: 'none' },
+  disagreement: { yLabel: 'correlation r', title: 'Correlation of the product order with the rest of the panel', value: (r) => r.agreementR, reference: 0, referenceName: 'r = 0' },
+  reversed: { yLabel: 'correlation r', title: 'Correlation of the product order with the rest of the panel', value: (r) => r.agreementR, reference: 0, referenceName: 'r = 0' },
+  'scale-compression': { yLabel: 'spacing ratio (×)', title: "Spacing of the products relative to the panel's", value: (r) => r.scaling, reference: 1, referenceName: 'panel' },
+  'scale-expansion': { yLabel: 'spacing ratio (×)', title: "Spacing of the products relative to the panel's", value: (r) => r.scaling, reference: 1, referenceName: 'panel' },
+};
+
+/** The sessions the flag's evidence rests on: its pooled sessions, or from where it starts to the newest it covers. */
+export function flaggedSessions(flag: Flag, sessions: readonly string[]): Set<string> {
+  const listed = flag.evidence.sessions;
+  if (Array.isArray(listed) && listed.every((s) => typeof s === 'string')) return new Set(listed as string[]);
+  const from = sessions.indexOf(flag.firstSession);
+  const last = typeof flag.evidence.lastSession === 'string' ? sessions.indexOf(flag.evidence.lastSession) : sessions.length - 1;
+  return new Set(from < 0 ? [] : sessions.slice(from, Math.max(from, last) + 1));
+}
+
+/** null when the kind has no per-session series (product stability, data findings). */
+export function caseChart(flag: Flag, history: PanelHistory): ChartView | null {
+  const measure = MEASURES[flag.kind];
+  if (!measure || flag.assessor === null) return null;
+  const sessions = history.sessions.map((s) => s.label);
+  const byAttribute = indexLookup(history).get(flag.assessor);
+  if (!byAttribute) return null;
+  const attributes = flag.attribute === null ? [...byAttribute.keys()] : [flag.attribute];
+  const values = sessions.map((session) => {
+    const found = attributes.map((a) => byAttribute.get(a)?.get(session)).map((row) => (row ? measure.value(row) : null)).filter((v): v is number => v !== null && Number.isFinite(v));
+    return found.length === 0 ? null : found.reduce((s, v) => s + v, 0) / found.length;
+  });
+  const marked = flaggedSessions(flag, sessions);
+  const where = flag.attribute === null ? 'averaged over attributes' : flag.attribute;
+  return buildControlChart({
+    title: `${flag.assessor}, ${where}: ${measure.title.toLowerCase()}`,
+    yLabel: measure.yLabel,
+    sessions,
+    series: [
+      {
+        name: flag.assessor,
+        values,
+        signals: sessions.map((s) => (marked.has(s) ? flag.severity : null)),
+        notes: sessions.map((s, i) => (values[i] === null ? null : `${s}: ${values[i]!.toFixed(2)}${marked.has(s) ? ' (behind this flag)' : ''}`)),
+      },
+    ],
+    lines: measure.referenceName === 'none' ? [] : [{ name: measure.referenceName, kind: 'centre', values: measure.reference }],
+    isProvisional: false,
+    events: history.events.filter((e) => e.kind === 'retraining' && (e.assessor === null || e.assessor === flag.assessor)).map((e) => ({ session: e.session, label: 'retraining' })),
+    description: `${marked.size} session${marked.size === 1 ? '' : 's'} behind the ${kindLabel(flag.kind)} case are marked in ${flag.severity === 'act' ? 'red' : 'orange'}.`,
+  });
+}
