@@ -51,7 +51,7 @@ export function analyzeRatingsWithNotes(ratings: readonly Observation[], options
     if (options.period) continue;
     for (const row of computeAnalyzeContractIndices(observations)) assessorIndices.push(row);
   }
-  return { json: { fits, assessorIndices, notFitted }, notes };
+  return { json: { fits, assessorIndices, ...(notFitted.length > 0 ? { notFitted } : {}) }, notes };
 }
 
 /** Groups in first-seen order; the lookup is nested so no key string is built per rating. */

@@ -80,6 +80,6 @@ export interface NotFittedJson {
 export interface AnalyzeJson {
   fits: FitJson[];
   assessorIndices: AssessorIndicesJson[];
-  /** Groups without a fit (added after the first release of the contract; older output lacks it). */
-  notFitted: NotFittedJson[];
+  /** Groups without a fit; present only when there is one, so the output of a file where everything fits is unchanged. */
+  notFitted?: NotFittedJson[];
 }

@@ -56,7 +56,7 @@ describe('analyze FILE --format json (per session)', async () => {
 
   it('exits 0 and prints one JSON document with only the contract keys', () => {
     expect(result.exitCode).toBe(0);
-    expect(Object.keys(json).sort()).toEqual(['assessorIndices', 'fits', 'notFitted']);
+    expect(Object.keys(json).sort()).toEqual(['assessorIndices', 'fits']);
     expect(result.stdout).not.toMatch(/NaN|Infinity/);
     for (const row of json.assessorIndices) {
       expect(Object.keys(row).sort()).toEqual(['agreementR', 'assessor', 'attribute', 'discriminationF', 'discriminationP', 'offset', 'repeatabilityMSE', 'scaling', 'session'].sort());
