@@ -128,11 +128,8 @@ export async function* readIntoSink(
   internKeys: boolean,
 ): AsyncGenerator<void> {
   const file = options.fileName;
-  const fileProblem = (code: ProblemCode, message: string, row: number | null = null, column: string | null = null): Exclude<ReadEvent, { type: 'rating' }> => ({
-    type: 'problem',
-    cell: null,
-    problem: { code, file, row, column, message },
-  });
+  const fileProblem = (code: ProblemCode, message: string, row: number | null = null, column: string | null = null): Exclude<ReadEvent, { type: 'rating' }> =>
+    problemOfFile(file, code, message, row, column);
 
   let head: Uint8Array;
   try {
@@ -184,39 +181,11 @@ export async function* readIntoSink(
       for (const record of batch) {
         if (reader === null) {
           if (isBlankRecord(record.cells)) continue;
-          if (record.cells.length > maxColumns) {
-            sink.push(fileProblem('too-many-columns', `The header row has ${record.cells.length} columns; the most this reader accepts is ${maxColumns}.`, record.row));
+          reader = startRowReader(record, { file, csv: kind === 'csv', decimalMark, maxColumns, maxCellChars, options, internKeys }, out);
+          if (reader === null) {
             yield;
             return;
           }
-          const longCell = record.cells.findIndex((c) => c.length > maxCellChars);
-          if (longCell !== -1) {
-            sink.push(fileProblem('cell-too-long', `Header cell ${longCell + 1} holds ${record.cells[longCell].length} characters; the most a cell may hold is ${maxCellChars}.`, record.row));
-            yield;
-            return;
-          }
-          const { layout, problems } = resolveColumnLayout(record.cells, record.row, kind === 'csv');
-          if (layout === null) {
-            for (const p of problems) sink.push({ type: 'problem', cell: null, problem: { ...p, file } });
-            yield;
-            return;
-          }
-          // Wide form: attribute names are header cells; checked (and NFC-normalised) once here.
-          let badAttribute = false;
-          for (const column of layout.attributeColumns) {
-            const check = checkName(column.attribute, 'attribute');
-            if (check.ok) column.attribute = check.name;
-            else {
-              sink.push({ type: 'problem', cell: null, problem: { code: 'name-invalid', file, row: record.row, column: showHidden(column.attribute), message: check.reason } });
-              badAttribute = true;
-            }
-          }
-          if (badAttribute) {
-            yield;
-            return;
-          }
-          reader = new RowReader(file, layout, decimalMark, kind === 'csv', options, internKeys);
-          if (layout.form === 'wide') reader.checkHeaderScales(record.row, out);
         } else if (!isBlankRecord(record.cells)) {
           reader.readRow(record, out);
           if (reader.fatal !== null) {
@@ -263,4 +232,57 @@ export async function* readIntoSink(
     });
     yield;
   }
+}
+
+/** A problem with the whole file (no cell of it is held for quarantine). */
+function problemOfFile(file: string, code: ProblemCode, message: string, row: number | null = null, column: string | null = null): Exclude<ReadEvent, { type: 'rating' }> {
+  return { type: 'problem', cell: null, problem: { code, file, row, column, message } };
+}
+
+/** What the header row is checked with. */
+interface HeaderContext {
+  file: string;
+  /** CSV rather than .xlsx. */
+  csv: boolean;
+  decimalMark: DecimalMark;
+  maxColumns: number;
+  maxCellChars: number;
+  options: ReadRatingsOptions;
+  internKeys: boolean;
+}
+
+/**
+ * The header row: its size, its columns and the wide form's attribute names. Returns the row
+ * reader for the data rows, or null when the header's problems (put into `sink`) end the reading.
+ */
+function startRowReader(record: SourceRecord, header: HeaderContext, sink: ReadSink): RowReader | null {
+  const { file, maxColumns, maxCellChars } = header;
+  if (record.cells.length > maxColumns) {
+    sink.push(problemOfFile(file, 'too-many-columns', `The header row has ${record.cells.length} columns; the most this reader accepts is ${maxColumns}.`, record.row));
+    return null;
+  }
+  const longCell = record.cells.findIndex((c) => c.length > maxCellChars);
+  if (longCell !== -1) {
+    sink.push(problemOfFile(file, 'cell-too-long', `Header cell ${longCell + 1} holds ${record.cells[longCell].length} characters; the most a cell may hold is ${maxCellChars}.`, record.row));
+    return null;
+  }
+  const { layout, problems } = resolveColumnLayout(record.cells, record.row, header.csv);
+  if (layout === null) {
+    for (const p of problems) sink.push({ type: 'problem', cell: null, problem: { ...p, file } });
+    return null;
+  }
+  // Wide form: attribute names are header cells; checked (and NFC-normalised) once here.
+  let badAttribute = false;
+  for (const column of layout.attributeColumns) {
+    const check = checkName(column.attribute, 'attribute');
+    if (check.ok) column.attribute = check.name;
+    else {
+      sink.push({ type: 'problem', cell: null, problem: { code: 'name-invalid', file, row: record.row, column: showHidden(column.attribute), message: check.reason } });
+      badAttribute = true;
+    }
+  }
+  if (badAttribute) return null;
+  const reader = new RowReader(file, layout, header.decimalMark, header.csv, header.options, header.internKeys);
+  if (layout.form === 'wide') reader.checkHeaderScales(record.row, sink);
+  return reader;
 }
