@@ -12,7 +12,8 @@ import { cusumChart, cusumIntervalForArl0 } from '../monitor/cusum.js';
 import { ewmaChart } from '../monitor/ewma.js';
 import { ewmaLimitForUnconditionalArl0 } from '../monitor/unconditional.js';
 import { individualsChart } from '../monitor/shewhart.js';
-import { buildAssessorSeries, median, referencePeriodFor, restartSessionsFor, summarySeries } from '../monitor/series.js';
+import { buildAssessorSeries, median, referencePeriodFor, restartSessionsFor, summarySeries, type ConsensusExclusion } from '../monitor/series.js';
+import { detectJump, type Jump } from '../monitor/jump.js';
 import type { FlagContext } from './context.js';
 import { points, sessionsText } from './format.js';
 
@@ -176,14 +177,27 @@ export function pooledSpread(spreads: readonly (number | null)[]): number | null
   return defined.length >= 3 ? median(defined) : null;
 }
 
+/**
+ * Drift and jump flags. The level series are against the median of the other assessors; an
+ * assessor with an act-level change is then left out of that consensus from the change on and
+ * the charts are evaluated once more (one iteration, docs/methods.md "Panel reference").
+ */
 export function driftFlags(ctx: FlagContext): Flag[] {
+  const first = driftPass(ctx, []);
+  const exclusions: ConsensusExclusion[] = first
+    .filter((f) => f.severity === 'act' && f.assessor !== null)
+    .map((f) => ({ assessor: f.assessor as string, attribute: f.attribute, fromSession: f.firstSession }));
+  return exclusions.length === 0 ? first : driftPass(ctx, exclusions);
+}
+
+function driftPass(ctx: FlagContext, exclusions: readonly ConsensusExclusion[]): Flag[] {
   const c = ctx.settings.charts;
   const nAssessors = ctx.assessors.length;
   const nAttributes = ctx.history.attributes.length;
   if (nAssessors === 0 || nAttributes === 0) return [];
   const summarySizing = chartSizing(nAssessors, c.sessionsPerYear, c.actFalseAlarmsPerYear, c.watchFalseAlarmsPerYear, c.ewmaLambda, c.cusumK);
   const attributeSizing = chartSizing(nAssessors * nAttributes, c.sessionsPerYear, c.actFalseAlarmsPerYear, c.watchFalseAlarmsPerYear, c.ewmaLambda, c.cusumK);
-  const levelSeries = buildAssessorSeries(ctx.history, ['level']);
+  const levelSeries = buildAssessorSeries(ctx.history, ['level'], { levelExclusions: exclusions });
   const byAssessor = new Map<string, typeof levelSeries>();
   for (const series of levelSeries) byAssessor.set(series.assessor, [...(byAssessor.get(series.assessor) ?? []), series]);
   const optionsFor = (assessor: string): SegmentOptions => ({
@@ -217,6 +231,15 @@ export function driftFlags(ctx: FlagContext): Flag[] {
       .filter((entry): entry is { attribute: string; signal: ChartSignal } => entry.signal !== null);
     const summary = summaries.get(assessor) as SeriesPoint[];
     const summarySignal = evaluateChart(summary, options, summarySizing, c.westernElectricWatch, 0, summaryFloor);
+    const jump = detectJump(
+      seriesList.map((s) => ({ attribute: s.attribute, points: s.points, spreadFloorSd: pooledSpread(spreadsByAttribute.get(s.attribute) ?? []) })),
+      options,
+      { nCharts: nAssessors, sessionsPerYear: c.sessionsPerYear, falseAlarmsPerYear: c.actFalseAlarmsPerYear },
+    );
+    if (jump) {
+      out.push(jumpFlag(ctx, assessor, jump, summarySignal));
+      continue;
+    }
     if (summarySignal) {
       const matching = attributeSignals.filter((a) => a.signal.direction === summarySignal.direction);
       const shifts = seriesList.map((s) => recentLevelShift(s.points, options)).filter((v): v is number => v !== null);
@@ -304,4 +327,42 @@ export function thresholdText(signal: ChartSignal, sizing: ChartSizing, setName:
   const provisional = signal.baseline.provisional ? '; baseline provisional, so watch at most' : '';
   const guard = signal.severity === 'act' ? '; act also needs a recent shift of at least the lenient/harsh watch offset' : '';
   return `EWMA (λ = ${sizing.lambda}) limit L = ${signal.limitWidth.toFixed(3)}, sized for an in-control ARL of ${signal.targetArl0} sessions averaged over the baseline's estimation error, across ${sizing.nCharts} ${setName}${provisional}${guard}`;
+}
+
+/**
+ * A one-session jump on most attributes, worded as a jump with its size. Act unless the baseline is
+ * provisional or the median jump is below the lenient/harsh watch offset; it replaces the slow-drift
+ * wording, which would average the jump over four sessions and understate it.
+ */
+function jumpFlag(ctx: FlagContext, assessor: string, jump: Jump, ewma: ChartSignal | null): Flag {
+  const guard = Math.min(...jump.attributes.map((a) => minimumShift(ctx, a.attribute)));
+  const severity: FlagSeverity = !jump.provisional && Math.abs(jump.medianJumpPoints) >= guard ? 'act' : 'watch';
+  const verb = jump.direction === 'up' ? 'rose' : 'fell';
+  return {
+    kind: 'drift',
+    assessor,
+    product: null,
+    attribute: null,
+    firstSession: jump.session,
+    severity,
+    evidence: {
+      test: 'Individuals rule on each attribute\'s level against the other assessors: the session\'s value minus the mean of the previous (up to) four, in units of the attribute\'s session-to-session SD; counted across attributes',
+      statistic: jump.medianJumpSd,
+      pValue: null,
+      qValue: null,
+      n: jump.nAttributes,
+      threshold: `a jump of at least ${jump.thresholdSd.toFixed(2)} SDs in the same direction on at least ${jump.minAttributes} of ${jump.nAttributes} attributes (sized for ${jump.nCharts} assessors at ${jump.falseAlarmsPerYear} false alarms per year; chance per session ${jump.chancePerSession.toExponential(1)})${jump.provisional ? '; baseline provisional, so watch at most' : ''}${severity === 'act' ? '; act also needs a median jump of at least the lenient/harsh watch offset' : ''}`,
+      pattern: 'jump',
+      signalSession: jump.session,
+      lastSession: ctx.history.sessions[ctx.history.sessions.length - 1]?.label,
+      direction: jump.direction,
+      jumpPoints: jump.medianJumpPoints,
+      attributesJumped: jump.attributes.map((a) => a.attribute),
+      nAttributesJumped: jump.attributes.length,
+      attributes: jump.attributes,
+      earlierJumpSessions: jump.earlierSessions,
+      ...(ewma ? { ewmaSignalSession: ewma.signalSession, ewmaSeverity: ewma.severity, limitWidth: ewma.limitWidth, baseline: ewma.baseline } : {}),
+    },
+    message: `In ${jump.session}, ${assessor}'s ratings ${verb} by about ${points(Math.abs(jump.medianJumpPoints))} points on ${jump.attributes.length} of ${jump.nAttributes} attributes compared with their previous sessions (a jump of ${points(Math.abs(jump.medianJumpSd))} times their usual session-to-session spread).`,
+  };
 }

@@ -13,7 +13,6 @@ import {
   indexLookup,
   referencePeriodFor,
   restartSessionsFor,
-  seriesValue,
   summarySeries,
   type IndexSeriesKind,
   type PanelHistory,
@@ -104,15 +103,9 @@ export function loadMonitorContext(db: Database, panelName: string, options: { w
   return { panel, history, thresholds: panelThresholds(db, panel.id), assessors, attributes: history.attributes.map((a) => a.name) };
 }
 
-/** Level offsets of one assessor, one series per attribute (for the summary series). */
+/** Level series of one assessor against the robust consensus of the others, one per attribute (for the summary series). */
 function levelSeriesByAttribute(history: PanelHistory, assessor: string) {
-  const lookup = indexLookup(history).get(assessor);
-  return history.attributes.map((a) =>
-    history.sessions.map((s) => {
-      const row = lookup?.get(a.name)?.get(s.label);
-      return { session: s.label, date: s.date, value: row ? seriesValue('level', row) : null };
-    }),
-  );
+  return buildAssessorSeries(history, ['level']).filter((s) => s.assessor === assessor).map((s) => s.points);
 }
 
 /** Baseline rules of an assessor's charts: restarts at their retraining events, their reference period. */
@@ -128,7 +121,7 @@ export function monitoredSummary(history: PanelHistory, assessor: string, design
 }
 
 export const MEASURE_LABELS: Record<IndexSeriesKind, { label: string; yLabel: string }> = {
-  level: { label: 'Level offset', yLabel: 'offset (scale points)' },
+  level: { label: 'Level offset', yLabel: 'offset from the median of the other assessors (scale points)' },
   repeatability: { label: 'Repeatability', yLabel: 'log(s_a / s_rest)' },
   discrimination: { label: 'Discrimination', yLabel: 'log F (products)' },
   agreement: { label: 'Agreement', yLabel: 'atanh r (with the rest)' },

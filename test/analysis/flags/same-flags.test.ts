@@ -27,6 +27,13 @@ const withoutAddedFields = (value: unknown): unknown =>
     return v;
   }) as unknown;
 
+/**
+ * Drift flags are left out of the exact comparison: since 0ceeede their level series is measured
+ * against the median of the other assessors (robust consensus) and sudden jumps are flagged as
+ * such, a deliberate change of method; test/analysis/flags/drift-robust.test.ts checks them.
+ */
+const withoutDrift = (value: unknown): unknown => (Array.isArray(value) ? value.filter((f: { kind?: string }) => f.kind !== 'drift') : value);
+
 describe('flags identical to the engine before the speed work (0ceeede)', () => {
   const year = equalityYear();
   const withEvents = equalityYearWithEvents();
@@ -41,8 +48,8 @@ describe('flags identical to the engine before the speed work (0ceeede)', () => 
   for (const [name, run] of cases) {
     it(`${name}: first and memoised runs`, () => {
       expect(expected[name]).toBeDefined();
-      expect(withoutAddedFields(run())).toEqual(expected[name]);
-      expect(withoutAddedFields(run())).toEqual(expected[name]);
+      expect(withoutDrift(withoutAddedFields(run()))).toEqual(withoutDrift(expected[name]));
+      expect(withoutDrift(withoutAddedFields(run()))).toEqual(withoutDrift(expected[name]));
     });
   }
 
