@@ -131,13 +131,19 @@ export function detectJump(series: readonly JumpInput[], options: SegmentOptions
   }
   for (const point of series[0]?.points ?? []) if (bySession.has(point.session)) order.push(point.session);
   const found: Jump[] = [];
-  for (const session of order) {
+  // A step leaves its first session's jump in the previous-values window of the next few
+  // sessions, so same-direction jumps within PREVIOUS_VALUES sessions of a jump are that jump.
+  const lastAt = { up: -Infinity, down: -Infinity };
+  for (const [position, session] of order.entries()) {
     const list = bySession.get(session) as (JumpAttribute & { provisional: boolean })[];
     const rule = jumpRule(list.length, budget);
     for (const direction of ['up', 'down'] as const) {
       const sign = direction === 'up' ? 1 : -1;
       const jumped = list.filter((a) => sign * a.jumpSd >= rule.thresholdSd);
       if (jumped.length < rule.minAttributes) continue;
+      const previousJump = lastAt[direction];
+      lastAt[direction] = position;
+      if (position - previousJump <= PREVIOUS_VALUES) continue;
       found.push({
         session,
         direction,
