@@ -177,6 +177,8 @@ export interface GeneratedPanel {
   /** The samples as written to a wide file (same content as rawRows). */
   rawSamples: SampleRow[];
   truth: PlantedFault[];
+  /** Whole samples left out by `structure.nMissingSamples` (not faults; a missing-cells flag there is right). */
+  droppedSamples: { session: string; assessor: string; product: string; replicate: number }[];
 }
 
 /** Default magnitudes (scale points on the 0–10 scale unless said otherwise). */
@@ -687,6 +689,7 @@ export function generatePanel(options: PanelScenarioOptions): GeneratedPanel {
     rawRows: toRatings(rawSamples, false),
     rawSamples,
     truth,
+    droppedSamples: samples.filter((row) => droppedSamples.has(row)).map(({ session, assessor, product, replicate }) => ({ session, assessor, product, replicate })),
   };
 }
 

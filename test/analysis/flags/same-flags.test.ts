@@ -28,11 +28,13 @@ const withoutAddedFields = (value: unknown): unknown =>
   }) as unknown;
 
 /**
- * Drift flags are left out of the exact comparison: since 0ceeede their level series is measured
- * against the median of the other assessors (robust consensus) and sudden jumps are flagged as
- * such, a deliberate change of method; test/analysis/flags/drift-robust.test.ts checks them.
+ * Level flags are left out of the exact comparison, deliberate changes of method since 0ceeede:
+ * drift is measured against the median of the other assessors (robust consensus) and sudden jumps
+ * are flagged as such; lenient/harsh also need the offset to stand out from the panel's natural
+ * offsets. test/analysis/flags/drift-robust.test.ts checks them.
  */
-const withoutDrift = (value: unknown): unknown => (Array.isArray(value) ? value.filter((f: { kind?: string }) => f.kind !== 'drift') : value);
+const CHANGED_KINDS = new Set(['drift', 'lenient', 'harsh']);
+const withoutDrift = (value: unknown): unknown => (Array.isArray(value) ? value.filter((f: { kind?: string }) => !CHANGED_KINDS.has(f.kind ?? '')) : value);
 
 describe('flags identical to the engine before the speed work (0ceeede)', () => {
   const year = equalityYear();
