@@ -7,43 +7,19 @@
  * (methods §3.4). Act signals are downgraded to watch while the baseline is provisional (§6.3).
  */
 import type { Flag, FlagSeverity } from '../../domain/flags.js';
-import { standardiseSegments, targetArl0ForChartSet, type BaselineSource, type SegmentOptions, type SeriesPoint } from '../monitor/chart.js';
+import { monitorSeries, standardiseSegments, type BaselineSource, type MonitoredSegment, type SegmentOptions, type SeriesPoint } from '../monitor/chart.js';
+import { actChartDesigns, chartLimitWidth, chartSizing, CUSUM_SIZING_STATES, type ChartSizing } from '../monitor/chart-design.js';
 import { cusumChart, cusumIntervalForArl0 } from '../monitor/cusum.js';
 import { ewmaChart } from '../monitor/ewma.js';
-import { ewmaLimitForUnconditionalArl0 } from '../monitor/unconditional.js';
 import { individualsChart } from '../monitor/shewhart.js';
 import { buildAssessorSeries, median, referencePeriodFor, restartSessionsFor, summarySeries, type ConsensusExclusion } from '../monitor/series.js';
 import { detectJump, type Jump } from '../monitor/jump.js';
-import type { FlagContext } from './context.js';
+import type { PanelHistory } from '../monitor/series.js';
+import { buildContext, type FlagContext } from './context.js';
+import type { PanelThresholds } from './settings.js';
 import { points, sessionsText } from './format.js';
 
-/** States of the CUSUM chain used to size the change-point CUSUM inside buildFlags (fast; ARL0 within ~2 % of 400 states). */
-const SIZING_STATES = 61;
-
-/** Targets for one chart set: ARL0 = K × sessions per year / tolerated false alarms per year (methods §3.4). */
-export interface ChartSizing {
-  lambda: number;
-  k: number;
-  actTargetArl0: number;
-  watchTargetArl0: number;
-  nCharts: number;
-}
-
-/** Target ARL0 rounded to two significant digits so that the memoised sizing is reused across panels. */
-function roundTarget(arl0: number): number {
-  const magnitude = 10 ** (Math.floor(Math.log10(arl0)) - 1);
-  return Math.round(arl0 / magnitude) * magnitude;
-}
-
-export function chartSizing(nCharts: number, sessionsPerYear: number, actFalseAlarmsPerYear: number, watchFalseAlarmsPerYear: number, lambda: number, k: number): ChartSizing {
-  return {
-    lambda,
-    k,
-    nCharts,
-    actTargetArl0: roundTarget(targetArl0ForChartSet(nCharts, sessionsPerYear, actFalseAlarmsPerYear)),
-    watchTargetArl0: roundTarget(targetArl0ForChartSet(nCharts, sessionsPerYear, watchFalseAlarmsPerYear)),
-  };
-}
+export { chartSizing, type ChartSizing };
 
 export interface ChartSignal {
   severity: FlagSeverity;
@@ -97,16 +73,16 @@ export function evaluateChart(
   minimumActShift = 0,
   spreadFloorSd: number | null = null,
 ): ChartSignal | null {
-  const segments = standardiseSegments(series, options);
+  const segments = standardiseSegments(series, { ...options, spreadFloorSd });
   const segment = segments[segments.length - 1];
-  if (!segment || segment.points.length === 0 || segment.baseline.centre === null || segment.baseline.spreadSd === null) return null;
+  if (!segment || segment.points.length === 0 || segment.baseline.centre === null || segment.spreadUsedSd === undefined) return null;
   const centre = segment.baseline.centre;
-  const spreadSd = Math.max(segment.baseline.spreadSd, spreadFloorSd ?? 0);
-  const z = segment.points.map((p) => (p.value - centre) / spreadSd);
+  const spreadSd = segment.spreadUsedSd;
+  const z = segment.points.map((p) => p.z);
   const nReference = segment.baseline.nReference;
-  const floorRatio = spreadFloorSd !== null && spreadFloorSd > 0 ? 1 : 0;
+  const floorActive = spreadFloorSd !== null && spreadFloorSd > 0;
   const ewma = ewmaChart(z, { lambda: sizing.lambda, L: 1 });
-  const changeH = cusumIntervalForArl0(sizing.k, sizing.watchTargetArl0, SIZING_STATES);
+  const changeH = cusumIntervalForArl0(sizing.k, sizing.watchTargetArl0, CUSUM_SIZING_STATES);
   const cusum = cusumChart(z, { k: sizing.k, h: changeH });
   const provisional = segment.baseline.status === 'provisional';
   const recent = segment.points.slice(-4);
@@ -127,7 +103,7 @@ export function evaluateChart(
   };
   for (const level of ['act', 'watch'] as const) {
     const targetArl0 = level === 'act' ? sizing.actTargetArl0 : sizing.watchTargetArl0;
-    const limitWidth = ewmaLimitForUnconditionalArl0(sizing.lambda, targetArl0, nReference, floorRatio);
+    const limitWidth = chartLimitWidth(sizing.lambda, targetArl0, nReference, floorActive);
     const t = ewma.points.findIndex((e) => Math.abs(e.statistic) > limitWidth * e.limit);
     if (t < 0) continue;
     const e = ewma.points[t];
@@ -184,21 +160,30 @@ export function pooledSpread(spreads: readonly (number | null)[]): number | null
  */
 export function driftFlags(ctx: FlagContext): Flag[] {
   const first = driftPass(ctx, []);
-  const exclusions: ConsensusExclusion[] = first
-    .filter((f) => f.severity === 'act' && f.assessor !== null)
-    .map((f) => ({ assessor: f.assessor as string, attribute: f.attribute, fromSession: f.firstSession }));
+  const exclusions = actExclusions(first);
   return exclusions.length === 0 ? first : driftPass(ctx, exclusions);
 }
 
-function driftPass(ctx: FlagContext, exclusions: readonly ConsensusExclusion[]): Flag[] {
+/** The level charts of every assessor as the flag engine evaluates them. */
+interface LevelChartSet {
+  summarySizing: ChartSizing;
+  attributeSizing: ChartSizing;
+  byAssessor: Map<string, { attribute: string; points: SeriesPoint[] }[]>;
+  summaries: Map<string, SeriesPoint[]>;
+  summaryFloor: number | null;
+  spreadsByAttribute: Map<string, (number | null)[]>;
+  optionsFor: (assessor: string) => SegmentOptions;
+}
+
+function prepareLevelCharts(ctx: FlagContext, exclusions: readonly ConsensusExclusion[]): LevelChartSet | null {
   const c = ctx.settings.charts;
   const nAssessors = ctx.assessors.length;
   const nAttributes = ctx.history.attributes.length;
-  if (nAssessors === 0 || nAttributes === 0) return [];
+  if (nAssessors === 0 || nAttributes === 0) return null;
   const summarySizing = chartSizing(nAssessors, c.sessionsPerYear, c.actFalseAlarmsPerYear, c.watchFalseAlarmsPerYear, c.ewmaLambda, c.cusumK);
   const attributeSizing = chartSizing(nAssessors * nAttributes, c.sessionsPerYear, c.actFalseAlarmsPerYear, c.watchFalseAlarmsPerYear, c.ewmaLambda, c.cusumK);
   const levelSeries = buildAssessorSeries(ctx.history, ['level'], { levelExclusions: exclusions });
-  const byAssessor = new Map<string, typeof levelSeries>();
+  const byAssessor = new Map<string, { attribute: string; points: SeriesPoint[] }[]>();
   for (const series of levelSeries) byAssessor.set(series.assessor, [...(byAssessor.get(series.assessor) ?? []), series]);
   const optionsFor = (assessor: string): SegmentOptions => ({
     baseline: { fullValues: c.baselineSessions, minimumValues: c.minBaselineSessions },
@@ -220,6 +205,65 @@ function driftPass(ctx: FlagContext, exclusions: readonly ConsensusExclusion[]):
     );
   }
   const summaryFloor = pooledSpread([...summaries].map(([assessor, points]) => currentSpread(points, optionsFor(assessor))));
+  return { summarySizing, attributeSizing, byAssessor, summaries, summaryFloor, spreadsByAttribute, optionsFor };
+}
+
+/** Exclusions for the second pass: assessors with an act-level level change, from its session on. */
+function actExclusions(flags: readonly Flag[]): ConsensusExclusion[] {
+  return flags.filter((f) => f.severity === 'act' && f.assessor !== null).map((f) => ({ assessor: f.assessor as string, attribute: f.attribute, fromSession: f.firstSession }));
+}
+
+export interface LevelChart {
+  series: SeriesPoint[];
+  segments: MonitoredSegment[];
+}
+
+/**
+ * The level charts of every assessor exactly as the drift and jump flags evaluate them (the same
+ * consensus with the same exclusions, spread floors and limit widths), drawn at the act level:
+ * the pages draw these, so every act-limit crossing on a page is one the flag engine saw.
+ */
+export function assessorLevelCharts(history: PanelHistory, settings: PanelThresholds): Map<string, { summary: LevelChart; attributes: Map<string, LevelChart> }> {
+  // A page asks once per assessor; the charts of the whole panel are computed once per history.
+  const cached = levelChartCache.get(history);
+  if (cached && cached.settings === settings) return cached.charts;
+  const charts = computeLevelCharts(history, settings);
+  levelChartCache.set(history, { settings, charts });
+  return charts;
+}
+
+const levelChartCache = new WeakMap<PanelHistory, { settings: PanelThresholds; charts: Map<string, { summary: LevelChart; attributes: Map<string, LevelChart> }> }>();
+
+function computeLevelCharts(history: PanelHistory, settings: PanelThresholds): Map<string, { summary: LevelChart; attributes: Map<string, LevelChart> }> {
+  const ctx = buildContext(history, settings);
+  const set = prepareLevelCharts(ctx, actExclusions(driftPass(ctx, [])));
+  const out = new Map<string, { summary: LevelChart; attributes: Map<string, LevelChart> }>();
+  if (!set) return out;
+  const rules = settings.charts.westernElectricWatch ? ([1, 2, 3, 4] as const) : ([1] as const);
+  const summaryDesigns = actChartDesigns(set.summarySizing, settings.charts.baselineSessions, rules);
+  const attributeDesigns = actChartDesigns(set.attributeSizing, settings.charts.baselineSessions, rules);
+  for (const [assessor, seriesList] of set.byAssessor) {
+    const options = set.optionsFor(assessor);
+    const summary = set.summaries.get(assessor) as SeriesPoint[];
+    out.set(assessor, {
+      summary: { series: summary, segments: monitorSeries(summary, summaryDesigns, { ...options, spreadFloorSd: set.summaryFloor }) },
+      attributes: new Map(
+        seriesList.map((s) => [
+          s.attribute,
+          { series: s.points, segments: monitorSeries(s.points, attributeDesigns, { ...options, spreadFloorSd: pooledSpread(set.spreadsByAttribute.get(s.attribute) ?? []) }) },
+        ]),
+      ),
+    });
+  }
+  return out;
+}
+
+function driftPass(ctx: FlagContext, exclusions: readonly ConsensusExclusion[]): Flag[] {
+  const set = prepareLevelCharts(ctx, exclusions);
+  if (!set) return [];
+  const c = ctx.settings.charts;
+  const nAssessors = ctx.assessors.length;
+  const { summarySizing, attributeSizing, byAssessor, summaries, summaryFloor, spreadsByAttribute, optionsFor } = set;
   const out: Flag[] = [];
   for (const [assessor, seriesList] of byAssessor) {
     const options = optionsFor(assessor);

@@ -87,8 +87,11 @@ function flag(kind: FlagKind, severity: FlagSeverity, pair: PooledPair, evidence
  * attribute that are not faults; an offset is flagged only when it also stands out from them.
  */
 const NATURAL_SPREAD_MIN_ASSESSORS = 6;
-/** Robust z of an offset among the panel's offsets needed for act / watch (CP, the usual 3 and 2). */
-const NATURAL_ACT_Z = 3;
+/**
+ * Robust z of an offset among the panel's offsets needed for act (3.5, the modified z-score
+ * cut-off of Iglewicz & Hoaglin 1993) and watch (2, CP).
+ */
+const NATURAL_ACT_Z = 3.5;
 const NATURAL_WATCH_Z = 2;
 
 function naturalOffsetSpread(pairs: readonly PooledPair[]): Map<string, { centre: number; sd: number }> {

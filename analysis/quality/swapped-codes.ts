@@ -57,37 +57,54 @@ export function detectSwappedCodes(
   });
   const findings: SwapFinding[] = [];
   const nJ = tables.length;
-  for (const assessor of data.assessors) {
-    // Own values: per replicate, and the cell mean over the replicates (replicate 0 here).
-    const ownValue = (table: (typeof tables)[number], product: string, replicate: number): number | undefined =>
+  const typicalCache = new Map<number, number>();
+  // The panel's typical correlation of an assessor's profile with the others' (median over assessors).
+  const typicalCorrelation = (replicate: number): number => {
+    const cached = typicalCache.get(replicate);
+    if (cached !== undefined) return cached;
+    const rs: number[] = [];
+    for (const other of data.assessors) {
+      const products = data.products.filter((p) => tables.every((t) => (replicate === 0 ? t.means.get(other)?.has(p) : t.replicates?.get(other)?.get(p)?.has(replicate))));
+      if (products.length < 4) continue;
+      const built = profilesOf(other, replicate, products);
+      if (built) rs.push(profileCorrelation(built.x, built.g, products.length, nJ, -1, -1));
+    }
+    const sorted = rs.sort((a, b) => a - b);
+    const typical = sorted.length === 0 ? -1 : sorted.length % 2 ? sorted[sorted.length >> 1] : (sorted[(sorted.length >> 1) - 1] + sorted[sorted.length >> 1]) / 2;
+    typicalCache.set(replicate, typical);
+    return typical;
+  };
+  function profilesOf(assessor: string, replicate: number, products: readonly string[]): { x: Float64Array; g: Float64Array } | null {
+    const ownValue = (table: (typeof tables)[number], product: string): number | undefined =>
       replicate === 0 ? table.means.get(assessor)?.get(product) : table.replicates?.get(assessor)?.get(product)?.get(replicate);
-    const profiles = (replicate: number, products: readonly string[]): { x: Float64Array; g: Float64Array } | null => {
-      const nP = products.length;
-      const x = new Float64Array(nP * nJ);
-      const g = new Float64Array(nP * nJ);
-      for (let j = 0; j < nJ; j++) {
-        const table = tables[j];
-        let ownSum = 0;
-        let panelSum = 0;
-        for (let i = 0; i < nP; i++) {
-          const p = products[i];
-          const others = (table.count.get(p) ?? 0) - 1;
-          if (others <= 0) return null;
-          const own = ownValue(table, p, replicate) as number;
-          const panel = ((table.sum.get(p) ?? 0) - (table.means.get(assessor)?.get(p) ?? 0)) / others;
-          x[i * nJ + j] = own;
-          g[i * nJ + j] = panel;
-          ownSum += own;
-          panelSum += panel;
-        }
-        const sd = table.attribute.sd;
-        for (let i = 0; i < nP; i++) {
-          x[i * nJ + j] = (x[i * nJ + j] - ownSum / nP) / sd;
-          g[i * nJ + j] = (g[i * nJ + j] - panelSum / nP) / sd;
-        }
+    const nP = products.length;
+    const x = new Float64Array(nP * nJ);
+    const g = new Float64Array(nP * nJ);
+    for (let j = 0; j < nJ; j++) {
+      const table = tables[j];
+      let ownSum = 0;
+      let panelSum = 0;
+      for (let i = 0; i < nP; i++) {
+        const p = products[i];
+        const others = (table.count.get(p) ?? 0) - 1;
+        if (others <= 0) return null;
+        const own = ownValue(table, p) as number;
+        const panel = ((table.sum.get(p) ?? 0) - (table.means.get(assessor)?.get(p) ?? 0)) / others;
+        x[i * nJ + j] = own;
+        g[i * nJ + j] = panel;
+        ownSum += own;
+        panelSum += panel;
       }
-      return { x, g };
-    };
+      const sd = table.attribute.sd;
+      for (let i = 0; i < nP; i++) {
+        x[i * nJ + j] = (x[i * nJ + j] - ownSum / nP) / sd;
+        g[i * nJ + j] = (g[i * nJ + j] - panelSum / nP) / sd;
+      }
+    }
+    return { x, g };
+  }
+  for (const assessor of data.assessors) {
+    const profiles = (replicate: number, products: readonly string[]) => profilesOf(assessor, replicate, products);
     const distance = (a: Float64Array, p: number, b: Float64Array, q: number): number => {
       let sum = 0;
       for (let j = 0; j < nJ; j++) {
@@ -96,11 +113,17 @@ export function detectSwappedCodes(
       }
       return sum;
     };
-    /** Pairs whose own profiles each lie closer to the other product's panel profile. */
-    const swappedPairs = (x: Float64Array, g: Float64Array, nP: number): { p: number; q: number; relativeGain: number }[] => {
+    /**
+     * Pairs whose own profiles each lie closer to the other product's panel profile, and where the
+     * exchange explains the assessor's disagreement: with p and q put back, the correlation of the
+     * assessor's profile with the panel's reaches the panel's typical correlation (median − margin).
+     * An assessor who ranks, flattens or scrambles products disagrees whatever is exchanged.
+     */
+    const swappedPairs = (x: Float64Array, g: Float64Array, nP: number, typicalR: number): { p: number; q: number; relativeGain: number }[] => {
       const out: { p: number; q: number; relativeGain: number }[] = [];
       for (let p = 0; p < nP - 1; p++) {
         for (let q = p + 1; q < nP; q++) {
+          if (profileCorrelation(x, g, nP, nJ, p, q) < typicalR - SWAP_R_MARGIN) continue;
           const dpp = distance(x, p, g, p);
           const dqq = distance(x, q, g, q);
           const dpq = distance(x, p, g, q);
@@ -118,7 +141,7 @@ export function detectSwappedCodes(
     if (sessionProducts.length >= 4) {
       const whole = profiles(0, sessionProducts);
       if (whole) {
-        for (const { p, q, relativeGain } of swappedPairs(whole.x, whole.g, sessionProducts.length)) {
+        for (const { p, q, relativeGain } of swappedPairs(whole.x, whole.g, sessionProducts.length, typicalCorrelation(0))) {
           seen.add(`${sessionProducts[p]}|${sessionProducts[q]}`);
           findings.push({
             assessor,
@@ -155,7 +178,7 @@ export function detectSwappedCodes(
         });
         for (let i = 0; i < products.length; i++) rest[i * nJ + j] = (rest[i * nJ + j] - sum / products.length) / table.attribute.sd;
       }
-      for (const { p, q, relativeGain } of swappedPairs(own.x, own.g, products.length)) {
+      for (const { p, q, relativeGain } of swappedPairs(own.x, own.g, products.length, typicalCorrelation(replicate))) {
         if (seen.has(`${products[p]}|${products[q]}`)) continue;
         const confirmed = distance(own.x, p, rest, q) < distance(own.x, p, rest, p) && distance(own.x, q, rest, p) < distance(own.x, q, rest, q);
         if (!confirmed) continue;
@@ -172,6 +195,30 @@ export function detectSwappedCodes(
     }
   }
   return findings;
+}
+
+/** Minimum correlation, below the panel's median, of an assessor's profile once the pair is put back (CP). */
+const SWAP_R_MARGIN = 0.15;
+
+/**
+ * Correlation over products × attributes of the assessor's centred, scaled profile x with the
+ * panel's g, with rows p and q of x exchanged (p = q = −1: as rated).
+ */
+function profileCorrelation(x: Float64Array, g: Float64Array, nP: number, nJ: number, p: number, q: number): number {
+  let sxy = 0;
+  let sxx = 0;
+  let syy = 0;
+  for (let i = 0; i < nP; i++) {
+    const row = i === p ? q : i === q ? p : i;
+    for (let j = 0; j < nJ; j++) {
+      const xv = x[row * nJ + j];
+      const gv = g[i * nJ + j];
+      sxy += xv * gv;
+      sxx += xv * xv;
+      syy += gv * gv;
+    }
+  }
+  return sxx > 0 && syy > 0 ? sxy / Math.sqrt(sxx * syy) : 0;
 }
 
 function codeOf(data: SessionData, assessor: string, product: string, replicate: number): string | null {
