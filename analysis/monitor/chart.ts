@@ -143,6 +143,8 @@ export interface MonitoredSegment {
   ewmaFirstSignalSession: string | null;
   /** EWMA L used for this segment. */
   ewmaLimitWidth: number;
+  /** The spread the values were standardised with (see Segment). */
+  spreadUsedSd?: number;
 }
 
 /** Full chart of a series (for display and for the flag engine): one entry per segment. */
@@ -175,6 +177,7 @@ export function monitorSeries(series: readonly SeriesPoint[], designs: ChartDesi
       points,
       ewmaFirstSignalSession: ewma.firstSignalIndex === null ? null : points[ewma.firstSignalIndex].session,
       ewmaLimitWidth: L,
+      ...(segment.spreadUsedSd !== undefined ? { spreadUsedSd: segment.spreadUsedSd } : {}),
       cusumFirstSignal:
         signal && centre !== null && spreadSd !== null
           ? {
