@@ -1,9 +1,11 @@
 /**
- * One chart design: every EWMA signal drawn on a level chart (the pages draw assessorLevelCharts)
- * belongs to a drift flag of that assessor, or carries a stated reason: a provisional baseline
- * (the flag engine then reports watch at most, but still reports it), or an older baseline segment
- * that a retraining restart closed (flags judge the current segment). Checked on the demo panel and
- * on simulated panels of both families (classic and broad), through the real fitting pipeline.
+ * One chart design: the level charts the pages draw (assessorLevelCharts, act-level limits) agree
+ * with the drift flags: the first EWMA signal of a chart's current segment is the signal session
+ * of that chart's flag. Stated reasons instead of a flag: a per-attribute chart of an assessor with
+ * an assessor-wide drift or jump flag (summarised there), and older segments closed by a
+ * retraining restart (flags judge the current segment). Checked on the demo panel and on
+ * simulated panels (classic, one drifter, broad) through the real fitting pipeline. Narrowing
+ * the pages' L by 10 % makes the demo case fail.
  */
 import { describe, expect, it } from 'vitest';
 import { assessorLevelCharts, buildFlags, DEFAULT_THRESHOLDS } from '../../../analysis/flags/index.js';
@@ -19,25 +21,27 @@ interface Unexplained {
   session: string;
 }
 
-/** Signal points with neither a flag nor a stated reason. */
+/**
+ * Signal points with neither a flag nor a stated reason. The first signal of a chart's current
+ * segment must be the flag's signal session (the flag engine reports the first act-limit crossing,
+ * so a chart drawn with other limits would disagree here); a per-attribute chart of an assessor
+ * with an assessor-wide drift or jump flag is summarised by that flag (stated reason); older
+ * segments closed by a restart are not judged by the flags (stated reason).
+ */
 function unexplainedSignals(flags: readonly Flag[], charts: ReturnType<typeof assessorLevelCharts>): { unexplained: Unexplained[]; nSignals: number } {
   const unexplained: Unexplained[] = [];
   let nSignals = 0;
   const drift = flags.filter((f) => f.kind === 'drift');
   const check = (assessor: string, attribute: string | null, segments: readonly MonitoredSegment[]) => {
-    segments.forEach((segment, index) => {
-      for (const point of segment.points) {
-        if (!point.ewmaSignal) continue;
-        nSignals++;
-        const current = index === segments.length - 1;
-        const provisional = segment.baseline.status === 'provisional';
-        const flagged = drift.some((f) => f.assessor === assessor && (f.attribute === null || f.attribute === attribute));
-        if (!flagged && current && !provisional) unexplained.push({ assessor, chart: attribute ?? 'summary', session: point.session });
-        // A provisional or closed segment is a stated reason; still, a provisional current
-        // segment's signal is reported (as watch) by the engine.
-        if (!flagged && current && provisional) unexplained.push({ assessor, chart: `${attribute ?? 'summary'} (provisional)`, session: point.session });
-      }
-    });
+    const current = segments[segments.length - 1];
+    const first = current?.points.find((p) => p.ewmaSignal !== null);
+    nSignals += segments.reduce((n, seg) => n + seg.points.filter((p) => p.ewmaSignal !== null).length, 0);
+    if (!first) return;
+    const wide = drift.find((f) => f.assessor === assessor && f.attribute === null);
+    if (attribute !== null && wide) return;
+    const flag = attribute === null ? wide : drift.find((f) => f.assessor === assessor && f.attribute === attribute);
+    const flaggedAt = flag?.evidence.pattern === 'jump' ? flag.evidence.ewmaSignalSession : flag?.evidence.signalSession;
+    if (flaggedAt !== first.session) unexplained.push({ assessor, chart: attribute ?? 'summary', session: `${first.session} (flag: ${String(flaggedAt ?? 'none')})` });
   };
   for (const [assessor, set] of charts) {
     check(assessor, null, set.summary.segments);
