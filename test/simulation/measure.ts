@@ -183,6 +183,29 @@ export function periodFitParagraph(report: SimulationReport, windowSessions: num
   );
 }
 
+/** Each goal with met / missed, from the numbers below it. */
+export function goalsLine(report: SimulationReport): string {
+  const mark = (ok: boolean) => (ok ? 'met' : '**missed**');
+  const worstFound = Math.min(...report.byKind.filter((t) => t.planted > 0).map((t) => t.found / t.planted));
+  const watchPerYear = report.families.map((f) => (f.cleanAssessorYears ? f.cleanWatch / f.cleanAssessorYears : 0));
+  const drifter = report.families.find((f) => f.family === 'one-drifter');
+  // The broad panels share the one-drifter panels' clean model: the fair base rate.
+  const others = report.families.filter((f) => f.family === 'broad');
+  const baseDrift = others.reduce((n, f) => n + f.cleanDrift.length, 0) / Math.max(1e-9, others.reduce((n, f) => n + f.cleanAssessorYears, 0));
+  const drifterDrift = drifter ? drifter.cleanDrift.length / Math.max(1e-9, drifter.cleanAssessorYears) : 0;
+  const swapsPer10 = report.panelYears ? (10 * report.falseSwaps.length) / report.panelYears : 0;
+  const steps = report.stepDelays;
+  return (
+    `Goals: planted faults found ≥ 95 % per kind: ${mark(worstFound >= 0.95)} (lowest ${(100 * worstFound).toFixed(0)} %); ` +
+    `act flags ≤ 1 per 10 clean assessor-years: ${mark(report.cleanActPer10AssessorYears <= 1)} (${report.cleanActPer10AssessorYears.toFixed(2)}); ` +
+    `watch flags ≤ 2 per clean assessor-year in every family: ${mark(watchPerYear.every((w) => w <= 2))} (highest ${Math.max(...watchPerYear).toFixed(2)}); ` +
+    `flags on clean assessors of one-drifter panels within the watch rate: ${mark(!drifter || drifter.cleanWatch / Math.max(1e-9, drifter.cleanAssessorYears) <= 2)}; ` +
+    `no echo (drift flags on clean assessors per clean assessor-year, one-drifter vs broad panels): ${mark(drifterDrift <= baseDrift)} (${drifterDrift.toFixed(2)} vs ${baseDrift.toFixed(2)}); ` +
+    `false swap alerts ≤ 1 per 10 panel-years: ${mark(swapsPer10 <= 1)} (${swapsPer10.toFixed(2)}); ` +
+    `steps flagged at act in their own session: ${mark(steps.length > 0 && steps.every((d) => d.sessionsToAct === 0))} (${steps.filter((d) => d.sessionsToAct === 0).length} of ${steps.length}).`
+  );
+}
+
 /** The results as a markdown section (for bench/README.md). */
 export function reportMarkdown(report: SimulationReport, commit: string): string {
   const lines: string[] = [];
@@ -221,6 +244,8 @@ export function reportMarkdown(report: SimulationReport, commit: string): string
   );
   lines.push('');
   lines.push(`Commit ${commit}; ${report.panels.length} panels, ${report.panelYears.toFixed(1)} panel-years, ${(report.elapsedMs / 1000).toFixed(0)} s.`);
+  lines.push('');
+  lines.push(goalsLine(report));
   lines.push('');
   lines.push('| panel | weeks | assessors | clean | flags |');
   lines.push('| --- | --- | --- | --- | --- |');
