@@ -2,7 +2,7 @@
  * Flag detection on simulated panels: runs the suite of
  * test/simulation/scenarios.ts through the real pipeline and writes the results table into the
  * "## Flag detection (simulation)" section of bench/README.md (replacing it, or appending it).
- * Run: `npx tsx bench/simulation-report.ts [--period-fits]` (a few minutes on two cores; with
+ * Run: `npx tsx bench/simulation-report.ts [--period-fits] [--only=NAME-PREFIX]` (--only: a quick look, do not commit its table) (a few minutes on two cores; with
  * --period-fits several more: the period model with its product:session LRT on one short panel).
  */
 import { execFileSync } from 'node:child_process';
@@ -11,7 +11,7 @@ import { dirname, join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { buildFlags, DEFAULT_THRESHOLDS } from '../analysis/flags/index.js';
 import { measureFlagDetection, periodFitParagraph, reportMarkdown } from '../test/simulation/measure.js';
-import { simulationScenarios } from '../test/simulation/scenarios.js';
+import { broadScenarios, simulationScenarios } from '../test/simulation/scenarios.js';
 
 const SECTION = '## Flag detection (simulation)';
 
@@ -32,9 +32,12 @@ try {
 } catch {
   // not a git checkout: the table says "unknown"
 }
+// The classic suite (issue 4) and the broader panels (robust reference, jumps, swaps): 21.9 panel-years.
+const only = process.argv.find((a) => a.startsWith('--only='))?.slice('--only='.length);
+const scenarios = [...simulationScenarios(), ...broadScenarios()].filter((s) => !only || s.name.startsWith(only));
 const report = await measureFlagDetection(
   (history) => buildFlags(history, DEFAULT_THRESHOLDS),
-  undefined,
+  scenarios,
   (name) => process.stderr.write(`simulating ${name}\n`),
 );
 // The period model is slow (seconds per window and attribute), so its LRT path is measured on one
@@ -52,5 +55,5 @@ if (process.argv.includes('--period-fits')) {
   markdown = `${markdown.trimEnd()}\n\n${periodFitParagraph(withPeriods, windowSessions)}\n`;
 }
 const readme = existsSync(readmePath) ? readFileSync(readmePath, 'utf8') : '# Benchmarks\n';
-writeFileSync(readmePath, replaceSection(readme, markdown));
+if (!only) writeFileSync(readmePath, replaceSection(readme, markdown));
 console.log(markdown);

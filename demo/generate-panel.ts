@@ -44,6 +44,8 @@ export interface FaultSpec {
   size?: number;
   /** swapped-codes only: the one replicate whose ratings were exchanged (default: all). */
   replicate?: number | null;
+  /** drift only: 'linear' (size per session, default) or 'step' (size added from fromSession on). */
+  shape?: 'linear' | 'step';
 }
 
 /** One cell a data-quality fault changed, as written to the file. */
@@ -76,6 +78,8 @@ export interface PlantedFault {
   replicate: number | null;
   /** Data-quality kinds: the cells changed. Model kinds: empty. */
   cells: PlantedCell[];
+  /** drift only: linear (size per session) or a step of size. */
+  shape?: 'linear' | 'step';
   /** One plain sentence saying what was planted. */
   description: string;
 }
@@ -98,6 +102,30 @@ export interface PanelScenarioOptions {
   /** Probability that an assessor misses a whole session (default 0.02). */
   absenceRate?: number;
   panelName?: string;
+  /** Spreads of the clean model to use instead of CLEAN_MODEL's (draw order unchanged). */
+  model?: Partial<CleanModel>;
+  /** Broader panel structure; all off by default (the panels without it are unchanged). */
+  structure?: PanelStructure;
+}
+
+export type CleanModel = { -readonly [K in keyof typeof CLEAN_MODEL]: number };
+
+/** Structure seen on real panels; every random draw it needs comes from its own stream. */
+export interface PanelStructure {
+  /** Ratings written as whole numbers (a 0–10 scale with integer steps). */
+  integerScale?: boolean;
+  /** Share of single ratings missing at random (e.g. 0.03). */
+  missingRatingRate?: number;
+  /** Whole samples (assessor × product × replicate) missing, per panel (e.g. 3). */
+  nMissingSamples?: number;
+  /** SD of an assessor × session term shared by all attributes (a "day" effect), scale points. */
+  assessorDaySd?: number;
+  /** Assessors present only from / until a session (0-based, inclusive): joiners and leavers. */
+  roster?: { assessor: string; fromSession?: number; toSession?: number }[];
+  /** 0-based sessions with only `holidayAssessors` assessors present (short holiday sessions). */
+  holidaySessions?: number[];
+  /** Assessors present in a holiday session (default 6). */
+  holidayAssessors?: number;
 }
 
 export interface GeneratedAttribute {
@@ -149,6 +177,8 @@ export interface GeneratedPanel {
   /** The samples as written to a wide file (same content as rawRows). */
   rawSamples: SampleRow[];
   truth: PlantedFault[];
+  /** Whole samples left out by `structure.nMissingSamples` (not faults; a missing-cells flag there is right). */
+  droppedSamples: { session: string; assessor: string; product: string; replicate: number }[];
 }
 
 /** Default magnitudes (scale points on the 0–10 scale unless said otherwise). */
@@ -236,7 +266,7 @@ interface Cell {
   value: number;
 }
 
-function validateOptions(options: PanelScenarioOptions): Required<Omit<PanelScenarioOptions, 'faults'>> {
+function validateOptions(options: PanelScenarioOptions): Required<Omit<PanelScenarioOptions, 'faults' | 'model' | 'structure'>> {
   const nProductsPerSession = options.nProductsPerSession ?? 5;
   const nReplicates = options.nReplicates ?? 2;
   const nAttributes = options.nAttributes ?? SCENARIO_ATTRIBUTES.length;
@@ -314,22 +344,24 @@ export function generatePanel(options: PanelScenarioOptions): GeneratedPanel {
   const attributeMeans = attributeNames.map((_, j) => products.reduce((s, p) => s + p.profile[j], 0) / products.length);
   const scaleRange = scale.max - scale.min;
 
+  const CLEAN: CleanModel = { ...CLEAN_MODEL, ...options.model };
+  const structure = options.structure ?? {};
   // ---- base randomness, fixed order ----
   const rng = createRandom(streamSeed(opts.seed, 0));
   const params: AssessorParams[] = assessors.map(() => {
-    const general = CLEAN_MODEL.assessorLevelSd * rng.normal();
-    const maxLevel = CLEAN_MODEL.maxCleanLevelFraction * scaleRange;
-    const level = attributeNames.map(() => clip(general + CLEAN_MODEL.assessorAttributeLevelSd * rng.normal(), -maxLevel, maxLevel));
-    const generalScaling = 0.7 * CLEAN_MODEL.scalingLogSd * rng.normal();
+    const general = CLEAN.assessorLevelSd * rng.normal();
+    const maxLevel = CLEAN.maxCleanLevelFraction * scaleRange;
+    const level = attributeNames.map(() => clip(general + CLEAN.assessorAttributeLevelSd * rng.normal(), -maxLevel, maxLevel));
+    const generalScaling = 0.7 * CLEAN.scalingLogSd * rng.normal();
     const scaling = attributeNames.map(() =>
-      clip(Math.exp(generalScaling + 0.7 * CLEAN_MODEL.scalingLogSd * rng.normal()), CLEAN_MODEL.minCleanScaling, CLEAN_MODEL.maxCleanScaling),
+      clip(Math.exp(generalScaling + 0.7 * CLEAN.scalingLogSd * rng.normal()), CLEAN.minCleanScaling, CLEAN.maxCleanScaling),
     );
     const noiseMultiplier = clip(
-      Math.exp(CLEAN_MODEL.noiseMultiplierLogSd * rng.normal()),
-      CLEAN_MODEL.minNoiseMultiplier,
-      CLEAN_MODEL.maxNoiseMultiplier,
+      Math.exp(CLEAN.noiseMultiplierLogSd * rng.normal()),
+      CLEAN.minNoiseMultiplier,
+      CLEAN.maxNoiseMultiplier,
     );
-    const persistentDisagreement = products.map(() => attributeNames.map(() => CLEAN_MODEL.persistentDisagreementSd * rng.normal()));
+    const persistentDisagreement = products.map(() => attributeNames.map(() => CLEAN.persistentDisagreementSd * rng.normal()));
     return { level, scaling, noiseMultiplier, persistentDisagreement };
   });
 
@@ -346,13 +378,13 @@ export function generatePanel(options: PanelScenarioOptions): GeneratedPanel {
   const absent: boolean[][] = [];
   for (let s = 0; s < nWeeks; s++) {
     const served = servedProducts(s, opts.nProductsPerSession);
-    sessionShift.push(attributeNames.map(() => CLEAN_MODEL.sessionShiftSd * rng.normal()));
-    productBatch.push(products.map(() => attributeNames.map(() => CLEAN_MODEL.productBatchSd * rng.normal())));
-    assessorSession.push(assessors.map(() => attributeNames.map(() => CLEAN_MODEL.assessorSessionSd * rng.normal())));
-    sessionDisagreement.push(assessors.map(() => products.map(() => attributeNames.map(() => CLEAN_MODEL.sessionDisagreementSd * rng.normal()))));
+    sessionShift.push(attributeNames.map(() => CLEAN.sessionShiftSd * rng.normal()));
+    productBatch.push(products.map(() => attributeNames.map(() => CLEAN.productBatchSd * rng.normal())));
+    assessorSession.push(assessors.map(() => attributeNames.map(() => CLEAN.assessorSessionSd * rng.normal())));
+    sessionDisagreement.push(assessors.map(() => products.map(() => attributeNames.map(() => CLEAN.sessionDisagreementSd * rng.normal()))));
     replicateNoise.push(
       assessors.map(() =>
-        products.map(() => Array.from({ length: nReplicates }, () => attributeNames.map(() => CLEAN_MODEL.replicateSd * rng.normal()))),
+        products.map(() => Array.from({ length: nReplicates }, () => attributeNames.map(() => CLEAN.replicateSd * rng.normal()))),
       ),
     );
     absent.push(assessors.map(() => rng.uniform() < opts.absenceRate));
@@ -369,6 +401,21 @@ export function generatePanel(options: PanelScenarioOptions): GeneratedPanel {
     }
     sampleCodes.push(codes);
     sessions.push({ label: sessionLabel(s, nWeeks), date: addDays(opts.startDate, 7 * s), products: served, assessors: [] });
+  }
+
+  // ---- panel structure (own stream, so panels without it are unchanged) ----
+  const srng = createRandom(streamSeed(opts.seed, 2));
+  const assessorDay = sessions.map(() => assessors.map(() => (structure.assessorDaySd ?? 0) * srng.normal()));
+  for (const entry of structure.roster ?? []) {
+    const a = assessorIndex.get(entry.assessor);
+    if (a === undefined) throw new Error(`The roster names assessor ${entry.assessor}, who is not on the panel.`);
+    for (let s = 0; s < nWeeks; s++) if (s < (entry.fromSession ?? 0) || s > (entry.toSession ?? nWeeks - 1)) absent[s][a] = true;
+  }
+  for (const s of structure.holidaySessions ?? []) {
+    if (!(s >= 0 && s < nWeeks)) throw new Error(`Holiday session ${s + 1} is outside 1..${nWeeks}.`);
+    const present = assessors.map((_, a) => a).filter((a) => !absent[s][a]);
+    const keep = new Set(pickDistinct(srng, present, structure.holidayAssessors ?? 6));
+    for (const a of present) if (!keep.has(a)) absent[s][a] = true;
   }
 
   // ---- resolve faults (own stream) ----
@@ -444,7 +491,7 @@ export function generatePanel(options: PanelScenarioOptions): GeneratedPanel {
           level -= fault.size!;
           break;
         case 'drift':
-          level += fault.size! * (s - fault.fromSession + 1);
+          level += fault.shape === 'step' ? fault.size! : fault.size! * (s - fault.fromSession + 1);
           break;
         case 'inconsistent':
           noise *= fault.size!;
@@ -471,8 +518,9 @@ export function generatePanel(options: PanelScenarioOptions): GeneratedPanel {
       assessorSession[s][a][j] +
       scaling * (trueProfile - attributeMeans[j]) +
       disagreement +
+      assessorDay[s][a] +
       noise;
-    return { latent, value: clip(round1(latent), scale.min, scale.max) };
+    return { latent, value: clip(structure.integerScale ? Math.round(latent) : round1(latent), scale.min, scale.max) };
   };
 
   // ---- clean samples (with model faults) ----
@@ -588,8 +636,20 @@ export function generatePanel(options: PanelScenarioOptions): GeneratedPanel {
     }
   }
 
+  // ---- missing at random (structure stream): never in a sample a planted fault touched ----
+  const touched = new Set(truth.flatMap((f) => f.cells.map((c) => `${c.session}|${c.assessor}|${c.product}|${c.replicate}`)));
+  const untouched = samples.filter((row) => !touched.has(`${row.session}|${row.assessor}|${row.product}|${row.replicate}`));
+  const missingRate = structure.missingRatingRate ?? 0;
+  if (missingRate > 0) {
+    for (const row of untouched) row.values.forEach((v, j) => {
+      if (v !== null && srng.uniform() < missingRate) row.values[j] = null;
+    });
+  }
+  const droppedSamples = new Set(pickDistinct(srng, untouched, structure.nMissingSamples ?? 0));
+
   const rawSamples: SampleRow[] = [];
   for (const row of samples) {
+    if (droppedSamples.has(row)) continue;
     rawSamples.push(row);
     for (const d of duplicates) if (d.after === row) rawSamples.push(d.copy);
   }
@@ -625,10 +685,11 @@ export function generatePanel(options: PanelScenarioOptions): GeneratedPanel {
     products: products.map(({ code, name, role }) => ({ code, name, role })),
     assessors,
     sessions,
-    ratings: toRatings(samples, true),
+    ratings: toRatings(samples.filter((row) => !droppedSamples.has(row)), true),
     rawRows: toRatings(rawSamples, false),
     rawSamples,
     truth,
+    droppedSamples: samples.filter((row) => droppedSamples.has(row)).map(({ session, assessor, product, replicate }) => ({ session, assessor, product, replicate })),
   };
 }
 
@@ -755,6 +816,7 @@ function resolveFault(spec: FaultSpec, ctx: ResolveContext): PlantedFault {
     replicate,
     cells: [],
     description: '',
+    ...(kind === 'drift' && spec.shape === 'step' ? { shape: 'step' as const } : {}),
   };
   fault.description = describeFault(fault);
   if (!PERSISTENT_ASSESSOR_KINDS.has(kind) && !ONE_SESSION_KINDS.has(kind) && kind !== 'unstable-product') {
@@ -772,7 +834,9 @@ function describeFault(f: PlantedFault): string {
     case 'harsh':
       return `${f.assessor} rates ${f.size} points lower than the panel on ${on} ${from}.`;
     case 'drift':
-      return `${f.assessor} drifts upward by ${f.size} points per session on ${on} ${from}.`;
+      return f.shape === 'step'
+        ? `${f.assessor}'s ratings step ${f.size! >= 0 ? 'up' : 'down'} by ${Math.abs(f.size!)} points on ${on} ${from}.`
+        : `${f.assessor} drifts upward by ${f.size} points per session on ${on} ${from}.`;
     case 'inconsistent':
       return `${f.assessor}'s replicate noise is ${f.size} times the usual on ${on} ${from}.`;
     case 'non-discriminating':

@@ -7,42 +7,19 @@
  * (methods §3.4). Act signals are downgraded to watch while the baseline is provisional (§6.3).
  */
 import type { Flag, FlagSeverity } from '../../domain/flags.js';
-import { standardiseSegments, targetArl0ForChartSet, type BaselineSource, type SegmentOptions, type SeriesPoint } from '../monitor/chart.js';
+import { monitorSeries, standardiseSegments, type BaselineSource, type MonitoredSegment, type SegmentOptions, type SeriesPoint } from '../monitor/chart.js';
+import { actChartDesigns, chartLimitWidth, chartSizing, CUSUM_SIZING_STATES, type ChartSizing } from '../monitor/chart-design.js';
 import { cusumChart, cusumIntervalForArl0 } from '../monitor/cusum.js';
 import { ewmaChart } from '../monitor/ewma.js';
-import { ewmaLimitForUnconditionalArl0 } from '../monitor/unconditional.js';
 import { individualsChart } from '../monitor/shewhart.js';
-import { buildAssessorSeries, median, referencePeriodFor, restartSessionsFor, summarySeries } from '../monitor/series.js';
-import type { FlagContext } from './context.js';
+import { buildAssessorSeries, median, referencePeriodFor, restartSessionsFor, summarySeries, type ConsensusExclusion } from '../monitor/series.js';
+import { detectJump, type Jump } from '../monitor/jump.js';
+import type { PanelHistory } from '../monitor/series.js';
+import { buildContext, type FlagContext } from './context.js';
+import type { PanelThresholds } from './settings.js';
 import { points, sessionsText } from './format.js';
 
-/** States of the CUSUM chain used to size the change-point CUSUM inside buildFlags (fast; ARL0 within ~2 % of 400 states). */
-const SIZING_STATES = 61;
-
-/** Targets for one chart set: ARL0 = K × sessions per year / tolerated false alarms per year (methods §3.4). */
-export interface ChartSizing {
-  lambda: number;
-  k: number;
-  actTargetArl0: number;
-  watchTargetArl0: number;
-  nCharts: number;
-}
-
-/** Target ARL0 rounded to two significant digits so that the memoised sizing is reused across panels. */
-function roundTarget(arl0: number): number {
-  const magnitude = 10 ** (Math.floor(Math.log10(arl0)) - 1);
-  return Math.round(arl0 / magnitude) * magnitude;
-}
-
-export function chartSizing(nCharts: number, sessionsPerYear: number, actFalseAlarmsPerYear: number, watchFalseAlarmsPerYear: number, lambda: number, k: number): ChartSizing {
-  return {
-    lambda,
-    k,
-    nCharts,
-    actTargetArl0: roundTarget(targetArl0ForChartSet(nCharts, sessionsPerYear, actFalseAlarmsPerYear)),
-    watchTargetArl0: roundTarget(targetArl0ForChartSet(nCharts, sessionsPerYear, watchFalseAlarmsPerYear)),
-  };
-}
+export { chartSizing, type ChartSizing };
 
 export interface ChartSignal {
   severity: FlagSeverity;
@@ -96,16 +73,16 @@ export function evaluateChart(
   minimumActShift = 0,
   spreadFloorSd: number | null = null,
 ): ChartSignal | null {
-  const segments = standardiseSegments(series, options);
+  const segments = standardiseSegments(series, { ...options, spreadFloorSd });
   const segment = segments[segments.length - 1];
-  if (!segment || segment.points.length === 0 || segment.baseline.centre === null || segment.baseline.spreadSd === null) return null;
+  if (!segment || segment.points.length === 0 || segment.baseline.centre === null || segment.spreadUsedSd === undefined) return null;
   const centre = segment.baseline.centre;
-  const spreadSd = Math.max(segment.baseline.spreadSd, spreadFloorSd ?? 0);
-  const z = segment.points.map((p) => (p.value - centre) / spreadSd);
+  const spreadSd = segment.spreadUsedSd;
+  const z = segment.points.map((p) => p.z);
   const nReference = segment.baseline.nReference;
-  const floorRatio = spreadFloorSd !== null && spreadFloorSd > 0 ? 1 : 0;
+  const floorActive = spreadFloorSd !== null && spreadFloorSd > 0;
   const ewma = ewmaChart(z, { lambda: sizing.lambda, L: 1 });
-  const changeH = cusumIntervalForArl0(sizing.k, sizing.watchTargetArl0, SIZING_STATES);
+  const changeH = cusumIntervalForArl0(sizing.k, sizing.watchTargetArl0, CUSUM_SIZING_STATES);
   const cusum = cusumChart(z, { k: sizing.k, h: changeH });
   const provisional = segment.baseline.status === 'provisional';
   const recent = segment.points.slice(-4);
@@ -126,7 +103,7 @@ export function evaluateChart(
   };
   for (const level of ['act', 'watch'] as const) {
     const targetArl0 = level === 'act' ? sizing.actTargetArl0 : sizing.watchTargetArl0;
-    const limitWidth = ewmaLimitForUnconditionalArl0(sizing.lambda, targetArl0, nReference, floorRatio);
+    const limitWidth = chartLimitWidth(sizing.lambda, targetArl0, nReference, floorActive);
     const t = ewma.points.findIndex((e) => Math.abs(e.statistic) > limitWidth * e.limit);
     if (t < 0) continue;
     const e = ewma.points[t];
@@ -176,15 +153,37 @@ export function pooledSpread(spreads: readonly (number | null)[]): number | null
   return defined.length >= 3 ? median(defined) : null;
 }
 
+/**
+ * Drift and jump flags. The level series are against the median of the other assessors; an
+ * assessor with an act-level change is then left out of that consensus from the change on and
+ * the charts are evaluated once more (one iteration, docs/methods.md "Panel reference").
+ */
 export function driftFlags(ctx: FlagContext): Flag[] {
+  const first = driftPass(ctx, []);
+  const exclusions = actExclusions(first);
+  return exclusions.length === 0 ? first : driftPass(ctx, exclusions);
+}
+
+/** The level charts of every assessor as the flag engine evaluates them. */
+interface LevelChartSet {
+  summarySizing: ChartSizing;
+  attributeSizing: ChartSizing;
+  byAssessor: Map<string, { attribute: string; points: SeriesPoint[] }[]>;
+  summaries: Map<string, SeriesPoint[]>;
+  summaryFloor: number | null;
+  spreadsByAttribute: Map<string, (number | null)[]>;
+  optionsFor: (assessor: string) => SegmentOptions;
+}
+
+function prepareLevelCharts(ctx: FlagContext, exclusions: readonly ConsensusExclusion[]): LevelChartSet | null {
   const c = ctx.settings.charts;
   const nAssessors = ctx.assessors.length;
   const nAttributes = ctx.history.attributes.length;
-  if (nAssessors === 0 || nAttributes === 0) return [];
+  if (nAssessors === 0 || nAttributes === 0) return null;
   const summarySizing = chartSizing(nAssessors, c.sessionsPerYear, c.actFalseAlarmsPerYear, c.watchFalseAlarmsPerYear, c.ewmaLambda, c.cusumK);
   const attributeSizing = chartSizing(nAssessors * nAttributes, c.sessionsPerYear, c.actFalseAlarmsPerYear, c.watchFalseAlarmsPerYear, c.ewmaLambda, c.cusumK);
-  const levelSeries = buildAssessorSeries(ctx.history, ['level']);
-  const byAssessor = new Map<string, typeof levelSeries>();
+  const levelSeries = buildAssessorSeries(ctx.history, ['level'], { levelExclusions: exclusions });
+  const byAssessor = new Map<string, { attribute: string; points: SeriesPoint[] }[]>();
   for (const series of levelSeries) byAssessor.set(series.assessor, [...(byAssessor.get(series.assessor) ?? []), series]);
   const optionsFor = (assessor: string): SegmentOptions => ({
     baseline: { fullValues: c.baselineSessions, minimumValues: c.minBaselineSessions },
@@ -206,6 +205,65 @@ export function driftFlags(ctx: FlagContext): Flag[] {
     );
   }
   const summaryFloor = pooledSpread([...summaries].map(([assessor, points]) => currentSpread(points, optionsFor(assessor))));
+  return { summarySizing, attributeSizing, byAssessor, summaries, summaryFloor, spreadsByAttribute, optionsFor };
+}
+
+/** Exclusions for the second pass: assessors with an act-level level change, from its session on. */
+function actExclusions(flags: readonly Flag[]): ConsensusExclusion[] {
+  return flags.filter((f) => f.severity === 'act' && f.assessor !== null).map((f) => ({ assessor: f.assessor as string, attribute: f.attribute, fromSession: f.firstSession }));
+}
+
+export interface LevelChart {
+  series: SeriesPoint[];
+  segments: MonitoredSegment[];
+}
+
+/**
+ * The level charts of every assessor exactly as the drift and jump flags evaluate them (the same
+ * consensus with the same exclusions, spread floors and limit widths), drawn at the act level:
+ * the pages draw these, so every act-limit crossing on a page is one the flag engine saw.
+ */
+export function assessorLevelCharts(history: PanelHistory, settings: PanelThresholds): Map<string, { summary: LevelChart; attributes: Map<string, LevelChart> }> {
+  // A page asks once per assessor; the charts of the whole panel are computed once per history.
+  const cached = levelChartCache.get(history);
+  if (cached && cached.settings === settings) return cached.charts;
+  const charts = computeLevelCharts(history, settings);
+  levelChartCache.set(history, { settings, charts });
+  return charts;
+}
+
+const levelChartCache = new WeakMap<PanelHistory, { settings: PanelThresholds; charts: Map<string, { summary: LevelChart; attributes: Map<string, LevelChart> }> }>();
+
+function computeLevelCharts(history: PanelHistory, settings: PanelThresholds): Map<string, { summary: LevelChart; attributes: Map<string, LevelChart> }> {
+  const ctx = buildContext(history, settings);
+  const set = prepareLevelCharts(ctx, actExclusions(driftPass(ctx, [])));
+  const out = new Map<string, { summary: LevelChart; attributes: Map<string, LevelChart> }>();
+  if (!set) return out;
+  const rules = settings.charts.westernElectricWatch ? ([1, 2, 3, 4] as const) : ([1] as const);
+  const summaryDesigns = actChartDesigns(set.summarySizing, settings.charts.baselineSessions, rules);
+  const attributeDesigns = actChartDesigns(set.attributeSizing, settings.charts.baselineSessions, rules);
+  for (const [assessor, seriesList] of set.byAssessor) {
+    const options = set.optionsFor(assessor);
+    const summary = set.summaries.get(assessor) as SeriesPoint[];
+    out.set(assessor, {
+      summary: { series: summary, segments: monitorSeries(summary, summaryDesigns, { ...options, spreadFloorSd: set.summaryFloor }) },
+      attributes: new Map(
+        seriesList.map((s) => [
+          s.attribute,
+          { series: s.points, segments: monitorSeries(s.points, attributeDesigns, { ...options, spreadFloorSd: pooledSpread(set.spreadsByAttribute.get(s.attribute) ?? []) }) },
+        ]),
+      ),
+    });
+  }
+  return out;
+}
+
+function driftPass(ctx: FlagContext, exclusions: readonly ConsensusExclusion[]): Flag[] {
+  const set = prepareLevelCharts(ctx, exclusions);
+  if (!set) return [];
+  const c = ctx.settings.charts;
+  const nAssessors = ctx.assessors.length;
+  const { summarySizing, attributeSizing, byAssessor, summaries, summaryFloor, spreadsByAttribute, optionsFor } = set;
   const out: Flag[] = [];
   for (const [assessor, seriesList] of byAssessor) {
     const options = optionsFor(assessor);
@@ -217,6 +275,15 @@ export function driftFlags(ctx: FlagContext): Flag[] {
       .filter((entry): entry is { attribute: string; signal: ChartSignal } => entry.signal !== null);
     const summary = summaries.get(assessor) as SeriesPoint[];
     const summarySignal = evaluateChart(summary, options, summarySizing, c.westernElectricWatch, 0, summaryFloor);
+    const jump = detectJump(
+      seriesList.map((s) => ({ attribute: s.attribute, points: s.points, spreadFloorSd: pooledSpread(spreadsByAttribute.get(s.attribute) ?? []) })),
+      options,
+      { nCharts: nAssessors, sessionsPerYear: c.sessionsPerYear, falseAlarmsPerYear: c.actFalseAlarmsPerYear },
+    );
+    if (jump) {
+      out.push(jumpFlag(ctx, assessor, jump, summarySignal));
+      continue;
+    }
     if (summarySignal) {
       const matching = attributeSignals.filter((a) => a.signal.direction === summarySignal.direction);
       const shifts = seriesList.map((s) => recentLevelShift(s.points, options)).filter((v): v is number => v !== null);
@@ -304,4 +371,42 @@ export function thresholdText(signal: ChartSignal, sizing: ChartSizing, setName:
   const provisional = signal.baseline.provisional ? '; baseline provisional, so watch at most' : '';
   const guard = signal.severity === 'act' ? '; act also needs a recent shift of at least the lenient/harsh watch offset' : '';
   return `EWMA (λ = ${sizing.lambda}) limit L = ${signal.limitWidth.toFixed(3)}, sized for an in-control ARL of ${signal.targetArl0} sessions averaged over the baseline's estimation error, across ${sizing.nCharts} ${setName}${provisional}${guard}`;
+}
+
+/**
+ * A one-session jump on most attributes, worded as a jump with its size. Act unless the baseline is
+ * provisional or the median jump is below the lenient/harsh watch offset; it replaces the slow-drift
+ * wording, which would average the jump over four sessions and understate it.
+ */
+function jumpFlag(ctx: FlagContext, assessor: string, jump: Jump, ewma: ChartSignal | null): Flag {
+  const guard = Math.min(...jump.attributes.map((a) => minimumShift(ctx, a.attribute)));
+  const severity: FlagSeverity = !jump.provisional && Math.abs(jump.medianJumpPoints) >= guard ? 'act' : 'watch';
+  const verb = jump.direction === 'up' ? 'rose' : 'fell';
+  return {
+    kind: 'drift',
+    assessor,
+    product: null,
+    attribute: null,
+    firstSession: jump.session,
+    severity,
+    evidence: {
+      test: 'Individuals rule on each attribute\'s level against the other assessors: the session\'s value minus the mean of the previous (up to) four, in units of the attribute\'s session-to-session SD; counted across attributes',
+      statistic: jump.medianJumpSd,
+      pValue: null,
+      qValue: null,
+      n: jump.nAttributes,
+      threshold: `a jump of at least ${jump.thresholdSd.toFixed(2)} SDs in the same direction on at least ${jump.minAttributes} of ${jump.nAttributes} attributes (sized for ${jump.nCharts} assessors at ${jump.falseAlarmsPerYear} false alarms per year; chance per session ${jump.chancePerSession.toExponential(1)})${jump.provisional ? '; baseline provisional, so watch at most' : ''}${severity === 'act' ? '; act also needs a median jump of at least the lenient/harsh watch offset' : ''}`,
+      pattern: 'jump',
+      signalSession: jump.session,
+      lastSession: ctx.history.sessions[ctx.history.sessions.length - 1]?.label,
+      direction: jump.direction,
+      jumpPoints: jump.medianJumpPoints,
+      attributesJumped: jump.attributes.map((a) => a.attribute),
+      nAttributesJumped: jump.attributes.length,
+      attributes: jump.attributes,
+      earlierJumpSessions: jump.earlierSessions,
+      ...(ewma ? { ewmaSignalSession: ewma.signalSession, ewmaSeverity: ewma.severity, limitWidth: ewma.limitWidth, baseline: ewma.baseline } : {}),
+    },
+    message: `In ${jump.session}, ${assessor}'s ratings ${verb} by about ${points(Math.abs(jump.medianJumpPoints))} points on ${jump.attributes.length} of ${jump.nAttributes} attributes compared with their previous sessions (a jump of ${points(Math.abs(jump.medianJumpSd))} times their usual session-to-session spread).`,
+  };
 }

@@ -80,26 +80,63 @@ function flag(kind: FlagKind, severity: FlagSeverity, pair: PooledPair, evidence
   return { kind, assessor: pair.assessor, product: null, attribute: pair.attribute, firstSession: pair.sessions[0], severity, evidence, message };
 }
 
+/**
+ * Natural spread of assessors' level offsets on one attribute: 1.4826 × MAD of the pooled offsets
+ * over assessors (a robust SD, Huber 1981; Iglewicz & Hoaglin 1993), null with fewer than
+ * NATURAL_SPREAD_MIN_ASSESSORS assessors. Trained assessors keep small personal offsets per
+ * attribute that are not faults; an offset is flagged only when it also stands out from them.
+ */
+const NATURAL_SPREAD_MIN_ASSESSORS = 6;
+/**
+ * Robust z of an offset among the panel's offsets needed for act (3.5, the modified z-score
+ * cut-off of Iglewicz & Hoaglin 1993) and watch (2, CP).
+ */
+const NATURAL_ACT_Z = 3.5;
+const NATURAL_WATCH_Z = 2;
+
+function naturalOffsetSpread(pairs: readonly PooledPair[]): Map<string, { centre: number; sd: number }> {
+  const byAttribute = new Map<string, number[]>();
+  for (const p of pairs) byAttribute.set(p.attribute, [...(byAttribute.get(p.attribute) ?? []), p.test.mean]);
+  const out = new Map<string, { centre: number; sd: number }>();
+  for (const [attribute, means] of byAttribute) {
+    if (means.length < NATURAL_SPREAD_MIN_ASSESSORS) continue;
+    const centre = median(means);
+    out.set(attribute, { centre, sd: 1.4826 * median(means.map((m) => Math.abs(m - centre))) });
+  }
+  return out;
+}
+
 /** Lenient (pooled offset above the rest of the panel) and harsh (below). */
 export function levelFlags(ctx: FlagContext): Flag[] {
   const t = ctx.settings;
   const out: Flag[] = [];
-  for (const pair of pooledPairs(ctx, { value: (row) => row.offset, alternative: 'two-sided' })) {
+  const pairs = pooledPairs(ctx, { value: (row) => row.offset, alternative: 'two-sided' });
+  const natural = naturalOffsetSpread(pairs);
+  for (const pair of pairs) {
     const range = ctx.scaleRange.get(pair.attribute) ?? 1;
     const size = Math.abs(pair.test.mean);
+    const spread = natural.get(pair.attribute) ?? null;
+    const robustZ = spread && spread.sd > 0 ? Math.abs(pair.test.mean - spread.centre) / spread.sd : Infinity;
     const severity: FlagSeverity | null =
-      pair.qValue < t.fdrLevel && size >= t.level.actFraction * range ? 'act' : pair.test.pValue < t.level.watchPValue && size >= t.level.watchFraction * range ? 'watch' : null;
+      pair.qValue < t.fdrLevel && size >= t.level.actFraction * range && robustZ >= NATURAL_ACT_Z
+        ? 'act'
+        : pair.test.pValue < t.level.watchPValue && size >= t.level.watchFraction * range && robustZ >= NATURAL_WATCH_Z
+          ? 'watch'
+          : null;
     if (!severity) continue;
     const kind = pair.test.mean > 0 ? 'lenient' : 'harsh';
+    const naturalText = spread ? ` and at least ${severity === 'act' ? NATURAL_ACT_Z : NATURAL_WATCH_Z} robust SDs (${points(spread.sd, 2)} points) from the panel's median offset` : '';
     const threshold =
       severity === 'act'
-        ? `BH q < ${t.fdrLevel} and |offset| ≥ ${t.level.actFraction * 100}% of the scale (${points(t.level.actFraction * range, 2)} points)`
-        : `raw p < ${t.level.watchPValue} and |offset| ≥ ${t.level.watchFraction * 100}% of the scale (${points(t.level.watchFraction * range, 2)} points)`;
+        ? `BH q < ${t.fdrLevel} and |offset| ≥ ${t.level.actFraction * 100}% of the scale (${points(t.level.actFraction * range, 2)} points)${naturalText}`
+        : `raw p < ${t.level.watchPValue} and |offset| ≥ ${t.level.watchFraction * 100}% of the scale (${points(t.level.watchFraction * range, 2)} points)${naturalText}`;
     const evidence = baseEvidence(pair, 'one-sample t test of per-session level offsets (assessor minus rest of panel)', threshold, {
       meanOffset: pair.test.mean,
       ciLow: pair.test.ciLow,
       ciHigh: pair.test.ciHigh,
       relativeOffsetPercent: (pair.test.mean / range) * 100,
+      naturalOffsetSd: spread?.sd ?? null,
+      robustZ: Number.isFinite(robustZ) ? robustZ : null,
       perSessionOffsets: pair.values,
     });
     const message = `Across the last ${sessionsText(pair.test.n)}, ${pair.assessor}'s ${pair.attribute} ratings averaged ${points(size)} points ${pair.test.mean > 0 ? 'above' : 'below'} the rest of the panel (95% CI ${points(pair.test.ciLow)} to ${points(pair.test.ciHigh)}).`;

@@ -185,7 +185,7 @@ function sessionFlags(
         products: [swap.productA, swap.productB],
         codes: swap.codes,
       },
-      message: `In session ${session}, ${swap.assessor}'s ratings of ${swap.productA} and ${swap.productB}${codes}, replicate ${swap.replicate}, each matched the other product's panel profile better than their own, so the two samples may have been entered under each other's code.`,
+      message: `In session ${session}, ${swap.assessor}'s ratings of ${swap.productA} and ${swap.productB}${codes}, ${swap.replicate === null ? 'averaged over the replicates' : `replicate ${swap.replicate}`}, each matched the other product's panel profile better than their own, so the two samples may have been entered under each other's code.`,
     });
   }
 

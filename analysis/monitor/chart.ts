@@ -27,6 +27,11 @@ export interface SegmentOptions {
    * that comes after them). Other segments use their first `fullValues` values.
    */
   referenceSessions?: ReadonlySet<string> | null;
+  /**
+   * Panel-pooled spread of comparable series: values are standardised with max(own σ̂, floor),
+   * which removes the short-σ̂ tail that otherwise dominates false alarms (docs/methods.md).
+   */
+  spreadFloorSd?: number | null;
 }
 
 export type BaselineSource = 'first-values' | 'reference-period';
@@ -49,6 +54,8 @@ export interface Segment {
   points: StandardisedPoint[];
   /** Non-missing points that were not standardised (no limits, or before the reference period). */
   unchartedPoints: SeriesPoint[];
+  /** The spread the values were standardised with: max(baseline σ̂, spreadFloorSd); absent without limits. */
+  spreadUsedSd?: number;
 }
 
 /** Splits at restart events, estimates each segment's baseline and standardises its values. */
@@ -89,11 +96,13 @@ export function standardiseSegments(series: readonly SeriesPoint[], options: Seg
     if (baseline.centre === null || baseline.spreadSd === null) {
       return { startSession: piece[0].session, baseline, baselineSource, points: [], unchartedPoints: present };
     }
-    const { centre, spreadSd } = baseline;
+    const { centre } = baseline;
+    const spreadSd = Math.max(baseline.spreadSd, options.spreadFloorSd ?? 0);
     return {
       startSession: piece[0].session,
       baseline,
       baselineSource,
+      spreadUsedSd: spreadSd,
       points: charted.map((p) => ({ session: p.session, date: p.date, value: p.value, z: (p.value - centre) / spreadSd })),
       unchartedPoints: before,
     };
@@ -104,6 +113,11 @@ export interface ChartDesigns {
   ewma: EwmaDesign;
   cusum: CusumDesign;
   rules: readonly WesternElectricRule[];
+  /**
+   * EWMA L for a segment with this many baseline values (and whether a spread floor applies),
+   * instead of the fixed ewma.L: the limit the flag engine uses (analysis/monitor/chart-design.ts).
+   */
+  limitWidthFor?: (nReference: number, spreadFloorActive: boolean) => number;
 }
 
 export interface MonitoredPoint extends StandardisedPoint {
@@ -127,13 +141,19 @@ export interface MonitoredSegment {
   /** First CUSUM signal with the estimated change point, or null. */
   cusumFirstSignal: { session: string; direction: 'up' | 'down'; changePointSession: string; estimatedNewMean: number } | null;
   ewmaFirstSignalSession: string | null;
+  /** EWMA L used for this segment. */
+  ewmaLimitWidth: number;
+  /** The spread the values were standardised with (see Segment). */
+  spreadUsedSd?: number;
 }
 
 /** Full chart of a series (for display and for the flag engine): one entry per segment. */
 export function monitorSeries(series: readonly SeriesPoint[], designs: ChartDesigns, options: SegmentOptions = {}): MonitoredSegment[] {
   return standardiseSegments(series, options).map((segment) => {
     const z = segment.points.map((p) => p.z);
-    const ewma = ewmaChart(z, designs.ewma);
+    const floorActive = (options.spreadFloorSd ?? 0) > 0;
+    const L = designs.limitWidthFor && segment.points.length > 0 ? designs.limitWidthFor(segment.baseline.nReference, floorActive) : designs.ewma.L;
+    const ewma = ewmaChart(z, { lambda: designs.ewma.lambda, L });
     const cusum = cusumChart(z, designs.cusum);
     const rules = individualsChart(z, designs.rules);
     const points: MonitoredPoint[] = segment.points.map((p, i) => ({
@@ -147,7 +167,8 @@ export function monitorSeries(series: readonly SeriesPoint[], designs: ChartDesi
       cusumSignal: cusum.points[i].signal,
     }));
     const signal = cusum.firstSignal;
-    const { centre, spreadSd } = segment.baseline;
+    const { centre } = segment.baseline;
+    const spreadSd = segment.spreadUsedSd ?? segment.baseline.spreadSd;
     return {
       startSession: segment.startSession,
       baseline: segment.baseline,
@@ -155,6 +176,8 @@ export function monitorSeries(series: readonly SeriesPoint[], designs: ChartDesi
       unchartedPoints: segment.unchartedPoints,
       points,
       ewmaFirstSignalSession: ewma.firstSignalIndex === null ? null : points[ewma.firstSignalIndex].session,
+      ewmaLimitWidth: L,
+      ...(segment.spreadUsedSd !== undefined ? { spreadUsedSd: segment.spreadUsedSd } : {}),
       cusumFirstSignal:
         signal && centre !== null && spreadSd !== null
           ? {

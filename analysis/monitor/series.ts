@@ -55,9 +55,66 @@ export function indexLookup(history: PanelHistory): Map<string, Map<string, Map<
   return byAssessor;
 }
 
-/** Every assessor × attribute series of the given kinds (default: all five). */
-export function buildAssessorSeries(history: PanelHistory, kinds: readonly IndexSeriesKind[] = INDEX_SERIES_KINDS): AssessorSeries[] {
+/**
+ * Assessors left out of the panel consensus from a session on (an open act-level level change),
+ * on one attribute or (attribute null) on all of them.
+ */
+export interface ConsensusExclusion {
+  assessor: string;
+  attribute: string | null;
+  fromSession: string;
+}
+
+/** Fewest other assessors for a consensus; with fewer the contract offset (vs the whole panel) is used. */
+const MIN_CONSENSUS_ASSESSORS = 2;
+
+/**
+ * Level relative to a consensus one assessor cannot move (docs/methods.md, "Panel reference
+ * (robust consensus)"): per session and attribute, the assessor's offset minus the MEDIAN of the
+ * other assessors' offsets. Offsets are all taken against the same panel product means, so the
+ * difference is the assessor's mean minus the median of the others' means on the same products;
+ * a mean of the others would move by 1/(A − 1) of a drifter's change and echo it into everyone
+ * else's chart. Assessors in `exclusions` are left out of the others from their session on
+ * (falling back to all others when fewer than two remain). Returns assessor → attribute →
+ * session → level (scale points).
+ */
+export function robustLevelLookup(history: PanelHistory, exclusions: readonly ConsensusExclusion[] = []): Map<string, Map<string, Map<string, number>>> {
+  const order = new Map(history.sessions.map((s, i) => [s.label, i]));
+  const excludedAt = (assessor: string, attribute: string, session: string): boolean => {
+    const at = order.get(session) ?? -1;
+    return exclusions.some((e) => e.assessor === assessor && (e.attribute === null || e.attribute === attribute) && at >= (order.get(e.fromSession) ?? Infinity));
+  };
+  const out = new Map<string, Map<string, Map<string, number>>>();
+  for (const result of history.results) {
+    const rows = result.indices.filter((row): row is typeof row & { offset: number } => row.offset !== null && Number.isFinite(row.offset));
+    const kept = exclusions.length ? rows.filter((row) => !excludedAt(row.assessor, result.attribute, result.session)) : rows;
+    for (const row of rows) {
+      let others = kept.filter((o) => o.assessor !== row.assessor);
+      if (others.length < MIN_CONSENSUS_ASSESSORS) others = rows.filter((o) => o.assessor !== row.assessor);
+      const value = others.length >= MIN_CONSENSUS_ASSESSORS ? row.offset - median(others.map((o) => o.offset)) : row.offset;
+      let byAttribute = out.get(row.assessor);
+      if (!byAttribute) out.set(row.assessor, (byAttribute = new Map()));
+      let bySession = byAttribute.get(result.attribute);
+      if (!bySession) byAttribute.set(result.attribute, (bySession = new Map()));
+      bySession.set(result.session, value);
+    }
+  }
+  return out;
+}
+
+export interface AssessorSeriesOptions {
+  /** Assessors left out of the level consensus (see robustLevelLookup). */
+  levelExclusions?: readonly ConsensusExclusion[];
+}
+
+/**
+ * Every assessor × attribute series of the given kinds (default: all five). The level series is
+ * the level against the robust consensus of the other assessors (robustLevelLookup), not the
+ * contract offset, so that one assessor's change does not show on everyone else's chart.
+ */
+export function buildAssessorSeries(history: PanelHistory, kinds: readonly IndexSeriesKind[] = INDEX_SERIES_KINDS, options: AssessorSeriesOptions = {}): AssessorSeries[] {
   const lookup = indexLookup(history);
+  const robust = kinds.includes('level') ? robustLevelLookup(history, options.levelExclusions) : null;
   const out: AssessorSeries[] = [];
   for (const [assessor, byAttribute] of [...lookup].sort((a, b) => a[0].localeCompare(b[0]))) {
     for (const attribute of history.attributes) {
@@ -70,7 +127,8 @@ export function buildAssessorSeries(history: PanelHistory, kinds: readonly Index
           kind,
           points: history.sessions.map((s) => {
             const row = bySession.get(s.label);
-            return { session: s.label, date: s.date, value: row ? seriesValue(kind, row) : null };
+            const value = !row ? null : kind === 'level' ? (robust?.get(assessor)?.get(attribute.name)?.get(s.label) ?? null) : seriesValue(kind, row);
+            return { session: s.label, date: s.date, value };
           }),
         });
       }

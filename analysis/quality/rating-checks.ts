@@ -37,6 +37,9 @@ export function resolutionOf(values: readonly number[], scaleRange: number): num
   return Math.max(Number.isFinite(smallest) ? smallest : 0, scaleRange / 1000);
 }
 
+/** See checkStraightLining: panel median range of cell means, in scale steps, for a flat profile to count. */
+const FLAT_MIN_PANEL_STEPS = 3;
+
 export function checkStraightLining(
   data: SessionData,
   productTestP: ReadonlyMap<string, number | null>,
@@ -61,9 +64,29 @@ export function checkStraightLining(
     if (spreads.size < 3) continue;
     const panelMedian = medianOf([...spreads.values()].map((s) => s.sd));
     const panelDiscriminates = (productTestP.get(attribute.name) ?? 1) < 0.05;
+    // On a coarse scale (e.g. whole numbers) products a point or two apart are often given the same
+    // value by a careful assessor, and an assessor who missed the one distinct product has nothing
+    // to separate: "flat" counts only where the panel's product means, over the products this
+    // assessor rated, span at least FLAT_MIN_PANEL_STEPS scale steps (CP, no source).
+    const panelSum = new Map<string, { sum: number; n: number }>();
+    for (const row of means.values()) {
+      for (const [product, m] of row) {
+        const entry = panelSum.get(product) ?? { sum: 0, n: 0 };
+        entry.sum += m;
+        entry.n += 1;
+        panelSum.set(product, entry);
+      }
+    }
+    const panelSpreadsProducts = (assessor: string): boolean => {
+      const own = [...(means.get(assessor)?.keys() ?? [])].map((p) => {
+        const entry = panelSum.get(p) as { sum: number; n: number };
+        return entry.sum / entry.n;
+      });
+      return own.length > 0 && Math.max(...own) - Math.min(...own) >= FLAT_MIN_PANEL_STEPS * resolution;
+    };
     for (const [assessor, spread] of spreads) {
       attributeCount.set(assessor, (attributeCount.get(assessor) ?? 0) + 1);
-      const flat = spread.range <= resolution && panelDiscriminates;
+      const flat = spread.range <= resolution && panelDiscriminates && panelSpreadsProducts(assessor);
       if (flat) flatCount.set(assessor, (flatCount.get(assessor) ?? 0) + 1);
       const low = panelMedian > 0 && spread.sd / panelMedian < options.watchRatio;
       if (flat || low) {

@@ -57,7 +57,9 @@ export function monitorChartInputs(args: {
   const hLineLow = emptyArray<number | null>(n, null);
   let isProvisional = false;
   for (const segment of args.segments) {
-    const { centre: mu, spreadSd } = segment.baseline;
+    const mu = segment.baseline.centre;
+    // The spread the points were standardised with (own σ̂ or the panel-pooled floor).
+    const spreadSd = segment.spreadUsedSd ?? segment.baseline.spreadSd;
     if (segment.baseline.status === 'provisional') isProvisional = true;
     if (mu === null || spreadSd === null) continue;
     const first = indexOf.get(segment.startSession) ?? 0;
@@ -73,7 +75,7 @@ export function monitorChartInputs(args: {
       if (i === undefined) continue;
       if (p.rules.length > 0) {
         individualsSignals[i] = p.rules.includes(1) ? 'act' : 'watch';
-        ruleNotes[i] = `Western Electric rule ${p.rules.join(', ')}`;
+        ruleNotes[i] = `Western Electric rule ${p.rules.join(', ')} (shown for reading; flags come from the EWMA chart and the jump rule)`;
       }
       ewma[i] = p.ewma;
       ewmaUpper[i] = p.ewmaLimit;
@@ -104,7 +106,7 @@ export function monitorChartInputs(args: {
     },
     ewma: {
       ...common,
-      title: `${args.title}: EWMA (λ = ${designs.ewma.lambda}, L = ${designs.ewma.L})`,
+      title: `${args.title}: EWMA (λ = ${designs.ewma.lambda}, L = ${(lastSegment?.ewmaLimitWidth ?? designs.ewma.L).toFixed(3)})`,
       yLabel: 'EWMA of z (SD units)',
       series: [{ name: 'EWMA', values: ewma, signals: ewmaSignals }],
       lines: [

@@ -4,16 +4,14 @@
  * series, the refit status. Route handlers call these, then a report/ view builder.
  */
 import type { Database } from 'better-sqlite3';
-import { validateThresholds, type PanelThresholds } from '../../analysis/flags/index.js';
-import { monitorSeries, targetArl0ForChartSet, type ChartDesigns, type SegmentOptions } from '../../analysis/monitor/chart.js';
-import { cusumIntervalForArl0 } from '../../analysis/monitor/cusum.js';
-import { ewmaLimitForArl0 } from '../../analysis/monitor/ewma.js';
+import { assessorLevelCharts, validateThresholds, type PanelThresholds } from '../../analysis/flags/index.js';
+import { monitorSeries, type ChartDesigns, type SegmentOptions } from '../../analysis/monitor/chart.js';
+import { actChartDesigns, chartSizing } from '../../analysis/monitor/chart-design.js';
 import {
   buildAssessorSeries,
   indexLookup,
   referencePeriodFor,
   restartSessionsFor,
-  seriesValue,
   summarySeries,
   type IndexSeriesKind,
   type PanelHistory,
@@ -40,40 +38,17 @@ export function panelThresholds(db: Database, panelId: number): PanelThresholds 
   return validateThresholds(loadPanelThresholds(db, panelId)?.thresholds ?? {}).thresholds;
 }
 
-/** Markov-chain states for sizing display limits: enough for 3 digits of L and h (methods §3.4). */
-const SIZING_STATES = 101;
-const sizingCache = new Map<string, { ewmaL: number; cusumH: number }>();
-
-/** EWMA L and CUSUM h for a target in-control ARL (memoised: the bisections solve Markov chains). */
-function sizedLimits(lambda: number, k: number, targetArl0: number): { ewmaL: number; cusumH: number } {
-  // Two significant digits of the target are plenty for a display and let the cache work.
-  const magnitude = 10 ** (Math.floor(Math.log10(targetArl0)) - 1);
-  const target = Math.round(targetArl0 / magnitude) * magnitude;
-  const key = `${lambda}|${k}|${target}`;
-  let limits = sizingCache.get(key);
-  if (!limits) {
-    limits = { ewmaL: ewmaLimitForArl0(lambda, target, SIZING_STATES), cusumH: cusumIntervalForArl0(k, target, SIZING_STATES) };
-    sizingCache.set(key, limits);
-  }
-  return limits;
-}
-
 /**
- * Chart designs for a set of nCharts charts, with limits for the act level's false-alarm budget
- * (ARL0 = K × sessions per year / tolerated false alarms per year, methods §3.4), so a point
- * beyond the drawn limits is the kind of evidence an act flag needs. The flag engine applies its
- * own refinements (baseline-estimation allowance); the flags, not the charts, are the verdict-free
- * summary of what fired.
+ * Chart designs for a set of nCharts charts at the act level's false-alarm budget (ARL0 = K ×
+ * sessions per year / tolerated false alarms per year, methods §3.4), from the one chart design the
+ * flag engine uses (analysis/monitor/chart-design.ts): L per segment for its baseline, so a point
+ * beyond the drawn limit is one the flag engine saw.
  */
 export function chartDesigns(thresholds: PanelThresholds, nCharts: number): { designs: ChartDesigns; baseline: SegmentOptions['baseline'] } {
   const c = thresholds.charts;
-  const act = sizedLimits(c.ewmaLambda, c.cusumK, targetArl0ForChartSet(Math.max(1, nCharts), c.sessionsPerYear, c.actFalseAlarmsPerYear));
+  const sizing = chartSizing(Math.max(1, nCharts), c.sessionsPerYear, c.actFalseAlarmsPerYear, c.watchFalseAlarmsPerYear, c.ewmaLambda, c.cusumK);
   return {
-    designs: {
-      ewma: { lambda: c.ewmaLambda, L: Number(act.ewmaL.toFixed(3)) },
-      cusum: { k: c.cusumK, h: Number(act.cusumH.toFixed(3)) },
-      rules: c.westernElectricWatch ? [1, 2, 3, 4] : [1],
-    },
+    designs: actChartDesigns(sizing, c.baselineSessions, c.westernElectricWatch ? [1, 2, 3, 4] : [1]),
     baseline: { fullValues: c.baselineSessions, minimumValues: c.minBaselineSessions },
   };
 }
@@ -107,15 +82,9 @@ export function loadMonitorContext(db: Database, panelName: string, options: { w
   return { panel, history, thresholds: panelThresholds(db, panel.id), assessors, attributes: history.attributes.map((a) => a.name) };
 }
 
-/** Level offsets of one assessor, one series per attribute (for the summary series). */
+/** Level series of one assessor against the robust consensus of the others, one per attribute (for the summary series). */
 function levelSeriesByAttribute(history: PanelHistory, assessor: string) {
-  const lookup = indexLookup(history).get(assessor);
-  return history.attributes.map((a) =>
-    history.sessions.map((s) => {
-      const row = lookup?.get(a.name)?.get(s.label);
-      return { session: s.label, date: s.date, value: row ? seriesValue('level', row) : null };
-    }),
-  );
+  return buildAssessorSeries(history, ['level']).filter((s) => s.assessor === assessor).map((s) => s.points);
 }
 
 /** Baseline rules of an assessor's charts: restarts at their retraining events, their reference period. */
@@ -123,15 +92,17 @@ export function assessorSegmentOptions(history: PanelHistory, assessor: string, 
   return { baseline, restartSessions: restartSessionsFor(history, assessor), referenceSessions: referencePeriodFor(history, assessor)?.sessions ?? null };
 }
 
-/** The assessor's summary series (median z over attributes) and its monitored segments. */
-export function monitoredSummary(history: PanelHistory, assessor: string, designs: ChartDesigns, baseline: SegmentOptions['baseline']): MonitoredSeriesInput {
+/** The assessor's summary series (median z over attributes) and its monitored segments; with thresholds, exactly as the flags saw it. */
+export function monitoredSummary(history: PanelHistory, assessor: string, designs: ChartDesigns, baseline: SegmentOptions['baseline'], thresholds?: PanelThresholds): MonitoredSeriesInput {
+  const shared = thresholds ? assessorLevelCharts(history, thresholds).get(assessor)?.summary : undefined;
+  if (shared) return shared;
   const options = assessorSegmentOptions(history, assessor, baseline);
   const series = summarySeries(levelSeriesByAttribute(history, assessor), options);
   return { series, segments: monitorSeries(series, designs, options) };
 }
 
 export const MEASURE_LABELS: Record<IndexSeriesKind, { label: string; yLabel: string }> = {
-  level: { label: 'Level offset', yLabel: 'offset (scale points)' },
+  level: { label: 'Level offset', yLabel: 'offset from the median of the other assessors (scale points)' },
   repeatability: { label: 'Repeatability', yLabel: 'log(s_a / s_rest)' },
   discrimination: { label: 'Discrimination', yLabel: 'log F (products)' },
   agreement: { label: 'Agreement', yLabel: 'atanh r (with the rest)' },
@@ -139,8 +110,9 @@ export const MEASURE_LABELS: Record<IndexSeriesKind, { label: string; yLabel: st
 };
 
 /** The five index series of one assessor and attribute, monitored. */
-export function monitoredMeasures(history: PanelHistory, assessor: string, attribute: string, designs: ChartDesigns, baseline: SegmentOptions['baseline']) {
+export function monitoredMeasures(history: PanelHistory, assessor: string, attribute: string, designs: ChartDesigns, baseline: SegmentOptions['baseline'], thresholds?: PanelThresholds) {
   const options = assessorSegmentOptions(history, assessor, baseline);
+  const sharedLevel = thresholds ? assessorLevelCharts(history, thresholds).get(assessor)?.attributes.get(attribute) : undefined;
   const one = { ...history, attributes: history.attributes.filter((a) => a.name === attribute) };
   return buildAssessorSeries(one)
     .filter((s) => s.assessor === assessor)
@@ -149,7 +121,7 @@ export function monitoredMeasures(history: PanelHistory, assessor: string, attri
       ...MEASURE_LABELS[s.kind],
       withSmoothCharts: s.kind === 'level',
       series: s.points,
-      segments: monitorSeries(s.points, designs, options),
+      segments: s.kind === 'level' && sharedLevel ? sharedLevel.segments : monitorSeries(s.points, designs, options),
     }));
 }
 

@@ -177,7 +177,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
         ctx.assessors.map((assessor) => ({
           assessor,
           ...(sizes.get(assessor) ?? { nSessions: 0, nRatings: 0 }),
-          summary: monitoredSummary(ctx.history, assessor, designs, baseline),
+          summary: monitoredSummary(ctx.history, assessor, designs, baseline, ctx.thresholds),
         })),
       ),
       openFlags: listFlags(db, ctx.panel.id, { status: 'open' }).map((r) => r.flag),
@@ -207,8 +207,8 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
         attributes: ctx.attributes,
         attribute,
         nSessions: assessorSampleSizes(ctx.history).get(params.assessor)?.nSessions ?? 0,
-        summary: monitoredSummary(ctx.history, params.assessor, summaryDesign.designs, summaryDesign.baseline),
-        measures: attribute === null ? [] : monitoredMeasures(ctx.history, params.assessor, attribute, attributeDesign.designs, attributeDesign.baseline),
+        summary: monitoredSummary(ctx.history, params.assessor, summaryDesign.designs, summaryDesign.baseline, ctx.thresholds),
+        measures: attribute === null ? [] : monitoredMeasures(ctx.history, params.assessor, attribute, attributeDesign.designs, attributeDesign.baseline, ctx.thresholds),
         flags: listFlags(db, ctx.panel.id, { status: 'open', assessor: params.assessor }).map((r) => r.flag),
         events: ctx.history.events,
         // Per-attribute charts: limits sized for the assessor × attribute chart set; the summary charts use their own.

@@ -91,7 +91,7 @@ describe('monitor pages', () => {
     expect(a02.nAct).toBe(openFlags.filter((f) => f.assessor === 'A02' && f.severity === 'act').length);
   });
 
-  it('assessor page: the level-offset series carries the stored offsets', async () => {
+  it('assessor page: the level-offset series carries the stored offsets against the median of the other assessors', async () => {
     const attribute = panel.attributes[1].name;
     const url = `/panels/${enc}/monitor/assessors/A02`;
     const html = await t.app.inject({ url: `${url}?attribute=${encodeURIComponent(attribute)}` });
@@ -100,9 +100,19 @@ describe('monitor pages', () => {
     const json = (await t.app.inject({ url: `${url}.json?attribute=${encodeURIComponent(attribute)}` })).json();
     expect(json.attribute).toBe(attribute);
     const level = json.measures.find((m: { key: string }) => m.key === 'level');
-    const stored = loadSessionIndices(t.db, findPanel(t.db, name)!.id).filter((ix) => ix.assessor === 'A02' && ix.attribute === attribute);
+    const all = loadSessionIndices(t.db, findPanel(t.db, name)!.id).filter((ix) => ix.attribute === attribute);
+    const stored = all.filter((ix) => ix.assessor === 'A02');
     const plotted = level.charts[0].series[0].points.map((p: { session: string; value: number }) => [p.session, p.value]);
-    expect(plotted).toEqual(stored.filter((ix) => ix.offset !== null).map((ix) => [ix.session, ix.offset]));
+    // The reference is the median of the other assessors' stored offsets in the same session.
+    const medianOf = (xs: number[]) => {
+      const s = [...xs].sort((a, b) => a - b);
+      return s.length % 2 ? s[s.length >> 1] : (s[s.length / 2 - 1] + s[s.length / 2]) / 2;
+    };
+    const expected = stored
+      .filter((ix) => ix.offset !== null)
+      .map((ix) => [ix.session, (ix.offset as number) - medianOf(all.filter((o) => o.session === ix.session && o.assessor !== 'A02' && o.offset !== null).map((o) => o.offset as number))]);
+    expect(plotted.map(([session]: [string]) => session)).toEqual(expected.map(([session]) => session));
+    plotted.forEach(([, value]: [string, number], i: number) => expect(value).toBeCloseTo(expected[i][1] as number, 10));
     expect(level.nValues).toBe(stored.filter((ix) => ix.offset !== null).length);
     // 10 sessions: fewer than the 20 wanted for final limits → provisional (dashed) limits.
     expect(json.summary.baselineStatus).toBe('provisional');

@@ -22,7 +22,35 @@ export interface DriftDelay {
   flaggedBeforeStart: boolean;
 }
 
+export interface StepDelay {
+  panel: string;
+  assessor: string;
+  sizePoints: number;
+  stepSession: string;
+  /** Sessions from the step (its own session = 0) to the first act-level drift flag; null = none. */
+  sessionsToAct: number | null;
+  /** The flag's sentence at that point. */
+  message: string | null;
+}
+
+export interface FamilyTally {
+  family: string;
+  nPanels: number;
+  panelYears: number;
+  cleanAssessorYears: number;
+  cleanAct: number;
+  cleanWatch: number;
+  cleanByKind: Partial<Record<FlagKind, number>>;
+  /** Drift flags (any severity) on clean assessors: the echo of a drifter shows here. */
+  cleanDrift: { panel: string; flag: Flag }[];
+}
+
 export interface SimulationReport {
+  families: FamilyTally[];
+  stepDelays: StepDelay[];
+  /** Swapped-codes flags that match no planted swap. */
+  falseSwaps: { panel: string; flag: Flag }[];
+  panelYears: number;
   panels: { name: string; nWeeks: number; nAssessors: number; nClean: number; nFlags: number; nUnfitted: number }[];
   byKind: KindTally[];
   cleanActFlags: { panel: string; flag: Flag }[];
@@ -47,6 +75,10 @@ export async function measureFlagDetection(
   const started = performance.now();
   const total = emptyTallies();
   const report: Omit<SimulationReport, 'byKind' | 'cleanActPer10AssessorYears' | 'medianDriftDelaySessions' | 'elapsedMs'> = {
+    families: [],
+    stepDelays: [],
+    falseSwaps: [],
+    panelYears: 0,
     panels: [],
     cleanActFlags: [],
     cleanWatchFlagCount: 0,
@@ -59,7 +91,26 @@ export async function measureFlagDetection(
     onPanel?.(scenario.name);
     const run = await runPanel(scenario, { periodWindowSessions: options.periodWindowSessions });
     const flags = buildFlags(historyUpTo(run));
-    const score = scorePanel(flags, run.panel.truth, scenario.cleanAssessors, run.panel.sessions.length, scenario.name);
+    const sessionsPresent = new Map<string, number>();
+    for (const session of run.panel.sessions) for (const a of session.assessors) sessionsPresent.set(a, (sessionsPresent.get(a) ?? 0) + 1);
+    const dropped = new Set(run.panel.droppedSamples.map((d) => `${d.session}|${d.assessor}`));
+    const expected = (flag: Flag) => flag.kind === 'missing-cells' && dropped.has(`${flag.firstSession}|${flag.assessor}`);
+    const score = scorePanel(flags, run.panel.truth, scenario.cleanAssessors, run.panel.sessions.length, scenario.name, { sessionsPresent, expected });
+    const years = run.panel.sessions.length / 52;
+    report.panelYears += years;
+    const familyName = scenario.family ?? 'classic';
+    let family = report.families.find((f) => f.family === familyName);
+    if (!family) report.families.push((family = { family: familyName, nPanels: 0, panelYears: 0, cleanAssessorYears: 0, cleanAct: 0, cleanWatch: 0, cleanByKind: {}, cleanDrift: [] }));
+    family.nPanels++;
+    family.panelYears += years;
+    family.cleanAssessorYears += score.cleanAssessorYears;
+    family.cleanAct += score.cleanActFlags.length;
+    family.cleanWatch += score.cleanWatchFlags.length;
+    for (const flag of [...score.cleanActFlags, ...score.cleanWatchFlags]) family.cleanByKind[flag.kind] = (family.cleanByKind[flag.kind] ?? 0) + 1;
+    family.cleanDrift.push(...[...score.cleanActFlags, ...score.cleanWatchFlags].filter((f) => f.kind === 'drift').map((flag) => ({ panel: scenario.name, flag })));
+    const swaps = run.panel.truth.filter((f) => f.kind === 'swapped-codes');
+    report.falseSwaps.push(...flags.filter((f) => f.kind === 'swapped-codes' && !swaps.some((fault) => flagFindsFault(f, fault))).map((flag) => ({ panel: scenario.name, flag })));
+    if (options.driftDelays ?? true) report.stepDelays.push(...stepDelays(run, buildFlags));
     addTallies(total, score.byKind);
     report.panels.push({
       name: scenario.name,
@@ -89,7 +140,7 @@ export async function measureFlagDetection(
 /** For each planted drift: the first history length at which the engine flags drift for that assessor. */
 function driftDelays(run: PanelRun, buildFlags: FlagEngine): DriftDelay[] {
   const out: DriftDelay[] = [];
-  for (const fault of run.panel.truth.filter((f) => f.kind === 'drift')) {
+  for (const fault of run.panel.truth.filter((f) => f.kind === 'drift' && f.shape !== 'step')) {
     const flaggedBeforeStart = buildFlags(historyUpTo(run, fault.fromSession)).some((flag) => flagFindsFault(flag, fault));
     let delay: number | null = null;
     for (let n = fault.fromSession + 1; n <= run.panel.sessions.length; n++) {
@@ -99,6 +150,21 @@ function driftDelays(run: PanelRun, buildFlags: FlagEngine): DriftDelay[] {
       }
     }
     out.push({ panel: run.scenario.name, assessor: fault.assessor!, ratePerSession: fault.size!, sessionsToFirstFlag: delay, flaggedBeforeStart });
+  }
+  return out;
+}
+
+/** For each planted step: sessions from the step's own session (0) to the first act-level drift flag. */
+function stepDelays(run: PanelRun, buildFlags: FlagEngine): StepDelay[] {
+  const out: StepDelay[] = [];
+  for (const fault of run.panel.truth.filter((f) => f.kind === 'drift' && f.shape === 'step')) {
+    let found: StepDelay | null = null;
+    // Up to 8 sessions after the step; an act flag later than that counts as not found in time.
+    for (let n = fault.fromSession + 1; n <= Math.min(run.panel.sessions.length, fault.fromSession + 9) && !found; n++) {
+      const flag = buildFlags(historyUpTo(run, n)).find((f) => f.severity === 'act' && flagFindsFault(f, fault));
+      if (flag) found = { panel: run.scenario.name, assessor: fault.assessor!, sizePoints: fault.size!, stepSession: fault.firstSession, sessionsToAct: n - fault.fromSession - 1, message: flag.message };
+    }
+    out.push(found ?? { panel: run.scenario.name, assessor: fault.assessor!, sizePoints: fault.size!, stepSession: fault.firstSession, sessionsToAct: null, message: null });
   }
   return out;
 }
@@ -114,6 +180,29 @@ export function periodFitParagraph(report: SimulationReport, windowSessions: num
     `${report.panels.map((p) => p.name).join(', ')}; ${(report.elapsedMs / 1000).toFixed(0)} s): planted unstable products found ` +
     `${unstable.found} of ${unstable.planted}; act-level unstable-product flags that match no planted step: ${report.stableProductActFlags.length}` +
     `${spurious.length ? ` (${spurious.join('; ')})` : ''}; act-level flags on clean assessors: ${report.cleanActFlags.length}.`
+  );
+}
+
+/** Each goal with met / missed, from the numbers below it. */
+export function goalsLine(report: SimulationReport): string {
+  const mark = (ok: boolean) => (ok ? 'met' : '**missed**');
+  const worstFound = Math.min(...report.byKind.filter((t) => t.planted > 0).map((t) => t.found / t.planted));
+  const watchPerYear = report.families.map((f) => (f.cleanAssessorYears ? f.cleanWatch / f.cleanAssessorYears : 0));
+  const drifter = report.families.find((f) => f.family === 'one-drifter');
+  // The broad panels share the one-drifter panels' clean model: the fair base rate.
+  const others = report.families.filter((f) => f.family === 'broad');
+  const baseDrift = others.reduce((n, f) => n + f.cleanDrift.length, 0) / Math.max(1e-9, others.reduce((n, f) => n + f.cleanAssessorYears, 0));
+  const drifterDrift = drifter ? drifter.cleanDrift.length / Math.max(1e-9, drifter.cleanAssessorYears) : 0;
+  const swapsPer10 = report.panelYears ? (10 * report.falseSwaps.length) / report.panelYears : 0;
+  const steps = report.stepDelays;
+  return (
+    `Goals: planted faults found ≥ 95 % per kind: ${mark(worstFound >= 0.95)} (lowest ${(100 * worstFound).toFixed(0)} %); ` +
+    `act flags ≤ 1 per 10 clean assessor-years: ${mark(report.cleanActPer10AssessorYears <= 1)} (${report.cleanActPer10AssessorYears.toFixed(2)}); ` +
+    `watch flags ≤ 2 per clean assessor-year in every family: ${mark(watchPerYear.every((w) => w <= 2))} (highest ${Math.max(...watchPerYear).toFixed(2)}); ` +
+    `flags on clean assessors of one-drifter panels within the watch rate: ${mark(!drifter || drifter.cleanWatch / Math.max(1e-9, drifter.cleanAssessorYears) <= 2)}; ` +
+    `no echo (drift flags on clean assessors per clean assessor-year, one-drifter vs broad panels): ${mark(drifterDrift <= baseDrift)} (${drifterDrift.toFixed(2)} vs ${baseDrift.toFixed(2)}); ` +
+    `false swap alerts ≤ 1 per 10 panel-years: ${mark(swapsPer10 <= 1)} (${swapsPer10.toFixed(2)}); ` +
+    `steps flagged at act in their own session: ${mark(steps.length > 0 && steps.every((d) => d.sessionsToAct === 0))} (${steps.filter((d) => d.sessionsToAct === 0).length} of ${steps.length}).`
   );
 }
 
@@ -144,7 +233,19 @@ export function reportMarkdown(report: SimulationReport, commit: string): string
       'about 5 s per window and attribute they would make it run for hours; unstable products are found here by the step detector.',
   );
   lines.push('');
-  lines.push(`Commit ${commit}; ${report.panels.length} panels, ${(report.elapsedMs / 1000).toFixed(0)} s.`);
+  lines.push(
+    'Broader panels (`broadScenarios()`, families "broad" and "one-drifter"): natural per-attribute assessor offsets SD 0.45 ' +
+      '(within ±1.5) that are not faults, assessor × session SD 0.25, product × session SD 0.2, session shift SD 0.35, an assessor ' +
+      'day effect SD 0.1 on all attributes, 3 % of ratings missing at random and 3 whole samples missing per panel (a missing-cells ' +
+      'flag there is right and not counted), integer ratings on odd seeds, A13 joining at week 20 and A14 leaving after week 35, ' +
+      'four holiday sessions with 6 assessors. "one-drifter": A01 drifts +0.05 per week from week 27 (+1.3 by the end), nothing ' +
+      'else planted. "broad": two step shifts (±1.5 to 2.5 points on every attribute at one session), a lenient and an ' +
+      'inconsistent assessor, three whole-session swaps of two always-served products chosen by the seed.',
+  );
+  lines.push('');
+  lines.push(`Commit ${commit}; ${report.panels.length} panels, ${report.panelYears.toFixed(1)} panel-years, ${(report.elapsedMs / 1000).toFixed(0)} s.`);
+  lines.push('');
+  lines.push(goalsLine(report));
   lines.push('');
   lines.push('| panel | weeks | assessors | clean | flags |');
   lines.push('| --- | --- | --- | --- | --- |');
@@ -166,6 +267,41 @@ export function reportMarkdown(report: SimulationReport, commit: string): string
       `Act-level unstable-product flags that match no planted step: ${report.stableProductActFlags.length}.`,
   );
   lines.push('');
+  lines.push('Flags on clean assessors by panel family (goals: act ≤ 1 per 10 clean assessor-years; watch ≤ 2 per clean assessor-year; in one-drifter panels no more than that):');
+  lines.push('');
+  lines.push('| family | panels | panel-years | clean assessor-years | act | act per 10 clean assessor-years | watch | watch per clean assessor-year | by kind | drift flags on clean assessors |');
+  lines.push('| --- | --- | --- | --- | --- | --- | --- | --- | --- | --- |');
+  for (const f of report.families) {
+    const byKind = Object.entries(f.cleanByKind).map(([kind, n]) => `${kind} ${n}`).join(', ') || 'none';
+    lines.push(
+      `| ${f.family} | ${f.nPanels} | ${f.panelYears.toFixed(1)} | ${f.cleanAssessorYears.toFixed(1)} | ${f.cleanAct} | ${f.cleanAssessorYears ? ((10 * f.cleanAct) / f.cleanAssessorYears).toFixed(2) : '—'} | ${f.cleanWatch} | ${f.cleanAssessorYears ? (f.cleanWatch / f.cleanAssessorYears).toFixed(2) : '—'} | ${byKind} | ${f.cleanDrift.length} |`,
+    );
+  }
+  lines.push('');
+  const echo = report.families.filter((f) => f.family === 'one-drifter').flatMap((f) => f.cleanDrift);
+  if (echo.length > 0) {
+    lines.push('Drift flags on clean assessors of the one-drifter panels:');
+    lines.push('');
+    for (const { panel, flag } of echo) lines.push(`- ${panel}: ${flag.severity} ${flag.assessor} ${flag.attribute ?? '(all attributes)'}: ${flag.message}`);
+    lines.push('');
+  }
+  lines.push(
+    `Swapped-codes flags matching no planted swap: ${report.falseSwaps.length} in ${report.panelYears.toFixed(1)} panel-years = ` +
+      `**${report.panelYears ? ((10 * report.falseSwaps.length) / report.panelYears).toFixed(2) : '—'} per 10 panel-years** (goal ≤ 1).`,
+  );
+  for (const { panel, flag } of report.falseSwaps) lines.push(`- ${panel}: ${flag.assessor} ${flag.firstSession}: ${flag.message}`);
+  lines.push('');
+  if (report.stepDelays.length > 0) {
+    lines.push('Step shifts: sessions from the step (its own session = 0) to the first act-level flag, the engine re-run after every session (goal 0):');
+    lines.push('');
+    lines.push('| panel | assessor | step (points) | step session | sessions to act | flag sentence |');
+    lines.push('| --- | --- | --- | --- | --- | --- |');
+    for (const d of report.stepDelays) lines.push(`| ${d.panel} | ${d.assessor} | ${d.sizePoints} | ${d.stepSession} | ${d.sessionsToAct ?? 'no act flag within 8 sessions'} | ${d.message ?? '—'} |`);
+    const zero = report.stepDelays.filter((d) => d.sessionsToAct === 0).length;
+    lines.push('');
+    lines.push(`Steps flagged at act in their own session: **${zero} of ${report.stepDelays.length}**.`);
+    lines.push('');
+  }
   lines.push('Drift (linear, from mid-period): sessions from the first drifting session (= 1) to the first drift flag, the engine re-run after every session:');
   lines.push('');
   lines.push('| panel | assessor | drift per session | sessions to first flag | drift flag already before the start |');

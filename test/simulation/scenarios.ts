@@ -8,10 +8,12 @@
  * clean assessors stay wholly clean; they are paired with model faults that leave the fault
  * visible (a swap needs an intact profile, so never on a flattened or reversed assessor).
  */
-import type { FaultSpec, PanelScenarioOptions } from '../../demo/generate-panel.js';
+import type { CleanModel, FaultSpec, PanelScenarioOptions, PanelStructure } from '../../demo/generate-panel.js';
 
 export interface SimulationScenario {
   name: string;
+  /** 'one-drifter': a panel whose only fault is one strong drifter (the echo check). */
+  family?: 'classic' | 'broad' | 'one-drifter';
   options: PanelScenarioOptions;
   /** Assessors with no planted fault of any kind. */
   cleanAssessors: string[];
@@ -84,6 +86,91 @@ function designB(seed: number, nWeeks: number): SimulationScenario {
     options: { seed, nWeeks, nAssessors: 12, startDate: '2025-03-03', faults },
     cleanAssessors: cleanFrom(6, 12),
   };
+}
+
+/**
+ * The broader clean model (drawn independently of the designs above): natural per-attribute
+ * assessor offsets of SD 0.45 (within ±1.5) that are not faults, larger assessor × session and
+ * product × session terms, an assessor "day" effect shared by all attributes.
+ */
+export const BROAD_MODEL: Partial<CleanModel> = {
+  assessorLevelSd: 0.1,
+  assessorAttributeLevelSd: 0.45,
+  maxCleanLevelFraction: 0.15,
+  assessorSessionSd: 0.25,
+  productBatchSd: 0.2,
+  sessionShiftSd: 0.35,
+};
+
+/** 52 weeks, 14 assessors: A13 joins at week 20, A14 leaves after week 35, four 6-assessor holiday sessions. */
+function broadStructure(seed: number): PanelStructure {
+  return {
+    integerScale: seed % 2 === 1,
+    missingRatingRate: 0.03,
+    nMissingSamples: 3,
+    assessorDaySd: 0.1,
+    roster: [
+      { assessor: 'A13', fromSession: 19 },
+      { assessor: 'A14', toSession: 34 },
+    ],
+    holidaySessions: [29, 30, 50, 51],
+    holidayAssessors: 6,
+  };
+}
+
+/**
+ * Design C: the broad panel with one strong drifter (+0.05 per week from mid-year, +1.3 by the
+ * end) and nothing else: every other assessor is clean, so any drift flag on them is an echo.
+ */
+function designC(seed: number): SimulationScenario {
+  return {
+    name: `C-seed${seed}-one-drifter`,
+    family: 'one-drifter',
+    options: {
+      seed,
+      nWeeks: 52,
+      nAssessors: 14,
+      startDate: '2025-01-06',
+      faults: [{ kind: 'drift', assessor: 'A01', fromSession: 26, size: 0.05 }],
+      model: BROAD_MODEL,
+      structure: broadStructure(seed),
+    },
+    cleanAssessors: cleanFrom(2, 14),
+  };
+}
+
+const ALWAYS_SERVED = ['REF', 'T01', 'T02', 'T03'];
+
+/**
+ * Design D: the broad panel with step shifts (+/−1.5 to 2.5 points on every attribute at one
+ * session), whole-session swaps of two always-served products chosen by the seed (not the most
+ * different pair), a lenient and an inconsistent assessor, and a clean majority.
+ */
+function designD(seed: number): SimulationScenario {
+  const pairs = ALWAYS_SERVED.flatMap((p, i) => ALWAYS_SERVED.slice(i + 1).map((q) => [p, q] as const));
+  const pair = (k: number) => pairs[(seed + k) % pairs.length];
+  const stepSize = [2.5, -2, 1.5, 2][seed % 4];
+  const stepAt = 22 + (seed % 6);
+  const faults: FaultSpec[] = [
+    { kind: 'drift', assessor: 'A01', fromSession: stepAt, size: stepSize, shape: 'step' },
+    { kind: 'drift', assessor: 'A02', fromSession: 40 - (seed % 5), size: -stepSize, shape: 'step' },
+    { kind: 'lenient', assessor: 'A03', size: 1.5 },
+    { kind: 'inconsistent', assessor: 'A04', size: 2.5 },
+    { kind: 'swapped-codes', assessor: 'A03', fromSession: 8 + (seed % 5), product: pair(0)[0], otherProduct: pair(0)[1] },
+    { kind: 'swapped-codes', assessor: 'A04', fromSession: 16 + (seed % 3), product: pair(2)[0], otherProduct: pair(2)[1] },
+    { kind: 'swapped-codes', assessor: 'A01', fromSession: 44 + (seed % 4), product: pair(4)[0], otherProduct: pair(4)[1] },
+  ];
+  return {
+    name: `D-seed${seed}-broad`,
+    family: 'broad',
+    options: { seed, nWeeks: 52, nAssessors: 14, startDate: '2025-01-06', faults, model: BROAD_MODEL, structure: broadStructure(seed) },
+    cleanAssessors: cleanFrom(5, 14),
+  };
+}
+
+/** The broad scenarios: designs C and D over several seeds (14 panel-years). */
+export function broadScenarios(): SimulationScenario[] {
+  return [designC(11), designD(12), designC(13), designD(14), designC(15), designD(16), designC(17), designD(18), designD(19), designC(21), designD(22), designD(23), designC(25), designD(26)];
 }
 
 /** The fixed suite: two designs × several seeds (deterministic). */

@@ -59,7 +59,14 @@ export function emptyTallies(): Map<FlagKind, KindTally> {
   return new Map(FLAG_KINDS.map((kind) => [kind, { kind, planted: 0, found: 0, foundAct: 0, missed: [] }]));
 }
 
-export function scorePanel(flags: readonly Flag[], truth: readonly PlantedFault[], cleanAssessors: readonly string[], nWeeks: number, label: string): PanelScore {
+export interface ScoreOptions {
+  /** Sessions each assessor was present (clean assessor-years count only these); default every week. */
+  sessionsPresent?: ReadonlyMap<string, number>;
+  /** Flags on clean assessors that are right although nothing was planted (e.g. a sample left out). */
+  expected?: (flag: Flag) => boolean;
+}
+
+export function scorePanel(flags: readonly Flag[], truth: readonly PlantedFault[], cleanAssessors: readonly string[], nWeeks: number, label: string, options: ScoreOptions = {}): PanelScore {
   const byKind = emptyTallies();
   for (const fault of truth) {
     const tally = byKind.get(fault.kind)!;
@@ -73,9 +80,9 @@ export function scorePanel(flags: readonly Flag[], truth: readonly PlantedFault[
   const planted = truth.filter((f) => f.kind === 'unstable-product');
   return {
     byKind,
-    cleanActFlags: flags.filter((f) => f.severity === 'act' && f.assessor !== null && clean.has(f.assessor)),
-    cleanWatchFlags: flags.filter((f) => f.severity === 'watch' && f.assessor !== null && clean.has(f.assessor)),
-    cleanAssessorYears: (cleanAssessors.length * nWeeks) / 52,
+    cleanActFlags: flags.filter((f) => f.severity === 'act' && f.assessor !== null && clean.has(f.assessor) && !options.expected?.(f)),
+    cleanWatchFlags: flags.filter((f) => f.severity === 'watch' && f.assessor !== null && clean.has(f.assessor) && !options.expected?.(f)),
+    cleanAssessorYears: cleanAssessors.reduce((sum, a) => sum + (options.sessionsPresent?.get(a) ?? nWeeks), 0) / 52,
     stableProductActFlags: flags.filter((f) => f.kind === 'unstable-product' && f.severity === 'act' && !planted.some((fault) => flagFindsFault(f, fault))),
   };
 }

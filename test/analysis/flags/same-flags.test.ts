@@ -27,6 +27,15 @@ const withoutAddedFields = (value: unknown): unknown =>
     return v;
   }) as unknown;
 
+/**
+ * Level flags are left out of the exact comparison, deliberate changes of method since 0ceeede:
+ * drift is measured against the median of the other assessors (robust consensus) and sudden jumps
+ * are flagged as such; lenient/harsh also need the offset to stand out from the panel's natural
+ * offsets. test/analysis/flags/drift-robust.test.ts checks them.
+ */
+const CHANGED_KINDS = new Set(['drift', 'lenient', 'harsh']);
+const withoutDrift = (value: unknown): unknown => (Array.isArray(value) ? value.filter((f: { kind?: string }) => !CHANGED_KINDS.has(f.kind ?? '')) : value);
+
 describe('flags identical to the engine before the speed work (0ceeede)', () => {
   const year = equalityYear();
   const withEvents = equalityYearWithEvents();
@@ -41,8 +50,8 @@ describe('flags identical to the engine before the speed work (0ceeede)', () => 
   for (const [name, run] of cases) {
     it(`${name}: first and memoised runs`, () => {
       expect(expected[name]).toBeDefined();
-      expect(withoutAddedFields(run())).toEqual(expected[name]);
-      expect(withoutAddedFields(run())).toEqual(expected[name]);
+      expect(withoutDrift(withoutAddedFields(run()))).toEqual(withoutDrift(expected[name]));
+      expect(withoutDrift(withoutAddedFields(run()))).toEqual(withoutDrift(expected[name]));
     });
   }
 
