@@ -38,12 +38,13 @@ import { listPanelEvents, listRetraining, updateRetraining } from '../store/moni
 import { loadPanelThresholds } from '../store/monitor-settings.js';
 import { createRefitJob, getRefitJob, markRefitJob, type RefitJob } from '../store/monitor-jobs.js';
 import { relativeSdsFromVariances } from '../analysis/lmm/fit-period-model.js';
+import { ANALYSIS_VERSION, panelDataSignature } from './data-signature.js';
 import type { FitRunner } from './fit-pool.js';
 import type { PanelHistory } from '../analysis/monitor/series.js';
 import type { PeriodFitResult, PeriodTask, RatedObservation, RetrainingToEvaluate } from './workers/fit-task-types.js';
 
-/** Recorded with every stored result; bump when a change in analysis/ changes stored numbers. */
-export const ANALYSIS_VERSION = 'analysis-1';
+// Recorded with every stored result and compared by `flags` without loading this module.
+export { ANALYSIS_VERSION, panelDataSignature };
 
 /** Default rolling window of the period model: the last 12 sessions (issue 4 §3). */
 export const DEFAULT_WINDOW_SESSIONS = 12;
@@ -100,12 +101,6 @@ export function periodWindows<T>(sessions: readonly T[], windowSessions: number)
     if (window.length >= MIN_WINDOW_SESSIONS) windows.push(window);
   }
   return windows;
-}
-
-/** What the whole panel's stored results depend on: every session label with its data version. */
-export function panelDataSignature(sessions: readonly { label: string; dataVersion: number }[]): string {
-  const text = `${ANALYSIS_VERSION}\n${sessions.map((s) => `${s.label}\t${s.dataVersion}`).join('\n')}`;
-  return createHash('sha256').update(text).digest('hex').slice(0, 32);
 }
 
 function hashJson(value: unknown): string {

@@ -7,6 +7,7 @@ import type { Command } from 'commander';
 import { BackupError, backupStore, restoreStore, type BackupResult, type RestoreResult } from '../../store/backup.js';
 import { CliError, resolveDbPath } from './cli-error.js';
 import { openStoreForCli } from './import-command.js';
+import { COMMAND_SUMMARIES } from './command-summaries.js';
 
 export async function runBackupCommand(options: { db?: string; out: string }): Promise<BackupResult> {
   const db = openStoreForCli(options.db);
@@ -32,7 +33,7 @@ export async function runRestoreCommand(options: { from: string; db?: string; fo
 export function registerBackupCommands(program: Command): void {
   program
     .command('backup')
-    .description('Copy the store to a file (SQLite online backup; safe while the service runs).')
+    .description(COMMAND_SUMMARIES.backup.description)
     .option('--db <path>', 'store file (default: PANEL_STEWARD_DB or data/panel-steward.db)')
     .requiredOption('--out <file>', 'backup file to write (must not exist)')
     .action(async (options: { db?: string; out: string }) => {
@@ -41,7 +42,7 @@ export function registerBackupCommands(program: Command): void {
     });
   program
     .command('restore')
-    .description('Replace the store with a backup (checked first; a store holding panels needs --force).')
+    .description(COMMAND_SUMMARIES.restore.description)
     .requiredOption('--from <file>', 'backup file')
     .option('--db <path>', 'store file (default: PANEL_STEWARD_DB or data/panel-steward.db)')
     .option('--force', 'replace a store that holds panels (it is saved beside itself first)')

@@ -11,6 +11,7 @@ import { importRatings, fileInput, type ImportReport } from '../../store/import-
 import { openStore, type Database } from '../../store/open-store.js';
 import { PanelConfigError, readPanelConfigFile, withReferenceProducts, type PanelConfigFile } from '../../store/panel-config.js';
 import { CliError, resolveDbPath } from './cli-error.js';
+import { COMMAND_SUMMARIES } from './command-summaries.js';
 
 export interface ImportCommandOptions {
   panel: string;
@@ -115,8 +116,8 @@ const collect = (value: string, previous: string[] = []): string[] => [...previo
 export function registerImportCommand(program: Command): void {
   program
     .command('import')
-    .description('Import a ratings file (CSV long or wide form, or .xlsx) into a panel.')
-    .argument('<file>', 'the ratings file')
+    .description(COMMAND_SUMMARIES.import.description)
+    .argument(COMMAND_SUMMARIES.import.operand.name, COMMAND_SUMMARIES.import.operand.description)
     .requiredOption('--panel <name>', 'panel to import into (created when new)')
     .option('--db <path>', 'store file (default: PANEL_STEWARD_DB or data/panel-steward.db)')
     .option('--scale <min:max>', 'scale of attributes new to the panel, e.g. 0:10')

@@ -14,6 +14,7 @@ import { readPanelSummaries } from '../../store/read-panels.js';
 import { buildApp, DEFAULT_UPLOAD_LIMIT_BYTES } from '../app.js';
 import { isLoopbackHost } from '../plugins/security.js';
 import { CliError, resolveDbPath } from './cli-error.js';
+import { COMMAND_SUMMARIES } from './command-summaries.js';
 
 export interface ServeOptions {
   db?: string;
@@ -143,7 +144,7 @@ export async function startServer(options: ServeOptions, out: Output = process.s
 export function registerServeCommand(program: Command): void {
   program
     .command('serve')
-    .description('Serve the web pages and the JSON API (127.0.0.1:8080 unless told otherwise).')
+    .description(COMMAND_SUMMARIES.serve.description)
     .option('--db <path>', 'store file (default: PANEL_STEWARD_DB or data/panel-steward.db)')
     .option('--host <address>', 'address to listen on (default: HOST or 127.0.0.1)')
     .option('--port <number>', 'port to listen on (default: PORT or 8080; 0 = any free port)')
