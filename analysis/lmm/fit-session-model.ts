@@ -79,7 +79,7 @@ export function fitSessionModel(observations: Observation[]): SessionModelFit {
     // Unbalanced (missing ratings, empty cells, a new assessor): fitted from the cell summaries;
     // the general machinery runs only when someone asks for the LmmFit.
     const criterion = makeSessionCriterion(values, cells.assessorCodes, cells.productCodes, nAssessors, nProducts, withInteraction);
-    const fast = fitSessionCells(criterion, startTheta(null, withInteraction), productCounts(cells.productCodes, nProducts));
+    const fast = fitSessionCells(criterion, criterion.momentStart(), productCounts(cells.productCodes, nProducts));
     if (fast) {
       const diagnostics: SessionModelDiagnostics = { ...fast.diagnostics, balancedFastPath: false };
       if (nAssessors < 3) diagnostics.messages.push(`too few assessors (${nAssessors}): the assessor variance is poorly determined`);
@@ -181,7 +181,9 @@ function fitThroughFrame(
     // The search runs on the cell-sum form of the same criterion (tens of evaluations at
     // O(A·P²) each); the frame's objective assembles the answer once at the optimum.
     const searchCriterion = makeSessionCriterion(values, cells.assessorCodes, cells.productCodes, cells.nAssessors, cells.nProducts, withInteraction);
-    fit = fitFromObjective(objective, { startTheta: startTheta(anova, withInteraction), randomEffectTerms: [ASSESSOR], searchCriterion });
+    // Unbalanced sessions start from cell-means moments, as the cell-sum fit of their JSON does.
+    const start = anova ? startTheta(anova, withInteraction) : searchCriterion.momentStart();
+    fit = fitFromObjective(objective, { startTheta: start, randomEffectTerms: [ASSESSOR], searchCriterion });
   }
   const nAssessors = frame.terms[0].levels.length;
   if (nAssessors < 3) fit.diagnostics.messages.push(`too few assessors (${nAssessors}): the assessor variance is poorly determined`);
