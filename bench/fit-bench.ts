@@ -3,9 +3,12 @@
  * lme4 + lmerTest, whole process against whole process, on the same simulated CSV.
  *
  *   npm run build && npx tsx bench/fit-bench.ts [--reps N] [--r-year-reps N] [--skip-r] [--tasks year,session,…]
+ *     [--data balanced,unbalanced] [--before DIR --before-label TEXT]
  *
- * Writes bench/out/fit-bench-year.csv once (seeded: 52 sessions × 10 attributes × 12 assessors ×
- * 6 products × 2 replicates), then for each task starts fresh processes — this script in worker
+ * Writes bench/out/fit-bench-year.csv (seeded: 52 sessions × 10 attributes × 12 assessors ×
+ * 6 products × 2 replicates) and, for `unbalanced`, fit-bench-year-unbalanced.csv (the same year
+ * with 3 % of ratings and 12 whole assessor × product cells missing and a 13th assessor from
+ * session 40), then for each task starts fresh processes — this script in worker
  * mode (`--task T --csv F`) and `Rscript bench/fit-bench.R T F` — and reports the median wall
  * time of the whole process and the median in-process fitting time (wall and CPU) each reports;
  * CPU time is the steadier figure on a shared machine.
@@ -16,12 +19,14 @@
  */
 import { spawnSync } from 'node:child_process';
 import { existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
+import { loadavg } from 'node:os';
 import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import type { Observation } from '../domain/ratings.js';
 import { fitPeriodModel } from '../analysis/lmm/fit-period-model.js';
 import { fitSessionModel } from '../analysis/lmm/fit-session-model.js';
 import { seededRandom } from '../analysis/reliability/seeded-random.js';
+import { dropRatings, type MissingnessOptions } from './missingness.js';
 
 const here = dirname(fileURLToPath(import.meta.url));
 const CLI = join(here, '..', 'bin', 'panel-steward');
@@ -36,13 +41,28 @@ export interface PanelDesign {
   products: number;
   replicates: number;
   seed: number;
+  /** A new assessor joins from this session (1-based) on, with effects of their own. */
+  newAssessorFromSession?: number;
+  /** Ratings and whole assessor × product cells missing (bench/missingness.ts). */
+  missingness?: Omit<MissingnessOptions, 'seed'>;
 }
 
 export const YEAR_DESIGN: PanelDesign = { sessions: 52, attributes: 10, assessors: 12, products: 6, replicates: 2, seed: 20261202 };
+/**
+ * The same year as panels produce it: 3 % of ratings missing at random, 12 whole assessor ×
+ * product cells missing, and a 13th assessor from session 40 on.
+ */
+export const UNBALANCED_YEAR_DESIGN: PanelDesign = { ...YEAR_DESIGN, newAssessorFromSession: 40, missingness: { missingShare: 0.03, emptyCells: 12 } };
 
 export function simulatePanel(design: PanelDesign): Observation[] {
   const uniform = seededRandom(design.seed);
-  const normal = (sd: number): number => sd * Math.sqrt(-2 * Math.log(1 - uniform())) * Math.cos(2 * Math.PI * uniform());
+  const normalFrom =
+    (random: () => number) =>
+    (sd: number): number =>
+      sd * Math.sqrt(-2 * Math.log(1 - random())) * Math.cos(2 * Math.PI * random());
+  const normal = normalFrom(uniform);
+  // The new assessor draws from a stream of their own: the other assessors' data stay as in the complete design.
+  const newcomerNormal = normalFrom(seededRandom(design.seed + 1));
   const rows: Observation[] = [];
   const pad = (value: number): string => String(value).padStart(2, '0');
   for (let j = 0; j < design.attributes; j++) {
@@ -57,10 +77,14 @@ export function simulatePanel(design: PanelDesign): Observation[] {
     const productEffects = Array.from({ length: design.products }, (_, p) => (p - (design.products - 1) / 2) * (0.2 + 0.05 * j));
     const assessorEffects = Array.from({ length: design.assessors }, () => normal(sdAssessor));
     const interaction = Array.from({ length: design.assessors * design.products }, () => normal(sdInteraction));
+    const sessionShifts: number[] = [];
+    const productSessions: number[][] = [];
     for (let s = 0; s < design.sessions; s++) {
       const sessionShift = normal(sdSession);
       const assessorSession = Array.from({ length: design.assessors }, () => normal(sdAssessorSession));
       const productSession = Array.from({ length: design.products }, () => normal(sdProductSession));
+      sessionShifts.push(sessionShift);
+      productSessions.push(productSession);
       for (let a = 0; a < design.assessors; a++) {
         for (let p = 0; p < design.products; p++) {
           for (let r = 0; r < design.replicates; r++) {
@@ -78,8 +102,21 @@ export function simulatePanel(design: PanelDesign): Observation[] {
         }
       }
     }
+    if (design.newAssessorFromSession !== undefined) {
+      const level = newcomerNormal(sdAssessor);
+      const newcomerInteraction = Array.from({ length: design.products }, () => newcomerNormal(sdInteraction));
+      for (let s = design.newAssessorFromSession - 1; s < design.sessions; s++) {
+        const assessorSession = newcomerNormal(sdAssessorSession);
+        for (let p = 0; p < design.products; p++) {
+          for (let r = 0; r < design.replicates; r++) {
+            const value = 5 + productEffects[p] + level + newcomerInteraction[p] + sessionShifts[s] + assessorSession + productSessions[s][p] + newcomerNormal(sdResidual);
+            rows.push({ session: `S${pad(s + 1)}`, assessor: `A${pad(design.assessors + 1)}`, product: String(101 + p * 17), replicate: r + 1, attribute, value: Math.round(value * 100) / 100 });
+          }
+        }
+      }
+    }
   }
-  return rows;
+  return design.missingness ? dropRatings(rows, { ...design.missingness, seed: design.seed + 2 }) : rows;
 }
 
 /** Session n is held on day 7(n − 1) from 2025-01-06: weekly, as the long form of import expects a date. */
@@ -157,14 +194,16 @@ function measure(command: string, args: string[]): Measurement {
   return { wallMs, fitMs: report.fitMs, fitCpuMs: report.fitCpuMs };
 }
 
-/** Wall time of the user-facing command on the year: compiled CLI, JSON to /dev/null. */
-function measureCli(csvPath: string): number {
+/** Wall time of the user-facing command on the year: compiled CLI (`bin/panel-steward` of `root`), JSON to /dev/null. */
+function measureCli(root: string, csvPath: string): number {
   const start = performance.now();
-  const child = spawnSync(process.execPath, [CLI, 'analyze', csvPath, '--format', 'json'], { stdio: ['ignore', 'ignore', 'pipe'], encoding: 'utf8' });
+  const child = spawnSync(process.execPath, [join(root, 'bin', 'panel-steward'), 'analyze', csvPath, '--format', 'json'], { stdio: ['ignore', 'ignore', 'pipe'], encoding: 'utf8' });
   const wallMs = performance.now() - start;
   if (child.status !== 0) throw new Error(`panel-steward analyze failed: ${child.stderr.slice(0, 2000)}`);
   return wallMs;
 }
+
+const loadAverage = (): string => loadavg()[0].toFixed(1);
 
 function median(values: number[]): number {
   const sorted = [...values].sort((a, b) => a - b);
@@ -186,43 +225,61 @@ function main(): void {
   const reps = Number(option('--reps') ?? 5);
   const rYearReps = Number(option('--r-year-reps') ?? 3);
   const skipR = argv.includes('--skip-r');
+  // A build to compare the CLI with (a folder holding bin/ and dist/ of an earlier commit), run alternately with this one.
+  const before = option('--before');
+  const beforeLabel = option('--before-label') ?? 'before';
   if (!existsSync(COMPILED_ENTRY)) throw new Error('the CLI is not compiled: run `npm run build` first (the bench times dist/, as users run it)');
   const outDir = join(here, 'out');
   mkdirSync(outDir, { recursive: true });
-  const csvPath = join(outDir, 'fit-bench-year.csv');
-  writeCsv(simulatePanel(YEAR_DESIGN), csvPath);
+  const datasets = (option('--data') ?? 'balanced,unbalanced').split(',');
   const self = fileURLToPath(import.meta.url);
   const rows: string[] = [];
   rows.push(
-    '| task | panel-steward process (ms) | panel-steward fitting (ms) | panel-steward fitting CPU (ms) | lme4+lmerTest process (ms) | lme4+lmerTest fitting (ms) | lme4+lmerTest fitting CPU (ms) | ratio, process | ratio, fitting CPU |',
+    '| data | task | panel-steward process (ms) | panel-steward fitting (ms) | panel-steward fitting CPU (ms) | lme4+lmerTest process (ms) | lme4+lmerTest fitting (ms) | lme4+lmerTest fitting CPU (ms) | ratio, process | ratio, fitting CPU | load (1 min) |',
   );
-  rows.push('| --- | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: |');
+  rows.push('| --- | --- | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | --- |');
   const selected = option('--tasks')?.split(',') ?? [...TASKS];
-  for (const name of TASKS.filter((t) => selected.includes(t))) {
-    const ours = Array.from({ length: reps }, () => measure(process.execPath, ['--import', 'tsx', self, '--task', name, '--csv', csvPath]));
-    const rReps = name === 'year' ? rYearReps : reps;
-    const reference = skipR ? [] : Array.from({ length: rReps }, () => measure('Rscript', ['--vanilla', join(here, 'fit-bench.R'), name, csvPath]));
-    const ourWall = median(ours.map((m) => m.wallMs));
-    const ourFit = median(ours.map((m) => m.fitMs));
-    const refWall = reference.length ? median(reference.map((m) => m.wallMs)) : Number.NaN;
-    const refFit = reference.length ? median(reference.map((m) => m.fitMs)) : Number.NaN;
-    const ourCpu = median(ours.map((m) => m.fitCpuMs));
-    const refCpu = reference.length ? median(reference.map((m) => m.fitCpuMs)) : Number.NaN;
-    const format = (value: number): string => (Number.isNaN(value) ? '—' : value.toFixed(value < 10 ? 1 : 0));
-    const ratio = (a: number, b: number): string => (Number.isNaN(b) ? '—' : `${(b / a).toFixed(1)}×`);
-    rows.push(
-      `| ${name} | ${format(ourWall)} | ${format(ourFit)} | ${format(ourCpu)} | ${format(refWall)} | ${format(refFit)} | ${format(refCpu)} | ${ratio(ourWall, refWall)} | ${ratio(ourCpu, refCpu)} |`,
-    );
-    process.stderr.write(`${rows[rows.length - 1]}\n`);
-    if (name === 'year') {
-      // The honest user-facing whole process: start-up, reading and checking the CSV, 520 fits,
-      // 6 240 assessor index rows, JSON out; against the same lmerTest processes as above
-      // (which fit only, read the CSV with read.csv and print nothing).
-      const cli = median(Array.from({ length: reps }, () => measureCli(csvPath)));
-      rows.push(
-        `| year, \`panel-steward analyze YEAR.csv --format json\` (compiled CLI: fits + indices + JSON) | ${format(cli)} | — | — | ${format(refWall)} | — | — | ${ratio(cli, refWall)} | — |`,
+  const format = (value: number): string => (Number.isNaN(value) ? '—' : value.toFixed(value < 10 ? 1 : 0));
+  const ratio = (a: number, b: number): string => (Number.isNaN(b) || Number.isNaN(a) ? '—' : `${(b / a).toFixed(1)}×`);
+  const emit = (row: string): void => {
+    rows.push(row);
+    process.stderr.write(`${row}\n`);
+  };
+  for (const data of datasets) {
+    const design = data === 'unbalanced' ? UNBALANCED_YEAR_DESIGN : YEAR_DESIGN;
+    const csvPath = join(outDir, data === 'unbalanced' ? 'fit-bench-year-unbalanced.csv' : 'fit-bench-year.csv');
+    writeCsv(simulatePanel(design), csvPath);
+    for (const name of TASKS.filter((t) => selected.includes(t))) {
+      const loadAtStart = loadAverage();
+      const ours = Array.from({ length: reps }, () => measure(process.execPath, ['--import', 'tsx', self, '--task', name, '--csv', csvPath]));
+      const rReps = name === 'year' ? rYearReps : reps;
+      const reference = skipR ? [] : Array.from({ length: rReps }, () => measure('Rscript', ['--vanilla', join(here, 'fit-bench.R'), name, csvPath]));
+      const ourWall = median(ours.map((m) => m.wallMs));
+      const ourFit = median(ours.map((m) => m.fitMs));
+      const refWall = reference.length ? median(reference.map((m) => m.wallMs)) : Number.NaN;
+      const refFit = reference.length ? median(reference.map((m) => m.fitMs)) : Number.NaN;
+      const ourCpu = median(ours.map((m) => m.fitCpuMs));
+      const refCpu = reference.length ? median(reference.map((m) => m.fitCpuMs)) : Number.NaN;
+      emit(
+        `| ${data} | ${name} | ${format(ourWall)} | ${format(ourFit)} | ${format(ourCpu)} | ${format(refWall)} | ${format(refFit)} | ${format(refCpu)} | ${ratio(ourWall, refWall)} | ${ratio(ourCpu, refCpu)} | ${loadAtStart}–${loadAverage()} |`,
       );
-      process.stderr.write(`${rows[rows.length - 1]}\n`);
+      if (name === 'year') {
+        // The honest user-facing whole process: start-up, reading and checking the CSV, the
+        // fits, the assessor index rows, JSON out; against the same lmerTest processes as above
+        // (which fit only, read the CSV with read.csv and print nothing). With --before, the
+        // earlier build runs alternately with this one, so both see the same machine load.
+        const cliLoad = loadAverage();
+        const cli: number[] = [];
+        const cliBefore: number[] = [];
+        for (let rep = 0; rep < reps; rep++) {
+          cli.push(measureCli(join(here, '..'), csvPath));
+          if (before) cliBefore.push(measureCli(before, csvPath));
+        }
+        const command = `\`panel-steward analyze YEAR.csv --format json\``;
+        const load = `${cliLoad}–${loadAverage()}`;
+        emit(`| ${data} | year, ${command}, this build | ${format(median(cli))} | — | — | ${format(refWall)} | — | — | ${ratio(median(cli), refWall)} | — | ${load} |`);
+        if (before) emit(`| ${data} | year, ${command}, ${beforeLabel} | ${format(median(cliBefore))} | — | — | ${format(refWall)} | — | — | ${ratio(median(cliBefore), refWall)} | — | ${load} |`);
+      }
     }
   }
   const table = rows.join('\n');

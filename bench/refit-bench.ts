@@ -9,7 +9,7 @@
  * start and its last result. `--no-period` repeats the runs with period fits answered "not
  * fitted", to show how the time divides.
  *
- *   npx tsx bench/refit-bench.ts [--threads N]
+ *   npx tsx bench/refit-bench.ts [--threads N] [--unbalanced]
  */
 import { createHash } from 'node:crypto';
 import { availableParallelism, cpus, loadavg } from 'node:os';
@@ -20,6 +20,7 @@ import { refitPanel, type RefitProgress, type RefitSummary } from '../server/ref
 import type { FitTask, FitTaskResult } from '../server/workers/fit-task-types.js';
 import { importRatingEvents } from '../store/import-core.js';
 import { openStore } from '../store/open-store.js';
+import { dropRatings } from './missingness.js';
 
 const threadsArg = process.argv.indexOf('--threads');
 const threads = threadsArg > 0 ? Number(process.argv[threadsArg + 1]) : availableParallelism();
@@ -94,7 +95,23 @@ async function timedRefit(db: ReturnType<typeof openStore>, panel: string, runne
   return { summary, totalMs, phaseMs: { sessions: span('sessions'), periods: span('periods'), flags: span('flags') }, cpuMs, periodCpuMs };
 }
 
-const panel = generatePanel({ seed: 2026, nWeeks: 52, nAssessors: 12, startDate: '2026-01-05', faults: 'demo', nAttributes: 10 });
+const generated = generatePanel({ seed: 2026, nWeeks: 52, nAssessors: 12, startDate: '2026-01-05', faults: 'demo', nAttributes: 10 });
+/**
+ * `--unbalanced`: the same panel as real panels produce it — the last assessor joins at session
+ * 31 (earlier ratings removed), then 3 % of ratings and 12 whole assessor × product cells of a
+ * session missing (bench/missingness.ts) — so most session fits take the general REML path.
+ */
+const unbalanced = process.argv.includes('--unbalanced');
+const loadAtStart = loadavg();
+const panel: GeneratedPanel = unbalanced ? { ...generated, ratings: unbalance(generated) } : generated;
+
+function unbalance(source: GeneratedPanel): Rating[] {
+  const labels = source.sessions.map((session) => session.label);
+  const newcomer = [...new Set(source.ratings.map((rating) => rating.assessor))].sort().pop();
+  const joined = new Set(labels.slice(30));
+  const kept = source.ratings.filter((rating) => rating.assessor !== newcomer || joined.has(rating.session));
+  return dropRatings(kept, { seed: 2027, missingShare: 0.03, emptyCells: 12 });
+}
 const lastSession = panel.sessions[panel.sessions.length - 1].label;
 const rows: string[] = [];
 for (const withPeriods of [true, false]) {
@@ -120,7 +137,8 @@ for (const withPeriods of [true, false]) {
   rows.push(`| one new session, ${label} | ${fmt(oneMore, 1000).slice(2)}`);
 }
 console.log(`${cpus()[0]?.model ?? 'cpu'} × ${cpus().length}, ${threads} worker threads, Node ${process.version}`);
-console.log(`load average ${loadavg().map((value) => value.toFixed(2)).join(' ')}`);
+console.log(unbalanced ? 'data: unbalanced (a new assessor from session 31, 3 % of ratings and 12 whole cells missing)' : 'data: demo panel as generated');
+console.log(`load average at the start ${loadAtStart.map((value) => value.toFixed(2)).join(' ')}, at the end ${loadavg().map((value) => value.toFixed(2)).join(' ')}`);
 console.log('| run | total | session fits | period fits | flags | CPU, all threads | CPU, period phase | sessions fitted | period fits | flags | goal |');
 console.log('| --- | --- | --- | --- | --- | --- | --- | --- | --- | --- | --- |');
 for (const row of rows) console.log(row);

@@ -9,7 +9,6 @@ import type { FitJson } from '../domain/analysis.js';
 import type { Rating } from '../domain/ratings.js';
 import type { AssessorSessionIndices } from '../analysis/indices/types.js';
 import type { ImportFinding, PanelHistory, PeriodFitSummary, SessionAttributeResult } from '../analysis/monitor/series.js';
-import { createHash } from 'node:crypto';
 import { loadPeriodFits, loadSessionFits, loadSessionIndices } from './fits-results.js';
 import { listAttributes, listProducts, listSessionVersions, loadCurrentFindings, loadPackedRatings, unpackRatings } from './fits-sessions.js';
 import { listPanelEvents } from './monitor-events.js';
@@ -86,17 +85,12 @@ export function assemblePanelHistory(
   };
 }
 
-/** Recorded with every stored result; bump when a change in analysis/ changes stored numbers. */
-export const ANALYSIS_VERSION = 'analysis-2';
+// The signature lives apart so that `flags` on an up-to-date store can compare it without loading this module.
+export { ANALYSIS_VERSION, panelDataSignature } from './data-signature.js';
 
 /** Default rolling window of the period model: the last 12 sessions. */
 export const DEFAULT_WINDOW_SESSIONS = 12;
 
-/** What the whole panel's stored results depend on: every session label with its data version. */
-export function panelDataSignature(sessions: readonly { label: string; dataVersion: number }[]): string {
-  const text = `${ANALYSIS_VERSION}\n${sessions.map((s) => `${s.label}\t${s.dataVersion}`).join('\n')}`;
-  return createHash('sha256').update(text).digest('hex').slice(0, 32);
-}
 
 /**
  * Everything the flag engine and the monitor pages read, from the store (structured-clone safe).

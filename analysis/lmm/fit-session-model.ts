@@ -20,6 +20,8 @@ import { LmmFitError } from './errors.js';
 import { reproducedExactly } from './exact-fit.js';
 import { confirmClosedForm, fitFromObjective, type LmmDiagnostics, type LmmFit } from './fit.js';
 import { buildModelFrame, compareLevels } from './model-frame.js';
+import { fitSessionCells, type SessionCellsFit } from './session-cells-fit.js';
+import { makeSessionCriterion } from './session-criterion.js';
 import type { ProductTest } from './satterthwaite.js';
 
 export interface SessionModelDiagnostics extends LmmDiagnostics {
@@ -67,7 +69,8 @@ export function fitSessionModel(observations: Observation[], options: SessionMod
   // Level codes in sorted order, as the model frame codes them, so the ANOVA is the frame's.
   const anova = nProducts > 1 ? balancedAnova(values, assessorCoding.codes, productCoding.codes, nAssessors, nProducts) : null;
   const closedForm = anova ? balancedClosedForm(anova, withInteraction) : null;
-  const general = (): { fit: LmmFit; diagnostics: SessionModelDiagnostics } => fitThroughFrame(values, assessors, products, attribute, withInteraction, anova, closedForm);
+  const cells = { assessorCodes: assessorCoding.codes, productCodes: productCoding.codes, nAssessors, nProducts };
+  const general = (): { fit: LmmFit; diagnostics: SessionModelDiagnostics } => fitThroughFrame(values, assessors, products, attribute, withInteraction, anova, closedForm, cells);
 
   if (anova && closedForm && closedForm.variances.residual > 0) {
     checkResidualVariation(closedForm.variances.residual, values, SESSION_LEVELS);
@@ -85,6 +88,26 @@ export function fitSessionModel(observations: Observation[], options: SessionMod
         return (completed ??= general().fit);
       },
     };
+  }
+  if (!anova && observations.length > nProducts) {
+    // Unbalanced (missing ratings, empty cells, a new assessor): fitted from the cell summaries;
+    // the general machinery runs only when someone asks for the LmmFit.
+    const criterion = makeSessionCriterion(values, cells.assessorCodes, cells.productCodes, nAssessors, nProducts, withInteraction);
+    const fast = fitSessionCells(criterion, criterion.momentStart(), productCounts(cells.productCodes, nProducts));
+    if (fast) {
+      checkResidualVariation(fast.residualVariance, values, SESSION_LEVELS);
+      const diagnostics: SessionModelDiagnostics = { ...fast.diagnostics, balancedFastPath: false };
+      if (nAssessors < 3) diagnostics.messages.push(`too few assessors (${nAssessors}): the assessor variance is poorly determined`);
+      let completed: LmmFit | null = null;
+      return {
+        json: cellsFitJson(session, attribute, fast, withInteraction, observations.length, assessorCoding.levels, productCoding.levels),
+        diagnostics,
+        withInteraction,
+        get fit() {
+          return (completed ??= general().fit);
+        },
+      };
+    }
   }
   const { fit, diagnostics } = general();
   checkResidualVariation(fit.residualVariance, values, SESSION_LEVELS);
@@ -113,6 +136,36 @@ export function fitSessionModel(observations: Observation[], options: SessionMod
   return { json, diagnostics, withInteraction, fit };
 }
 
+function cellsFitJson(
+  session: string | null,
+  attribute: string,
+  fit: SessionCellsFit,
+  withInteraction: boolean,
+  nObservations: number,
+  assessorLevels: string[],
+  productLevels: string[],
+): FitJson {
+  return {
+    session,
+    attribute,
+    model: 'session',
+    n: nObservations,
+    assessors: assessorLevels.length,
+    products: productLevels.length,
+    variance: { assessor: fit.assessorVariance, 'assessor:product': withInteraction ? fit.interactionVariance : null, residual: fit.residualVariance },
+    remlCriterion: fit.criterion,
+    productTest: { F: fit.productTest.F, numDf: fit.productTest.numDf, denDf: fit.productTest.denDf, p: fit.productTest.pValue },
+    productMeans: productLevels.map((product, j) => ({ product, mean: fit.productMeans[j].mean, se: fit.productMeans[j].se })),
+    assessorEffects: assessorLevels.map((assessor, a) => ({ assessor, blup: fit.assessorEffects[a].blup, condSD: fit.assessorEffects[a].condSD })),
+  };
+}
+
+function productCounts(productCodes: Int32Array, nProducts: number): Float64Array {
+  const counts = new Float64Array(nProducts);
+  for (let i = 0; i < productCodes.length; i++) counts[productCodes[i]]++;
+  return counts;
+}
+
 /** The four stages (model frame → criterion → optimiser → result); the closed form, when there is one, as the start to confirm. */
 function fitThroughFrame(
   values: number[],
@@ -122,6 +175,7 @@ function fitThroughFrame(
   withInteraction: boolean,
   anova: BalancedAnova | null,
   closedForm: ClosedForm | null,
+  cells: { assessorCodes: Int32Array; productCodes: Int32Array; nAssessors: number; nProducts: number },
 ): { fit: LmmFit; diagnostics: SessionModelDiagnostics } {
   const frame = buildModelFrame({
     response: values,
@@ -141,7 +195,12 @@ function fitThroughFrame(
       fit = confirmed.fit;
       fastPath = confirmed.confirmed;
     } else {
-      fit = fitFromObjective(objective, { startTheta: startTheta(anova, withInteraction), randomEffectTerms: [ASSESSOR] });
+      // The search runs on the cell-sum form of the same criterion (tens of evaluations at
+      // O(A·P²) each); the frame's objective assembles the answer once at the optimum.
+      const searchCriterion = makeSessionCriterion(values, cells.assessorCodes, cells.productCodes, cells.nAssessors, cells.nProducts, withInteraction);
+      // Unbalanced sessions start from cell-means moments, as the cell-sum fit of their JSON does.
+      const start = anova ? startTheta(anova, withInteraction) : searchCriterion.momentStart();
+      fit = fitFromObjective(objective, { startTheta: start, randomEffectTerms: [ASSESSOR], searchCriterion });
     }
   } catch (error) {
     if (!(error instanceof LmmFitError) && reproducedExactly(frame)) throw noResidualVariation(SESSION_LEVELS);

@@ -149,6 +149,11 @@ export interface FitOptions {
   randomEffectTerms?: string[];
   /** Steer the optimiser with the average-information Hessian instead of Hessians from differences. */
   averageInformation?: boolean;
+  /**
+   * The same criterion as the objective's, in a cheaper form for this design (e.g. the session
+   * model's cell-sum form), for the search; the answer is still assembled from the objective.
+   */
+  searchCriterion?: Pick<RemlObjective, 'evaluate' | 'valueAndGradient'>;
 }
 
 export const OPTIMIZER_NAME = 'projected-bfgs(gamma)';
@@ -156,7 +161,8 @@ export const OPTIMIZER_NAME = 'projected-bfgs(gamma)';
 /** Optimises the criterion from the start values and assembles the result. */
 export function fitFromObjective(objective: RemlObjective, options: FitOptions = {}): LmmFit {
   const start = options.startTheta ?? objective.frame.terms.map(() => 0.5);
-  const optimum = minimizeBounded(objective.evaluate, start, options.control, objective.valueAndGradient, {
+  const search = options.searchCriterion ?? objective;
+  const optimum = minimizeBounded(search.evaluate, start, options.control, search.valueAndGradient, {
     approximateHessian: options.averageInformation ? objective.averageInformation : undefined,
   });
   return assembleFit(

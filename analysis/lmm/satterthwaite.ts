@@ -60,21 +60,41 @@ export interface VarparOptions {
 /** Asymptotic covariance of the variance parameters and Jacobians of cov(β̂), at θ̂ (σ̂ from θ̂). */
 export function varparCovariance(objective: RemlObjective, theta: Float64Array, sigma: number, options: VarparOptions = {}): VarparCovariance {
   const freeComponents = [...theta].map((value, k) => k).filter((k) => theta[k] > 0);
-  const m = freeComponents.length;
-  const dimension = m + 1;
-  const sigma2 = sigma * sigma;
   const exact = (options.method ?? 'exact') === 'exact' ? exactThetaDerivatives(objective, theta, sigma, freeComponents) : null;
   const { hessian, jacobians, centre } = exact ?? differencedThetaDerivatives(objective, theta, sigma, freeComponents);
   const degrees = objective.reml ? objective.frame.nObservations - objective.frame.nFixed : objective.frame.nObservations;
-  // σ derivatives of pwrss/σ² + (n − p) log(2πσ²), analytic; ∂pwrss/∂θ_i = −2‖u_i‖²/θ_i.
+  // ∂pwrss/∂θ_i = −2‖u_i‖²/θ_i.
+  const pwrssGradient = freeComponents.map((k) => (-2 * centre.modeSquares[k]) / theta[k]);
+  const atOptimum = exact?.unscaledCovBeta ?? objective.unscaledCovBeta(theta);
+  return { ...completeVarparCovariance(hessian, jacobians, pwrssGradient, centre.parts.pwrss, sigma, degrees, atOptimum), freeComponents, method: exact ? 'exact' : 'differences' };
+}
+
+/**
+ * The rest of varparCovariance once the θ block is known: the σ row and column of the Hessian
+ * (analytic), its pseudo-inverse 2H⁺, and the σ Jacobian of cov(β̂) = σ² × unscaledCovBeta.
+ * @param hessian (m+1)×(m+1) row-major with the θ block of the free components filled
+ * @param jacobians ∂cov(β̂)/∂θ_i of the free components; the σ Jacobian is appended
+ * @param pwrssGradient ∂pwrss/∂θ_i of the free components
+ */
+export function completeVarparCovariance(
+  hessian: Float64Array,
+  jacobians: Float64Array[],
+  pwrssGradient: number[],
+  pwrss: number,
+  sigma: number,
+  degrees: number,
+  unscaledCovBeta: Float64Array,
+): Pick<VarparCovariance, 'covariance' | 'jacobians' | 'hessianEigenvalues'> {
+  const m = pwrssGradient.length;
+  const dimension = m + 1;
+  const sigma2 = sigma * sigma;
+  // σ derivatives of pwrss/σ² + (n − p) log(2πσ²), analytic.
   for (let i = 0; i < m; i++) {
-    const k = freeComponents[i];
-    const pwrssGradient = (-2 * centre.modeSquares[k]) / theta[k];
-    const value = (-2 * pwrssGradient) / (sigma2 * sigma);
+    const value = (-2 * pwrssGradient[i]) / (sigma2 * sigma);
     hessian[i * dimension + m] = value;
     hessian[m * dimension + i] = value;
   }
-  hessian[m * dimension + m] = (6 * centre.parts.pwrss) / (sigma2 * sigma2) - (2 * degrees) / sigma2;
+  hessian[m * dimension + m] = (6 * pwrss) / (sigma2 * sigma2) - (2 * degrees) / sigma2;
 
   const eigen = symmetricEigen(hessian, dimension);
   const covariance = new Float64Array(dimension * dimension);
@@ -85,10 +105,8 @@ export function varparCovariance(objective: RemlObjective, theta: Float64Array, 
       for (let j = 0; j < dimension; j++) covariance[i * dimension + j] += (2 * vector[i] * vector[j]) / value;
     }
   });
-
-  const atOptimum = exact?.unscaledCovBeta ?? objective.unscaledCovBeta(theta);
-  jacobians.push(Float64Array.from(atOptimum, (value) => 2 * sigma * value));
-  return { freeComponents, covariance, jacobians, hessianEigenvalues: eigen.values, method: exact ? 'exact' : 'differences' };
+  jacobians.push(Float64Array.from(unscaledCovBeta, (value) => 2 * sigma * value));
+  return { covariance, jacobians, hessianEigenvalues: eigen.values };
 }
 
 interface ThetaDerivatives {

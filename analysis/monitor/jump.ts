@@ -1,6 +1,6 @@
 /**
  * Sudden shifts: a one-session jump of an assessor's level on most attributes at once
- * (docs/methods.md, "Sudden shifts"). The EWMA and CUSUM charts are tuned to slow drifts and, by
+ * (docs/methods.md §3.10). The EWMA and CUSUM charts are tuned to slow drifts and, by
  * design, average a jump over several sessions; a Shewhart-type individuals rule reacts to one
  * large value in the session it happens (Montgomery, Introduction to Statistical Quality Control,
  * on combining Shewhart and EWMA/CUSUM charts; Lucas & Saccucci 1990, combined Shewhart–EWMA).

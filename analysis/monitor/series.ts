@@ -69,7 +69,7 @@ export interface ConsensusExclusion {
 const MIN_CONSENSUS_ASSESSORS = 2;
 
 /**
- * Level relative to a consensus one assessor cannot move (docs/methods.md, "Panel reference
+ * Level relative to a consensus one assessor cannot move (docs/methods.md §3.9, "Panel reference
  * (robust consensus)"): per session and attribute, the assessor's offset minus the MEDIAN of the
  * other assessors' offsets. Offsets are all taken against the same panel product means, so the
  * difference is the assessor's mean minus the median of the others' means on the same products;

@@ -17,6 +17,7 @@ import { classifyRepeat } from '../../ingest/duplicate-rule.js';
 import { readRatingBatches } from '../../ingest/read-ratings.js';
 import { CliError } from './cli-error.js';
 import type { CommandOutput } from './import-command.js';
+import { COMMAND_SUMMARIES } from './command-summaries.js';
 
 /**
  * The import command's problem-line format, loaded only when there is a problem or finding to
@@ -171,8 +172,8 @@ function renumber(keys: Float64Array): number {
 export function registerAnalyzeCommand(program: Command): void {
   program
     .command('analyze')
-    .description('Fit the panel models to a ratings file (CSV long or wide form, or .xlsx) and print the results; no store needed.')
-    .argument('<file>', 'the ratings file')
+    .description(COMMAND_SUMMARIES.analyze.description)
+    .argument(COMMAND_SUMMARIES.analyze.operand.name, COMMAND_SUMMARIES.analyze.operand.description)
     .option('--period', 'one period model per attribute over all sessions instead of one model per session and attribute')
     .option('--format <format>', 'output format: json (every number) or text (a readable summary)', 'json')
     .option('--sheet <name>', 'worksheet of an .xlsx file (default: the first)')

@@ -9,6 +9,7 @@ import { openStore, type Database } from '../../store/open-store.js';
 import { restoreAdvice, StoreDamagedError } from '../../store/store-health.js';
 import { CliError, resolveDbPath } from './cli-error.js';
 import { openStoreForCli } from './import-command.js';
+import { COMMAND_SUMMARIES } from './command-summaries.js';
 
 /** The source is checked when it opens: a backup of a damaged store would carry the damage on. */
 function openBackupSource(dbOption: string | undefined): Database {
@@ -51,7 +52,7 @@ export async function runRestoreCommand(options: { from: string; db?: string; fo
 export function registerBackupCommands(program: Command): void {
   program
     .command('backup')
-    .description('Copy the store to a file (SQLite online backup; safe while the service runs).')
+    .description(COMMAND_SUMMARIES.backup.description)
     .option('--db <path>', 'store file (default: PANEL_STEWARD_DB or data/panel-steward.db)')
     .requiredOption('--out <file>', 'backup file to write (must not exist)')
     .action(async (options: { db?: string; out: string }) => {
@@ -60,7 +61,7 @@ export function registerBackupCommands(program: Command): void {
     });
   program
     .command('restore')
-    .description('Replace the store with a backup (checked first; a store holding panels needs --force).')
+    .description(COMMAND_SUMMARIES.restore.description)
     .requiredOption('--from <file>', 'backup file')
     .option('--db <path>', 'store file (default: PANEL_STEWARD_DB or data/panel-steward.db)')
     .option('--force', 'replace a store that holds panels (it is saved beside itself first)')

@@ -6,6 +6,7 @@
 import { existsSync, statSync } from 'node:fs';
 import BetterSqlite3 from 'better-sqlite3';
 import type { Command } from 'commander';
+import { COMMAND_SUMMARIES } from './command-summaries.js';
 import { integrityCheckProblems } from '../../store/store-health.js';
 import { CliError, resolveDbPath } from './cli-error.js';
 
@@ -41,7 +42,7 @@ export function runCheckCommand(options: { db?: string }): CheckResult {
 export function registerCheckCommand(program: Command): void {
   program
     .command('check')
-    .description("Check a store or backup file with SQLite's integrity check (exit 0 when sound, 1 when damaged).")
+    .description(COMMAND_SUMMARIES.check.description)
     .option('--db <path>', 'store or backup file (default: PANEL_STEWARD_DB or data/panel-steward.db)')
     .option('--format <format>', 'text or json', 'text')
     .action((options: { db?: string; format: string }) => {

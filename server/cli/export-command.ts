@@ -7,6 +7,7 @@ import type { Command } from 'commander';
 import { exportRatings, PanelNotFoundError, type ExportFormat, type ExportResult } from '../../store/export-ratings.js';
 import { CliError } from './cli-error.js';
 import { openStoreForCli } from './import-command.js';
+import { COMMAND_SUMMARIES } from './command-summaries.js';
 
 export interface ExportCommandOptions {
   panel: string;
@@ -58,7 +59,7 @@ async function exportOrExplain(db: Parameters<typeof exportRatings>[0], panel: s
 export function registerExportCommand(program: Command): void {
   program
     .command('export')
-    .description("Write a panel's stored ratings in long form (CSV or JSON).")
+    .description(COMMAND_SUMMARIES.export.description)
     .requiredOption('--panel <name>', 'panel to export')
     .option('--db <path>', 'store file (default: PANEL_STEWARD_DB or data/panel-steward.db)')
     .option('--format <csv|json>', 'output format', 'csv')

@@ -7,9 +7,9 @@ import type { Command } from 'commander';
 import type { Flag } from '../../domain/flags.js';
 import { findPanel, listSessionVersions } from '../../store/fits-sessions.js';
 import { listCurrentFlagObjects, loadFlagBuild } from '../../store/monitor-flags.js';
-import { createFitPool } from '../fit-pool.js';
-import { panelDataSignature, refitPanel } from '../refit.js';
+import { panelDataSignature } from '../../store/data-signature.js';
 import { CliError, stderrFitLogger } from './cli-error.js';
+import { COMMAND_SUMMARIES } from './command-summaries.js';
 import { openStoreForCli } from './import-command.js';
 
 /** One line per flag for people: severity, kind, who/what, where it starts, the sentence. */
@@ -25,7 +25,7 @@ export function formatFlagsText(flags: Flag[]): string {
 export function registerFlagsCommand(program: Command): void {
   program
     .command('flags')
-    .description("Print a panel's current flags (evidence for review, not verdicts).")
+    .description(COMMAND_SUMMARIES.flags.description)
     .requiredOption('--panel <name>', 'panel name')
     .option('--db <path>', 'store file (default: PANEL_STEWARD_DB or data/panel-steward.db)')
     .option('--since <session>', 'only cases detected, or whose status changed, at or after this session')
@@ -41,6 +41,8 @@ export function registerFlagsCommand(program: Command): void {
         const signature = panelDataSignature(listSessionVersions(db, panel.id));
         if (loadFlagBuild(db, panel.id)?.dataSignature !== signature) {
           process.stderr.write('Flags are older than the data: recomputing what changed first.\n');
+          // Loaded only here: the refit and its worker pool cost most of the start-up otherwise.
+          const [{ createFitPool }, { refitPanel }] = await Promise.all([import('../fit-pool.js'), import('../refit.js')]);
           const runner = createFitPool();
           try {
             await refitPanel(db, options.panel, { runner, logger: stderrFitLogger });

@@ -14,6 +14,7 @@ import { StoreDamagedError } from '../../store/store-health.js';
 import { PanelConfigError, readPanelConfigFile, withReferenceProducts, type PanelConfigFile } from '../../store/panel-config.js';
 import { describeStorageError } from '../storage-errors.js';
 import { CliError, resolveDbPath } from './cli-error.js';
+import { COMMAND_SUMMARIES } from './command-summaries.js';
 
 export interface ImportCommandOptions {
   panel: string;
@@ -125,8 +126,8 @@ const collect = (value: string, previous: string[] = []): string[] => [...previo
 export function registerImportCommand(program: Command): void {
   program
     .command('import')
-    .description('Import a ratings file (CSV long or wide form, or .xlsx) into a panel.')
-    .argument('<file>', 'the ratings file')
+    .description(COMMAND_SUMMARIES.import.description)
+    .argument(COMMAND_SUMMARIES.import.operand.name, COMMAND_SUMMARIES.import.operand.description)
     .requiredOption('--panel <name>', 'panel to import into (created when new)')
     .option('--db <path>', 'store file (default: PANEL_STEWARD_DB or data/panel-steward.db)')
     .option('--scale <min:max>', 'scale of attributes new to the panel, e.g. 0:10')

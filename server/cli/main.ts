@@ -5,8 +5,10 @@
 import { Command, CommanderError } from 'commander';
 import { readFileSync } from 'node:fs';
 import { CliError, unexpectedErrorMessage } from './cli-error.js';
-// Command modules, loaded lazily: a command loads only its own module (the others cost about
-// 0.3 s of start-up); help and unknown commands load them all so every command is listed.
+import { registerCommandSummaries } from './command-summaries.js';
+// Command modules, loaded lazily: a command (or `help COMMAND`) loads only its own module (the
+// others bring the store, the service and the worker pool); the top-level help and unknown
+// commands list every command from its summary without loading any module.
 const COMMAND_MODULES: Record<string, () => Promise<(program: Command) => void>> = {
   analyze: async () => (await import('./analyze-command.js')).registerAnalyzeCommand,
   serve: async () => (await import('./serve-command.js')).registerServeCommand,
@@ -47,16 +49,10 @@ program
   .showHelpAfterError()
   .exitOverride();
 
-const requested = process.argv[2];
-const isVersion = requested === '--version' || requested === '-V';
-const loaders = isVersion ? [] : requested !== undefined && Object.hasOwn(COMMAND_MODULES, requested) ? [COMMAND_MODULES[requested]] : Object.values(COMMAND_MODULES);
-const registered = new Set<(program: Command) => void>();
-for (const load of loaders) {
-  const register = await load();
-  if (registered.has(register)) continue; // backup and restore share one module
-  registered.add(register);
-  register(program);
-}
+const isCommand = (word: string | undefined): word is string => word !== undefined && Object.hasOwn(COMMAND_MODULES, word);
+const requested = process.argv[2] === 'help' && isCommand(process.argv[3]) ? process.argv[3] : process.argv[2];
+if (isCommand(requested)) (await COMMAND_MODULES[requested]())(program);
+else registerCommandSummaries(program);
 
 try {
   await program.parseAsync(process.argv);

@@ -4,6 +4,7 @@ import { SingleBar, Presets } from 'cli-progress';
 import { createFitPool } from '../fit-pool.js';
 import { PanelNotFoundError, refitPanel, type RefitProgress, type RefitSummary } from '../refit.js';
 import { CliError, stderrFitLogger } from './cli-error.js';
+import { COMMAND_SUMMARIES } from './command-summaries.js';
 import { openStoreForCli } from './import-command.js';
 
 const PHASE_NAMES: Record<RefitProgress['phase'], string> = {
@@ -61,7 +62,7 @@ export function describeRefit(summary: RefitSummary): string {
 export function registerRefitCommand(program: Command): void {
   program
     .command('refit')
-    .description("Recompute a panel's session fits, indices, period fits and flags from the stored ratings.")
+    .description(COMMAND_SUMMARIES.refit.description)
     .requiredOption('--panel <name>', 'panel name')
     .option('--db <path>', 'store file (default: PANEL_STEWARD_DB or data/panel-steward.db)')
     .option('--changed-only', 'recompute only what changed since the last refit')

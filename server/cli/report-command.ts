@@ -8,6 +8,7 @@
 import { readFileSync, renameSync, writeFileSync } from 'node:fs';
 import { basename, join } from 'node:path';
 import type { Command } from 'commander';
+import { COMMAND_SUMMARIES } from './command-summaries.js';
 import { openStore } from '../../store/open-store.js';
 import { packageRoot } from '../../store/package-root.js';
 import { AppError } from '../errors.js';
@@ -68,7 +69,7 @@ export function renderReportFile(options: Omit<ReportCommandOptions, 'out'>, gen
 export function registerReportCommand(program: Command): void {
   program
     .command('report')
-    .description('Write a session report or a report over a range of sessions as one self-contained HTML file (to print or e-mail).')
+    .description(COMMAND_SUMMARIES.report.description)
     .requiredOption('--panel <name>', 'panel name')
     .option('--db <path>', 'store file (default: PANEL_STEWARD_DB or data/panel-steward.db)')
     .option('--session <session>', 'one session')

@@ -17,6 +17,7 @@ import { isLoopbackHost } from '../plugins/security.js';
 import { weakTokenReason } from '../plugins/token-guard.js';
 import { describeStorageError } from '../storage-errors.js';
 import { CliError, resolveDbPath } from './cli-error.js';
+import { COMMAND_SUMMARIES } from './command-summaries.js';
 
 export interface ServeOptions {
   db?: string;
@@ -152,7 +153,7 @@ export async function startServer(options: ServeOptions, out: Output = process.s
 export function registerServeCommand(program: Command): void {
   program
     .command('serve')
-    .description('Serve the web pages and the JSON API (127.0.0.1:8080 unless told otherwise).')
+    .description(COMMAND_SUMMARIES.serve.description)
     .option('--db <path>', 'store file (default: PANEL_STEWARD_DB or data/panel-steward.db)')
     .option('--host <address>', 'address to listen on (default: HOST or 127.0.0.1)')
     .option('--port <number>', 'port to listen on (default: PORT or 8080; 0 = any free port)')

@@ -1,5 +1,5 @@
 /**
- * Drift and jump flags against the robust panel reference (docs/methods.md, "Panel reference" and
+ * Drift and jump flags against the robust panel reference (docs/methods.md §3.9, "Panel reference" and
  * "Sudden shifts"). The synthetic indices are turned into contract offsets (each assessor minus the
  * mean of ALL assessors, the assessor included), which is what makes one drifter echo into
  * everybody else's offsets: the flags must not show that echo.

@@ -1,0 +1,163 @@
+/**
+ * The one-session model fitted entirely from its cell summaries (session-criterion.ts): the
+ * bounded optimiser on the cell-sum criterion, then the reported quantities at the optimum —
+ * variances, REMLcrit, GLS product means and SEs, assessor conditional modes and SDs, and the
+ * product F-test with lmerTest's Satterthwaite df — without a model frame or a factorisation of
+ * the random-effects system. Used for sessions without a closed form (missing ratings, a new
+ * assessor); the general path (criterion.ts) gives the same numbers to the fixtures' tolerances
+ * and is still what a caller gets who asks for the full LmmFit.
+ */
+import type { LmmDiagnostics } from './fit.js';
+import { OPTIMIZER_NAME, SINGULAR_THETA_TOLERANCE } from './fit.js';
+import { minimizeBounded } from './optimise.js';
+import { completeVarparCovariance, productContrastRows, productFTest, type ProductTest } from './satterthwaite.js';
+import type { SessionCriterion } from './session-criterion.js';
+
+/** The optimiser's name in the diagnostics of fits taken from the cell summaries. */
+export const CELL_SUMS_OPTIMIZER_NAME = `cell-sums+${OPTIMIZER_NAME}`;
+
+export interface SessionCellsFit {
+  theta: Float64Array;
+  residualVariance: number;
+  /** σ²_a, σ²_ap (0 when the model has no interaction term). */
+  assessorVariance: number;
+  interactionVariance: number;
+  criterion: number;
+  productMeans: { mean: number; se: number }[];
+  assessorEffects: { blup: number; condSD: number }[];
+  productTest: ProductTest;
+  diagnostics: LmmDiagnostics;
+}
+
+/**
+ * @param productCounts ratings per product (for lmerTest's contrast rows from XᵀX)
+ * @returns null when the criterion is not finite at the optimum or near it (the caller then takes the general path)
+ */
+export function fitSessionCells(criterion: SessionCriterion, startTheta: number[], productCounts: Float64Array): SessionCellsFit | null {
+  const optimum = minimizeBounded(criterion.evaluate, startTheta, {}, criterion.valueAndGradient);
+  const theta = optimum.theta;
+  const solution = criterion.solution(theta);
+  if (!solution) return null;
+  const p = criterion.nProducts;
+  const degrees = criterion.nObservations - p;
+  const sigma2 = solution.pwrss / degrees;
+  const sigma = Math.sqrt(sigma2);
+  const unscaledCov = toTreatmentCoding(solution.unscaledCovMeans, p);
+  const covBeta = Float64Array.from(unscaledCov, (value) => value * sigma2);
+  const beta = Float64Array.from(solution.productMeans, (mean, j) => (j === 0 ? mean : mean - solution.productMeans[0]));
+  const messages = [...optimum.messages];
+
+  const contrasts = productContrastRows(treatmentCrossProduct(productCounts), p);
+  let varpar: ReturnType<typeof completeVarparCovariance> | null = null;
+  if (contrasts.length > 0) {
+    varpar = varparByDifferences(criterion, theta, sigma, sigma2, degrees, solution.pwrss, solution.residualQuadratics, unscaledCov);
+    if (!varpar) return null;
+    if (varpar.hessianEigenvalues.some((value) => value < -1e-8)) messages.push('the Hessian of the criterion has a negative eigenvalue: the fit may not be at a minimum');
+  }
+  const productTest = productFTest(beta, covBeta, contrasts, varpar);
+  messages.push(...productTest.messages);
+  const singular = [...theta].some((value) => value < SINGULAR_THETA_TOLERANCE);
+  if (singular) messages.push('singular fit: some variance component is estimated as zero');
+  return {
+    theta,
+    residualVariance: sigma2,
+    assessorVariance: theta[0] * theta[0] * sigma2,
+    interactionVariance: theta.length > 1 ? theta[1] * theta[1] * sigma2 : 0,
+    criterion: solution.deviance,
+    productMeans: Array.from(solution.productMeans, (mean, j) => ({ mean, se: Math.sqrt(sigma2 * solution.unscaledCovMeans[j * p + j]) })),
+    assessorEffects: Array.from(solution.assessorModes, (blup, a) => ({ blup, condSD: Math.sqrt(sigma2 * solution.assessorConditional[a]) })),
+    productTest,
+    diagnostics: {
+      converged: optimum.converged,
+      singular,
+      iterations: optimum.iterations,
+      evaluations: optimum.evaluations,
+      optimizer: CELL_SUMS_OPTIMIZER_NAME,
+      messages,
+      gradientMaxAbs: Math.max(0, ...[...optimum.projectedGradient].map(Math.abs)),
+    },
+  };
+}
+
+/**
+ * The θ block of lmerTest's Hessian of the deviance in (θ, σ) by central differences of the
+ * analytic fixed-σ θ gradient, ∂cov(β̂)/∂θ by differences of C⁻¹ at the same points (steps as
+ * satterthwaite.ts's fallback), then the σ parts analytically. Components at 0 are left out
+ * (see satterthwaite.ts).
+ */
+function varparByDifferences(
+  criterion: SessionCriterion,
+  theta: Float64Array,
+  sigma: number,
+  sigma2: number,
+  degrees: number,
+  pwrss: number,
+  residualQuadratics: number[],
+  unscaledCov: Float64Array,
+): ReturnType<typeof completeVarparCovariance> | null {
+  const p = criterion.nProducts;
+  const free = [...theta].map((_, k) => k).filter((k) => theta[k] > 0);
+  const m = free.length;
+  const dimension = m + 1;
+  const hessian = new Float64Array(dimension * dimension);
+  const jacobians: Float64Array[] = [];
+  for (let i = 0; i < m; i++) {
+    const k = free[i];
+    const step = Math.max(1e-4 * theta[k], 1e-6);
+    const up = theta.slice();
+    up[k] += step;
+    const down = theta.slice();
+    down[k] -= step;
+    const atUp = criterion.fixedSigmaThetaGradient(up, sigma2);
+    const atDown = criterion.fixedSigmaThetaGradient(down, sigma2);
+    if (!atUp || !atDown) return null;
+    for (let j = 0; j < m; j++) hessian[j * dimension + i] = (atUp.gradient[free[j]] - atDown.gradient[free[j]]) / (2 * step);
+    const covUp = toTreatmentCoding(atUp.unscaledCovMeans, p);
+    const covDown = toTreatmentCoding(atDown.unscaledCovMeans, p);
+    jacobians.push(Float64Array.from(covUp, (value, index) => (sigma2 * (value - covDown[index])) / (2 * step)));
+  }
+  for (let i = 0; i < m; i++) {
+    for (let j = 0; j < i; j++) {
+      const mean = 0.5 * (hessian[i * dimension + j] + hessian[j * dimension + i]);
+      hessian[i * dimension + j] = mean;
+      hessian[j * dimension + i] = mean;
+    }
+  }
+  const pwrssGradient = free.map((k) => -2 * theta[k] * residualQuadratics[k]);
+  const finite = hessian.every(Number.isFinite) && jacobians.every((jacobian) => jacobian.every(Number.isFinite));
+  return finite ? completeVarparCovariance(hessian, jacobians, pwrssGradient, pwrss, sigma, degrees, unscaledCov) : null;
+}
+
+/**
+ * T M Tᵀ for the map from product means μ to lme4's treatment coding β (β_0 = μ_0,
+ * β_j = μ_j − μ_0): row-major p×p.
+ */
+function toTreatmentCoding(matrix: Float64Array, p: number): Float64Array {
+  const out = new Float64Array(p * p);
+  const at = (i: number, j: number): number => matrix[i * p + j];
+  for (let i = 0; i < p; i++) {
+    for (let j = 0; j < p; j++) {
+      let value = at(i, j);
+      if (i > 0) value -= at(0, j);
+      if (j > 0) value -= at(i, 0);
+      if (i > 0 && j > 0) value += at(0, 0);
+      out[i * p + j] = value;
+    }
+  }
+  return out;
+}
+
+/** XᵀX of the treatment-coded design [1, d_2, …, d_P]. */
+function treatmentCrossProduct(productCounts: Float64Array): Float64Array {
+  const p = productCounts.length;
+  const xTx = new Float64Array(p * p);
+  let total = 0;
+  for (let j = 0; j < p; j++) total += productCounts[j];
+  xTx[0] = total;
+  for (let j = 1; j < p; j++) {
+    xTx[j] = productCounts[j];
+    xTx[j * p] = productCounts[j];
+    xTx[j * p + j] = productCounts[j];
+  }
+  return xTx;
+}
