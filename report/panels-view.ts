@@ -7,6 +7,7 @@ export type PanelSummaryInput = PanelSummary;
 
 export interface PanelListItem extends PanelSummaryInput {
   href: string;
+  reviewHref: string;
 }
 
 export interface PanelsView extends PageViewBase {
@@ -22,6 +23,8 @@ export function buildPanelsView(panels: PanelSummaryInput[]): PanelsView {
     panels: panels.map((panel) => ({
       name: panel.name,
       href: panelHref(panel.name),
+      // The panel's landing page is its weekly review; the sessions list stays one click away.
+      reviewHref: `${panelHref(panel.name)}/monitor/review`,
       nSessions: panel.nSessions,
       nAssessors: panel.nAssessors,
       nProducts: panel.nProducts,

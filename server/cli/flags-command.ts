@@ -4,7 +4,8 @@
  * what changed is refitted first, with a note on stderr, so the answer always matches the data.
  */
 import type { Command } from 'commander';
-import type { Flag } from '../../domain/flags.js';
+import type { FlagCase } from '../../domain/flags.js';
+import { kindLabel, plural } from '../../report/words.js';
 import { findPanel, listSessionVersions } from '../../store/fits-sessions.js';
 import { listCurrentFlagObjects, loadFlagBuild } from '../../store/monitor-flags.js';
 import { panelDataSignature } from '../../store/data-signature.js';
@@ -12,14 +13,28 @@ import { CliError, stderrFitLogger } from './cli-error.js';
 import { COMMAND_SUMMARIES } from './command-summaries.js';
 import { openStoreForCli } from './import-command.js';
 
-/** One line per flag for people: severity, kind, who/what, where it starts, the sentence. */
-export function formatFlagsText(flags: Flag[]): string {
-  if (flags.length === 0) return 'No flags. (No flag is not proof of good performance: it means no test crossed its threshold.)\n';
-  const lines = flags.map((f) => {
-    const where = [f.assessor, f.attribute, f.product].filter((x) => x !== null).join(' / ') || 'panel';
-    return `${f.severity.padEnd(5)} ${f.kind.padEnd(18)} ${where.padEnd(28)} from ${f.firstSession}: ${f.message}`;
-  });
-  return `${lines.join('\n')}\n${flags.length} flags: evidence for review, not verdicts.\n`;
+/**
+ * The cases for people: open ones first (act, then watch), one line each with the plain label, who
+ * and what, the session that raised it and the sentence; dismissed and closed cases only counted.
+ */
+export function formatFlagsText(flags: FlagCase[]): string {
+  const open = flags.filter((f) => f.status === 'open');
+  const lines: string[] = [];
+  for (const severity of ['act', 'watch'] as const) {
+    const group = open.filter((f) => f.severity === severity);
+    if (group.length === 0) continue;
+    lines.push(severity === 'act' ? `To act on (${plural(group.length, 'case')}):` : `To watch (${plural(group.length, 'case')}):`);
+    for (const f of group) {
+      const where = [f.assessor, f.attribute, f.product].filter((x) => x !== null).join(' / ') || 'panel';
+      lines.push(`  #${f.id} ${kindLabel(f.kind)} (${f.kind}), ${where}, since ${f.detectedSession}: ${f.message}`);
+    }
+  }
+  const dismissed = flags.filter((f) => f.status === 'dismissed').length;
+  const closed = flags.filter((f) => f.status === 'closed').length;
+  if (open.length === 0) lines.push('No open cases.');
+  lines.push(`${plural(open.length, 'open case')}; ${plural(dismissed, 'dismissed case')} and ${plural(closed, 'closed case')} not listed (see --format json).`);
+  lines.push('Flags are evidence for review, not verdicts about people; no flag is not proof of good performance.');
+  return `${lines.join('\n')}\n`;
 }
 
 export function registerFlagsCommand(program: Command): void {
@@ -50,7 +65,7 @@ export function registerFlagsCommand(program: Command): void {
             await runner.close();
           }
         }
-        let flags: Flag[];
+        let flags: FlagCase[];
         try {
           flags = listCurrentFlagObjects(db, options.panel, options.since) ?? [];
         } catch (error) {

@@ -44,7 +44,9 @@ describe('home page', () => {
       lastSessionDate: '2026-01-05',
     });
     const html = await t.app.inject({ url: '/' });
-    expect(html.body).toContain('<a href="/panels/oat%20drink">oat drink</a>');
+    // The panel's name leads to its weekly review (the landing page); the session count to the sessions.
+    expect(html.body).toContain('<a href="/panels/oat%20drink/monitor/review">oat drink</a>');
+    expect(html.body).toContain('<a href="/panels/oat%20drink" aria-label="1 session of oat drink">1</a>');
     expect(html.headers.link).toBe('</.json>; rel="alternate"; type="application/json"');
   });
 });

@@ -43,9 +43,18 @@ describe('the CLI speaks to people', () => {
     expect(text).toMatch(/^ {2}sweetness: products F = [\d.]+ on 4 and \d+ df, p < 0\.001; variance shares assessor \d+ %, assessor × product \d+ %, replicate noise \d+ %$/m);
   });
 
-  it('flags --format text lists the cases with their sentences', async () => {
+  it('flags --format text lists the open cases with their sentences, act before watch', async () => {
     const { stdout } = await cli(['flags', '--panel', PANEL, '--db', store, '--format', 'text']);
-    expect(stdout).toMatch(/^(act|watch) +\S+/m);
+    const json = JSON.parse((await cli(['flags', '--panel', PANEL, '--db', store, '--format', 'json'])).stdout) as { id: number; status: string; severity: string; message: string }[];
+    const open = json.filter((f) => f.status === 'open');
+    expect(open.length).toBeGreaterThan(0);
+    for (const f of open) expect(stdout).toContain(`#${f.id} `);
+    for (const f of json.filter((c) => c.status !== 'open')) expect(stdout).not.toContain(`#${f.id} `);
+    if (open.some((f) => f.severity === 'act') && open.some((f) => f.severity === 'watch')) {
+      expect(stdout.indexOf('To act on')).toBeLessThan(stdout.indexOf('To watch'));
+    }
+    expect(stdout).toMatch(/^\d+ open cases?;/m);
+    expect(stdout).not.toMatch(/\b1 cases\b|\b1 open cases\b/);
     expect(stdout).toContain('evidence for review');
   }, 120_000);
 
