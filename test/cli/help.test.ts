@@ -3,6 +3,8 @@ import { describe, expect, it } from 'vitest';
 import { registerCommandSummaries } from '../../server/cli/command-summaries.js';
 import { registerAnalyzeCommand } from '../../server/cli/analyze-command.js';
 import { registerBackupCommands } from '../../server/cli/backup-command.js';
+import { registerCheckCommand } from '../../server/cli/check-command.js';
+import { registerReportCommand } from '../../server/cli/report-command.js';
 import { registerExportCommand } from '../../server/cli/export-command.js';
 import { registerFlagsCommand } from '../../server/cli/flags-command.js';
 import { registerImportCommand } from '../../server/cli/import-command.js';
@@ -26,6 +28,8 @@ describe('top-level help from command summaries', () => {
       registerBackupCommands,
       registerRefitCommand,
       registerFlagsCommand,
+      registerCheckCommand,
+      registerReportCommand,
     ]) {
       register(full);
     }
