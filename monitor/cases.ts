@@ -140,11 +140,13 @@ export function foldRelated(cases: CaseSummary[]): CaseSummary[] {
   const out: CaseSummary[] = [];
   for (const c of cases) {
     const family = FAMILY[c.kind];
-    if (!family || c.assessor === null || c.attribute === null) {
+    // A case without an attribute is about the assessor's ratings across attributes: cases of one
+    // family across attributes (e.g. a drift and the lenient level it led to) fold together too.
+    if (!family || c.assessor === null) {
       out.push(c);
       continue;
     }
-    const key = `${c.assessor}\u0000${c.attribute}\u0000${family}`;
+    const key = `${c.assessor}\u0000${c.attribute ?? '(across attributes)'}\u0000${family}`;
     const list = groups.get(key);
     if (list) list.push(c);
     else groups.set(key, [c]);
