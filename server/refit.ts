@@ -335,7 +335,13 @@ export class RefitService {
   constructor(
     private readonly db: Database,
     private readonly runner: FitRunner,
-    private readonly options: { windowSessions?: number; onError?: (error: unknown, job: RefitJob) => void; logger?: FitFailureLogger } = {},
+    private readonly options: {
+      windowSessions?: number;
+      onError?: (error: unknown, job: RefitJob) => void;
+      logger?: FitFailureLogger;
+      /** After a refit is stored: e.g. prepare the pages that read it, so the first visit is fast. */
+      afterRefit?: (panelName: string) => Promise<void>;
+    } = {},
   ) {}
 
   /** Queue a refit of what changed in the panel; a job already queued for it is reused. */
@@ -385,6 +391,12 @@ export class RefitService {
     } catch (error) {
       markRefitJob(this.db, jobId, { status: 'failed', message: 'The refit failed; the previous results are kept.' });
       this.options.onError?.(error, getRefitJob(this.db, jobId)!);
+      return;
+    }
+    try {
+      await this.options.afterRefit?.(panelName);
+    } catch {
+      // preparing pages is an optimisation: a failure here only makes the next visit slower
     }
   }
 }

@@ -121,6 +121,15 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
   const service = new RefitService(db, runner, {
     onError: (error, job) => app.log.error({ err: error, jobId: job.id }, 'refit failed'),
     logger: app.log,
+    // The pages that compute most from a fresh refit (overview, control product, review) are
+    // requested once here, so their memoised parts are ready before the panel leader's first visit.
+    afterRefit: async (panelName) => {
+      const token = app.appConfig.accessToken;
+      const headers = token === null ? {} : { authorization: `Bearer ${token}` };
+      for (const url of [`${monitorHref(panelName)}.json`, `${monitorHref(panelName, 'control')}.json`, `${monitorHref(panelName)}/review.json`]) {
+        await app.inject({ method: 'GET', url, headers });
+      }
+    },
   });
   app.decorate('refitService', service);
   const memo = createHistoryMemo();
