@@ -8,7 +8,7 @@ import { BackupError, backupStore, restoreStore, type BackupResult, type Restore
 import { openStore, type Database } from '../../store/open-store.js';
 import { restoreAdvice, StoreDamagedError } from '../../store/store-health.js';
 import { CliError, resolveDbPath } from './cli-error.js';
-import { openStoreForCli } from './import-command.js';
+import { openStoreForCli } from './open-store-for-cli.js';
 import { COMMAND_SUMMARIES } from './command-summaries.js';
 
 /** The source is checked when it opens: a backup of a damaged store would carry the damage on. */

@@ -6,7 +6,7 @@ import type { Writable } from 'node:stream';
 import type { Command } from 'commander';
 import { exportRatings, PanelNotFoundError, type ExportFormat, type ExportResult } from '../../store/export-ratings.js';
 import { CliError } from './cli-error.js';
-import { openStoreForCli } from './import-command.js';
+import { openStoreForCli } from './open-store-for-cli.js';
 import { COMMAND_SUMMARIES } from './command-summaries.js';
 
 export interface ExportCommandOptions {

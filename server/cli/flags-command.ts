@@ -11,7 +11,7 @@ import { listCurrentFlagObjects, loadFlagBuild } from '../../store/monitor-flags
 import { panelDataSignature } from '../../store/data-signature.js';
 import { CliError, stderrFitLogger } from './cli-error.js';
 import { COMMAND_SUMMARIES } from './command-summaries.js';
-import { openStoreForCli } from './import-command.js';
+import { openStoreForCli } from './open-store-for-cli.js';
 
 /**
  * The cases for people: open ones first (act, then watch), one line each with the plain label, who

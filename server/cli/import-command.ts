@@ -8,12 +8,12 @@ import type { Command } from 'commander';
 import { MAX_LISTED_PROBLEMS, type InputFinding, type InputProblem } from '../../domain/problems.js';
 import type { ScaleRange } from '../../domain/ratings.js';
 import { importRatings, fileInput, type ImportReport } from '../../store/import-ratings.js';
-import { openStore, type Database } from '../../store/open-store.js';
 import { checkName } from '../../ingest/names.js';
-import { StoreDamagedError } from '../../store/store-health.js';
 import { PanelConfigError, readPanelConfigFile, withReferenceProducts, type PanelConfigFile } from '../../store/panel-config.js';
-import { describeStorageError } from '../storage-errors.js';
-import { CliError, resolveDbPath } from './cli-error.js';
+import { CliError } from './cli-error.js';
+import { openStoreForCli } from './open-store-for-cli.js';
+// Kept importable from here for the commands that used to find it in this module.
+export { openStoreForCli };
 import { COMMAND_SUMMARIES } from './command-summaries.js';
 
 export interface ImportCommandOptions {
@@ -69,23 +69,6 @@ export async function loadSettings(path: string | undefined, references: readonl
   return withReferenceProducts(settings, references);
 }
 
-export function openStoreForCli(dbOption: string | undefined): Database {
-  const storePath = resolveDbPath(dbOption);
-  try {
-    return openStore(storePath);
-  } catch (error) {
-    // Names the store path and the way out; nothing was written.
-    if (error instanceof StoreDamagedError) throw new CliError(error.message);
-    const storage = describeStorageError(error, { storePath });
-    if (storage !== null) throw new CliError(storage.message);
-    // Other file-system errors name the path; say what to check instead.
-    if (error instanceof Error && 'code' in error && typeof error.code === 'string' && error.code.startsWith('E')) {
-      throw new CliError(`The store could not be opened (${error.code}): check that the folder of --db (or PANEL_STEWARD_DB) can be written.`);
-    }
-    const detail = error instanceof Error ? error.message : String(error);
-    throw new CliError(`The store could not be opened: ${detail}`);
-  }
-}
 
 /** Runs one import; returns the exit code (0 on success, including unchanged content). */
 export async function runImportCommand(file: string, options: ImportCommandOptions, output: CommandOutput = process): Promise<{ exitCode: number; report: ImportReport }> {

@@ -5,7 +5,7 @@ import { createFitPool } from '../fit-pool.js';
 import { PanelNotFoundError, refitPanel, type RefitProgress, type RefitSummary } from '../refit.js';
 import { CliError, stderrFitLogger } from './cli-error.js';
 import { COMMAND_SUMMARIES } from './command-summaries.js';
-import { openStoreForCli } from './import-command.js';
+import { openStoreForCli } from './open-store-for-cli.js';
 
 const PHASE_NAMES: Record<RefitProgress['phase'], string> = {
   sessions: 'session fits',
