@@ -315,7 +315,7 @@ function driftPass(ctx: FlagContext, exclusions: readonly ConsensusExclusion[]):
           attributesSignalling: matching.map((a) => a.attribute),
           ...(summarySignal.rules ? { rules: summarySignal.rules } : {}),
         },
-        message: `Since ${summarySignal.changeSession}, ${assessor}'s ratings have moved ${summarySignal.direction === 'up' ? 'upward' : 'downward'} relative to ${baselineWords(summarySignal)} (${Math.abs(meanShift) < 0.05 ? 'by less than 0.1 points' : `by about ${points(Math.abs(meanShift))} points`} on average over the last four sessions, though the chart's weighted history moved further); the ${summarySignal.chart} chart signalled at ${summarySignal.signalSession}.`,
+        message: `Since ${summarySignal.changeSession}, ${assessor}'s ratings have moved ${summarySignal.direction === 'up' ? 'upward' : 'downward'} relative to ${baselineWords(summarySignal)} (${Math.abs(meanShift) < 0.05 ? "by less than 0.1 points on average over the last four sessions, though the chart's weighted history moved further" : `by about ${points(Math.abs(meanShift))} points on average over the last four sessions`}); the ${summarySignal.chart} chart signalled at ${summarySignal.signalSession}.`,
       });
       continue;
     }
