@@ -88,24 +88,29 @@ export function loadPanelContext(db: Database, panelName: string, memo: HistoryM
       r.importId,
     ]),
   );
-  const job = latestRefitJob(db, panel.id);
-  const build = loadFlagBuild(db, panel.id);
   const history = (): PanelHistory => panelHistoryFor(db, panel.id, memo);
   return {
     panel,
     sessions: versions.map((s) => ({ label: s.label, date: s.date, importId: imports.get(s.label) ?? null })),
     records: listFlags(db, panel.id, { includeHistory: true }),
     histories: flagHistories(db, panel.id),
-    refit: {
-      status: job?.status ?? null,
-      nDone: job?.nDone ?? 0,
-      nTasks: job?.nTasks ?? 0,
-      message: job?.message ?? null,
-      flagsBuiltAt: build?.builtAt ?? null,
-      flagsBuiltAtText: build ? localTime(build.builtAt) : null,
-      isStale: build?.dataSignature !== panelDataSignature(versions),
-    },
+    refit: refitStatus(db, panel.id, versions),
     heldCells: listQuarantined(db, panel.name),
     history,
+  };
+}
+
+/** Where the panel's refit stands and whether the stored flags are older than the data. */
+export function refitStatus(db: Database, panelId: number, versions = listSessionVersions(db, panelId)): RefitStatusView {
+  const job = latestRefitJob(db, panelId);
+  const build = loadFlagBuild(db, panelId);
+  return {
+    status: job?.status ?? null,
+    nDone: job?.nDone ?? 0,
+    nTasks: job?.nTasks ?? 0,
+    message: job?.message ?? null,
+    flagsBuiltAt: build?.builtAt ?? null,
+    flagsBuiltAtText: build ? localTime(build.builtAt) : null,
+    isStale: build?.dataSignature !== panelDataSignature(versions),
   };
 }

@@ -69,16 +69,20 @@ export interface SessionReportView extends ReportHeader {
   assessorSheets: { assessor: string; href: string }[];
 }
 
-export interface SessionReportInput {
+/** What both reports are built from besides their sessions. */
+interface ReportInputBase {
   panel: string;
-  session: ReportSessionInput;
-  previous: ReportSessionInput | null;
   attributes: ReportAttributeScale[];
   referenceProducts: string[];
   openCases: OpenCaseInput[];
   findings: FindingInput[];
   generatedAt: Date;
   isStandaloneFile: boolean;
+}
+
+export interface SessionReportInput extends ReportInputBase {
+  session: ReportSessionInput;
+  previous: ReportSessionInput | null;
 }
 
 function reportCrumbs(panel: string, last: string, session?: string): PageViewBase['breadcrumbs'] {
@@ -257,15 +261,8 @@ export interface RangeReportView extends ReportHeader {
   findingsSentence: string;
 }
 
-export interface RangeReportInput {
-  panel: string;
+export interface RangeReportInput extends ReportInputBase {
   sessions: ReportSessionInput[];
-  attributes: ReportAttributeScale[];
-  referenceProducts: string[];
-  openCases: OpenCaseInput[];
-  findings: FindingInput[];
-  generatedAt: Date;
-  isStandaloneFile: boolean;
 }
 
 export function buildRangeReportView(input: RangeReportInput): RangeReportView {

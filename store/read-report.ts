@@ -97,25 +97,6 @@ export function loadSessionAnalyses(db: Database, sessions: readonly ReportSessi
   return out;
 }
 
-export interface OpenFlagRow {
-  kind: string;
-  assessor: string | null;
-  product: string | null;
-  attribute: string | null;
-  severity: 'watch' | 'act';
-  message: string;
-}
-
-/** Flags of the latest build that are open (not dismissed or closed). */
-export function listOpenFlagRows(db: Database, panelId: number): OpenFlagRow[] {
-  return db
-    .prepare(
-      `SELECT kind, assessor, product, attribute, severity, message FROM flag
-        WHERE panel_id = ? AND current = 1 AND status = 'open' ORDER BY assessor, attribute, kind`,
-    )
-    .all(panelId) as OpenFlagRow[];
-}
-
 /** Codes and roles of the panel's products. */
 export function listProductRoles(db: Database, panelId: number): { code: string; role: 'test' | 'reference' }[] {
   return db.prepare('SELECT code, role FROM product WHERE panel_id = ? ORDER BY code').all(panelId) as { code: string; role: 'test' | 'reference' }[];

@@ -9,10 +9,10 @@ import { buildAssessorFeedbackView, type AssessorFeedbackView } from '../../repo
 import type { FindingInput, OpenCaseInput, ReportAttributeScale, ReportSessionInput } from '../../report/report-common.js';
 import { buildRangeReportView, buildSessionReportView, type RangeReportView, type SessionReportView } from '../../report/session-report-view.js';
 import { findPanel, loadHeldFindings, loadImportFindings } from '../../store/fits-sessions.js';
+import { listFlags } from '../../store/monitor-flags.js';
 import { readPanelAttributes } from '../../store/read-panels.js';
 import {
   hasAssessor,
-  listOpenFlagRows,
   listProductRoles,
   listReportSessions,
   loadAssessorRatings,
@@ -83,8 +83,12 @@ function findingsOf(db: Database, panelId: number, sessions: readonly ReportSess
   return [...held, ...imported, ...notes];
 }
 
+/** The open cases of the latest flag build, by assessor, attribute and kind. */
 function openCases(db: Database, panelId: number): OpenCaseInput[] {
-  return listOpenFlagRows(db, panelId);
+  const byText = (a: string | null, b: string | null): number => (a ?? '').localeCompare(b ?? '');
+  return listFlags(db, panelId, { status: 'open' })
+    .map((record) => record.flag)
+    .sort((a, b) => byText(a.assessor, b.assessor) || byText(a.attribute, b.attribute) || a.kind.localeCompare(b.kind));
 }
 
 export function sessionReport(db: Database, panel: string, session: string, options: ReportOptions = {}): SessionReportView {

@@ -17,15 +17,13 @@ import {
   type PanelHistory,
 } from '../../analysis/monitor/series.js';
 import type { MonitoredSeriesInput } from '../../report/monitor-overview-view.js';
-import type { RefitStatusView } from '../../report/monitor-common.js';
-import { localTime } from '../../report/words.js';
-import { findPanel, listSessionVersions, type PanelRow } from '../../store/fits-sessions.js';
-import { loadFlagBuild } from '../../store/monitor-flags.js';
-import { latestRefitJob } from '../../store/monitor-jobs.js';
+import { findPanel, type PanelRow } from '../../store/fits-sessions.js';
 import { loadPanelThresholds } from '../../store/monitor-settings.js';
-import { panelHistoryFor, type HistoryMemo } from '../../monitor/panel-context.js';
+import { panelHistoryFor, refitStatus, type HistoryMemo } from '../../monitor/panel-context.js';
+
+export { refitStatus };
 import { AppError } from '../errors.js';
-import { buildPanelHistory, panelDataSignature } from '../refit.js';
+import { buildPanelHistory } from '../refit.js';
 
 export function requireMonitorPanel(db: Database, panelName: string): PanelRow {
   const panel = findPanel(db, panelName);
@@ -53,19 +51,6 @@ export function chartDesigns(thresholds: PanelThresholds, nCharts: number): { de
   };
 }
 
-export function refitStatus(db: Database, panelId: number): RefitStatusView {
-  const job = latestRefitJob(db, panelId);
-  const build = loadFlagBuild(db, panelId);
-  return {
-    status: job?.status ?? null,
-    nDone: job?.nDone ?? 0,
-    nTasks: job?.nTasks ?? 0,
-    message: job?.message ?? null,
-    flagsBuiltAt: build?.builtAt ?? null,
-    flagsBuiltAtText: build ? localTime(build.builtAt) : null,
-    isStale: build?.dataSignature !== panelDataSignature(listSessionVersions(db, panelId)),
-  };
-}
 
 export interface MonitorContext {
   panel: PanelRow;
