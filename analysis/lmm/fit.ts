@@ -5,7 +5,7 @@
  */
 import { makeRemlObjective, type MixedModelSolution, type RemlObjective } from './criterion.js';
 import { buildModelFrame, type ModelFrame, type ModelFrameInput } from './model-frame.js';
-import { minimizeBounded, type OptimiserControl } from './optimise.js';
+import { minimizeBounded, type OptimiserControl, type OptimiserResult } from './optimise.js';
 import { productContrastRows, productFTest, varparCovariance, type ProductTest } from './satterthwaite.js';
 
 export interface LmmDiagnostics {
@@ -165,19 +165,20 @@ export function fitFromObjective(objective: RemlObjective, options: FitOptions =
   const optimum = minimizeBounded(search.evaluate, start, options.control, search.valueAndGradient, {
     approximateHessian: options.averageInformation ? objective.averageInformation : undefined,
   });
-  return assembleFit(
-    objective,
-    {
-      theta: optimum.theta,
-      iterations: optimum.iterations,
-      evaluations: optimum.evaluations,
-      converged: optimum.converged,
-      gradientMaxAbs: Math.max(0, ...[...optimum.projectedGradient].map(Math.abs)),
-      optimizer: OPTIMIZER_NAME,
-      messages: optimum.messages,
-    },
-    { randomEffectTerms: options.randomEffectTerms },
-  );
+  return assembleFit(objective, optimumInput(optimum, OPTIMIZER_NAME), { randomEffectTerms: options.randomEffectTerms });
+}
+
+/** An optimiser's result as assembleFit takes it. */
+export function optimumInput(optimum: OptimiserResult, optimizer: string): OptimumInput {
+  return {
+    theta: optimum.theta,
+    iterations: optimum.iterations,
+    evaluations: optimum.evaluations,
+    converged: optimum.converged,
+    gradientMaxAbs: Math.max(0, ...[...optimum.projectedGradient].map(Math.abs)),
+    optimizer,
+    messages: optimum.messages,
+  };
 }
 
 /** The four stages composed: any intercept + fixed factor + random intercepts model. */

@@ -1,6 +1,6 @@
 /**
- * The one-session model fitted entirely from its cell summaries (session-criterion.ts): the
- * bounded optimiser on the cell-sum criterion, then the reported quantities at the optimum —
+ * The one-session model fitted entirely from its cell summaries (session-criterion.ts): Newton
+ * steps with the exact Hessian in γ (session-newton.ts, session-criterion-hessian.ts), then the reported quantities at the optimum —
  * variances, REMLcrit, GLS product means and SEs, assessor conditional modes and SDs, and the
  * product F-test with lmerTest's Satterthwaite df — without a model frame or a factorisation of
  * the random-effects system. Used for sessions without a closed form (missing ratings, a new
@@ -8,13 +8,14 @@
  * and is still what a caller gets who asks for the full LmmFit.
  */
 import type { LmmDiagnostics } from './fit.js';
-import { OPTIMIZER_NAME, SINGULAR_THETA_TOLERANCE } from './fit.js';
-import { minimizeBounded } from './optimise.js';
+import { SINGULAR_THETA_TOLERANCE } from './fit.js';
 import { completeVarparCovariance, productContrastRows, productFTest, type ProductTest } from './satterthwaite.js';
 import type { SessionCriterion } from './session-criterion.js';
+import { makeSessionSecondOrder, type SessionSecondOrder } from './session-criterion-hessian.js';
+import { minimizeSessionNewton, SESSION_NEWTON_NAME } from './session-newton.js';
 
 /** The optimiser's name in the diagnostics of fits taken from the cell summaries. */
-export const CELL_SUMS_OPTIMIZER_NAME = `cell-sums+${OPTIMIZER_NAME}`;
+export const CELL_SUMS_OPTIMIZER_NAME = `cell-sums+${SESSION_NEWTON_NAME}`;
 
 export interface SessionCellsFit {
   theta: Float64Array;
@@ -34,7 +35,8 @@ export interface SessionCellsFit {
  * @returns null when the criterion is not finite at the optimum or near it (the caller then takes the general path)
  */
 export function fitSessionCells(criterion: SessionCriterion, startTheta: number[], productCounts: Float64Array): SessionCellsFit | null {
-  const optimum = minimizeBounded(criterion.evaluate, startTheta, {}, criterion.valueAndGradient);
+  const second = makeSessionSecondOrder(criterion);
+  const optimum = minimizeSessionNewton(second, startTheta);
   const theta = optimum.theta;
   const solution = criterion.solution(theta);
   if (!solution) return null;
@@ -50,7 +52,7 @@ export function fitSessionCells(criterion: SessionCriterion, startTheta: number[
   const contrasts = productContrastRows(treatmentCrossProduct(productCounts), p);
   let varpar: ReturnType<typeof completeVarparCovariance> | null = null;
   if (contrasts.length > 0) {
-    varpar = varparByDifferences(criterion, theta, sigma, sigma2, degrees, solution.pwrss, solution.residualQuadratics, unscaledCov);
+    varpar = exactVarpar(second, theta, sigma, degrees, solution.pwrss, unscaledCov);
     if (!varpar) return null;
     if (varpar.hessianEigenvalues.some((value) => value < -1e-8)) messages.push('the Hessian of the criterion has a negative eigenvalue: the fit may not be at a minimum');
   }
@@ -80,50 +82,43 @@ export function fitSessionCells(criterion: SessionCriterion, startTheta: number[
 }
 
 /**
- * The θ block of lmerTest's Hessian of the deviance in (θ, σ) by central differences of the
- * analytic fixed-σ θ gradient, ∂cov(β̂)/∂θ by differences of C⁻¹ at the same points (steps as
- * satterthwaite.ts's fallback), then the σ parts analytically. Components at 0 are left out
- * (see satterthwaite.ts).
+ * lmerTest's Hessian of the deviance in (θ, σ) and ∂cov(β̂)/∂θ, exactly, from the second-order
+ * pieces at θ̂ (session-criterion-hessian.ts): with h the fixed-σ deviance in γ = θ²,
+ * ∂²h/∂θ_k∂θ_l = 4θ_kθ_l ∂²h/∂γ_k∂γ_l + 2δ_kl ∂h/∂γ_k and ∂C⁻¹/∂θ_k = 2θ_k ∂C⁻¹/∂γ_k; the σ
+ * parts follow analytically (satterthwaite.ts). Components at 0 are left out (see satterthwaite.ts).
  */
-function varparByDifferences(
-  criterion: SessionCriterion,
+function exactVarpar(
+  second: SessionSecondOrder,
   theta: Float64Array,
   sigma: number,
-  sigma2: number,
   degrees: number,
   pwrss: number,
-  residualQuadratics: number[],
   unscaledCov: Float64Array,
 ): ReturnType<typeof completeVarparCovariance> | null {
-  const p = criterion.nProducts;
-  const free = [...theta].map((_, k) => k).filter((k) => theta[k] > 0);
+  const k = second.nComponents;
+  const p = Math.round(Math.sqrt(unscaledCov.length));
+  const sigma2 = sigma * sigma;
+  if (!Number.isFinite(second.evaluate(theta[0] * theta[0], k > 1 ? theta[1] * theta[1] : 0))) return null;
+  const gradientGamma = new Float64Array(k);
+  const hessianGamma = new Float64Array(k * k);
+  const covarianceDerivatives = Array.from({ length: k }, () => new Float64Array(p * p));
+  second.fixedSigma(sigma2, gradientGamma, hessianGamma, covarianceDerivatives);
+  const free = [...theta].map((_, index) => index).filter((index) => theta[index] > 0);
   const m = free.length;
   const dimension = m + 1;
   const hessian = new Float64Array(dimension * dimension);
-  const jacobians: Float64Array[] = [];
   for (let i = 0; i < m; i++) {
-    const k = free[i];
-    const step = Math.max(1e-4 * theta[k], 1e-6);
-    const up = theta.slice();
-    up[k] += step;
-    const down = theta.slice();
-    down[k] -= step;
-    const atUp = criterion.fixedSigmaThetaGradient(up, sigma2);
-    const atDown = criterion.fixedSigmaThetaGradient(down, sigma2);
-    if (!atUp || !atDown) return null;
-    for (let j = 0; j < m; j++) hessian[j * dimension + i] = (atUp.gradient[free[j]] - atDown.gradient[free[j]]) / (2 * step);
-    const covUp = toTreatmentCoding(atUp.unscaledCovMeans, p);
-    const covDown = toTreatmentCoding(atDown.unscaledCovMeans, p);
-    jacobians.push(Float64Array.from(covUp, (value, index) => (sigma2 * (value - covDown[index])) / (2 * step)));
-  }
-  for (let i = 0; i < m; i++) {
-    for (let j = 0; j < i; j++) {
-      const mean = 0.5 * (hessian[i * dimension + j] + hessian[j * dimension + i]);
-      hessian[i * dimension + j] = mean;
-      hessian[j * dimension + i] = mean;
+    for (let j = 0; j < m; j++) {
+      const a = free[i];
+      const b = free[j];
+      hessian[i * dimension + j] = 4 * theta[a] * theta[b] * hessianGamma[a * k + b] + (a === b ? 2 * gradientGamma[a] : 0);
     }
   }
-  const pwrssGradient = free.map((k) => -2 * theta[k] * residualQuadratics[k]);
+  const jacobians = free.map((index) => {
+    const scale = 2 * theta[index] * sigma2;
+    return Float64Array.from(toTreatmentCoding(covarianceDerivatives[index], p), (value) => scale * value);
+  });
+  const pwrssGradient = free.map((index) => -2 * theta[index] * second.residualQuadratics[index]);
   const finite = hessian.every(Number.isFinite) && jacobians.every((jacobian) => jacobian.every(Number.isFinite));
   return finite ? completeVarparCovariance(hessian, jacobians, pwrssGradient, pwrss, sigma, degrees, unscaledCov) : null;
 }

@@ -23,6 +23,7 @@
  * ∂/∂γ_k = tr(P G_k) − (N − P) yᵀPG_kPy / pwrss with G_k = Z_kZ_kᵀ (Harville 1977, JASA 72:320),
  * whose pieces are again cell sums (see valueAndGradient).
  */
+import { momentStart } from './session-moment-start.js';
 
 export interface SessionCriterion {
   /** REMLcrit at θ (relative SDs, term order assessor then assessor:product). */
@@ -32,18 +33,37 @@ export interface SessionCriterion {
   /** Everything the fit reports at θ; null where the criterion is not finite. */
   solution(theta: ArrayLike<number>): SessionSolution | null;
   /**
-   * ∂h/∂θ_k of h(θ) = log|H| + log|C| + pwrss(θ)/σ² at fixed σ² (the θ part of the unprofiled
-   * REML deviance, whose Hessian the Satterthwaite df need), and C⁻¹ at θ.
-   */
-  fixedSigmaThetaGradient(theta: ArrayLike<number>, sigma2: number): { gradient: number[]; unscaledCovMeans: Float64Array } | null;
-  /**
    * Start values for the search from unweighted cell-means moments (an ANOVA of the cell means
    * with the harmonic mean of the cell counts as the replicate number): close to the answer for
    * nearly balanced sessions, kept away from the boundary as the balanced start is.
    */
   momentStart(): number[];
+  /** REMLcrit at γ = (γ_a, γ_ap) = θ², leaving `state` at γ (Infinity where not finite). */
+  valueAtGamma(gammaA: number, gammaAP: number): number;
+  /** The work arrays of the last evaluation (read by session-criterion-hessian.ts). */
+  readonly state: SessionCriterionState;
   nObservations: number;
   nProducts: number;
+}
+
+/** The last evaluation's pieces; valid until the next evaluation. */
+export interface SessionCriterionState {
+  nAssessors: number;
+  nProducts: number;
+  withInteraction: boolean;
+  /** N − P. */
+  degrees: number;
+  /** w_ij = n_ij/(1 + γ_ap n_ij) per cell (0 for empty cells). */
+  weight: Float64Array;
+  /** d_i = 1 + γ_a Σ_j w_ij per assessor. */
+  denominator: Float64Array;
+  /** t_i = Σ_j w_ij e_ij per assessor. */
+  assessorSum: Float64Array;
+  /** e_ij = m_ij − β̂_j per cell (0 for empty cells). */
+  residualMean: Float64Array;
+  pwrss(): number;
+  /** C⁻¹ (row-major, cell-means coding) into `target`. */
+  fillInverseC(target: Float64Array): void;
 }
 
 export interface SessionSolution {
@@ -57,8 +77,6 @@ export interface SessionSolution {
   assessorModes: Float64Array;
   /** Var(b_i | y)/σ² = γ_a/d_i, as lme4's condVar (β at its estimate). */
   assessorConditional: Float64Array;
-  /** yᵀPG_kPy in H units (per term), so ∂pwrss/∂θ_k = −2θ_k × this. */
-  residualQuadratics: number[];
 }
 
 /**
@@ -285,7 +303,6 @@ export function makeSessionCriterion(
       const [gammaA, gammaAP] = gammas(theta);
       const deviance = compute(gammaA, gammaAP);
       if (!Number.isFinite(deviance)) return null;
-      const pieces = gradientPieces(gammaA);
       const productMeans = Float64Array.from(beta, (value) => value + grand);
       const assessorModes = new Float64Array(nAssessors);
       const assessorConditional = new Float64Array(nAssessors);
@@ -300,69 +317,22 @@ export function makeSessionCriterion(
         unscaledCovMeans: inverseC(),
         assessorModes,
         assessorConditional,
-        residualQuadratics: withInteraction ? [pieces.quadraticA, pieces.quadraticAP] : [pieces.quadraticA],
       };
     },
-    fixedSigmaThetaGradient(theta, sigma2) {
-      const [gammaA, gammaAP] = gammas(theta);
-      if (!Number.isFinite(compute(gammaA, gammaAP))) return null;
-      const pieces = gradientPieces(gammaA);
-      const gradient = [2 * theta[0] * (pieces.traceA - pieces.quadraticA / sigma2)];
-      if (withInteraction) gradient.push(2 * theta[1] * (pieces.traceAP - pieces.quadraticAP / sigma2));
-      return { gradient, unscaledCovMeans: inverseC() };
+    momentStart: () => momentStart({ count, mean, withinSS, nObservations, nAssessors, nProducts, withInteraction }),
+    state: {
+      nAssessors,
+      nProducts,
+      withInteraction,
+      degrees,
+      weight,
+      denominator,
+      assessorSum,
+      residualMean,
+      pwrss: () => currentPwrss,
+      fillInverseC,
     },
-    momentStart() {
-      let present = 0;
-      let inverseCounts = 0;
-      const assessorMean = new Float64Array(nAssessors);
-      const productMean = new Float64Array(nProducts);
-      const productCells = new Float64Array(nProducts);
-      let grandOfCells = 0;
-      for (let a = 0; a < nAssessors; a++) {
-        let cellsOfAssessor = 0;
-        for (let j = 0; j < nProducts; j++) {
-          const cell = a * nProducts + j;
-          if (count[cell] === 0) continue;
-          present++;
-          cellsOfAssessor++;
-          inverseCounts += 1 / count[cell];
-          assessorMean[a] += mean[cell];
-          productMean[j] += mean[cell];
-          productCells[j]++;
-          grandOfCells += mean[cell];
-        }
-        assessorMean[a] /= cellsOfAssessor;
-      }
-      for (let j = 0; j < nProducts; j++) productMean[j] /= productCells[j];
-      grandOfCells /= present;
-      const harmonicCount = present / inverseCounts;
-      let interactionSS = 0;
-      for (let a = 0; a < nAssessors; a++) {
-        for (let j = 0; j < nProducts; j++) {
-          const cell = a * nProducts + j;
-          if (count[cell] === 0) continue;
-          const r = mean[cell] - assessorMean[a] - productMean[j] + grandOfCells;
-          interactionSS += r * r;
-        }
-      }
-      const interactionMS = interactionSS / Math.max(1, present - nAssessors - nProducts + 1);
-      let assessorSS = 0;
-      for (let a = 0; a < nAssessors; a++) assessorSS += (assessorMean[a] - grandOfCells) ** 2;
-      const assessorVarianceOfMeans = assessorSS / Math.max(1, nAssessors - 1);
-      const productsPerAssessor = present / nAssessors;
-      const clip = (ratio: number): number => Math.sqrt(Math.max(Number.isFinite(ratio) ? ratio : 0.25, 0.01));
-      if (!withInteraction || !(nObservations > present)) {
-        const residual = interactionMS * harmonicCount;
-        if (!(residual > 0)) return withInteraction ? [0.5, 0.5] : [0.5];
-        const start = [clip((assessorVarianceOfMeans - interactionMS / productsPerAssessor) / residual)];
-        return withInteraction ? [...start, 0.5] : start;
-      }
-      const residual = withinSS / (nObservations - present);
-      if (!(residual > 0)) return [0.5, 0.5];
-      const interaction = interactionMS - residual / harmonicCount;
-      const assessor = assessorVarianceOfMeans - interactionMS / productsPerAssessor;
-      return [clip(assessor / residual), clip(interaction / residual)];
-    },
+    valueAtGamma: compute,
     nObservations,
     nProducts,
   };

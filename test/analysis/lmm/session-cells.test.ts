@@ -8,60 +8,22 @@
  */
 import fc from 'fast-check';
 import { describe, expect, it } from 'vitest';
-import type { Observation } from '../../../domain/ratings.js';
 import { fitSessionModel } from '../../../analysis/lmm/fit-session-model.js';
-import { compareLevels } from '../../../analysis/lmm/model-frame.js';
 import { CELL_SUMS_OPTIMIZER_NAME } from '../../../analysis/lmm/session-cells-fit.js';
-import { makeSessionCriterion } from '../../../analysis/lmm/session-criterion.js';
-import { seededRandom } from '../../../analysis/reliability/seeded-random.js';
 import * as tol from '../../helpers/tolerances.js';
 import { loadCases, observationsFromData } from './lmm-fixtures.js';
-
-function codes(values: string[]): { levels: string[]; codes: Int32Array } {
-  const levels = [...new Set(values)].sort(compareLevels);
-  return { levels, codes: Int32Array.from(values, (value) => levels.indexOf(value)) };
-}
+import { sessionCriterionOf, unbalancedSession } from './unbalanced-session.js';
 
 describe('cell-sum criterion at lme4 θ', () => {
   const cases = loadCases('lmm-seeded.json').filter((expected) => expected.model === 'session' && expected.reml);
   it.each(cases.map((expected) => [expected.name, expected] as const))('%s: equals REMLcrit', (_, expected) => {
     const observations = observationsFromData(expected.data!);
-    const assessors = codes(observations.map((row) => row.assessor));
-    const products = codes(observations.map((row) => row.product));
-    const withInteraction = expected.terms.includes('assessor:product');
-    const criterion = makeSessionCriterion(
-      observations.map((row) => row.value),
-      assessors.codes,
-      products.codes,
-      assessors.levels.length,
-      products.levels.length,
-      withInteraction,
-    );
+    const criterion = sessionCriterionOf(observations, expected.terms.includes('assessor:product'));
     const theta = expected.terms.map((term) => expected.theta[term]);
     const value = criterion.evaluate(theta);
     expect(Math.abs(value - expected.criterion) / Math.abs(expected.criterion)).toBeLessThanOrEqual(tol.CRITERION_AT_FIXED_THETA_RELATIVE);
   });
 });
-
-/** An unbalanced session: each rating kept with probability 1 − dropShare, some whole cells dropped, replicates 1–3 per cell. */
-function unbalancedSession(seed: number, nAssessors: number, nProducts: number, dropShare: number, sdAssessor: number, sdInteraction: number): Observation[] {
-  const random = seededRandom(seed);
-  const gaussian = (): number => Math.sqrt(-2 * Math.log(1 - random())) * Math.cos(2 * Math.PI * random());
-  const rows: Observation[] = [];
-  for (let a = 0; a < nAssessors; a++) {
-    const level = sdAssessor * gaussian();
-    for (let p = 0; p < nProducts; p++) {
-      const cellEffect = sdInteraction * gaussian();
-      if (random() < 0.08) continue;
-      const replicates = 1 + Math.floor(random() * 3);
-      for (let r = 1; r <= replicates; r++) {
-        const value = Math.round((4 + 0.4 * p + level + cellEffect + 0.7 * gaussian()) * 100) / 100;
-        if (random() >= dropShare) rows.push({ session: 'S1', attribute: 'sweet', assessor: `J${a + 1}`, product: `P${(p * 7) % 10}${p}`, replicate: r, value });
-      }
-    }
-  }
-  return rows;
-}
 
 const near = (actual: number | null, expected: number | null, tolerance: number, label: string): void => {
   if (expected === null) {
