@@ -1,5 +1,5 @@
 /**
- * Exact first and second derivatives of the one-session REML criterion (session-criterion.ts)
+ * Exact first and second derivatives of the one-session REML criterion (session-criterion.ts, methods §1.9)
  * in γ = θ², from the same cell summaries, for Newton steps (session-newton.ts) and for the
  * Satterthwaite df (session-cells-fit.ts). Notation as in session-criterion.ts; k, l ∈ {a, ap},
  * G_k = Z_kZ_kᵀ, P = H⁻¹ − H⁻¹XC⁻¹XᵀH⁻¹, q_k = yᵀPG_kPy, q_kl = yᵀPG_kPG_lPy. With ∂P/∂γ_k = −PG_kP

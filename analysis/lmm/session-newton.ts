@@ -1,8 +1,8 @@
 /**
- * Minimises the one-session REML criterion over γ = θ² ≥ 0 by Newton steps with the exact
+ * Minimises the one-session REML criterion over γ = θ² ≥ 0 (methods §1.9) by Newton steps with the exact
  * Hessian (session-criterion-hessian.ts): a projected Newton method with an active set for the
- * bounds (Nocedal & Wright 2006, Numerical Optimization, 2nd ed., §16.7 gradient projection and
- * §3.4 Hessian modification; Bertsekas 1982, SIAM J. Control Optim. 20:221, projected Newton).
+ * bounds (Nocedal & Wright 2006, Numerical Optimization, 2nd ed., section 16.7 gradient projection and
+ * section 3.4 Hessian modification; Bertsekas 1982, SIAM J. Control Optim. 20:221, projected Newton).
  *
  * - A component at γ_k = 0 is held there while ∂f/∂γ_k > 0 (the Karush–Kuhn–Tucker sign: moving
  *   inwards would raise the criterion), or while the Newton step on the others would push it
