@@ -45,8 +45,10 @@ export function fitSessionCells(criterion: SessionCriterion, startTheta: number[
   const sigma2 = solution.pwrss / degrees;
   const sigma = Math.sqrt(sigma2);
   const unscaledCov = toTreatmentCoding(solution.unscaledCovMeans, p);
-  const covBeta = Float64Array.from(unscaledCov, (value) => value * sigma2);
-  const beta = Float64Array.from(solution.productMeans, (mean, j) => (j === 0 ? mean : mean - solution.productMeans[0]));
+  // Loops rather than Float64Array.from with a mapping function, which is slow in V8.
+  const covBeta = toTreatmentCoding(solution.unscaledCovMeans, p, sigma2);
+  const beta = new Float64Array(p);
+  for (let j = 0; j < p; j++) beta[j] = j === 0 ? solution.productMeans[0] : solution.productMeans[j] - solution.productMeans[0];
   const messages = [...optimum.messages];
 
   const contrasts = productContrastRows(treatmentCrossProduct(productCounts), p);
@@ -114,20 +116,17 @@ function exactVarpar(
       hessian[i * dimension + j] = 4 * theta[a] * theta[b] * hessianGamma[a * k + b] + (a === b ? 2 * gradientGamma[a] : 0);
     }
   }
-  const jacobians = free.map((index) => {
-    const scale = 2 * theta[index] * sigma2;
-    return Float64Array.from(toTreatmentCoding(covarianceDerivatives[index], p), (value) => scale * value);
-  });
+  const jacobians = free.map((index) => toTreatmentCoding(covarianceDerivatives[index], p, 2 * theta[index] * sigma2));
   const pwrssGradient = free.map((index) => -2 * theta[index] * second.residualQuadratics[index]);
   const finite = hessian.every(Number.isFinite) && jacobians.every((jacobian) => jacobian.every(Number.isFinite));
   return finite ? completeVarparCovariance(hessian, jacobians, pwrssGradient, pwrss, sigma, degrees, unscaledCov) : null;
 }
 
 /**
- * T M Tᵀ for the map from product means μ to lme4's treatment coding β (β_0 = μ_0,
+ * scale × T M Tᵀ for the map from product means μ to lme4's treatment coding β (β_0 = μ_0,
  * β_j = μ_j − μ_0): row-major p×p.
  */
-function toTreatmentCoding(matrix: Float64Array, p: number): Float64Array {
+function toTreatmentCoding(matrix: Float64Array, p: number, scale = 1): Float64Array {
   const out = new Float64Array(p * p);
   const at = (i: number, j: number): number => matrix[i * p + j];
   for (let i = 0; i < p; i++) {
@@ -136,7 +135,7 @@ function toTreatmentCoding(matrix: Float64Array, p: number): Float64Array {
       if (i > 0) value -= at(0, j);
       if (j > 0) value -= at(i, 0);
       if (i > 0 && j > 0) value += at(0, 0);
-      out[i * p + j] = value;
+      out[i * p + j] = scale * value;
     }
   }
   return out;

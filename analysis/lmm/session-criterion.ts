@@ -303,7 +303,8 @@ export function makeSessionCriterion(
       const [gammaA, gammaAP] = gammas(theta);
       const deviance = compute(gammaA, gammaAP);
       if (!Number.isFinite(deviance)) return null;
-      const productMeans = Float64Array.from(beta, (value) => value + grand);
+      const productMeans = new Float64Array(nProducts);
+      for (let j = 0; j < nProducts; j++) productMeans[j] = beta[j] + grand;
       const assessorModes = new Float64Array(nAssessors);
       const assessorConditional = new Float64Array(nAssessors);
       for (let a = 0; a < nAssessors; a++) {
