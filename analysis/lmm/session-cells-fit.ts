@@ -54,7 +54,7 @@ export function fitSessionCells(criterion: SessionCriterion, startTheta: number[
   const contrasts = productContrastRows(treatmentCrossProduct(productCounts), p);
   let varpar: ReturnType<typeof completeVarparCovariance> | null = null;
   if (contrasts.length > 0) {
-    varpar = exactVarpar(second, theta, sigma, degrees, solution.pwrss, unscaledCov);
+    varpar = exactVarpar(second, optimum.gamma, theta, sigma, degrees, solution.pwrss, unscaledCov);
     if (!varpar) return null;
     if (varpar.hessianEigenvalues.some((value) => value < -1e-8)) messages.push('the Hessian of the criterion has a negative eigenvalue: the fit may not be at a minimum');
   }
@@ -91,6 +91,7 @@ export function fitSessionCells(criterion: SessionCriterion, startTheta: number[
  */
 function exactVarpar(
   second: SessionSecondOrder,
+  gamma: Float64Array,
   theta: Float64Array,
   sigma: number,
   degrees: number,
@@ -100,7 +101,9 @@ function exactVarpar(
   const k = second.nComponents;
   const p = Math.round(Math.sqrt(unscaledCov.length));
   const sigma2 = sigma * sigma;
-  if (!Number.isFinite(second.evaluate(theta[0] * theta[0], k > 1 ? theta[1] * theta[1] : 0))) return null;
+  // The search's last evaluation is usually at the answer already: its pieces are reused.
+  const atAnswer = second.lastGamma[0] === gamma[0] && (k === 1 || second.lastGamma[1] === gamma[1]);
+  if (!atAnswer && !Number.isFinite(second.evaluate(gamma[0], k > 1 ? gamma[1] : 0))) return null;
   const gradientGamma = new Float64Array(k);
   const hessianGamma = new Float64Array(k * k);
   const covarianceDerivatives = Array.from({ length: k }, () => new Float64Array(p * p));

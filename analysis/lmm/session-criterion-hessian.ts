@@ -36,6 +36,8 @@ export interface SessionSecondOrder {
   evaluate(gammaA: number, gammaAP: number): number;
   readonly gradient: Float64Array;
   readonly hessian: Float64Array;
+  /** (γ_a, γ_ap) of the last evaluate() that was finite (NaN before any). */
+  readonly lastGamma: Float64Array;
   /**
    * After evaluate(): the derivatives of h(γ) = log|H| + log|C| + pwrss/σ² at fixed σ² (the
    * unprofiled REML deviance less its σ terms), gradient and Hessian in γ into the given buffers,
@@ -65,6 +67,7 @@ export function makeSessionSecondOrder(criterion: SessionCriterion): SessionSeco
   const gradient = new Float64Array(k);
   const hessian = new Float64Array(k * k);
   const residualQuadratics = new Float64Array(k);
+  const lastGamma = new Float64Array(2).fill(Number.NaN);
   // tr(PG_k), tr(PG_kPG_l) and q_kl of the last evaluation (index 0 = a, 1 = ap; kl row-major).
   const traces = new Float64Array(2);
   const traceProducts = new Float64Array(4);
@@ -214,10 +217,14 @@ export function makeSessionSecondOrder(criterion: SessionCriterion): SessionSeco
     hessian,
     residualQuadratics,
     inverseC: inverse,
+    lastGamma,
     evaluate(gammaA, gammaAP) {
+      lastGamma.fill(Number.NaN);
       const value = criterion.valueAtGamma(gammaA, withInteraction ? gammaAP : 0);
       if (!Number.isFinite(value)) return Number.POSITIVE_INFINITY;
       pieces(gammaA);
+      lastGamma[0] = gammaA;
+      lastGamma[1] = withInteraction ? gammaAP : 0;
       const pwrss = state.pwrss();
       for (let i = 0; i < k; i++) {
         gradient[i] = traces[i] - (degrees * residualQuadratics[i]) / pwrss;

@@ -34,7 +34,12 @@ const MAX_ITERATIONS = 100;
 const TIE_PROBE = 1e-6;
 const ARMIJO = 1e-4;
 
-export function minimizeSessionNewton(second: SessionSecondOrder, startTheta: ArrayLike<number>): OptimiserResult {
+/** The optimiser's result, with the answer also in γ (θ² may differ from it in the last bit). */
+export interface SessionNewtonResult extends OptimiserResult {
+  gamma: Float64Array;
+}
+
+export function minimizeSessionNewton(second: SessionSecondOrder, startTheta: ArrayLike<number>): SessionNewtonResult {
   const k = second.nComponents;
   const tolerance = DEFAULT_OPTIMISER_CONTROL.newtonDecrementTolerance;
   const gamma = new Float64Array(k);
@@ -144,6 +149,7 @@ export function minimizeSessionNewton(second: SessionSecondOrder, startTheta: Ar
   const projectedGradient = Float64Array.from(best.gradient, (g, i) => (best.gamma[i] === 0 ? Math.min(g, 0) : g));
   return {
     theta: Float64Array.from(best.gamma, (value) => Math.sqrt(value)),
+    gamma: best.gamma,
     value: best.value,
     iterations,
     evaluations,
