@@ -20,12 +20,17 @@ export interface GradientPieces {
   modeSquares: Float64Array;
 }
 
-/** Work vectors of one objective's gradients (nothing is kept in them between calls). */
+/** Work vectors of one objective's gradients, and the pieces of the last factor asked for. */
 export interface GradientScratch {
   inverseDiagonal: Float64Array;
   modes: Float64Array;
   fixedRows: Float64Array;
   rowBuffer: Float64Array;
+  /**
+   * Factors never change, so their pieces can be kept: the Satterthwaite step at θ̂ then reuses
+   * the optimiser's last gradient instead of a second inverse diagonal.
+   */
+  last?: { factor: CriterionFactor; pieces: GradientPieces | null };
 }
 
 export function makeGradientScratch(setting: CriterionSetting): GradientScratch {
@@ -34,8 +39,16 @@ export function makeGradientScratch(setting: CriterionSetting): GradientScratch 
   return { inverseDiagonal: new Float64Array(q), modes: new Float64Array(q), fixedRows: new Float64Array(q * p), rowBuffer: new Float64Array(p) };
 }
 
-/** tr T_kk and ‖u_k‖² per term; null where the criterion is not finite at the factor's θ. */
+/**
+ * tr T_kk and ‖u_k‖² per term; null where the criterion is not finite at the factor's θ. The
+ * result is shared with later calls for the same factor: read it, do not change it.
+ */
 export function gradientPiecesOf(setting: CriterionSetting, factor: CriterionFactor, scratch: GradientScratch): GradientPieces | null {
+  if (scratch.last?.factor !== factor) scratch.last = { factor, pieces: computeGradientPieces(setting, factor, scratch) };
+  return scratch.last.pieces;
+}
+
+function computeGradientPieces(setting: CriterionSetting, factor: CriterionFactor, scratch: GradientScratch): GradientPieces | null {
   if (!Number.isFinite(factor.parts.deviance)) return null;
   const { frame, reml } = setting;
   const q = frame.layout.size;
