@@ -67,6 +67,13 @@ export interface RefitOptions {
   scope?: 'stale' | 'all';
   windowSessions?: number;
   onProgress?: (progress: RefitProgress) => void;
+  /**
+   * Build the flags on this thread instead of in a worker. A worker needs the panel history
+   * cloned to it (a year: about 4 MB of objects, mostly the index rows; the clone costs about as
+   * much as building the flags), but keeps this thread free: worth it for one-shot commands,
+   * where nothing else waits on this thread; not for the service, whose requests do.
+   */
+  flagsOnCallingThread?: boolean;
 }
 
 export interface RefitSummary {
@@ -176,7 +183,9 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
   if (needFlags) {
     // The same history and ratings as buildPanelHistory and loadPackedRatings, read incrementally.
     const { history, ratings } = loadFlagInputs(db, panel.id, { windowSessions });
-    const result = await options.runner.run({ type: 'flags', history, ratings, thresholds, retraining: retrainingDone });
+    const task = { type: 'flags' as const, history, ratings, thresholds, retraining: retrainingDone };
+    // Loaded only here: the flag engine is the worker's code, not needed otherwise on this thread.
+    const result = options.flagsOnCallingThread ? (await import('./workers/fit-tasks.js')).runFlagsTask(task) : await options.runner.run(task);
     replaceCurrentFlags(db, panel.id, result.flags, { dataSignature, thresholdsHash: inputsHash });
     const linkedKeys = new Map(listRetraining(db, panel.id).map((r) => [r.id, r.flagKeys]));
     for (const { id, evaluation } of result.retraining) {
