@@ -119,11 +119,15 @@ export function plural(n: number, one: string, many = `${one}s`): string {
   return `${n} ${n === 1 ? one : many}`;
 }
 
-const LOCAL_TIME = new Intl.DateTimeFormat('en-GB', { day: 'numeric', month: 'short', year: 'numeric', hour: '2-digit', minute: '2-digit', hour12: false });
+// Made on first use: building an Intl formatter loads locale data (about 40 ms), which commands
+// that never print a time (e.g. `flags`) should not pay at start-up.
+let localTimeFormat: Intl.DateTimeFormat | undefined;
 
 /** An instant in the server's local time zone: "4 Dec 2026, 15:40". */
 export function localTime(iso: string | null | undefined): string {
   if (!iso) return '—';
   const date = new Date(iso);
-  return Number.isNaN(date.getTime()) ? iso : LOCAL_TIME.format(date);
+  if (Number.isNaN(date.getTime())) return iso;
+  localTimeFormat ??= new Intl.DateTimeFormat('en-GB', { day: 'numeric', month: 'short', year: 'numeric', hour: '2-digit', minute: '2-digit', hour12: false });
+  return localTimeFormat.format(date);
 }

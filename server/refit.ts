@@ -14,23 +14,11 @@ import {
   listProducts,
   listSessionVersions,
   listStaleSessions,
-  loadPackedRatings,
   loadSessionRatings,
-  unpackRatings,
   type SessionRatings,
   type SessionVersionRow,
 } from '../store/fits-sessions.js';
-import {
-  deletePeriodFitsExcept,
-  loadPeriodFits,
-  loadPeriodSignatures,
-  loadSessionFits,
-  loadSessionIndices,
-  loadSessionQuality,
-  savePeriodFit,
-  saveSessionResults,
-  type WindowSignature,
-} from '../store/fits-results.js';
+import { saveSessionResults } from '../store/fits-results.js';
 import { closeFlagsByKey, loadFlagBuild, replaceCurrentFlags } from '../store/monitor-flags.js';
 import { loadFlagInputs } from '../store/read-flag-inputs.js';
 import { ANALYSIS_VERSION, DEFAULT_WINDOW_SESSIONS, panelDataSignature } from '../store/panel-history.js';
@@ -40,14 +28,13 @@ export { ANALYSIS_VERSION, buildPanelHistory, DEFAULT_WINDOW_SESSIONS, panelData
 import { listPanelEvents, listRetraining, syncRetrainingEvents, updateRetraining } from '../store/monitor-events.js';
 import { loadPanelThresholds } from '../store/monitor-settings.js';
 import { createRefitJob, getRefitJob, markRefitJob, type RefitJob } from '../store/monitor-jobs.js';
-import { relativeSdsFromVariances } from '../analysis/lmm/fit-period-model.js';
+import { refitPeriodWindows } from './refit-periods.js';
+
+// The period step lives in refit-periods.ts; these names stay importable from here.
+export { MIN_WINDOW_SESSIONS, periodWindows, type StoredPeriodResult } from './refit-periods.js';
 import type { FitRunner } from './fit-pool.js';
-import type { PanelHistory } from '../analysis/monitor/series.js';
-import type { PeriodFitResult, PeriodTask, RatedObservation, RetrainingToEvaluate } from './workers/fit-task-types.js';
+import type { RetrainingToEvaluate } from './workers/fit-task-types.js';
 
-
-/** A period model needs at least 3 sessions (methods notes §2.8, `short_period`). */
-export const MIN_WINDOW_SESSIONS = 3;
 
 export class PanelNotFoundError extends Error {
   constructor(readonly panelName: string) {
@@ -80,6 +67,13 @@ export interface RefitOptions {
   scope?: 'stale' | 'all';
   windowSessions?: number;
   onProgress?: (progress: RefitProgress) => void;
+  /**
+   * Build the flags on this thread instead of in a worker. A worker needs the panel history
+   * cloned to it (a year: about 4 MB of objects, mostly the index rows; the clone costs about as
+   * much as building the flags), but keeps this thread free: worth it for one-shot commands,
+   * where nothing else waits on this thread; not for the service, whose requests do.
+   */
+  flagsOnCallingThread?: boolean;
 }
 
 export interface RefitSummary {
@@ -91,26 +85,6 @@ export interface RefitSummary {
   dataSignature: string;
   durationMs: number;
 }
-
-/**
- * The period windows kept: consecutive blocks of `windowSessions` sessions (1–12, 13–24, …: the
- * history of product stability without overlap) plus the rolling window of the latest
- * `windowSessions` sessions (the current state). Every window has at least MIN_WINDOW_SESSIONS.
- * Fitting a window at every session would multiply the (costly) period fits by the window length
- * for little extra information, since overlapping windows share most of their data.
- */
-export function periodWindows<T>(sessions: readonly T[], windowSessions: number): T[][] {
-  const windows: T[][] = [];
-  const n = sessions.length;
-  for (let last = 0; last < n; last++) {
-    const isBlockEnd = (last + 1) % windowSessions === 0;
-    if (!isBlockEnd && last !== n - 1) continue;
-    const window = sessions.slice(Math.max(0, last - windowSessions + 1), last + 1);
-    if (window.length >= MIN_WINDOW_SESSIONS) windows.push(window);
-  }
-  return windows;
-}
-
 
 function hashJson(value: unknown): string {
   return createHash('sha256').update(JSON.stringify(value ?? null)).digest('hex').slice(0, 32);
@@ -176,55 +150,17 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
   );
 
   // 2. Period windows whose sessions or data versions differ from what the stored fit used.
-  const windows = periodWindows(sessions, windowSessions);
-  // Warm starts are read before the windows that no longer exist (the previous latest window)
-  // are deleted: that window's fit is the best start for the new latest window.
-  const warmStarts = storedStartValues(db, panel.id, windowSessions, sessions);
-  deletePeriodFitsExcept(db, panel.id, windowSessions, windows.map((w) => w[w.length - 1].id));
-  const stored = options.scope === 'all' ? new Map<string, string>() : loadPeriodSignatures(db, panel.id, windowSessions);
-  const periodJobs: { attributeId: number; attribute: string; window: SessionVersionRow[]; signature: WindowSignature }[] = [];
-  for (const window of windows) {
-    const signature: WindowSignature = window.map((s) => [s.label, s.dataVersion]);
-    const last = window[window.length - 1];
-    for (const attribute of attributes) {
-      if (stored.get(`${attribute.id}:${last.id}`) === `${ANALYSIS_VERSION}|${JSON.stringify(signature)}`) continue;
-      periodJobs.push({ attributeId: attribute.id, attribute: attribute.name, window, signature });
-    }
-  }
-  let periodsDone = 0;
-  await Promise.all(
-    periodJobs.map(async (job) => {
-      const observations: RatedObservation[] = job.window.flatMap((s) => ratingsOf(s).byAttribute.get(job.attribute) ?? []);
-      const result = await options.runner.run({
-        type: 'period',
-        attribute: job.attribute,
-        scale: scaleOf.get(job.attribute)!,
-        sessions: job.window.map((s) => s.label),
-        observations,
-        ...warmStarts.nearest(job.attribute, job.window[job.window.length - 1]),
-      });
-      if (result.failure) {
-        const window = `${job.window[0].label} to ${job.window[job.window.length - 1].label}`;
-        options.logger?.error({ panel: panel.name, attribute: job.attribute, window, stack: result.failure.stack }, `period fit failed: ${result.failure.message}`);
-      }
-      savePeriodFit(db, panel.id, {
-        attributeId: job.attributeId,
-        windowSessions,
-        firstSessionId: job.window[0].id,
-        lastSessionId: job.window[job.window.length - 1].id,
-        sessions: job.signature,
-        analysisVersion: ANALYSIS_VERSION,
-        result: (result.result ?? { problem: result.problem ?? 'not fitted' }) satisfies StoredPeriodResult,
-      });
-      periodsDone += 1;
-      options.onProgress?.({
-        phase: 'periods',
-        done: periodsDone,
-        total: periodJobs.length,
-        label: `${job.attribute} @ ${job.window[job.window.length - 1].label}`,
-      });
-    }),
-  );
+  const periodFitsRefitted = await refitPeriodWindows(db, {
+    panel,
+    sessions,
+    attributes,
+    ratingsOf,
+    windowSessions,
+    scope: options.scope ?? 'stale',
+    runner: options.runner,
+    logger: options.logger,
+    onProgress: options.onProgress,
+  });
 
   // 3. Flags (and the retraining evaluations), when anything they read has changed: the data,
   //    the thresholds, the events (baseline restarts) or the retraining records.
@@ -240,14 +176,16 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
   const needFlags =
     options.scope === 'all' ||
     targets.length > 0 ||
-    periodJobs.length > 0 ||
+    periodFitsRefitted > 0 ||
     lastBuild?.dataSignature !== dataSignature ||
     lastBuild?.thresholdsHash !== inputsHash;
   let nFlags = lastBuild?.nFlags ?? 0;
   if (needFlags) {
     // The same history and ratings as buildPanelHistory and loadPackedRatings, read incrementally.
     const { history, ratings } = loadFlagInputs(db, panel.id, { windowSessions });
-    const result = await options.runner.run({ type: 'flags', history, ratings, thresholds, retraining: retrainingDone });
+    const task = { type: 'flags' as const, history, ratings, thresholds, retraining: retrainingDone };
+    // Loaded only here: the flag engine is the worker's code, not needed otherwise on this thread.
+    const result = options.flagsOnCallingThread ? (await import('./workers/fit-tasks.js')).runFlagsTask(task) : await options.runner.run(task);
     replaceCurrentFlags(db, panel.id, result.flags, { dataSignature, thresholdsHash: inputsHash });
     const linkedKeys = new Map(listRetraining(db, panel.id).map((r) => [r.id, r.flagKeys]));
     for (const { id, evaluation } of result.retraining) {
@@ -260,51 +198,11 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
   return {
     panel: panel.name,
     sessionsRefitted: targets.map((s) => s.label),
-    periodFitsRefitted: periodJobs.length,
+    periodFitsRefitted,
     flagsRebuilt: needFlags,
     nFlags,
     dataSignature,
     durationMs: performance.now() - startedMs,
-  };
-}
-
-/**
- * Relative SDs θ = σ_term/σ_residual of the stored period fits, by attribute and last session,
- * and the nearest one for a window: the stored fit ending at the same session, else the one
- * ending at the latest session before it (the previous latest window after a new session).
- */
-function storedStartValues(
-  db: Database,
-  panelId: number,
-  windowSessions: number,
-  sessions: readonly SessionVersionRow[],
-): { nearest(attribute: string, last: SessionVersionRow): Pick<PeriodTask, 'startRelativeSds' | 'startReducedRelativeSds'> } {
-  const order = new Map(sessions.map((s, i) => [s.label, i]));
-  type Start = { lastIndex: number; relativeSds: Record<string, number>; reduced: Record<string, number> | null };
-  const byAttribute = new Map<string, Start[]>();
-  for (const stored of loadPeriodFits(db, panelId)) {
-    if (stored.windowSessions !== windowSessions) continue;
-    const result = stored.result as StoredPeriodResult;
-    const lastIndex = order.get(stored.lastSession);
-    if ('problem' in result || lastIndex === undefined) continue;
-    const relativeSds = relativeSdsFromVariances(result.json.variance);
-    if (!relativeSds) continue;
-    let list = byAttribute.get(stored.attribute);
-    if (!list) byAttribute.set(stored.attribute, (list = []));
-    list.push({ lastIndex, relativeSds, reduced: result.reducedRelativeSds ?? null });
-  }
-  return {
-    nearest(attribute, last) {
-      const target = order.get(last.label);
-      let best: Start | null = null;
-      for (const candidate of byAttribute.get(attribute) ?? []) {
-        if (target === undefined || candidate.lastIndex > target) continue;
-        if (!best || candidate.lastIndex > best.lastIndex) best = candidate;
-      }
-      // A stored fit more than a window away shares no data with this window.
-      if (!best || target! - best.lastIndex >= windowSessions) return {};
-      return { startRelativeSds: best.relativeSds, startReducedRelativeSds: best.reduced };
-    },
   };
 }
 
@@ -320,8 +218,6 @@ function retrainingToEvaluate(db: Database, panelId: number, sessions: readonly 
   });
 }
 
-/** What a stored period fit holds: the period task's result, or the sentence saying why there is none. */
-export type StoredPeriodResult = PeriodFitResult | { problem: string };
 
 
 /**

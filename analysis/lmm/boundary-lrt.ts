@@ -42,7 +42,9 @@ export function boundaryLikelihoodRatioTest(
   let start = startTheta ?? Array.from(full.theta).filter((_, k) => k !== index).map((value) => Math.max(value, 0.05));
   if (alternativeStart && alternativeStart.length === start.length && alternativeStart.every((value) => Number.isFinite(value) && value >= 0)) {
     const lifted = alternativeStart.map((value) => Math.max(value, 0.01));
-    if (objective.evaluate(expand(lifted)) < objective.evaluate(expand(start))) start = lifted;
+    // The other start last: when it is taken, the search's first evaluation reuses its factor.
+    const atStart = objective.evaluate(expand(start));
+    if (objective.evaluate(expand(lifted)) < atStart) start = lifted;
   }
   // The average information of the full model at θ with the term at 0 is the reduced model's.
   const kept = [...Array(nTheta).keys()].filter((k) => k !== index);

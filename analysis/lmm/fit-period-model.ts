@@ -177,5 +177,8 @@ function chooseStart(objective: RemlObjective, defaultStart: number[], warm: Rec
   const warmStart = objective.frame.terms.map((term) => warm[term.name]);
   if (!warmStart.every((value) => typeof value === 'number' && Number.isFinite(value) && value >= 0)) return defaultStart;
   const lifted = warmStart.map((value) => Math.max(value, 0.01));
-  return objective.evaluate(lifted) < objective.evaluate(defaultStart) ? lifted : defaultStart;
+  // The default first: the objective keeps the last factor, so the optimiser's first evaluation
+  // at the (usually chosen) warm start reuses it.
+  const atDefault = objective.evaluate(defaultStart);
+  return objective.evaluate(lifted) < atDefault ? lifted : defaultStart;
 }

@@ -60,7 +60,7 @@ export function registerFlagsCommand(program: Command): void {
           const [{ createFitPool }, { refitPanel }] = await Promise.all([import('../fit-pool.js'), import('../refit.js')]);
           const runner = createFitPool();
           try {
-            await refitPanel(db, options.panel, { runner, logger: stderrFitLogger });
+            await refitPanel(db, options.panel, { runner, logger: stderrFitLogger, flagsOnCallingThread: true });
           } finally {
             await runner.close();
           }

@@ -77,6 +77,7 @@ export function registerRefitCommand(program: Command): void {
           scope: options.changedOnly ? 'stale' : 'all',
           onProgress: (p) => progress.update(p),
           logger: stderrFitLogger,
+          flagsOnCallingThread: true,
         });
         progress.stop();
         process.stdout.write(`${describeRefit(summary)}\n`);

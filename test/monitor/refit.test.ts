@@ -201,6 +201,20 @@ describe('refitPanel', () => {
     expect(runner.counts).toEqual({ session: 0, period: 0, flags: 1 });
   });
 
+  it('builds the same flags on the calling thread as through the runner when asked to', async () => {
+    const panel = smallPanel();
+    await importRatings(db, panel);
+    await refitPanel(db, panel.panelName, { runner: bookkeeping() });
+    const panelId = findPanel(db, panel.panelName)!.id;
+    const viaRunner = listFlags(db, panelId).map((f) => [f.key, f.isCurrent, f.flag.message]);
+    savePanelThresholds(db, panelId, { fdrLevel: 0.05 });
+    const runner = bookkeeping();
+    const summary = await refitPanel(db, panel.panelName, { runner, flagsOnCallingThread: true });
+    expect(runner.counts).toEqual({ session: 0, period: 0, flags: 0 });
+    expect(summary.flagsRebuilt).toBe(true);
+    expect(listFlags(db, panelId).map((f) => [f.key, f.isCurrent, f.flag.message])).toEqual(viaRunner);
+  });
+
   it("scope 'all' recomputes everything", async () => {
     const panel = smallPanel();
     await importRatings(db, panel);
