@@ -284,7 +284,7 @@ function storedStartValues(
   const byAttribute = new Map<string, Start[]>();
   for (const stored of loadPeriodFits(db, panelId)) {
     if (stored.windowSessions !== windowSessions) continue;
-    const result = stored.result as StoredPeriodResult;
+    const result = stored.result;
     const lastIndex = order.get(stored.lastSession);
     if ('problem' in result || lastIndex === undefined) continue;
     const relativeSds = relativeSdsFromVariances(result.json.variance);
@@ -320,8 +320,8 @@ function retrainingToEvaluate(db: Database, panelId: number, sessions: readonly 
   });
 }
 
-/** What a stored period fit holds: the period task's result, or the sentence saying why there is none. */
-export type StoredPeriodResult = PeriodFitResult | { problem: string };
+import type { StoredPeriodResult } from '../domain/analysis.js';
+export type { StoredPeriodResult };
 
 
 /**

@@ -64,14 +64,8 @@ export interface PeriodTask {
   startReducedRelativeSds?: Record<string, number> | null;
 }
 
-export interface PeriodFitResult {
-  json: FitJson;
-  diagnostics: unknown;
-  /** Boundary likelihood-ratio test of product:session (null when not made). */
-  lrt: { likelihoodRatio: number; pValue: number } | null;
-  /** Relative SDs of the LRT's fit without product:session, by term (a warm start for later refits). */
-  reducedRelativeSds?: Record<string, number> | null;
-}
+export type { PeriodFitResult } from '../../domain/analysis.js';
+import type { PeriodFitResult } from '../../domain/analysis.js';
 
 export interface PeriodTaskResult {
   attribute: string;

@@ -18,6 +18,7 @@ import { addPanelEvent } from '../../store/monitor-events.js';
 import { loadFlagInputs } from '../../store/read-flag-inputs.js';
 import { panelSettings, type GeneratedPanel } from '../../demo/generate-panel.js';
 import type { Rating } from '../../domain/ratings.js';
+import type { FitJson, StoredPeriodResult } from '../../domain/analysis.js';
 import { importRatingEvents } from '../../store/import-core.js';
 import { discardQuarantined, listQuarantined, releaseQuarantined } from '../../store/quarantine.js';
 import { countingRunner, makeTestStore, smallPanel } from './helpers.js';
@@ -77,7 +78,7 @@ describe('loadFlagInputs reads what buildPanelHistory and loadPackedRatings read
     const sessions = listSessionVersions(db, panelId);
     const [attribute, other] = listAttributes(db, panelId);
     const window = sessions.slice(0, WINDOW);
-    const record = (attributeId: number, result: unknown) => ({
+    const record = (attributeId: number, result: StoredPeriodResult) => ({
       attributeId,
       windowSessions: WINDOW,
       firstSessionId: window[0].id,
@@ -86,7 +87,7 @@ describe('loadFlagInputs reads what buildPanelHistory and loadPackedRatings read
       analysisVersion: 'test',
       result,
     });
-    savePeriodFit(db, panelId, record(attribute.id, { json: { variance: { 'product:session': 0.04, residual: 0.2 } }, lrt: { likelihoodRatio: 9.1, pValue: 0.0013 }, diagnostics: {} }));
+    savePeriodFit(db, panelId, record(attribute.id, { json: { variance: { 'product:session': 0.04, residual: 0.2 } } as unknown as FitJson, lrt: { likelihoodRatio: 9.1, pValue: 0.0013 }, diagnostics: {} }));
     savePeriodFit(db, panelId, record(other.id, { problem: 'Not fitted in this test.' }));
     addPanelEvent(db, panelId, { kind: 'retraining', session: sessions[6].label, assessor: 'A02', note: 'retrained' });
     const inputs = expectSameAsBefore(db, panelId);
