@@ -14,7 +14,6 @@ import {
   listProducts,
   listSessionVersions,
   listStaleSessions,
-  loadPackedRatings,
   loadSessionRatings,
   unpackRatings,
   type SessionRatings,
@@ -32,11 +31,10 @@ import {
   type WindowSignature,
 } from '../store/fits-results.js';
 import { closeFlagsByKey, loadFlagBuild, replaceCurrentFlags } from '../store/monitor-flags.js';
-import { loadFlagInputs } from '../store/read-flag-inputs.js';
-import { ANALYSIS_VERSION, DEFAULT_WINDOW_SESSIONS, panelDataSignature } from '../store/panel-history.js';
+import { ANALYSIS_VERSION, createHistoryReadMemo, DEFAULT_WINDOW_SESSIONS, loadPackedRatings, loadPanelHistory, panelDataSignature, type HistoryReadMemo } from '../store/panel-history.js';
 
 // The read model moved to the store; these names stay importable from here for the refit's callers.
-export { ANALYSIS_VERSION, buildPanelHistory, DEFAULT_WINDOW_SESSIONS, panelDataSignature } from '../store/panel-history.js';
+export { ANALYSIS_VERSION, DEFAULT_WINDOW_SESSIONS, loadPanelHistory, panelDataSignature } from '../store/panel-history.js';
 import { listPanelEvents, listRetraining, syncRetrainingEvents, updateRetraining } from '../store/monitor-events.js';
 import { loadPanelThresholds } from '../store/monitor-settings.js';
 import { createRefitJob, getRefitJob, markRefitJob, type RefitJob } from '../store/monitor-jobs.js';
@@ -80,6 +78,11 @@ export interface RefitOptions {
   scope?: 'stale' | 'all';
   windowSessions?: number;
   onProgress?: (progress: RefitProgress) => void;
+  /**
+   * What the flag build read last time (kept by the caller between refits): with it, the history
+   * and ratings are read incrementally (parsed results and unchanged sessions reused).
+   */
+  readMemo?: HistoryReadMemo;
 }
 
 export interface RefitSummary {
@@ -245,8 +248,9 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
     lastBuild?.thresholdsHash !== inputsHash;
   let nFlags = lastBuild?.nFlags ?? 0;
   if (needFlags) {
-    // The same history and ratings as buildPanelHistory and loadPackedRatings, read incrementally.
-    const { history, ratings } = loadFlagInputs(db, panel.id, { windowSessions });
+    const readMemo = options.readMemo ?? createHistoryReadMemo();
+    const history = loadPanelHistory(db, panel.id, { windowSessions, memo: readMemo });
+    const ratings = loadPackedRatings(db, panel.id, readMemo);
     const result = await options.runner.run({ type: 'flags', history, ratings, thresholds, retraining: retrainingDone });
     replaceCurrentFlags(db, panel.id, result.flags, { dataSignature, thresholdsHash: inputsHash });
     const linkedKeys = new Map(listRetraining(db, panel.id).map((r) => [r.id, r.flagKeys]));
@@ -331,6 +335,8 @@ export type { StoredPeriodResult };
 export class RefitService {
   private chain: Promise<void> = Promise.resolve();
   private readonly pending = new Map<number, number>(); // panelId → queued job id
+  /** Kept between jobs: the flag build of the next refit reads only what changed. */
+  private readonly readMemo = createHistoryReadMemo();
 
   constructor(
     private readonly db: Database,
@@ -382,6 +388,7 @@ export class RefitService {
         runner: this.runner,
         logger: this.options.logger,
         windowSessions: this.options.windowSessions,
+        readMemo: this.readMemo,
         onProgress: (p) => markRefitJob(this.db, jobId, { nTasks: p.total, nDone: p.done, message: `${p.phase}: ${p.label}` }),
       });
       markRefitJob(this.db, jobId, {
