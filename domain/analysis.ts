@@ -96,3 +96,14 @@ export interface PeriodFitResult {
 
 /** What a stored period fit holds: the period fit, or the sentence saying why there is none. */
 export type StoredPeriodResult = PeriodFitResult | { problem: string };
+
+/**
+ * A session × attribute fit that could not be made, as the refit stores it with the session's
+ * results (`code` as in NotFittedJson, `message` the plain sentence).
+ */
+export interface SessionFitFinding {
+  code: string;
+  session: string;
+  attribute: string;
+  message: string;
+}

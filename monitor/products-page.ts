@@ -55,9 +55,7 @@ export function buildProductsPage(ctx: MonitorContext, params: { attribute?: unk
   const concordance = productRankConcordance(windowResults);
   // The session fits of this attribute that could not be made (stored as the session's findings by the refit).
   const notFitted = ctx.read.sessionQuality().flatMap((q) =>
-    (q.findings as { attribute?: string; message?: string }[])
-      .filter((f) => f.attribute === attribute && typeof f.message === 'string')
-      .map((f) => ({ session: q.session, reason: f.message! })),
+    q.findings.filter((f) => f.attribute === attribute && typeof f.message === 'string').map((f) => ({ session: q.session, reason: f.message })),
   );
   return buildProductStabilityView({
     notFitted,

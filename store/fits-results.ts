@@ -5,7 +5,7 @@
  * interpret them beyond their keys.
  */
 import type { Database } from 'better-sqlite3';
-import type { FitJson, StoredPeriodResult } from '../domain/analysis.js';
+import type { FitJson, SessionFitFinding, StoredPeriodResult } from '../domain/analysis.js';
 import type { AssessorSessionIndices } from '../analysis/indices/types.js';
 
 export interface AttributeFitResult {
@@ -21,8 +21,8 @@ export interface SessionResults {
   dataVersion: number;
   analysisVersion: string;
   attributes: AttributeFitResult[];
-  /** Data-quality findings of the session (analysis/quality), stored as given. */
-  findings: unknown[];
+  /** The fits of the session that could not be made, with the reason. */
+  findings: SessionFitFinding[];
 }
 
 /** Replace everything stored for a session with a new set of results (one transaction). */
@@ -109,7 +109,7 @@ export function loadSessionIndices(db: Database, panelId: number): AssessorSessi
 export interface StoredQuality {
   session: string;
   dataVersion: number;
-  findings: unknown[];
+  findings: SessionFitFinding[];
 }
 
 export function loadSessionQuality(db: Database, panelId: number): StoredQuality[] {
