@@ -5,7 +5,7 @@
  * (includes sizing the chart limits, memoised afterwards), the median of warm calls, and the call
  * after adding one session. Run: `npx tsx bench/flags-bench.ts`.
  */
-import { buildFlags } from '../analysis/flags/index.js';
+import { buildFlags as build, createFlagsMemo, type PanelThresholds } from '../analysis/flags/index.js';
 import { syntheticYear as yearHistory } from '../test/analysis/flags/helpers/equality-histories.js';
 
 const time = (f: () => unknown): number => {
@@ -14,6 +14,10 @@ const time = (f: () => unknown): number => {
   return performance.now() - start;
 };
 const median = (v: number[]) => [...v].sort((a, b) => a - b)[v.length >> 1];
+
+// One memo for the run, as the refit's flags phase keeps one per worker thread.
+const memo = createFlagsMemo();
+const buildFlags = (history: Parameters<typeof build>[0], settings?: PanelThresholds) => build(history, settings, { memo });
 
 const year = yearHistory(52);
 const previous = yearHistory(51);

@@ -18,6 +18,7 @@ import { createFitPool, type FitRunner } from '../server/fit-pool.js';
 import { refitPanel } from '../server/refit.js';
 import type { FitTask, FitTaskResult } from '../server/workers/fit-task-types.js';
 import { openStore } from '../store/open-store.js';
+import { createHistoryReadMemo } from '../store/panel-history.js';
 import { importRatings as importInto } from '../test/monitor/helpers.js';
 
 const argument = (name: string, fallback: number) => {
@@ -53,8 +54,10 @@ await importInto(db, panel, panel.ratings.filter((r) => r.session !== lastSessio
 const pool = createFitPool({ threads, mode: 'worker-threads' });
 const flagsTaskMs: number[] = [];
 const runner = timedRunner(pool, flagsTaskMs);
-await refitPanel(db, panel.panelName, { runner, scope: 'all' });
-await refitPanel(db, panel.panelName, { runner, scope: 'all' });
+// As the refit service keeps one between jobs: each refit's flag build reads only what changed.
+const readMemo = createHistoryReadMemo();
+await refitPanel(db, panel.panelName, { runner, scope: 'all', readMemo });
+await refitPanel(db, panel.panelName, { runner, scope: 'all', readMemo });
 const rows: { totalMs: number; flagsPhaseMs: number; flagsTaskMs: number; cpuMs: number; flagsCpuMs: number; nFlags: number; fingerprint: string }[] = [];
 for (let round = 0; round < rounds; round++) {
   await importInto(db, panel, round === 0 ? last : changedAt(round));
@@ -67,6 +70,7 @@ for (let round = 0; round < rounds; round++) {
   const summary = await refitPanel(db, panel.panelName, {
     runner,
     scope: 'stale',
+    readMemo,
     onProgress: (p) => {
       if (p.phase === 'sessions' && p.done === p.total) {
         sessionsEnd = performance.now();

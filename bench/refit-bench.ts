@@ -20,6 +20,7 @@ import { refitPanel, type RefitProgress, type RefitSummary } from '../server/ref
 import type { FitTask, FitTaskResult } from '../server/workers/fit-task-types.js';
 import { importRatingEvents } from '../store/import-core.js';
 import { openStore } from '../store/open-store.js';
+import { createHistoryReadMemo } from '../store/panel-history.js';
 import { dropRatings } from './missingness.js';
 
 const threadsArg = process.argv.indexOf('--threads');
@@ -61,6 +62,9 @@ const cpuNowMs = (): number => {
   return (usage.user + usage.system) / 1000;
 };
 
+/** As the refit service keeps one between jobs: each refit's flag build reads only what changed. */
+const readMemo = createHistoryReadMemo();
+
 async function timedRefit(db: ReturnType<typeof openStore>, panel: string, runner: FitRunner, scope: 'all' | 'stale'): Promise<Timed> {
   const start = performance.now();
   const cpuStart = cpuNowMs();
@@ -73,6 +77,7 @@ async function timedRefit(db: ReturnType<typeof openStore>, panel: string, runne
   const summary = await refitPanel(db, panel, {
     runner,
     scope,
+    readMemo,
     onProgress: (p) => {
       const now = performance.now();
       const cpu = cpuNowMs();

@@ -83,3 +83,27 @@ export interface AnalyzeJson {
   /** Groups without a fit; present only when there is one, so the output of a file where everything fits is unchanged. */
   notFitted?: NotFittedJson[];
 }
+
+/** A period (rolling-window) fit of one attribute, as the refit stores it. */
+export interface PeriodFitResult {
+  json: FitJson;
+  diagnostics: unknown;
+  /** Boundary likelihood-ratio test of product:session (null when not made). */
+  lrt: { likelihoodRatio: number; pValue: number } | null;
+  /** Relative SDs of the LRT's fit without product:session, by term (a warm start for later refits). */
+  reducedRelativeSds?: Record<string, number> | null;
+}
+
+/** What a stored period fit holds: the period fit, or the sentence saying why there is none. */
+export type StoredPeriodResult = PeriodFitResult | { problem: string };
+
+/**
+ * A session × attribute fit that could not be made, as the refit stores it with the session's
+ * results (`code` as in NotFittedJson, `message` the plain sentence).
+ */
+export interface SessionFitFinding {
+  code: string;
+  session: string;
+  attribute: string;
+  message: string;
+}

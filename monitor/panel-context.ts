@@ -12,7 +12,7 @@ import { localTime } from '../report/words.js';
 import { findPanel, listSessionVersions, type PanelRow } from '../store/fits-sessions.js';
 import { flagHistories, listFlags, loadFlagBuild, type FlagHistoryEntry, type FlagRecord } from '../store/monitor-flags.js';
 import { latestRefitJob } from '../store/monitor-jobs.js';
-import { buildPanelHistory, panelDataSignature } from '../store/panel-history.js';
+import { loadPanelHistory, panelDataSignature } from '../store/panel-history.js';
 import { listQuarantined, type QuarantinedCell } from '../store/quarantine.js';
 
 /** The refit status the pages show (the monitor pages' shape). */
@@ -73,7 +73,7 @@ export function panelHistoryFor(db: Database, panelId: number, memo: HistoryMemo
   const slot = options.withRatings ? -panelId : panelId;
   const cached = memo.entries.get(slot);
   if (cached && cached.key === key) return cached.history;
-  const history = buildPanelHistory(db, panelId, { withRatings: options.withRatings });
+  const history = loadPanelHistory(db, panelId, { withRatings: options.withRatings });
   memo.entries.set(slot, { key, history, derived: new Map() });
   return history;
 }

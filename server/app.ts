@@ -16,10 +16,12 @@ import { packageRoot } from '../store/package-root.js';
 import { isCorruptionError } from '../store/store-health.js';
 import { AppError, toAppError } from './errors.js';
 import type { AppConfig } from './plugins/app-context.js';
+import type { FitRunner } from './fit-pool.js';
 import { ImportQueue } from './plugins/import-queue.js';
 import { sendError } from './plugins/pages.js';
 import { storeDamagedError } from './store-damage.js';
 import { isLoopbackHost, registerSecurity } from './plugins/security.js';
+import { registerRefitService } from './plugins/refit-service.js';
 import { createUploadDir, removeLeftoverUploadDirsOnce } from './plugins/upload-dir.js';
 import { weakTokenReason } from './plugins/token-guard.js';
 import { registerUploadCleanup } from './plugins/uploads.js';
@@ -28,6 +30,8 @@ import { apiRoutes } from './routes/api.js';
 import { importPageRoutes } from './routes/import-pages.js';
 import { loginRoutes } from './routes/login.js';
 import { methodsPageRoutes } from './routes/methods-page.js';
+import { monitorApiRoutes } from './routes/monitor-api.js';
+import { monitorFormRoutes } from './routes/monitor-forms.js';
 import { monitorRoutes } from './routes/monitor.js';
 import { reportPageRoutes } from './routes/report-pages.js';
 import { reviewRoutes } from './routes/review.js';
@@ -79,7 +83,11 @@ const READING_METHODS = new Set(['GET', 'HEAD', 'OPTIONS']);
 /** Writes that do not touch the store. */
 const STORE_FREE_WRITES = new Set(['/login', '/logout']);
 
-export async function buildApp(options: { db: Database; config?: Partial<AppConfig> }): Promise<FastifyInstance> {
+/**
+ * `runner`: the fit runner of the background refits (default: a worker-thread pool); tests may
+ * pass an in-thread one.
+ */
+export async function buildApp(options: { db: Database; config?: Partial<AppConfig>; runner?: FitRunner }): Promise<FastifyInstance> {
   const config = resolveAppConfig(options.config);
   if (!isLoopbackHost(config.host) && config.accessToken === null) {
     throw new Error(`Listening on ${config.host} (reachable from other computers) needs an access token of at least 16 characters.`);
@@ -158,6 +166,9 @@ export async function buildApp(options: { db: Database; config?: Partial<AppConf
     await app.importQueue.close();
   });
 
+  // Background refits (app.refitService, app.historyMemo): before the routes that queue them.
+  registerRefitService(app, { runner: options.runner });
+
   // ---- route modules (one line each) ----
   await app.register(serviceRoutes);
   await app.register(loginRoutes);
@@ -167,6 +178,8 @@ export async function buildApp(options: { db: Database; config?: Partial<AppConf
   await app.register(apiRoutes);
   await app.register(quarantineRoutes);
   await app.register(monitorRoutes);
+  await app.register(monitorFormRoutes);
+  await app.register(monitorApiRoutes);
   await app.register(methodsPageRoutes);
   await app.register(reportPageRoutes);
   await app.register(reviewRoutes);

@@ -16,7 +16,8 @@ import type { PeriodFitResult, PeriodTask, RatedObservation } from './workers/fi
 export const MIN_WINDOW_SESSIONS = 3;
 
 /** What a stored period fit holds: the period task's result, or the sentence saying why there is none. */
-export type StoredPeriodResult = PeriodFitResult | { problem: string };
+import type { StoredPeriodResult } from '../domain/analysis.js';
+export type { StoredPeriodResult };
 
 /**
  * The period windows kept: consecutive blocks of `windowSessions` sessions (1–12, 13–24, …: the
@@ -117,7 +118,7 @@ function storedStartValues(
   const byAttribute = new Map<string, Start[]>();
   for (const stored of loadPeriodFits(db, panelId)) {
     if (stored.windowSessions !== windowSessions) continue;
-    const result = stored.result as StoredPeriodResult;
+    const result = stored.result;
     const lastIndex = order.get(stored.lastSession);
     if ('problem' in result || lastIndex === undefined) continue;
     const relativeSds = relativeSdsFromVariances(result.json.variance);

@@ -20,11 +20,10 @@ import {
 } from '../store/fits-sessions.js';
 import { saveSessionResults } from '../store/fits-results.js';
 import { closeFlagsByKey, loadFlagBuild, replaceCurrentFlags } from '../store/monitor-flags.js';
-import { loadFlagInputs } from '../store/read-flag-inputs.js';
-import { ANALYSIS_VERSION, DEFAULT_WINDOW_SESSIONS, panelDataSignature } from '../store/panel-history.js';
+import { ANALYSIS_VERSION, createHistoryReadMemo, DEFAULT_WINDOW_SESSIONS, loadPackedRatings, loadPanelHistory, panelDataSignature, type HistoryReadMemo } from '../store/panel-history.js';
 
 // The read model moved to the store; these names stay importable from here for the refit's callers.
-export { ANALYSIS_VERSION, buildPanelHistory, DEFAULT_WINDOW_SESSIONS, panelDataSignature } from '../store/panel-history.js';
+export { ANALYSIS_VERSION, DEFAULT_WINDOW_SESSIONS, loadPanelHistory, panelDataSignature } from '../store/panel-history.js';
 import { listPanelEvents, listRetraining, syncRetrainingEvents, updateRetraining } from '../store/monitor-events.js';
 import { loadPanelThresholds } from '../store/monitor-settings.js';
 import { createRefitJob, getRefitJob, markRefitJob, type RefitJob } from '../store/monitor-jobs.js';
@@ -74,6 +73,11 @@ export interface RefitOptions {
    * where nothing else waits on this thread; not for the service, whose requests do.
    */
   flagsOnCallingThread?: boolean;
+  /**
+   * What the flag build read last time (kept by the caller between refits): with it, the history
+   * and ratings are read incrementally (parsed results and unchanged sessions reused).
+   */
+  readMemo?: HistoryReadMemo;
 }
 
 export interface RefitSummary {
@@ -181,8 +185,9 @@ export async function refitPanel(db: Database, panelName: string, options: Refit
     lastBuild?.thresholdsHash !== inputsHash;
   let nFlags = lastBuild?.nFlags ?? 0;
   if (needFlags) {
-    // The same history and ratings as buildPanelHistory and loadPackedRatings, read incrementally.
-    const { history, ratings } = loadFlagInputs(db, panel.id, { windowSessions });
+    const readMemo = options.readMemo ?? createHistoryReadMemo();
+    const history = loadPanelHistory(db, panel.id, { windowSessions, memo: readMemo });
+    const ratings = loadPackedRatings(db, panel.id, readMemo);
     const task = { type: 'flags' as const, history, ratings, thresholds, retraining: retrainingDone };
     // Loaded only here: the flag engine is the worker's code, not needed otherwise on this thread.
     const result = options.flagsOnCallingThread ? (await import('./workers/fit-tasks.js')).runFlagsTask(task) : await options.runner.run(task);
@@ -227,6 +232,8 @@ function retrainingToEvaluate(db: Database, panelId: number, sessions: readonly 
 export class RefitService {
   private chain: Promise<void> = Promise.resolve();
   private readonly pending = new Map<number, number>(); // panelId → queued job id
+  /** Kept between jobs: the flag build of the next refit reads only what changed. */
+  private readonly readMemo = createHistoryReadMemo();
 
   constructor(
     private readonly db: Database,
@@ -278,6 +285,7 @@ export class RefitService {
         runner: this.runner,
         logger: this.options.logger,
         windowSessions: this.options.windowSessions,
+        readMemo: this.readMemo,
         onProgress: (p) => markRefitJob(this.db, jobId, { nTasks: p.total, nDone: p.done, message: `${p.phase}: ${p.label}` }),
       });
       markRefitJob(this.db, jobId, {

@@ -5,7 +5,7 @@
  * interpret them beyond their keys.
  */
 import type { Database } from 'better-sqlite3';
-import type { FitJson } from '../domain/analysis.js';
+import type { FitJson, SessionFitFinding, StoredPeriodResult } from '../domain/analysis.js';
 import type { AssessorSessionIndices } from '../analysis/indices/types.js';
 
 export interface AttributeFitResult {
@@ -21,8 +21,8 @@ export interface SessionResults {
   dataVersion: number;
   analysisVersion: string;
   attributes: AttributeFitResult[];
-  /** Data-quality findings of the session (analysis/quality), stored as given. */
-  findings: unknown[];
+  /** The fits of the session that could not be made, with the reason. */
+  findings: SessionFitFinding[];
 }
 
 /** Replace everything stored for a session with a new set of results (one transaction). */
@@ -109,7 +109,7 @@ export function loadSessionIndices(db: Database, panelId: number): AssessorSessi
 export interface StoredQuality {
   session: string;
   dataVersion: number;
-  findings: unknown[];
+  findings: SessionFitFinding[];
 }
 
 export function loadSessionQuality(db: Database, panelId: number): StoredQuality[] {
@@ -123,6 +123,8 @@ export function loadSessionQuality(db: Database, panelId: number): StoredQuality
   return rows.map((r) => ({ session: r.session, dataVersion: r.dataVersion, findings: JSON.parse(r.json) }));
 }
 
+export type { StoredPeriodResult };
+
 /** Sessions of one window with the data versions used, as stored in sessions_json. */
 export type WindowSignature = [label: string, dataVersion: number][];
 
@@ -133,8 +135,8 @@ export interface PeriodFitRecord {
   lastSessionId: number;
   sessions: WindowSignature;
   analysisVersion: string;
-  /** The period fit with its product:session likelihood-ratio test, as analysis/ returns it. */
-  result: unknown;
+  /** The period fit with its product:session likelihood-ratio test, or why there is none. */
+  result: StoredPeriodResult;
 }
 
 export function savePeriodFit(db: Database, panelId: number, record: PeriodFitRecord, fittedAt = new Date().toISOString()): void {
@@ -197,7 +199,7 @@ export interface StoredPeriodFit {
   sessions: WindowSignature;
   analysisVersion: string;
   fittedAt: string;
-  result: unknown;
+  result: StoredPeriodResult;
 }
 
 export function loadPeriodFits(db: Database, panelId: number, attribute?: string): StoredPeriodFit[] {

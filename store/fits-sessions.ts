@@ -133,45 +133,6 @@ export function allocatePackedRatings(
   return { packed, setCode };
 }
 
-export function loadPackedRatings(db: Database, panelId: number): PackedRatings {
-  const table = (sql: string) => {
-    const rows = db.prepare(sql).raw().all(panelId) as [number, string][];
-    return { ids: new Map(rows.map(([id], i) => [id, i])), names: rows.map(([, name]) => name) };
-  };
-  const sessionRows = db
-    .prepare('SELECT id, label, session_date FROM session WHERE panel_id = ? ORDER BY session_date, label')
-    .raw()
-    .all(panelId) as [number, string, string][];
-  const sessionOf = new Map(sessionRows.map(([id], i) => [id, i]));
-  const assessors = table('SELECT id, code FROM assessor WHERE panel_id = ? ORDER BY code');
-  const products = table('SELECT id, code FROM product WHERE panel_id = ? ORDER BY code');
-  const attributes = table('SELECT id, name FROM attribute WHERE panel_id = ? ORDER BY name');
-  // Row-id order: deterministic for the same stored data, and no sort of 10⁵ rows.
-  const rows = db
-    .prepare(
-      `SELECT r.session_id, r.assessor_id, r.product_id, r.attribute_id, r.replicate, r.value, r.sample_code
-         FROM rating r JOIN session s ON s.id = r.session_id WHERE s.panel_id = ? ORDER BY r.id`,
-    )
-    .raw()
-    .all(panelId) as [number, number, number, number, number, number, string | null][];
-  const n = rows.length;
-  const { packed, setCode } = allocatePackedRatings(
-    { sessions: sessionRows.map(([, label, date]) => ({ label, date })), assessors: assessors.names, products: products.names, attributes: attributes.names },
-    n,
-  );
-  for (let i = 0; i < n; i++) {
-    const [sessionId, assessorId, productId, attributeId, replicate, value, code] = rows[i];
-    packed.sessionIndex[i] = sessionOf.get(sessionId)!;
-    packed.assessorIndex[i] = assessors.ids.get(assessorId)!;
-    packed.productIndex[i] = products.ids.get(productId)!;
-    packed.attributeIndex[i] = attributes.ids.get(attributeId)!;
-    packed.replicate[i] = replicate;
-    packed.value[i] = value;
-    setCode(i, code);
-  }
-  return packed;
-}
-
 /** The packed ratings as Rating objects (in the worker, or for a page that needs them). */
 export function unpackRatings(packed: PackedRatings): Rating[] {
   const out: Rating[] = new Array(packed.value.length);

@@ -1,17 +1,23 @@
 /**
- * The panel history the flag engine and the monitor pages read, assembled from stored fits and
- * indices. One assembler for both readers: buildPanelHistory (server/refit.ts) parses the
- * stored JSON afresh, loadFlagInputs (store/read-flag-inputs.ts) reuses what it parsed last
- * time; everything else they read the same way, here.
+ * The panel history the flag engine and the monitor pages read, from stored fits and indices:
+ * one loader for the refit's flag build, the flags command (through the refit) and the pages.
+ * With a memo (store/read-memo.ts) it reuses what it parsed last time and reads only the
+ * sessions whose ratings changed (the refit's one-new-session path); without, it reads
+ * everything afresh, by the same code.
  */
 import type { Database } from 'better-sqlite3';
 import type { FitJson } from '../domain/analysis.js';
 import type { Rating } from '../domain/ratings.js';
 import type { AssessorSessionIndices } from '../analysis/indices/types.js';
 import type { ImportFinding, PanelHistory, PeriodFitSummary, SessionAttributeResult } from '../analysis/monitor/series.js';
-import { loadPeriodFits, loadSessionFits, loadSessionIndices } from './fits-results.js';
-import { listAttributes, listProducts, listSessionVersions, loadCurrentFindings, loadPackedRatings, unpackRatings } from './fits-sessions.js';
+import { loadPeriodFits } from './fits-results.js';
+import { listAttributes, listProducts, listSessionVersions, loadCurrentFindings, unpackRatings } from './fits-sessions.js';
 import { listPanelEvents } from './monitor-events.js';
+import { loadPackedRatings } from './read-packed-ratings.js';
+import { createHistoryReadMemo, panelReads, parsedTexts, statement, type HistoryReadMemo } from './read-memo.js';
+
+export { createHistoryReadMemo, type HistoryReadMemo } from './read-memo.js';
+export { loadPackedRatings } from './read-packed-ratings.js';
 
 /** One stored session × attribute fit, in the store's order (session date, label, attribute). */
 export interface StoredFitOfHistory {
@@ -21,10 +27,7 @@ export interface StoredFitOfHistory {
   fit: FitJson;
 }
 
-/** The part of a stored period result the history needs; a result with `problem` has no fit. */
-type StoredPeriodSummary = { json: { variance: Record<string, number> }; lrt: PeriodFitSummary['lrt'] } | { problem: string };
-
-export function assemblePanelHistory(
+function assemblePanelHistory(
   db: Database,
   panelId: number,
   parts: {
@@ -62,7 +65,7 @@ export function assemblePanelHistory(
   const periodFits: PeriodFitSummary[] = [];
   for (const p of loadPeriodFits(db, panelId)) {
     if (p.windowSessions !== parts.windowSessions) continue;
-    const result = p.result as StoredPeriodSummary;
+    const result = p.result;
     if ('problem' in result) continue;
     periodFits.push({
       attribute: p.attribute,
@@ -92,19 +95,44 @@ export { ANALYSIS_VERSION, panelDataSignature } from './data-signature.js';
 export const DEFAULT_WINDOW_SESSIONS = 12;
 
 
-/**
- * Everything the flag engine and the monitor pages read, from the store (structured-clone safe).
- * The ratings are left out unless asked for: the refit sends them packed (loadPackedRatings).
- */
-export function buildPanelHistory(
-  db: Database,
-  panelId: number,
-  options: { windowSessions?: number; withRatings?: boolean } = {},
-): PanelHistory {
+export interface PanelHistoryOptions {
+  /** Period fits of this window length are summarised (default DEFAULT_WINDOW_SESSIONS). */
+  windowSessions?: number;
+  /** With the ratings as Rating objects (the control-product page); the refit sends them packed instead (loadPackedRatings). */
+  withRatings?: boolean;
+  /** Reuse what this memo read before (incremental reads); the caller keeps it between calls. */
+  memo?: HistoryReadMemo;
+}
+
+/** Everything the flag engine and the monitor pages read, from the store (structured-clone safe). */
+export function loadPanelHistory(db: Database, panelId: number, options: PanelHistoryOptions = {}): PanelHistory {
+  const memo = options.memo ?? createHistoryReadMemo();
+  const reads = panelReads(memo, db, panelId);
+  // Session order, then attribute name (the order of the pages' and the flags' series).
+  const fitRows = statement(
+    memo,
+    `SELECT s.label, s.session_date, at.name, f.session_id || ':' || f.attribute_id, f.fit_json
+         FROM session_fit f JOIN session s ON s.id = f.session_id JOIN attribute at ON at.id = f.attribute_id
+        WHERE s.panel_id = ? ORDER BY s.session_date, s.label, at.name`,
+  )
+    .raw()
+    .all(panelId) as [session: string, date: string, attribute: string, key: string, json: string][];
+  const indexRows = statement(
+    memo,
+    `SELECT i.session_id || ':' || i.attribute_id, i.indices_json FROM session_indices i JOIN session s ON s.id = i.session_id
+         JOIN attribute at ON at.id = i.attribute_id
+        WHERE s.panel_id = ? ORDER BY s.session_date, s.label, at.name`,
+  )
+    .raw()
+    .all(panelId) as [key: string, json: string][];
+  const fits = parsedTexts(reads.fits, fitRows.map((r) => [r[3], r[4]]));
+  const indices = parsedTexts(reads.indices, indexRows);
+  reads.fits = fits.next;
+  reads.indices = indices.next;
   return assemblePanelHistory(db, panelId, {
-    fits: loadSessionFits(db, panelId).map((f) => ({ session: f.session, date: f.sessionDate, attribute: f.attribute, fit: f.fit })),
-    indices: loadSessionIndices(db, panelId),
+    fits: fitRows.map(([session, date, attribute], i) => ({ session, date, attribute, fit: fits.values[i] })),
+    indices: indices.values.flat(),
     windowSessions: options.windowSessions ?? DEFAULT_WINDOW_SESSIONS,
-    ratings: options.withRatings ? unpackRatings(loadPackedRatings(db, panelId)) : undefined,
+    ratings: options.withRatings ? unpackRatings(loadPackedRatings(db, panelId, memo)) : undefined,
   });
 }

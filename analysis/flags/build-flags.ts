@@ -11,13 +11,28 @@ import { driftFlags } from './drift-flags.js';
 import { findingFlags } from './finding-flags.js';
 import { agreementFlags, discriminationFlags, levelFlags, repeatabilityFlags, scalingFlags } from './index-flags.js';
 import { productFlags } from './product-flags.js';
-import { qualityFlags } from './quality-flags.js';
+import { createQualityFlagsMemo, qualityFlags, type QualityFlagsMemo } from './quality-flags.js';
 import { DEFAULT_THRESHOLDS, type PanelThresholds } from './settings.js';
 import { points, sessionsText } from './format.js';
+
+/**
+ * What a caller that builds flags again and again (the refit's flags phase) keeps between builds,
+ * so work on unchanged sessions is not repeated; made by the caller, never module state, so the
+ * flags are a function of the history and settings alone.
+ */
+export interface FlagsMemo {
+  quality: QualityFlagsMemo;
+}
+
+export function createFlagsMemo(): FlagsMemo {
+  return { quality: createQualityFlagsMemo() };
+}
 
 export interface BuildFlagsOptions {
   /** Keep only flags whose evidence reaches this session or later. */
   since?: string;
+  /** Results of earlier builds to reuse (same flags with or without). */
+  memo?: FlagsMemo;
 }
 
 export function buildFlags(history: PanelHistory, settings: PanelThresholds = DEFAULT_THRESHOLDS, options: BuildFlagsOptions = {}): Flag[] {
@@ -29,7 +44,7 @@ export function buildFlags(history: PanelHistory, settings: PanelThresholds = DE
     ...agreementFlags(ctx),
     ...scalingFlags(ctx),
   ];
-  let flags = [...collapseToAssessorWide(ctx, perAttribute), ...driftFlags(ctx), ...productFlags(ctx), ...qualityFlags(ctx), ...findingFlags(ctx)];
+  let flags = [...collapseToAssessorWide(ctx, perAttribute), ...driftFlags(ctx), ...productFlags(ctx), ...qualityFlags(ctx, options.memo?.quality), ...findingFlags(ctx)];
   if (options.since !== undefined) {
     const sinceIndex = ctx.sessionOrder.get(options.since);
     if (sinceIndex !== undefined) {

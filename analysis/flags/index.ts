@@ -1,4 +1,4 @@
-export { buildFlags, type BuildFlagsOptions } from './build-flags.js';
+export { buildFlags, createFlagsMemo, type BuildFlagsOptions, type FlagsMemo } from './build-flags.js';
 export { DEFAULT_THRESHOLDS, PanelThresholdsSchema, validateThresholds, type PanelThresholds, type ThresholdProblem } from './settings.js';
 export { evaluateRetraining, welchOneSided, type RetrainingEvaluation, type RetrainingComparison, type RetrainingIndex, type WelchTest } from './retraining.js';
 export { productEffectSeriesOf, type ProductEffectSeries } from './product-flags.js';

@@ -13,7 +13,29 @@ import { checkClipping, checkInRangeDecimalShift, checkMissingCells, checkStraig
 import { resultKey, type FlagContext } from './context.js';
 import { points } from './format.js';
 
-export function qualityFlags(ctx: FlagContext): Flag[] {
+/**
+ * Per-session results kept between flag builds by the caller (the refit's flags phase keeps one
+ * per worker thread): the checks of an old session do not change when new sessions arrive. Keyed
+ * by everything they depend on, including a fingerprint of the session's ratings. Bounded; results
+ * are identical with or without a memo.
+ */
+export interface QualityFlagsMemo {
+  sessions: Map<string, Flag[]>;
+  /** Text → slot (even index into textLanes) of its two lane hashes; slot 0 is kept for "no code". */
+  textSlots: Map<string, number>;
+  /** Lane pairs of the distinct texts seen (names, codes): textLanes[i], textLanes[i + 1]. */
+  textLanes: Uint32Array;
+}
+
+export function createQualityFlagsMemo(): QualityFlagsMemo {
+  return { sessions: new Map(), textSlots: new Map(), textLanes: new Uint32Array(1024) };
+}
+
+const SESSION_MEMO_LIMIT = 20_000;
+/** Distinct texts remembered; beyond this the table starts again at the next call. */
+const TEXT_SLOT_LIMIT = 100_000;
+
+export function qualityFlags(ctx: FlagContext, memo?: QualityFlagsMemo): Flag[] {
   const ratings = ctx.history.ratings ?? [];
   if (ratings.length === 0) return [];
   const q = ctx.settings.quality;
@@ -28,9 +50,15 @@ export function qualityFlags(ctx: FlagContext): Flag[] {
   const out: Flag[] = [];
   const sessions = [...bySession.keys()].sort((a, b) => (ctx.sessionOrder.get(a) ?? 0) - (ctx.sessionOrder.get(b) ?? 0));
   const qualityKey = JSON.stringify(q);
+  // Cleared between calls only, so every text slot used below belongs to one text for the whole call.
+  if (memo && memo.textSlots.size >= TEXT_SLOT_LIMIT) memo.textSlots.clear();
   for (const session of sessions) {
     const sessionRatings = bySession.get(session) as Rating[];
     const productTestP = new Map(ctx.history.attributes.map((a) => [a.name, ctx.results.get(resultKey(session, a.name))?.productTestP ?? null]));
+    if (!memo) {
+      sessionFlags(ctx, session, sessionRatings, productTestP, recent, importedMissing, out);
+      continue;
+    }
     const key = [
       session,
       recent.has(session),
@@ -38,43 +66,29 @@ export function qualityFlags(ctx: FlagContext): Flag[] {
       JSON.stringify([...productTestP]),
       JSON.stringify(ctx.history.attributes),
       importedMissing.size > 0 ? JSON.stringify([...importedMissing].filter((k) => k.startsWith(`${session}\u0000`))) : '',
-      fingerprint(sessionRatings),
+      fingerprint(memo, sessionRatings),
     ].join('\u0001');
-    const cached = SESSION_CACHE.get(key);
+    const cached = memo.sessions.get(key);
     if (cached) {
       out.push(...structuredClone(cached));
       continue;
     }
     const before = out.length;
     sessionFlags(ctx, session, sessionRatings, productTestP, recent, importedMissing, out);
-    remember(key, out.slice(before));
+    if (memo.sessions.size >= SESSION_MEMO_LIMIT) memo.sessions.delete(memo.sessions.keys().next().value as string);
+    memo.sessions.set(key, structuredClone(out.slice(before)));
   }
   return out;
 }
 
 /**
- * Per-session results are memoised (the checks of an old session do not change when new sessions
- * arrive): keyed by everything they depend on, including a fingerprint of the session's ratings.
- * Bounded; a pure cache, so results are identical with or without it.
- */
-const SESSION_CACHE = new Map<string, Flag[]>();
-const SESSION_CACHE_LIMIT = 20_000;
-
-function remember(key: string, flags: Flag[]): void {
-  if (SESSION_CACHE.size >= SESSION_CACHE_LIMIT) SESSION_CACHE.delete(SESSION_CACHE.keys().next().value as string);
-  SESSION_CACHE.set(key, structuredClone(flags));
-}
-
-/**
  * Order-sensitive 64-bit fingerprint (two 32-bit FNV-1a-style lanes) of the ratings' identifying
- * fields and values. Each text field enters as its own cached hash (one pass over its characters
- * per distinct text, not per rating), the replicate as an integer and the value by its 64 IEEE
- * bits, so a year of ratings is fingerprinted in about a millisecond instead of ~20 (String() of
- * every value was most of the old cost). Only a cache key: results do not depend on it.
+ * fields and values. Each text field enters as its own hash, kept in the memo (one pass over its
+ * characters per distinct text, not per rating), the replicate as an integer and the value by its
+ * 64 IEEE bits, so a year of ratings is fingerprinted in about a millisecond instead of ~20
+ * (String() of every value was most of the old cost). Only a memo key: results do not depend on it.
  */
-function fingerprint(ratings: readonly Rating[]): string {
-  // Cleared between calls only, so every slot used below belongs to one text for the whole call.
-  if (TEXT_SLOT.size >= TEXT_SLOT_LIMIT) TEXT_SLOT.clear();
+function fingerprint(memo: QualityFlagsMemo, ratings: readonly Rating[]): string {
   let h1 = 0x811c9dc5;
   let h2 = 0x01000193;
   let lastAssessor: string | undefined;
@@ -83,61 +97,56 @@ function fingerprint(ratings: readonly Rating[]): string {
   let assessorHash = 0;
   let productHash = 0;
   let attributeHash = 0;
+  const valueBits = new Float64Array(1);
+  const valueWords = new Uint32Array(valueBits.buffer);
   for (const r of ratings) {
     if (r.assessor !== lastAssessor) {
       lastAssessor = r.assessor;
-      assessorHash = textHash(r.assessor);
+      assessorHash = textHash(memo, r.assessor);
     }
     if (r.product !== lastProduct) {
       lastProduct = r.product;
-      productHash = textHash(r.product);
+      productHash = textHash(memo, r.product);
     }
     if (r.attribute !== lastAttribute) {
       lastAttribute = r.attribute;
-      attributeHash = textHash(r.attribute);
+      attributeHash = textHash(memo, r.attribute);
     }
-    VALUE_BITS[0] = r.value;
-    const codeHash = r.code === null || r.code === undefined ? NO_CODE_SLOT : textHash(r.code);
+    valueBits[0] = r.value;
+    const codeHash = r.code === null || r.code === undefined ? NO_CODE_SLOT : textHash(memo, r.code);
+    // Read after textHash calls, which may grow the table.
+    const lanes = memo.textLanes;
     // Each text hash is a slot of a (lane 1, lane 2) pair; mixing both lanes keeps 64 bits of state.
-    h1 = Math.imul(h1 ^ TEXT_LANES[assessorHash], 16777619);
-    h2 = Math.imul(h2 ^ TEXT_LANES[assessorHash + 1], 2246822519);
-    h1 = Math.imul(h1 ^ TEXT_LANES[productHash], 16777619);
-    h2 = Math.imul(h2 ^ TEXT_LANES[productHash + 1], 2246822519);
-    h1 = Math.imul(h1 ^ TEXT_LANES[attributeHash], 16777619);
-    h2 = Math.imul(h2 ^ TEXT_LANES[attributeHash + 1], 2246822519);
-    h1 = Math.imul(h1 ^ TEXT_LANES[codeHash], 16777619);
-    h2 = Math.imul(h2 ^ TEXT_LANES[codeHash + 1], 2246822519);
+    h1 = Math.imul(h1 ^ lanes[assessorHash], 16777619);
+    h2 = Math.imul(h2 ^ lanes[assessorHash + 1], 2246822519);
+    h1 = Math.imul(h1 ^ lanes[productHash], 16777619);
+    h2 = Math.imul(h2 ^ lanes[productHash + 1], 2246822519);
+    h1 = Math.imul(h1 ^ lanes[attributeHash], 16777619);
+    h2 = Math.imul(h2 ^ lanes[attributeHash + 1], 2246822519);
+    h1 = Math.imul(h1 ^ lanes[codeHash], 16777619);
+    h2 = Math.imul(h2 ^ lanes[codeHash + 1], 2246822519);
     h1 = Math.imul(h1 ^ r.replicate, 16777619);
     h2 = Math.imul(h2 ^ r.replicate, 2246822519);
-    h1 = Math.imul(h1 ^ VALUE_WORDS[0], 16777619);
-    h2 = Math.imul(h2 ^ VALUE_WORDS[1], 2246822519);
-    h1 = Math.imul(h1 ^ VALUE_WORDS[1], 16777619);
-    h2 = Math.imul(h2 ^ VALUE_WORDS[0], 2246822519);
+    h1 = Math.imul(h1 ^ valueWords[0], 16777619);
+    h2 = Math.imul(h2 ^ valueWords[1], 2246822519);
+    h1 = Math.imul(h1 ^ valueWords[1], 16777619);
+    h2 = Math.imul(h2 ^ valueWords[0], 2246822519);
   }
   return `${ratings.length}:${(h1 >>> 0).toString(36)}:${(h2 >>> 0).toString(36)}`;
 }
 
-const VALUE_BITS = new Float64Array(1);
 /** Lanes 0, 0 (never a text's: texts start at slot 2), so "no code" differs from an empty code. */
 const NO_CODE_SLOT = 0;
-const VALUE_WORDS = new Uint32Array(VALUE_BITS.buffer);
 
-/** Lane pairs of the distinct texts seen (names, codes): TEXT_LANES[i], TEXT_LANES[i + 1]. */
-let TEXT_LANES = new Uint32Array(1024);
-/** Text → slot; slot 0 is kept for "no code". */
-const TEXT_SLOT = new Map<string, number>();
-/** Distinct texts remembered; beyond this the table starts again at the next call (a pure cache). */
-const TEXT_SLOT_LIMIT = 100_000;
-
-/** Slot (even index into TEXT_LANES) of a text's two lane hashes, computed once per distinct text. */
-function textHash(text: string): number {
-  let slot = TEXT_SLOT.get(text);
+/** Slot (even index into memo.textLanes) of a text's two lane hashes, computed once per distinct text. */
+function textHash(memo: QualityFlagsMemo, text: string): number {
+  let slot = memo.textSlots.get(text);
   if (slot !== undefined) return slot;
-  slot = 2 * (TEXT_SLOT.size + 1);
-  if (slot + 2 > TEXT_LANES.length) {
-    const grown = new Uint32Array(TEXT_LANES.length * 2);
-    grown.set(TEXT_LANES);
-    TEXT_LANES = grown;
+  slot = 2 * (memo.textSlots.size + 1);
+  if (slot + 2 > memo.textLanes.length) {
+    const grown = new Uint32Array(memo.textLanes.length * 2);
+    grown.set(memo.textLanes);
+    memo.textLanes = grown;
   }
   let a = 0x811c9dc5 ^ text.length;
   let b = 0x01000193 ^ text.length;
@@ -145,9 +154,9 @@ function textHash(text: string): number {
     a = Math.imul(a ^ text.charCodeAt(i), 16777619);
     b = Math.imul(b ^ text.charCodeAt(i), 2246822519);
   }
-  TEXT_LANES[slot] = a >>> 0;
-  TEXT_LANES[slot + 1] = b >>> 0;
-  TEXT_SLOT.set(text, slot);
+  memo.textLanes[slot] = a >>> 0;
+  memo.textLanes[slot + 1] = b >>> 0;
+  memo.textSlots.set(text, slot);
   return slot;
 }
 

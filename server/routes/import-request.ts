@@ -119,11 +119,6 @@ export async function readSettingsUpload(file: ReceivedFile): Promise<PanelConfi
   return config;
 }
 
-/** The refit scheduler the monitor routes add (server/routes/monitor.ts), when they are registered. */
-interface RefitScheduler {
-  schedule(panelName: string, reason: string): unknown;
-}
-
 /**
  * Runs the import after every earlier one (one writer at a time). When it changed sessions, the
  * panel's fits are brought up to date in the background; a failure to schedule that is logged
@@ -146,8 +141,8 @@ export async function runImport(
       settings,
     }),
   );
-  const refits = (app as unknown as { refitService?: RefitScheduler }).refitService;
-  if (refits !== undefined && report.ok && report.changedSessions.length > 0) {
+  const refits = app.refitService;
+  if (report.ok && report.changedSessions.length > 0) {
     try {
       refits.schedule(report.panel, `import ${report.importId ?? ''}`.trim());
     } catch (error) {

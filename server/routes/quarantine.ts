@@ -41,9 +41,9 @@ async function change<T>(app: FastifyInstance, work: () => T): Promise<T> {
 }
 
 function scheduleRefit(app: FastifyInstance, panel: string, reason: string): void {
-  const refits = (app as unknown as { refitService?: { schedule(panel: string, reason: string): unknown } }).refitService;
+  const refits = app.refitService;
   try {
-    refits?.schedule(panel, reason);
+    refits.schedule(panel, reason);
   } catch (error) {
     app.log.warn({ err: error, panel }, 'could not schedule a refit after a quarantine release');
   }

@@ -2,7 +2,7 @@
  * The messages between the refit orchestration (main thread) and the fit workers. Everything
  * here is structured-clone safe (plain objects, arrays, numbers, strings, null).
  */
-import type { FitJson } from '../../domain/analysis.js';
+import type { FitJson, PeriodFitResult, SessionFitFinding } from '../../domain/analysis.js';
 import type { Flag } from '../../domain/flags.js';
 import type { Observation, ScaleRange } from '../../domain/ratings.js';
 import type { AssessorSessionIndices } from '../../analysis/indices/types.js';
@@ -43,7 +43,7 @@ export interface AttributeOutcome {
 export interface SessionTaskResult {
   session: string;
   attributes: AttributeOutcome[];
-  findings: unknown[];
+  findings: SessionFitFinding[];
 }
 
 /** The period model of one attribute over a window of sessions (with the product:session LRT). */
@@ -64,14 +64,7 @@ export interface PeriodTask {
   startReducedRelativeSds?: Record<string, number> | null;
 }
 
-export interface PeriodFitResult {
-  json: FitJson;
-  diagnostics: unknown;
-  /** Boundary likelihood-ratio test of product:session (null when not made). */
-  lrt: { likelihoodRatio: number; pValue: number } | null;
-  /** Relative SDs of the LRT's fit without product:session, by term (a warm start for later refits). */
-  reducedRelativeSds?: Record<string, number> | null;
-}
+export type { PeriodFitResult };
 
 export interface PeriodTaskResult {
   attribute: string;

@@ -2,7 +2,7 @@
  * The work a fit worker does, as plain functions (run in a piscina worker thread, or in-thread).
  * Pure analysis: observations in, results out; no database, no clock.
  */
-import { buildFlags, evaluateRetraining, validateThresholds } from '../../analysis/flags/index.js';
+import { buildFlags, createFlagsMemo, evaluateRetraining, validateThresholds } from '../../analysis/flags/index.js';
 import { computeAssessorIndices } from '../../analysis/indices/compute-assessor-indices.js';
 import { UNEXPECTED_FIT_FAILURE } from '../../analysis/analyze-ratings.js';
 import { LmmFitError } from '../../analysis/lmm/errors.js';
@@ -80,13 +80,19 @@ export function runPeriodTask(task: PeriodTask): PeriodTaskResult {
   }
 }
 
-export function runFlagsTask(task: FlagsTask): FlagsTaskResult {
+/**
+ * Kept by this thread for its life (a worker runs the flags of every refit it is given): the
+ * per-session checks of sessions that did not change are not repeated at the next refit.
+ */
+const FLAGS_MEMO = createFlagsMemo();
+
+export function runFlagsTask(task: FlagsTask, memo = FLAGS_MEMO): FlagsTaskResult {
   // Stored thresholds were validated when saved; validating again fills in defaults added since.
   const { thresholds } = validateThresholds(task.thresholds ?? {});
   const history = { ...task.history, ratings: unpackRatings(task.ratings) };
   return {
-    flags: buildFlags(history, thresholds),
-    retraining: task.retraining.map((r) => ({ id: r.id, evaluation: evaluateRetraining(history, r.assessor, r.eventSession, thresholds) })),
+    flags: buildFlags(history, thresholds, { memo }),
+    retraining: task.retraining.map((r) => ({ id: r.id, evaluation: evaluateRetraining(history, r.assessor, r.eventSession, thresholds, { memo }) })),
   };
 }
 

@@ -182,7 +182,13 @@ describe.skipIf(!hasChromium)('the weekly review in a browser, on a year of data
       if (Date.now() > deadline) throw new Error('the refit did not finish in 5 minutes');
       await new Promise((done) => setTimeout(done, 2_000));
     }
-    await page.goto(`${baseUrl}${reviewPath}`);
+    // The page may still be reloading itself (its refresh, set while the refit ran) just as we
+    // navigate; that reload interrupts ours, so navigate once more after it.
+    await page.goto(`${baseUrl}${reviewPath}`).catch(async (error: unknown) => {
+      if (!String(error).includes('interrupted by another navigation')) throw error;
+      await page.waitForLoadState();
+      await page.goto(`${baseUrl}${reviewPath}`);
+    });
     expect(await page.locator('meta[http-equiv="refresh"]').count()).toBe(0);
 
     const casePage = `${baseUrl}/panels/${encodeURIComponent(panel.panelName)}/monitor/cases/${dismissedId}`;

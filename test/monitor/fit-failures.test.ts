@@ -60,7 +60,7 @@ describe('fits that cannot be made', () => {
 
   it('stores each as a sentence and fits the other attributes of the session', () => {
     const panelId = findPanel(t.db, name)!.id;
-    const findings = new Map(loadSessionQuality(t.db, panelId).map((q) => [q.session, q.findings as { code: string; attribute: string; message: string }[]]));
+    const findings = new Map(loadSessionQuality(t.db, panelId).map((q) => [q.session, q.findings]));
     expect(findings.get(flatSession)).toEqual([
       { code: 'no-residual-variation', session: flatSession, attribute: flatAttribute, message: 'Could not be fitted: no replicate variation: every assessor gave identical ratings to each product.' },
     ]);

@@ -1,7 +1,8 @@
 /**
- * loadFlagInputs (store/read-flag-inputs.ts) must give exactly what the refit read before it:
- * buildPanelHistory (server/refit.ts) and loadPackedRatings (store/fits-sessions.ts), on a demo
- * panel fitted by the real refit, after new sessions, a changed session (its ratings read again),
+ * The incremental read of the panel history and packed ratings (store/panel-history.ts with a
+ * memo kept between calls, as the refit service reads them) must give exactly what a fresh read
+ * gives, and the packed ratings must be the store's rows in rating-id order, on a demo panel
+ * fitted by the real refit, after new sessions, a changed session (its ratings read again),
  * a quarantined cell released into an old session (its rating id then lies beyond later sessions'
  * ids, so ids are not grouped by session), a stored period fit and an event; and the flags built
  * from it must be the same flags.
@@ -10,14 +11,15 @@ import { createHash } from 'node:crypto';
 import type { Database } from 'better-sqlite3';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { createFitPool } from '../../server/fit-pool.js';
-import { buildPanelHistory, refitPanel } from '../../server/refit.js';
+import { refitPanel } from '../../server/refit.js';
 import { runFlagsTask } from '../../server/workers/fit-tasks.js';
-import { findPanel, loadPackedRatings, listAttributes, listSessionVersions } from '../../store/fits-sessions.js';
+import { findPanel, listAttributes, listSessionVersions } from '../../store/fits-sessions.js';
 import { savePeriodFit } from '../../store/fits-results.js';
 import { addPanelEvent } from '../../store/monitor-events.js';
-import { loadFlagInputs } from '../../store/read-flag-inputs.js';
+import { createHistoryReadMemo, loadPackedRatings, loadPanelHistory } from '../../store/panel-history.js';
 import { panelSettings, type GeneratedPanel } from '../../demo/generate-panel.js';
 import type { Rating } from '../../domain/ratings.js';
+import type { FitJson, StoredPeriodResult } from '../../domain/analysis.js';
 import { importRatingEvents } from '../../store/import-core.js';
 import { discardQuarantined, listQuarantined, releaseQuarantined } from '../../store/quarantine.js';
 import { countingRunner, makeTestStore, smallPanel } from './helpers.js';
@@ -35,16 +37,27 @@ async function importRatings(db: Database, panel: GeneratedPanel, ratings: Ratin
 const WINDOW = 12;
 const runner = countingRunner(createFitPool({ mode: 'in-thread' }), { skipPeriodFits: true });
 
+/** Kept between the reads of the tests below, as the refit service keeps its memo between jobs. */
+const memo = createHistoryReadMemo();
+
 function expectSameAsBefore(db: Database, panelId: number) {
-  const inputs = loadFlagInputs(db, panelId, { windowSessions: WINDOW });
-  expect(inputs.history).toEqual(buildPanelHistory(db, panelId, { windowSessions: WINDOW }));
-  expect(inputs.ratings).toEqual(loadPackedRatings(db, panelId));
+  const inputs = { history: loadPanelHistory(db, panelId, { windowSessions: WINDOW, memo }), ratings: loadPackedRatings(db, panelId, memo) };
+  const fresh = { history: loadPanelHistory(db, panelId, { windowSessions: WINDOW }), ratings: loadPackedRatings(db, panelId) };
+  expect(inputs.history).toEqual(fresh.history);
+  expect(inputs.ratings).toEqual(fresh.ratings);
+  // The packed order is the store's rating-id order (read here with one plain query).
+  const rows = db
+    .prepare('SELECT s.label, r.value FROM rating r JOIN session s ON s.id = r.session_id WHERE s.panel_id = ? ORDER BY r.id')
+    .raw()
+    .all(panelId) as [string, number][];
+  expect(Array.from(inputs.ratings.sessionIndex, (i) => inputs.ratings.sessions[i].label)).toEqual(rows.map(([label]) => label));
+  expect(Array.from(inputs.ratings.value)).toEqual(rows.map(([, value]) => value));
   const task = (history: typeof inputs.history, ratings: typeof inputs.ratings) => runFlagsTask({ type: 'flags', history, ratings, thresholds: null, retraining: [] });
-  expect(task(inputs.history, inputs.ratings)).toEqual(task(buildPanelHistory(db, panelId, { windowSessions: WINDOW }), loadPackedRatings(db, panelId)));
+  expect(task(inputs.history, inputs.ratings)).toEqual(task(fresh.history, fresh.ratings));
   return inputs;
 }
 
-describe('loadFlagInputs reads what buildPanelHistory and loadPackedRatings read', () => {
+describe('an incremental read of the history and ratings gives what a fresh read gives', () => {
   let db: Database;
   let panel: GeneratedPanel;
   let panelId: number;
@@ -77,7 +90,7 @@ describe('loadFlagInputs reads what buildPanelHistory and loadPackedRatings read
     const sessions = listSessionVersions(db, panelId);
     const [attribute, other] = listAttributes(db, panelId);
     const window = sessions.slice(0, WINDOW);
-    const record = (attributeId: number, result: unknown) => ({
+    const record = (attributeId: number, result: StoredPeriodResult) => ({
       attributeId,
       windowSessions: WINDOW,
       firstSessionId: window[0].id,
@@ -86,7 +99,7 @@ describe('loadFlagInputs reads what buildPanelHistory and loadPackedRatings read
       analysisVersion: 'test',
       result,
     });
-    savePeriodFit(db, panelId, record(attribute.id, { json: { variance: { 'product:session': 0.04, residual: 0.2 } }, lrt: { likelihoodRatio: 9.1, pValue: 0.0013 }, diagnostics: {} }));
+    savePeriodFit(db, panelId, record(attribute.id, { json: { variance: { 'product:session': 0.04, residual: 0.2 } } as unknown as FitJson, lrt: { likelihoodRatio: 9.1, pValue: 0.0013 }, diagnostics: {} }));
     savePeriodFit(db, panelId, record(other.id, { problem: 'Not fitted in this test.' }));
     addPanelEvent(db, panelId, { kind: 'retraining', session: sessions[6].label, assessor: 'A02', note: 'retrained' });
     const inputs = expectSameAsBefore(db, panelId);

@@ -6,6 +6,7 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Flag, FlagCase } from '../../domain/flags.js';
 import { FLAG_KINDS } from '../../domain/flags.js';
+import type { PeriodFitResult } from '../../domain/analysis.js';
 import { createFitPool } from '../../server/fit-pool.js';
 import { refitPanel } from '../../server/refit.js';
 import { findPanel } from '../../store/fits-sessions.js';
@@ -209,7 +210,7 @@ describe('product stability and control product pages', () => {
     const json = (await t.app.inject({ url: `/panels/${enc}/monitor/products.json?attribute=${encodeURIComponent(attribute)}` })).json();
     const stored = loadPeriodFits(t.db, findPanel(t.db, name)!.id).filter((p) => p.attribute === attribute);
     expect(json.history.map((w: { lastSession: string }) => w.lastSession)).toEqual(stored.map((p) => p.lastSession));
-    const latestStored = stored.at(-1)!.result as { json: { variance: Record<string, number> }; lrt: { likelihoodRatio: number; pValue: number } };
+    const latestStored = stored.at(-1)!.result as PeriodFitResult & { lrt: { likelihoodRatio: number; pValue: number } };
     const latestShown = json.latest.find((w: { attribute: string }) => w.attribute === attribute);
     expect(latestShown.productSessionVariance).toBe(latestStored.json.variance['product:session']);
     expect(latestShown.pValue).toBe(latestStored.lrt.pValue);

@@ -12,7 +12,8 @@ import type { FitTask, FitTaskResult, PeriodFitResult, PeriodTask } from '../../
 import { CRITERION_OPTIMUM_ABSOLUTE, LIKELIHOOD_RATIO_ABSOLUTE, VARIANCE_RELATIVE } from '../helpers/tolerances.js';
 import { createFitPool, type FitRunner } from '../../server/fit-pool.js';
 import { panelDataSignature, periodWindows, refitPanel, RefitService } from '../../server/refit.js';
-import { findPanel, listSessionVersions, loadPackedRatings, unpackRatings } from '../../store/fits-sessions.js';
+import { findPanel, listSessionVersions, unpackRatings } from '../../store/fits-sessions.js';
+import { loadPackedRatings } from '../../store/panel-history.js';
 import type { Rating } from '../../domain/ratings.js';
 import { loadPeriodFits, loadSessionFits, loadSessionIndices } from '../../store/fits-results.js';
 import { listFlags, loadFlagBuild } from '../../store/monitor-flags.js';

@@ -1,6 +1,7 @@
 /**
- * The flag engine only reads its history: store/read-flag-inputs.ts shares parsed fits and
- * indices between refits, which is safe only if nothing modifies them. Run on a deeply frozen
+ * The flag engine only reads its history: the refit's incremental history read (a memo from
+ * store/read-memo.ts) shares parsed fits and indices between refits, which is safe only if
+ * nothing modifies them. Run on a deeply frozen
  * history (any write would throw in these strict-mode modules), with the same output.
  */
 import { describe, expect, it } from 'vitest';

@@ -2,12 +2,13 @@
  * The flag engine's speed work must not change a single flag or number: its output on pinned
  * histories is compared, exactly (every number as JSON writes it), with what the engine gave
  * before that work (commit 0ceeede; see helpers/equality-histories.ts for the histories and how
- * the expectation was written). Each history is run twice, so the memoised per-session
+ * the expectation was written). Each history is run without a memo, then twice with one memo
+ * shared by all cases (as the refit's flags phase keeps one), so the memoised per-session
  * data-quality results and chart limits are compared as well as the first computation.
  */
 import { readFileSync } from 'node:fs';
 import { describe, expect, it } from 'vitest';
-import { buildFlags, DEFAULT_THRESHOLDS, evaluateRetraining } from '../../../analysis/flags/index.js';
+import { buildFlags, createFlagsMemo, DEFAULT_THRESHOLDS, evaluateRetraining, type FlagsMemo } from '../../../analysis/flags/index.js';
 import { equalityYear, equalityYearWithEvents } from './helpers/equality-histories.js';
 
 const expected = JSON.parse(readFileSync(new URL('./expected-flags-0ceeede.json', import.meta.url), 'utf8')) as Record<string, unknown>;
@@ -39,21 +40,31 @@ const withoutDrift = (value: unknown): unknown => (Array.isArray(value) ? value.
 describe('flags identical to the engine before the speed work (0ceeede)', () => {
   const year = equalityYear();
   const withEvents = equalityYearWithEvents();
-  const cases: [string, () => unknown][] = [
-    ['year', () => buildFlags(year)],
-    ['yearWithoutRatings', () => buildFlags({ ...year, ratings: [] })],
-    ['year51', () => buildFlags(equalityYear(51))],
-    ['withEvents', () => buildFlags(withEvents)],
-    ['since', () => buildFlags(year, DEFAULT_THRESHOLDS, { since: year.sessions[45].label })],
-    ['retraining', () => evaluateRetraining(withEvents, 'A07', withEvents.sessions[40].label, DEFAULT_THRESHOLDS)],
+  const memo = createFlagsMemo();
+  const cases: [string, (memo?: FlagsMemo) => unknown][] = [
+    ['year', (memo) => buildFlags(year, DEFAULT_THRESHOLDS, { memo })],
+    ['yearWithoutRatings', (memo) => buildFlags({ ...year, ratings: [] }, DEFAULT_THRESHOLDS, { memo })],
+    ['year51', (memo) => buildFlags(equalityYear(51), DEFAULT_THRESHOLDS, { memo })],
+    ['withEvents', (memo) => buildFlags(withEvents, DEFAULT_THRESHOLDS, { memo })],
+    ['since', (memo) => buildFlags(year, DEFAULT_THRESHOLDS, { since: year.sessions[45].label, memo })],
+    ['retraining', (memo) => evaluateRetraining(withEvents, 'A07', withEvents.sessions[40].label, DEFAULT_THRESHOLDS, { memo })],
   ];
   for (const [name, run] of cases) {
-    it(`${name}: first and memoised runs`, () => {
+    it(`${name}: without a memo, then first and memoised runs with one`, () => {
       expect(expected[name]).toBeDefined();
       expect(withoutDrift(withoutAddedFields(run()))).toEqual(withoutDrift(expected[name]));
-      expect(withoutDrift(withoutAddedFields(run()))).toEqual(withoutDrift(expected[name]));
+      expect(withoutDrift(withoutAddedFields(run(memo)))).toEqual(withoutDrift(expected[name]));
+      expect(withoutDrift(withoutAddedFields(run(memo)))).toEqual(withoutDrift(expected[name]));
     });
   }
+
+  it('the memo is filled by builds that are given one, and only by those', () => {
+    const own = createFlagsMemo();
+    buildFlags(year);
+    expect(own.quality.sessions.size).toBe(0);
+    buildFlags(year, DEFAULT_THRESHOLDS, { memo: own });
+    expect(own.quality.sessions.size).toBe(year.sessions.length);
+  });
 
   it('chart evidence says where each baseline came from (first values here: no reference period is set)', () => {
     const drift = buildFlags(year).filter((f) => f.kind === 'drift');
@@ -75,8 +86,9 @@ describe('flags identical to the engine before the speed work (0ceeede)', () => 
       done = true;
       return { ...r, value: 9 };
     });
-    const before = buildFlags(year).filter((f) => f.kind === 'straight-lining' && f.firstSession === target);
-    const after = buildFlags(changed).filter((f) => f.kind === 'straight-lining' && f.firstSession === target);
+    const before = buildFlags(year, DEFAULT_THRESHOLDS, { memo }).filter((f) => f.kind === 'straight-lining' && f.firstSession === target);
+    const after = buildFlags(changed, DEFAULT_THRESHOLDS, { memo }).filter((f) => f.kind === 'straight-lining' && f.firstSession === target);
+    expect(asJson(after)).toEqual(asJson(buildFlags(changed).filter((f) => f.kind === 'straight-lining' && f.firstSession === target)));
     expect(before.length).toBe(1);
     expect(asJson(after)).not.toEqual(asJson(before));
   });

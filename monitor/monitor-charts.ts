@@ -1,40 +1,20 @@
 /**
- * Assembles what the monitor pages need from the store and the analysis functions: the panel
- * history, the thresholds, chart designs sized like the flag engine's act level, monitored
- * series, the refit status. Route handlers call these, then a report/ view builder.
+ * The charts of the monitor pages, from the panel history: chart designs sized like the flag
+ * engine's act level, the monitored series of an assessor, the sample sizes behind them.
+ * The page builders (monitor/*-page.ts) call these, then a report/ view builder.
  */
-import type { Database } from 'better-sqlite3';
-import { assessorLevelCharts, validateThresholds, type PanelThresholds } from '../../analysis/flags/index.js';
-import { monitorSeries, type ChartDesigns, type SegmentOptions } from '../../analysis/monitor/chart.js';
-import { actChartDesigns, chartSizing } from '../../analysis/monitor/chart-design.js';
+import { assessorLevelCharts, type PanelThresholds } from '../analysis/flags/index.js';
+import { monitorSeries, type ChartDesigns, type SegmentOptions } from '../analysis/monitor/chart.js';
+import { actChartDesigns, chartSizing } from '../analysis/monitor/chart-design.js';
 import {
   buildAssessorSeries,
-  indexLookup,
   referencePeriodFor,
   restartSessionsFor,
   summarySeries,
   type IndexSeriesKind,
   type PanelHistory,
-} from '../../analysis/monitor/series.js';
-import type { MonitoredSeriesInput } from '../../report/monitor-overview-view.js';
-import { findPanel, type PanelRow } from '../../store/fits-sessions.js';
-import { loadPanelThresholds } from '../../store/monitor-settings.js';
-import { panelHistoryFor, refitStatus, type HistoryMemo } from '../../monitor/panel-context.js';
-
-export { refitStatus };
-import { AppError } from '../errors.js';
-import { buildPanelHistory } from '../refit.js';
-
-export function requireMonitorPanel(db: Database, panelName: string): PanelRow {
-  const panel = findPanel(db, panelName);
-  if (!panel) throw new AppError('PANEL_NOT_FOUND', { panel: panelName.slice(0, 200) });
-  return panel;
-}
-
-/** The panel's thresholds with defaults filled in (stored ones were validated when saved). */
-export function panelThresholds(db: Database, panelId: number): PanelThresholds {
-  return validateThresholds(loadPanelThresholds(db, panelId)?.thresholds ?? {}).thresholds;
-}
+} from '../analysis/monitor/series.js';
+import type { MonitoredSeriesInput } from '../report/monitor-overview-view.js';
 
 /**
  * Chart designs for a set of nCharts charts at the act level's false-alarm budget (ARL0 = K ×
@@ -49,22 +29,6 @@ export function chartDesigns(thresholds: PanelThresholds, nCharts: number): { de
     designs: actChartDesigns(sizing, c.baselineSessions, c.westernElectricWatch ? [1, 2, 3, 4] : [1]),
     baseline: { fullValues: c.baselineSessions, minimumValues: c.minBaselineSessions },
   };
-}
-
-
-export interface MonitorContext {
-  panel: PanelRow;
-  history: PanelHistory;
-  thresholds: PanelThresholds;
-  assessors: string[];
-  attributes: string[];
-}
-
-export function loadMonitorContext(db: Database, panelName: string, options: { withRatings?: boolean; memo?: HistoryMemo } = {}): MonitorContext {
-  const panel = requireMonitorPanel(db, panelName);
-  const history = options.memo ? panelHistoryFor(db, panel.id, options.memo, options) : buildPanelHistory(db, panel.id, { withRatings: options.withRatings });
-  const assessors = [...indexLookup(history).keys()].sort();
-  return { panel, history, thresholds: panelThresholds(db, panel.id), assessors, attributes: history.attributes.map((a) => a.name) };
 }
 
 /** Level series of one assessor against the robust consensus of the others, one per attribute (for the summary series). */
