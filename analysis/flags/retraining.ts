@@ -10,6 +10,7 @@ import type { FlagKind } from '../../domain/flags.js';
 import type { AssessorSessionIndices } from '../indices/types.js';
 import { tUpperTail } from '../distributions/index.js';
 import type { PanelHistory } from '../monitor/series.js';
+import type { ChartSizingMemo } from '../monitor/sizing-memo.js';
 import { median } from '../monitor/series.js';
 import { buildFlags } from './build-flags.js';
 import { points } from './format.js';
@@ -102,7 +103,7 @@ export interface RetrainingEvaluation {
   message: string;
 }
 
-export function evaluateRetraining(history: PanelHistory, assessor: string, eventSession: string, settings: PanelThresholds): RetrainingEvaluation {
+export function evaluateRetraining(history: PanelHistory, assessor: string, eventSession: string, settings: PanelThresholds, sizingMemo?: ChartSizingMemo): RetrainingEvaluation {
   const order = history.sessions.map((s) => s.label);
   const eventIndex = order.indexOf(eventSession);
   if (eventIndex < 0) throw new Error(`evaluateRetraining: session ${eventSession} is not in the history`);
@@ -116,7 +117,7 @@ export function evaluateRetraining(history: PanelHistory, assessor: string, even
     events: history.events.filter((e) => beforeLabels.has(e.session)),
     periodFits: [],
   };
-  const kindsBefore = [...new Set(buildFlags(before, settings).filter((f) => f.assessor === assessor).map((f) => f.kind))];
+  const kindsBefore = [...new Set(buildFlags(before, settings, { sizingMemo }).filter((f) => f.assessor === assessor).map((f) => f.kind))];
   const indices = new Map<RetrainingIndex, FlagKind[]>();
   for (const kind of kindsBefore) {
     const index = INDEX_OF_KIND[kind];

@@ -4,9 +4,10 @@
  * series, the refit status. Route handlers call these, then a report/ view builder.
  */
 import type { Database } from 'better-sqlite3';
-import { assessorLevelCharts, validateThresholds, type PanelThresholds } from '../../analysis/flags/index.js';
+import { assessorLevelCharts, validateThresholds, type AssessorLevelCharts, type PanelThresholds } from '../../analysis/flags/index.js';
 import { monitorSeries, type ChartDesigns, type SegmentOptions } from '../../analysis/monitor/chart.js';
-import { actChartDesigns, chartSizing } from '../../analysis/monitor/chart-design.js';
+import { sizedChartDesigns, chartSizing } from '../../analysis/monitor/chart-design.js';
+import { createChartSizingMemo, type ChartSizingMemo } from '../../analysis/monitor/sizing-memo.js';
 import {
   buildAssessorSeries,
   indexLookup,
@@ -19,7 +20,7 @@ import {
 import type { MonitoredSeriesInput } from '../../report/monitor-overview-view.js';
 import { findPanel, type PanelRow } from '../../store/fits-sessions.js';
 import { loadPanelThresholds } from '../../store/monitor-settings.js';
-import { panelHistoryFor, refitStatus, type HistoryMemo } from '../../monitor/panel-context.js';
+import { derivedFromHistory, panelHistoryFor, refitStatus, type HistoryMemo } from '../../monitor/panel-context.js';
 
 export { refitStatus };
 import { AppError } from '../errors.js';
@@ -42,11 +43,11 @@ export function panelThresholds(db: Database, panelId: number): PanelThresholds 
  * flag engine uses (analysis/monitor/chart-design.ts): L per segment for its baseline, so a point
  * beyond the drawn limit is one the flag engine saw.
  */
-export function chartDesigns(thresholds: PanelThresholds, nCharts: number): { designs: ChartDesigns; baseline: SegmentOptions['baseline'] } {
+export function chartDesigns(thresholds: PanelThresholds, nCharts: number, sizingMemo?: ChartSizingMemo): { designs: ChartDesigns; baseline: SegmentOptions['baseline'] } {
   const c = thresholds.charts;
   const sizing = chartSizing(Math.max(1, nCharts), c.sessionsPerYear, c.actFalseAlarmsPerYear, c.watchFalseAlarmsPerYear, c.ewmaLambda, c.cusumK);
   return {
-    designs: actChartDesigns(sizing, c.baselineSessions, c.westernElectricWatch ? [1, 2, 3, 4] : [1]),
+    designs: sizedChartDesigns(sizing, c.baselineSessions, c.westernElectricWatch ? [1, 2, 3, 4] : [1], sizingMemo),
     baseline: { fullValues: c.baselineSessions, minimumValues: c.minBaselineSessions },
   };
 }
@@ -58,13 +59,29 @@ export interface MonitorContext {
   thresholds: PanelThresholds;
   assessors: string[];
   attributes: string[];
+  /** Chart sizings kept for the caller (the app's history memo), or fresh for this request. */
+  sizingMemo: ChartSizingMemo;
+  /** The level charts of every assessor as the drift flags read them, computed on first use and kept with the history. */
+  levelCharts: () => Map<string, AssessorLevelCharts>;
 }
 
 export function loadMonitorContext(db: Database, panelName: string, options: { withRatings?: boolean; memo?: HistoryMemo } = {}): MonitorContext {
   const panel = requireMonitorPanel(db, panelName);
   const history = options.memo ? panelHistoryFor(db, panel.id, options.memo, options) : buildPanelHistory(db, panel.id, { withRatings: options.withRatings });
   const assessors = [...indexLookup(history).keys()].sort();
-  return { panel, history, thresholds: panelThresholds(db, panel.id), assessors, attributes: history.attributes.map((a) => a.name) };
+  const thresholds = panelThresholds(db, panel.id);
+  const sizingMemo = options.memo?.sizing ?? createChartSizingMemo();
+  let levelCharts: Map<string, AssessorLevelCharts> | null = null;
+  const compute = () => assessorLevelCharts(history, thresholds, sizingMemo);
+  return {
+    panel,
+    history,
+    thresholds,
+    assessors,
+    attributes: history.attributes.map((a) => a.name),
+    sizingMemo,
+    levelCharts: () => (levelCharts ??= options.memo ? derivedFromHistory(options.memo, history, `level charts ${JSON.stringify(thresholds)}`, compute) : compute()),
+  };
 }
 
 /** Level series of one assessor against the robust consensus of the others, one per attribute (for the summary series). */
@@ -77,9 +94,9 @@ export function assessorSegmentOptions(history: PanelHistory, assessor: string, 
   return { baseline, restartSessions: restartSessionsFor(history, assessor), referenceSessions: referencePeriodFor(history, assessor)?.sessions ?? null };
 }
 
-/** The assessor's summary series (median z over attributes) and its monitored segments; with thresholds, exactly as the flags saw it. */
-export function monitoredSummary(history: PanelHistory, assessor: string, designs: ChartDesigns, baseline: SegmentOptions['baseline'], thresholds?: PanelThresholds): MonitoredSeriesInput {
-  const shared = thresholds ? assessorLevelCharts(history, thresholds).get(assessor)?.summary : undefined;
+/** The assessor's summary series (median z over attributes) and its monitored segments; with the level charts, exactly as the flags saw it. */
+export function monitoredSummary(history: PanelHistory, assessor: string, designs: ChartDesigns, baseline: SegmentOptions['baseline'], levelCharts?: Map<string, AssessorLevelCharts>): MonitoredSeriesInput {
+  const shared = levelCharts?.get(assessor)?.summary;
   if (shared) return shared;
   const options = assessorSegmentOptions(history, assessor, baseline);
   const series = summarySeries(levelSeriesByAttribute(history, assessor), options);
@@ -95,9 +112,9 @@ export const MEASURE_LABELS: Record<IndexSeriesKind, { label: string; yLabel: st
 };
 
 /** The five index series of one assessor and attribute, monitored. */
-export function monitoredMeasures(history: PanelHistory, assessor: string, attribute: string, designs: ChartDesigns, baseline: SegmentOptions['baseline'], thresholds?: PanelThresholds) {
+export function monitoredMeasures(history: PanelHistory, assessor: string, attribute: string, designs: ChartDesigns, baseline: SegmentOptions['baseline'], levelCharts?: Map<string, AssessorLevelCharts>) {
   const options = assessorSegmentOptions(history, assessor, baseline);
-  const sharedLevel = thresholds ? assessorLevelCharts(history, thresholds).get(assessor)?.attributes.get(attribute) : undefined;
+  const sharedLevel = levelCharts?.get(assessor)?.attributes.get(attribute);
   const one = { ...history, attributes: history.attributes.filter((a) => a.name === attribute) };
   return buildAssessorSeries(one)
     .filter((s) => s.assessor === assessor)

@@ -175,7 +175,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
   registerFormPage('/panels/:panel/monitor', 'monitor', (request) => {
     const ctx = loadMonitorContext(db, (request.params as PanelParams).panel, { memo });
     scheduleIfStale(ctx.panel.name, ctx.panel.id);
-    const { designs, baseline } = chartDesigns(ctx.thresholds, ctx.assessors.length);
+    const { designs, baseline } = chartDesigns(ctx.thresholds, ctx.assessors.length, ctx.sizingMemo);
     const sizes = assessorSampleSizes(ctx.history);
     return buildMonitorOverviewView({
       panel: ctx.panel.name,
@@ -186,7 +186,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
         ctx.assessors.map((assessor) => ({
           assessor,
           ...(sizes.get(assessor) ?? { nSessions: 0, nRatings: 0 }),
-          summary: monitoredSummary(ctx.history, assessor, designs, baseline, ctx.thresholds),
+          summary: monitoredSummary(ctx.history, assessor, designs, baseline, ctx.levelCharts()),
         })),
       ),
       openFlags: listFlags(db, ctx.panel.id, { status: 'open' }).map((r) => r.flag),
@@ -207,8 +207,8 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
       }
       const requested = typeof query.attribute === 'string' ? query.attribute : null;
       const attribute = requested && ctx.attributes.includes(requested) ? requested : (ctx.attributes[0] ?? null);
-      const summaryDesign = chartDesigns(ctx.thresholds, ctx.assessors.length);
-      const attributeDesign = chartDesigns(ctx.thresholds, ctx.assessors.length * Math.max(1, ctx.attributes.length));
+      const summaryDesign = chartDesigns(ctx.thresholds, ctx.assessors.length, ctx.sizingMemo);
+      const attributeDesign = chartDesigns(ctx.thresholds, ctx.assessors.length * Math.max(1, ctx.attributes.length), ctx.sizingMemo);
       return buildAssessorMonitorView({
         panel: ctx.panel.name,
         assessor: params.assessor,
@@ -216,8 +216,8 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
         attributes: ctx.attributes,
         attribute,
         nSessions: assessorSampleSizes(ctx.history).get(params.assessor)?.nSessions ?? 0,
-        summary: monitoredSummary(ctx.history, params.assessor, summaryDesign.designs, summaryDesign.baseline, ctx.thresholds),
-        measures: attribute === null ? [] : monitoredMeasures(ctx.history, params.assessor, attribute, attributeDesign.designs, attributeDesign.baseline, ctx.thresholds),
+        summary: monitoredSummary(ctx.history, params.assessor, summaryDesign.designs, summaryDesign.baseline, ctx.levelCharts()),
+        measures: attribute === null ? [] : monitoredMeasures(ctx.history, params.assessor, attribute, attributeDesign.designs, attributeDesign.baseline, ctx.levelCharts()),
         flags: listFlags(db, ctx.panel.id, { status: 'open', assessor: params.assessor }).map((r) => r.flag),
         events: ctx.history.events,
         // Per-attribute charts: limits sized for the assessor × attribute chart set; the summary charts use their own.
@@ -305,7 +305,7 @@ async function monitorRoutesPlugin(app: FastifyInstance, options: MonitorRoutesO
     const attribute = requested && ctx.attributes.includes(requested) ? requested : (ctx.attributes[0] ?? null);
     const product = ctx.history.referenceProducts[0] ?? null;
     const series = buildReferenceSeries(ctx.history).find((s) => s.product === product && s.attribute === attribute);
-    const { designs, baseline } = chartDesigns(ctx.thresholds, ctx.assessors.length);
+    const { designs, baseline } = chartDesigns(ctx.thresholds, ctx.assessors.length, ctx.sizingMemo);
     const monitored = (points: SeriesPoint[], assessor: string | null) => {
       const options = {
         baseline,

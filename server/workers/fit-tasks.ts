@@ -3,6 +3,7 @@
  * Pure analysis: observations in, results out; no database, no clock.
  */
 import { buildFlags, evaluateRetraining, validateThresholds } from '../../analysis/flags/index.js';
+import { createChartSizingMemo } from '../../analysis/monitor/sizing-memo.js';
 import { computeAssessorIndices } from '../../analysis/indices/compute-assessor-indices.js';
 import { UNEXPECTED_FIT_FAILURE } from '../../analysis/analyze-ratings.js';
 import { LmmFitError } from '../../analysis/lmm/errors.js';
@@ -80,13 +81,20 @@ export function runPeriodTask(task: PeriodTask): PeriodTaskResult {
   }
 }
 
+/**
+ * Chart sizings (limit widths, decision intervals, jump rules) kept by this thread between flag
+ * builds: they depend only on the chart settings and baseline lengths, so every build after the
+ * first finds them here. The analysis functions themselves keep nothing.
+ */
+const sizingMemo = createChartSizingMemo();
+
 export function runFlagsTask(task: FlagsTask): FlagsTaskResult {
   // Stored thresholds were validated when saved; validating again fills in defaults added since.
   const { thresholds } = validateThresholds(task.thresholds ?? {});
   const history = { ...task.history, ratings: unpackRatings(task.ratings) };
   return {
-    flags: buildFlags(history, thresholds),
-    retraining: task.retraining.map((r) => ({ id: r.id, evaluation: evaluateRetraining(history, r.assessor, r.eventSession, thresholds) })),
+    flags: buildFlags(history, thresholds, { sizingMemo }),
+    retraining: task.retraining.map((r) => ({ id: r.id, evaluation: evaluateRetraining(history, r.assessor, r.eventSession, thresholds, sizingMemo) })),
   };
 }
 
