@@ -175,7 +175,10 @@ export function monitorSeries(series: readonly SeriesPoint[], designs: ChartDesi
       const ewmaSignal = statistic > limit ? 'up' : statistic < -limit ? 'down' : null;
       if (ewmaSignal && ewmaFirstSignalIndex === null) ewmaFirstSignalIndex = i;
       return {
-        ...p,
+        session: p.session,
+        date: p.date,
+        value: p.value,
+        z: p.z,
         ewma: statistic,
         ewmaLimit: limit,
         ewmaWatchLimit: watchL === null ? null : watchL * ewma.points[i].limit,
