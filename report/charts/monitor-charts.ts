@@ -27,7 +27,7 @@ export const SIGNAL_REASON_WORDS: Record<SignalReason | 'no-open-case', string> 
 function reasonOf(signal: LinkedSignal): SignalReasonInput {
   if ('flag' in signal.link) {
     const flag = signal.link.flag;
-    return { code: 'case', text: `part of the open ${kindLabel(flag.kind)} case${flag.attribute === null ? ' over all attributes' : ''} from ${flag.firstSession}` };
+    return { code: 'case', text: `part of the open case “${kindLabel(flag.kind)}”${flag.attribute === null ? ' (all attributes)' : ` (${flag.attribute})`} since ${flag.firstSession}` };
   }
   return { code: signal.link.reason, text: SIGNAL_REASON_WORDS[signal.link.reason] };
 }
@@ -154,7 +154,7 @@ export function monitorChartInputs(args: {
     },
     cusum: {
       ...common,
-      title: `${args.title}: CUSUM (k = ${designs.cusum.k}, h = ${designs.cusum.h})`,
+      title: `${args.title}: CUSUM (k = ${designs.cusum.k}, h = ${designs.cusum.h.toFixed(2)})`,
       yLabel: 'C⁺ and −C⁻ (SD units)',
       series: [
         { name: 'C⁺', values: cusumUp, signals: cusumSignals, signalReasons: reasons.cusum },

@@ -104,7 +104,7 @@ export function monitoredSummary(history: PanelHistory, assessor: string, design
 }
 
 export const MEASURE_LABELS: Record<IndexSeriesKind, { label: string; yLabel: string }> = {
-  level: { label: 'Level offset', yLabel: 'offset from the median of the other assessors (scale points)' },
+  level: { label: 'Level offset', yLabel: 'offset (scale points)' },
   repeatability: { label: 'Repeatability', yLabel: 'log(s_a / s_rest)' },
   discrimination: { label: 'Discrimination', yLabel: 'log F (products)' },
   agreement: { label: 'Agreement', yLabel: 'atanh r (with the rest)' },
