@@ -74,7 +74,7 @@ export function caseChart(flag: Flag, history: PanelHistory): ChartView | null {
         name: flag.assessor,
         values,
         signals: sessions.map((s) => (marked.has(s) ? flag.severity : null)),
-        signalReasons: sessions.map((s) => (marked.has(s) ? { code: 'case', text: `behind this ${kindLabel(flag.kind)} case` } : null)),
+        signalReasons: sessions.map((s) => (marked.has(s) ? { code: 'case', text: `behind this case (“${kindLabel(flag.kind)}”)` } : null)),
         notes: sessions.map((s, i) => (values[i] === null ? null : `${s}: ${values[i]!.toFixed(2)}${marked.has(s) ? ' (behind this flag)' : ''}`)),
       },
     ],

@@ -24,7 +24,7 @@ export interface ChartSeriesInput {
 }
 
 export interface SignalReasonInput {
-  /** 'case' when the signal belongs to a case, else the reason code (analysis/monitor/chart-signals.ts). */
+  /** 'case' when the signal belongs to a case, else the reason code (chart-signals.ts). */
   code: string;
   /** The same in plain words for the page. */
   text: string;

@@ -4,13 +4,12 @@
  * baseline segment, Western Electric signals: rule 1 = act, rules 2–4 = watch, methods §3.3),
  * the EWMA chart with its exact limits and the two-sided CUSUM with ±h (both in SD units; a
  * signal = act, methods §3.4–3.5). Every signal carries the case it belongs to or the reason no
- * case comes from it (analysis/monitor/chart-signals.ts, analysis/flags/chart-links.ts, §3.11).
+ * case comes from it (chart-signals.ts, chart-links.ts, §3.11).
  */
-import { linkSignals, type ChartOwner, type LinkedSignal } from '../../analysis/flags/chart-links.js';
+import { linkSignals, type ChartOwner, type LinkedSignal } from './chart-links.js';
 import type { ChartDesigns, MonitoredSegment, SeriesPoint } from '../../analysis/monitor/chart.js';
-import { chartSignals, type ChartKind, type ChartRole, type SignalReason } from '../../analysis/monitor/chart-signals.js';
+import { chartSignals, type ChartKind, type ChartRole, type SignalReason } from './chart-signals.js';
 import type { Flag } from '../../domain/flags.js';
-import { limitWidthText } from '../../analysis/monitor/chart-design.js';
 import { kindLabel } from '../words.js';
 import type { ChartEventInput, ChartInput, ChartLineInput, SignalReasonInput, SignalSeverity } from './control-chart.js';
 
@@ -142,7 +141,7 @@ export function monitorChartInputs(args: {
     },
     ewma: {
       ...common,
-      title: `${args.title}: EWMA (λ = ${designs.ewma.lambda}, L = ${limitWidthText(lastSegment?.ewmaLimitWidth ?? designs.ewma.L)})`,
+      title: `${args.title}: EWMA (λ = ${designs.ewma.lambda}, L = ${(lastSegment?.ewmaLimitWidth ?? designs.ewma.L).toFixed(3)})`,
       yLabel: 'EWMA of z (SD units)',
       series: [{ name: 'EWMA', values: ewma, signals: ewmaSignals, signalReasons: reasons.ewma }],
       lines: [

@@ -6,7 +6,7 @@
  * retraining restart (flags judge the current segment).
  * Then every page type (overview, assessor × attribute, control product, case) is built the way
  * the routes build it, and every signal drawn on any of its charts (individuals, EWMA, CUSUM)
- * must belong to a case or carry a stated reason (analysis/monitor/chart-signals.ts). Checked on
+ * must belong to a case or carry a stated reason (report/charts/chart-signals.ts). Checked on
  * the demo panel and on one simulated panel of every scenario family through the real fitting
  * pipeline. Narrowing the pages' L by 10 %, or drawing the EWMA with the watch limit, makes it fail.
  */

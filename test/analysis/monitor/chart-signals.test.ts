@@ -4,9 +4,9 @@
  * (the simulated panels of chart-flag-agreement.test.ts have no restarts or control-product cases).
  */
 import { describe, expect, it } from 'vitest';
-import { linkSignals } from '../../../analysis/flags/chart-links.js';
+import { linkSignals } from '../../../report/charts/chart-links.js';
 import { monitorSeries, type SeriesPoint } from '../../../analysis/monitor/chart.js';
-import { chartSignals } from '../../../analysis/monitor/chart-signals.js';
+import { chartSignals } from '../../../report/charts/chart-signals.js';
 import type { Flag } from '../../../domain/flags.js';
 
 const DESIGNS = { ewma: { lambda: 0.2, L: 2.962 }, cusum: { k: 0.5, h: 5 }, rules: [1] as const };

@@ -1,6 +1,8 @@
 /**
  * What each signal drawn on a chart means (docs/methods.md §3.11): the flag rule that reads it,
- * or the stated reason why no case comes from it. One function for every chart the pages draw
+ * or the stated reason why no case comes from it. The rules restate what the flag engine reads
+ * (analysis/flags/chart-signal.ts signalOfSegment, the jump rule, the pooled index tests);
+ * test/analysis/monitor/chart-flag-agreement.test.ts holds the two together on every page type. One function for every chart the pages draw
  * (individuals, EWMA and CUSUM of the level charts, the index charts, the control-product charts),
  * so the pages, their JSON twins and the agreement test classify a signal the same way.
  *   - EWMA crossings of the act limit in a level chart's current segment: read by the drift rule.
@@ -12,7 +14,7 @@
  *   - Index charts (repeatability, discrimination, …): their cases pool the recent sessions.
  *   - Control-product charts: no case is raised from them.
  */
-import type { MonitoredSegment } from './chart.js';
+import type { MonitoredSegment } from '../../analysis/monitor/chart.js';
 
 /** Which chart set a chart belongs to, and so which flag rule (if any) reads it. */
 export type ChartRole = 'level-summary' | 'level-attribute' | 'index' | 'control';

@@ -1,6 +1,6 @@
 /**
  * Which case each signal drawn on a chart belongs to (docs/methods.md §3.11). A signal that a flag
- * rule reads (analysis/monitor/chart-signals.ts) belongs to that rule's case for the chart's
+ * rule reads (chart-signals.ts) belongs to that rule's case for the chart's
  * assessor: the attribute's own case, or the assessor-wide case that summarises the attribute
  * charts (the drift rule reports one or the other), from the case's first session (its change
  * estimate or its signal, whichever is earlier) on. Any other signal of a level chart inside such a
@@ -11,7 +11,7 @@
  * the data; with freshly built flags it means the charts and the flags disagree.
  */
 import type { Flag } from '../../domain/flags.js';
-import type { DesignedSignal, SignalReason } from '../monitor/chart-signals.js';
+import type { DesignedSignal, SignalReason } from './chart-signals.js';
 
 export interface ChartOwner {
   assessor: string | null;
