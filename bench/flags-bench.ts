@@ -2,10 +2,11 @@
  * Speed of the flag engine (goal: a year of 52 sessions × 10 attributes × 12 assessors, flags
  * in well under a second). History: seeded synthetic indices (test/analysis/flags/helpers) plus
  * 62 400 seeded ratings for the data-quality checks. Reports the first call in a fresh process
- * (includes sizing the chart limits, memoised afterwards), the median of warm calls, and the call
+ * (includes sizing the chart limits, kept in the caller's sizing memo afterwards), the median of warm calls, and the call
  * after adding one session. Run: `npx tsx bench/flags-bench.ts`.
  */
 import { buildFlags as build, createFlagsMemo, type PanelThresholds } from '../analysis/flags/index.js';
+import { createChartSizingMemo } from '../analysis/monitor/sizing-memo.js';
 import { syntheticYear as yearHistory } from '../test/analysis/flags/helpers/equality-histories.js';
 
 const time = (f: () => unknown): number => {
@@ -15,9 +16,10 @@ const time = (f: () => unknown): number => {
 };
 const median = (v: number[]) => [...v].sort((a, b) => a - b)[v.length >> 1];
 
-// One memo for the run, as the refit's flags phase keeps one per worker thread.
+// One memo of each kind for the run, as the refit's flags phase keeps them per worker thread.
 const memo = createFlagsMemo();
-const buildFlags = (history: Parameters<typeof build>[0], settings?: PanelThresholds) => build(history, settings, { memo });
+const sizingMemo = createChartSizingMemo();
+const buildFlags = (history: Parameters<typeof build>[0], settings?: PanelThresholds) => build(history, settings, { memo, sizingMemo });
 
 const year = yearHistory(52);
 const previous = yearHistory(51);

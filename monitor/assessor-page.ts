@@ -14,8 +14,8 @@ export function buildAssessorPage(ctx: MonitorContext, params: { assessor: strin
     throw new NotInPanel(`${monitorHref(ctx.panel.name)}/assessors/${params.assessor}`.slice(0, 200));
   }
   const attribute = chosenAttribute(ctx, params.attribute);
-  const summaryDesign = chartDesigns(ctx.thresholds, ctx.assessors.length);
-  const attributeDesign = chartDesigns(ctx.thresholds, ctx.assessors.length * Math.max(1, ctx.attributes.length));
+  const summaryDesign = chartDesigns(ctx.thresholds, ctx.assessors.length, ctx.sizingMemo);
+  const attributeDesign = chartDesigns(ctx.thresholds, ctx.assessors.length * Math.max(1, ctx.attributes.length), ctx.sizingMemo);
   return buildAssessorMonitorView({
     panel: ctx.panel.name,
     assessor: params.assessor,
@@ -23,8 +23,8 @@ export function buildAssessorPage(ctx: MonitorContext, params: { assessor: strin
     attributes: ctx.attributes,
     attribute,
     nSessions: assessorSampleSizes(ctx.history).get(params.assessor)?.nSessions ?? 0,
-    summary: monitoredSummary(ctx.history, params.assessor, summaryDesign.designs, summaryDesign.baseline, ctx.thresholds),
-    measures: attribute === null ? [] : monitoredMeasures(ctx.history, params.assessor, attribute, attributeDesign.designs, attributeDesign.baseline, ctx.thresholds),
+    summary: monitoredSummary(ctx.history, params.assessor, summaryDesign.designs, summaryDesign.baseline, ctx.levelCharts()),
+    measures: attribute === null ? [] : monitoredMeasures(ctx.history, params.assessor, attribute, attributeDesign.designs, attributeDesign.baseline, ctx.levelCharts()),
     flags: ctx.read.flags({ status: 'open', assessor: params.assessor }).map((r) => r.flag),
     events: ctx.history.events,
     // Per-attribute charts: limits sized for the assessor × attribute chart set; the summary charts use their own.

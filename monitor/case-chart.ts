@@ -3,9 +3,11 @@
  * averaged over attributes for a panel-wide drift), with the sessions behind the flag marked and
  * the assessor's retraining events drawn. Values are shown on their natural scale (points,
  * ratios, correlations), not the log scale the tests use, so the chart reads like the table.
+ * A drift case shows the level the drift rule charts: the offset from the median of the other
+ * assessors (docs/methods.md §3.9), with that reference drawn as a line at 0.
  */
 import type { AssessorSessionIndices } from '../analysis/indices/types.js';
-import { indexLookup, type PanelHistory } from '../analysis/monitor/series.js';
+import { buildAssessorSeries, indexLookup, type PanelHistory } from '../analysis/monitor/series.js';
 import type { Flag } from '../domain/flags.js';
 import { buildControlChart, type ChartView } from '../report/charts/control-chart.js';
 import { kindLabel } from '../report/words.js';
@@ -17,13 +19,15 @@ interface Measure {
   /** The rest of the panel on this scale. */
   reference: number;
   referenceName: string;
+  /** Values from the level against the median of the other assessors instead of `value`. */
+  robustLevel?: boolean;
 }
 
 const LEVEL: Measure = { yLabel: 'level difference (points)', title: 'Level difference from the rest of the panel', value: (r) => r.offset, reference: 0, referenceName: 'panel' };
 const MEASURES: Partial<Record<Flag['kind'], Measure>> = {
   lenient: LEVEL,
   harsh: LEVEL,
-  drift: LEVEL,
+  drift: { ...LEVEL, title: 'Level difference from the median of the other assessors', referenceName: 'median of the other assessors', robustLevel: true },
   inconsistent: { yLabel: 'spread ratio (×)', title: "Replicate spread relative to the rest of the panel", value: (r) => r.repeatabilitySdRatio, reference: 1, referenceName: 'panel' },
   'non-discriminating': { yLabel: 'F (products)', title: 'Product separation (F ratio of the products)', value: (r) => r.discriminationF, reference: 1, referenceName: 'none' },
   disagreement: { yLabel: 'correlation r', title: 'Correlation of the product order with the rest of the panel', value: (r) => r.agreementR, reference: 0, referenceName: 'r = 0' },
@@ -49,8 +53,14 @@ export function caseChart(flag: Flag, history: PanelHistory): ChartView | null {
   const byAttribute = indexLookup(history).get(flag.assessor);
   if (!byAttribute) return null;
   const attributes = flag.attribute === null ? [...byAttribute.keys()] : [flag.attribute];
+  const robust = measure.robustLevel
+    ? buildAssessorSeries({ ...history, attributes: history.attributes.filter((a) => attributes.includes(a.name)) }, ['level']).filter((s) => s.assessor === flag.assessor)
+    : [];
+  const robustAt = robust.map((s) => new Map(s.points.map((p) => [p.session, p.value])));
   const values = sessions.map((session) => {
-    const found = attributes.map((a) => byAttribute.get(a)?.get(session)).map((row) => (row ? measure.value(row) : null)).filter((v): v is number => v !== null && Number.isFinite(v));
+    const found = (measure.robustLevel ? robustAt.map((m) => m.get(session) ?? null) : attributes.map((a) => byAttribute.get(a)?.get(session)).map((row) => (row ? measure.value(row) : null))).filter(
+      (v): v is number => v !== null && Number.isFinite(v),
+    );
     return found.length === 0 ? null : found.reduce((s, v) => s + v, 0) / found.length;
   });
   const marked = flaggedSessions(flag, sessions);
@@ -64,10 +74,11 @@ export function caseChart(flag: Flag, history: PanelHistory): ChartView | null {
         name: flag.assessor,
         values,
         signals: sessions.map((s) => (marked.has(s) ? flag.severity : null)),
+        signalReasons: sessions.map((s) => (marked.has(s) ? { code: 'case', text: `behind this case (“${kindLabel(flag.kind)}”)` } : null)),
         notes: sessions.map((s, i) => (values[i] === null ? null : `${s}: ${values[i]!.toFixed(2)}${marked.has(s) ? ' (behind this flag)' : ''}`)),
       },
     ],
-    lines: measure.referenceName === 'none' ? [] : [{ name: measure.referenceName, kind: 'centre', values: measure.reference }],
+    lines: measure.referenceName === 'none' ? [] : [{ name: measure.referenceName, kind: measure.robustLevel ? 'reference' : 'centre', values: measure.reference }],
     isProvisional: false,
     events: history.events.filter((e) => e.kind === 'retraining' && (e.assessor === null || e.assessor === flag.assessor)).map((e) => ({ session: e.session, label: 'retraining' })),
     description: `${marked.size} session${marked.size === 1 ? '' : 's'} behind the ${kindLabel(flag.kind)} case are marked in ${flag.severity === 'act' ? 'red' : 'orange'}.`,

@@ -11,7 +11,7 @@ export function buildControlPage(ctx: MonitorContext, params: { attribute?: unkn
   const attribute = chosenAttribute(ctx, params.attribute);
   const product = ctx.history.referenceProducts[0] ?? null;
   const series = buildReferenceSeries(ctx.history).find((s) => s.product === product && s.attribute === attribute);
-  const { designs, baseline } = chartDesigns(ctx.thresholds, ctx.assessors.length);
+  const { designs, baseline } = chartDesigns(ctx.thresholds, ctx.assessors.length, ctx.sizingMemo);
   const monitored = (points: SeriesPoint[], assessor: string | null) => {
     const options = {
       baseline,

@@ -3,9 +3,10 @@
  * engine's act level, the monitored series of an assessor, the sample sizes behind them.
  * The page builders (monitor/*-page.ts) call these, then a report/ view builder.
  */
-import { assessorLevelCharts, type PanelThresholds } from '../analysis/flags/index.js';
+import { assessorLevelCharts, type AssessorLevelCharts, type PanelThresholds } from '../analysis/flags/index.js';
 import { monitorSeries, type ChartDesigns, type SegmentOptions } from '../analysis/monitor/chart.js';
-import { actChartDesigns, chartSizing } from '../analysis/monitor/chart-design.js';
+import { sizedChartDesigns, chartSizing } from '../analysis/monitor/chart-design.js';
+import type { ChartSizingMemo } from '../analysis/monitor/sizing-memo.js';
 import {
   buildAssessorSeries,
   referencePeriodFor,
@@ -22,11 +23,11 @@ import type { MonitoredSeriesInput } from '../report/monitor-overview-view.js';
  * flag engine uses (analysis/monitor/chart-design.ts): L per segment for its baseline, so a point
  * beyond the drawn limit is one the flag engine saw.
  */
-export function chartDesigns(thresholds: PanelThresholds, nCharts: number): { designs: ChartDesigns; baseline: SegmentOptions['baseline'] } {
+export function chartDesigns(thresholds: PanelThresholds, nCharts: number, sizingMemo?: ChartSizingMemo): { designs: ChartDesigns; baseline: SegmentOptions['baseline'] } {
   const c = thresholds.charts;
   const sizing = chartSizing(Math.max(1, nCharts), c.sessionsPerYear, c.actFalseAlarmsPerYear, c.watchFalseAlarmsPerYear, c.ewmaLambda, c.cusumK);
   return {
-    designs: actChartDesigns(sizing, c.baselineSessions, c.westernElectricWatch ? [1, 2, 3, 4] : [1]),
+    designs: sizedChartDesigns(sizing, c.baselineSessions, c.westernElectricWatch ? [1, 2, 3, 4] : [1], sizingMemo),
     baseline: { fullValues: c.baselineSessions, minimumValues: c.minBaselineSessions },
   };
 }
@@ -41,9 +42,9 @@ export function assessorSegmentOptions(history: PanelHistory, assessor: string, 
   return { baseline, restartSessions: restartSessionsFor(history, assessor), referenceSessions: referencePeriodFor(history, assessor)?.sessions ?? null };
 }
 
-/** The assessor's summary series (median z over attributes) and its monitored segments; with thresholds, exactly as the flags saw it. */
-export function monitoredSummary(history: PanelHistory, assessor: string, designs: ChartDesigns, baseline: SegmentOptions['baseline'], thresholds?: PanelThresholds): MonitoredSeriesInput {
-  const shared = thresholds ? assessorLevelCharts(history, thresholds).get(assessor)?.summary : undefined;
+/** The assessor's summary series (median z over attributes) and its monitored segments; with the level charts, exactly as the flags saw it. */
+export function monitoredSummary(history: PanelHistory, assessor: string, designs: ChartDesigns, baseline: SegmentOptions['baseline'], levelCharts?: Map<string, AssessorLevelCharts>): MonitoredSeriesInput {
+  const shared = levelCharts?.get(assessor)?.summary;
   if (shared) return shared;
   const options = assessorSegmentOptions(history, assessor, baseline);
   const series = summarySeries(levelSeriesByAttribute(history, assessor), options);
@@ -51,7 +52,7 @@ export function monitoredSummary(history: PanelHistory, assessor: string, design
 }
 
 export const MEASURE_LABELS: Record<IndexSeriesKind, { label: string; yLabel: string }> = {
-  level: { label: 'Level offset', yLabel: 'offset from the median of the other assessors (scale points)' },
+  level: { label: 'Level offset', yLabel: 'offset (scale points)' },
   repeatability: { label: 'Repeatability', yLabel: 'log(s_a / s_rest)' },
   discrimination: { label: 'Discrimination', yLabel: 'log F (products)' },
   agreement: { label: 'Agreement', yLabel: 'atanh r (with the rest)' },
@@ -59,9 +60,9 @@ export const MEASURE_LABELS: Record<IndexSeriesKind, { label: string; yLabel: st
 };
 
 /** The five index series of one assessor and attribute, monitored. */
-export function monitoredMeasures(history: PanelHistory, assessor: string, attribute: string, designs: ChartDesigns, baseline: SegmentOptions['baseline'], thresholds?: PanelThresholds) {
+export function monitoredMeasures(history: PanelHistory, assessor: string, attribute: string, designs: ChartDesigns, baseline: SegmentOptions['baseline'], levelCharts?: Map<string, AssessorLevelCharts>) {
   const options = assessorSegmentOptions(history, assessor, baseline);
-  const sharedLevel = thresholds ? assessorLevelCharts(history, thresholds).get(assessor)?.attributes.get(attribute) : undefined;
+  const sharedLevel = levelCharts?.get(assessor)?.attributes.get(attribute);
   const one = { ...history, attributes: history.attributes.filter((a) => a.name === attribute) };
   return buildAssessorSeries(one)
     .filter((s) => s.assessor === assessor)

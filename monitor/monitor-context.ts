@@ -6,7 +6,8 @@
  * context; only this loader holds the store connection.
  */
 import type { Database } from 'better-sqlite3';
-import { validateThresholds, type PanelThresholds } from '../analysis/flags/index.js';
+import { assessorLevelCharts, validateThresholds, type AssessorLevelCharts, type PanelThresholds } from '../analysis/flags/index.js';
+import type { ChartSizingMemo } from '../analysis/monitor/sizing-memo.js';
 import { indexLookup, type PanelHistory } from '../analysis/monitor/series.js';
 import type { RefitStatusView } from '../report/monitor-common.js';
 import { loadPeriodFits, loadSessionQuality, type StoredPeriodFit, type StoredQuality } from '../store/fits-results.js';
@@ -14,7 +15,7 @@ import { findPanel, listAssessorCodes, listSessionVersions, type PanelRow } from
 import { listFlags, type FlagQuery, type FlagRecord } from '../store/monitor-flags.js';
 import { listPanelEvents, listRetraining, type PanelEvent, type RetrainingRecord } from '../store/monitor-events.js';
 import { loadPanelThresholds } from '../store/monitor-settings.js';
-import { panelHistoryFor, PanelNotFound, refitStatus, type HistoryMemo } from './panel-context.js';
+import { derivedFromHistory, panelHistoryFor, PanelNotFound, refitStatus, type HistoryMemo } from './panel-context.js';
 
 /** What the monitor pages read from the store, each read when called. */
 export interface MonitorReads {
@@ -42,6 +43,10 @@ export interface MonitorContext extends MonitorPanel {
   attributes: string[];
   /** The memo the history came from: values derived from it are kept there (derivedFromHistory). */
   memo: HistoryMemo;
+  /** Chart sizings kept with the memo (limit widths, decision intervals, jump rules). */
+  sizingMemo: ChartSizingMemo;
+  /** The level charts of every assessor as the drift flags read them, computed on first use and kept with the history. */
+  levelCharts: () => Map<string, AssessorLevelCharts>;
 }
 
 /** The panel's thresholds with defaults filled in (stored ones were validated when saved). */
@@ -77,7 +82,21 @@ export function loadMonitorContext(db: Database, panelName: string, memo: Histor
   const base = loadMonitorPanel(db, panelName);
   const history = panelHistoryFor(db, base.panel.id, memo, options);
   const assessors = [...indexLookup(history).keys()].sort();
-  return { panel: base.panel, thresholds: base.thresholds, read: base.read, history, assessors, attributes: history.attributes.map((a) => a.name), memo };
+  const thresholds = base.thresholds;
+  const sizingMemo = memo.sizing;
+  let levelCharts: Map<string, AssessorLevelCharts> | null = null;
+  return {
+    panel: base.panel,
+    thresholds,
+    read: base.read,
+    history,
+    assessors,
+    attributes: history.attributes.map((a) => a.name),
+    memo,
+    sizingMemo,
+    levelCharts: () =>
+      (levelCharts ??= derivedFromHistory(memo, history, `level charts ${JSON.stringify(thresholds)}`, () => assessorLevelCharts(history, thresholds, sizingMemo))),
+  };
 }
 
 /** An assessor, product or other part of a panel page that is not there (the route answers 404 for `path`). */

@@ -5,7 +5,7 @@ import { assessorSampleSizes, chartDesigns, monitoredSummary } from './monitor-c
 import type { MonitorContext } from './monitor-context.js';
 
 export function buildOverviewPage(ctx: MonitorContext): MonitorOverviewView {
-  const { designs, baseline } = chartDesigns(ctx.thresholds, ctx.assessors.length);
+  const { designs, baseline } = chartDesigns(ctx.thresholds, ctx.assessors.length, ctx.sizingMemo);
   const sizes = assessorSampleSizes(ctx.history);
   return buildMonitorOverviewView({
     panel: ctx.panel.name,
@@ -16,7 +16,7 @@ export function buildOverviewPage(ctx: MonitorContext): MonitorOverviewView {
       ctx.assessors.map((assessor) => ({
         assessor,
         ...(sizes.get(assessor) ?? { nSessions: 0, nRatings: 0 }),
-        summary: monitoredSummary(ctx.history, assessor, designs, baseline, ctx.thresholds),
+        summary: monitoredSummary(ctx.history, assessor, designs, baseline, ctx.levelCharts()),
       })),
     ),
     openFlags: ctx.read.flags({ status: 'open' }).map((r) => r.flag),

@@ -7,6 +7,7 @@
  */
 import type { Database } from 'better-sqlite3';
 import type { PanelHistory } from '../analysis/monitor/series.js';
+import { createChartSizingMemo, type ChartSizingMemo } from '../analysis/monitor/sizing-memo.js';
 import type { RefitStatusView } from '../report/monitor-common.js';
 import { localTime } from '../report/words.js';
 import { findPanel, listSessionVersions, type PanelRow } from '../store/fits-sessions.js';
@@ -45,6 +46,8 @@ export class PanelNotFound extends Error {
  */
 export interface HistoryMemo {
   entries: Map<number, { key: string; history: PanelHistory; derived: Map<string, unknown> }>;
+  /** Chart sizings (limit widths, decision intervals): pure functions of the settings, kept across panels. */
+  sizing: ChartSizingMemo;
 }
 
 /**
@@ -59,7 +62,7 @@ export function derivedFromHistory<T>(memo: HistoryMemo, history: PanelHistory, 
 }
 
 export function createHistoryMemo(): HistoryMemo {
-  return { entries: new Map() };
+  return { entries: new Map(), sizing: createChartSizingMemo() };
 }
 
 /**

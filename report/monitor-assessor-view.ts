@@ -61,6 +61,9 @@ export interface AssessorMonitorInput {
   designs: ChartDesigns;
 }
 
+/** The level offsets are measured from the median of the other assessors (docs/methods.md §3.9): drawn at 0. */
+export const LEVEL_REFERENCE = { name: 'median of the other assessors', value: 0 } as const;
+
 export function buildAssessorMonitorView(input: AssessorMonitorInput): AssessorMonitorView {
   const labels = input.sessions.map((s) => s.label);
   const marks = eventMarks(input.events, input.assessor);
@@ -72,6 +75,9 @@ export function buildAssessorMonitorView(input: AssessorMonitorInput): AssessorM
     segments: input.summary.segments,
     designs: input.designs,
     events: marks,
+    role: 'level-summary',
+    owner: { assessor: input.assessor, attribute: null },
+    flags: input.flags,
   });
   const measures = input.measures.map((measure): MeasurePanel => {
     const charts = monitorChartInputs({
@@ -82,6 +88,10 @@ export function buildAssessorMonitorView(input: AssessorMonitorInput): AssessorM
       segments: measure.segments,
       designs: input.designs,
       events: marks,
+      role: measure.key === 'level' ? 'level-attribute' : 'index',
+      owner: { assessor: input.assessor, attribute: input.attribute },
+      flags: input.flags,
+      ...(measure.key === 'level' ? { reference: LEVEL_REFERENCE } : {}),
     });
     const present = measure.series.filter((p) => p.value !== null);
     const shown = measure.withSmoothCharts ? [charts.individuals, charts.ewma, charts.cusum] : [charts.individuals];

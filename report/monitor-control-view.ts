@@ -33,7 +33,21 @@ export function buildControlProductView(input: {
 }): ControlProductView {
   const base = monitorHref(input.panel, 'control');
   const chartsOf = (title: string, yLabel: string, s: MonitoredSeriesInput, assessor: string | null, size?: 'small') =>
-    monitorChartInputs({ title, yLabel, sessions: input.sessions, series: s.series, segments: s.segments, designs: input.designs, events: eventMarks(input.events, assessor), size });
+    monitorChartInputs({
+      title,
+      yLabel,
+      sessions: input.sessions,
+      series: s.series,
+      segments: s.segments,
+      designs: input.designs,
+      events: eventMarks(input.events, assessor),
+      size,
+      role: 'control',
+      owner: { assessor, attribute: input.attribute },
+      flags: [],
+      // Each assessor's deviation is measured from the mean of the other assessors' control cell means.
+      ...(assessor === null ? {} : { reference: { name: 'mean of the other assessors', value: 0 } }),
+    });
   const panelCharts = input.panelMean ? chartsOf(`Panel mean of ${input.product}, ${input.attribute}`, 'mean (scale points)', input.panelMean, null) : null;
   return {
     title: `Control product: ${input.panel}`,

@@ -113,6 +113,9 @@ export function buildMonitorOverviewView(input: MonitorOverviewInput): MonitorOv
       designs: input.designs,
       events: eventMarks(input.events, a.assessor),
       size: 'small',
+      role: 'level-summary',
+      owner: { assessor: a.assessor, attribute: null },
+      flags: own,
     });
     return {
       assessor: a.assessor,

@@ -6,6 +6,7 @@
  */
 import type { Flag, FlagKind } from '../../domain/flags.js';
 import type { PanelHistory } from '../monitor/series.js';
+import type { ChartSizingMemo } from '../monitor/sizing-memo.js';
 import { buildContext, type FlagContext } from './context.js';
 import { driftFlags } from './drift-flags.js';
 import { findingFlags } from './finding-flags.js';
@@ -33,10 +34,12 @@ export interface BuildFlagsOptions {
   since?: string;
   /** Results of earlier builds to reuse (same flags with or without). */
   memo?: FlagsMemo;
+  /** Chart sizings kept between builds by the caller (a worker keeps one); a fresh one per build when absent. */
+  sizingMemo?: ChartSizingMemo;
 }
 
 export function buildFlags(history: PanelHistory, settings: PanelThresholds = DEFAULT_THRESHOLDS, options: BuildFlagsOptions = {}): Flag[] {
-  const ctx = buildContext(history, settings);
+  const ctx = buildContext(history, settings, options.sizingMemo);
   const perAttribute = [
     ...levelFlags(ctx),
     ...repeatabilityFlags(ctx),

@@ -1,6 +1,7 @@
 /** Lookups shared by the flag rules, built once per buildFlags call. */
 import type { AssessorSessionIndices } from '../indices/types.js';
 import type { PanelHistory, SessionAttributeResult } from '../monitor/series.js';
+import { createChartSizingMemo, type ChartSizingMemo } from '../monitor/sizing-memo.js';
 import type { PanelThresholds } from './settings.js';
 
 export interface FlagContext {
@@ -16,13 +17,15 @@ export interface FlagContext {
   assessors: string[];
   /** The most recent `recentSessions` session labels, in time order. */
   recentWindow: string[];
+  /** Chart sizings (limit widths, decision intervals, jump rules) kept for the caller; a fresh one per build when none is given. */
+  sizingMemo: ChartSizingMemo;
 }
 
 export function resultKey(session: string, attribute: string): string {
   return `${session}\u0000${attribute}`;
 }
 
-export function buildContext(history: PanelHistory, settings: PanelThresholds): FlagContext {
+export function buildContext(history: PanelHistory, settings: PanelThresholds, sizingMemo: ChartSizingMemo = createChartSizingMemo()): FlagContext {
   const sessionOrder = new Map(history.sessions.map((s, i) => [s.label, i]));
   const scaleRange = new Map(history.attributes.map((a) => [a.name, a.scaleMax - a.scaleMin]));
   const results = new Map<string, SessionAttributeResult>();
@@ -41,6 +44,7 @@ export function buildContext(history: PanelHistory, settings: PanelThresholds): 
     results,
     assessors: [...assessorSet].sort(),
     recentWindow: labels.slice(Math.max(0, labels.length - settings.recentSessions)),
+    sizingMemo,
   };
 }
 

@@ -2,4 +2,4 @@ export { buildFlags, createFlagsMemo, type BuildFlagsOptions, type FlagsMemo } f
 export { DEFAULT_THRESHOLDS, PanelThresholdsSchema, validateThresholds, type PanelThresholds, type ThresholdProblem } from './settings.js';
 export { evaluateRetraining, welchOneSided, type RetrainingEvaluation, type RetrainingComparison, type RetrainingIndex, type WelchTest } from './retraining.js';
 export { productEffectSeriesOf, type ProductEffectSeries } from './product-flags.js';
-export { evaluateChart, chartSizing, assessorLevelCharts, type ChartSizing, type ChartSignal, type LevelChart } from './drift-flags.js';
+export { evaluateChart, chartSizing, assessorLevelCharts, type ChartSizing, type ChartSignal, type LevelChart, type AssessorLevelCharts } from './drift-flags.js';

@@ -18,7 +18,8 @@ import { controlBatchSessions, referencePeriodFor, type PanelHistory, type Sessi
 import { cochranQ, productRankConcordance, sessionProductEffects, type SessionProductEffect } from '../monitor/stability.js';
 import { buildContext, resultKey, type FlagContext } from './context.js';
 import type { PanelThresholds } from './settings.js';
-import { chartSizing, currentSpread, evaluateChart, pooledSpread, thresholdText } from './drift-flags.js';
+import { chartSizing } from '../monitor/chart-design.js';
+import { currentSpread, evaluateChart, pooledSpread, thresholdText } from './chart-signal.js';
 import { points, pValueText } from './format.js';
 
 /** Share of sessions that must serve the reference product for effects to be taken relative to it. */
@@ -137,7 +138,7 @@ function stepFlags(ctx: FlagContext): Flag[] {
   const out: Flag[] = [];
   for (const series of recurring) {
     const guard = ctx.settings.level.watchFraction * (ctx.scaleRange.get(series.attribute) ?? 1);
-    const signal = evaluateChart(series.points, optionsOf(series), sizing, false, guard, pooledSpread(spreads.get(series.attribute) ?? []));
+    const signal = evaluateChart(series.points, optionsOf(series), sizing, false, guard, pooledSpread(spreads.get(series.attribute) ?? []), ctx.sizingMemo);
     if (!signal) continue;
     const recentEffects = series.effects.filter((e) => window.has(e.session));
     const heterogeneity = cochranQ(recentEffects);

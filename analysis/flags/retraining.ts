@@ -10,6 +10,7 @@ import type { FlagKind } from '../../domain/flags.js';
 import type { AssessorSessionIndices } from '../indices/types.js';
 import { tUpperTail } from '../distributions/index.js';
 import type { PanelHistory } from '../monitor/series.js';
+import type { ChartSizingMemo } from '../monitor/sizing-memo.js';
 import { median } from '../monitor/series.js';
 import { buildFlags, type FlagsMemo } from './build-flags.js';
 import { points } from './format.js';
@@ -102,13 +103,13 @@ export interface RetrainingEvaluation {
   message: string;
 }
 
-/** `memo`: the caller's flags memo (the flags before the event reuse its per-session results). */
+/** `memo`: the caller's flags memo (the flags before the event reuse its per-session results); `sizingMemo`: its chart sizings. */
 export function evaluateRetraining(
   history: PanelHistory,
   assessor: string,
   eventSession: string,
   settings: PanelThresholds,
-  options: { memo?: FlagsMemo } = {},
+  options: { memo?: FlagsMemo; sizingMemo?: ChartSizingMemo } = {},
 ): RetrainingEvaluation {
   const order = history.sessions.map((s) => s.label);
   const eventIndex = order.indexOf(eventSession);
@@ -123,7 +124,7 @@ export function evaluateRetraining(
     events: history.events.filter((e) => beforeLabels.has(e.session)),
     periodFits: [],
   };
-  const kindsBefore = [...new Set(buildFlags(before, settings, { memo: options.memo }).filter((f) => f.assessor === assessor).map((f) => f.kind))];
+  const kindsBefore = [...new Set(buildFlags(before, settings, { memo: options.memo, sizingMemo: options.sizingMemo }).filter((f) => f.assessor === assessor).map((f) => f.kind))];
   const indices = new Map<RetrainingIndex, FlagKind[]>();
   for (const kind of kindsBefore) {
     const index = INDEX_OF_KIND[kind];

@@ -118,11 +118,18 @@ export interface ChartDesigns {
    * instead of the fixed ewma.L: the limit the flag engine uses (analysis/monitor/chart-design.ts).
    */
   limitWidthFor?: (nReference: number, spreadFloorActive: boolean) => number;
+  /**
+   * The watch level's L for the same baseline (a wider false-alarm budget, so a narrower limit):
+   * points between the watch and act limits are what the flag engine reports at watch.
+   */
+  watchLimitWidthFor?: (nReference: number, spreadFloorActive: boolean) => number;
 }
 
 export interface MonitoredPoint extends StandardisedPoint {
   ewma: number;
   ewmaLimit: number;
+  /** The watch level's limit at this point, or null when the design has no watch level. */
+  ewmaWatchLimit: number | null;
   cusumUpper: number;
   cusumLower: number;
   /** Western Electric rules that fired here. */
@@ -143,6 +150,8 @@ export interface MonitoredSegment {
   ewmaFirstSignalSession: string | null;
   /** EWMA L used for this segment. */
   ewmaLimitWidth: number;
+  /** The watch level's L for this segment, or null without one. */
+  ewmaWatchLimitWidth: number | null;
   /** The spread the values were standardised with (see Segment). */
   spreadUsedSd?: number;
 }
@@ -152,20 +161,34 @@ export function monitorSeries(series: readonly SeriesPoint[], designs: ChartDesi
   return standardiseSegments(series, options).map((segment) => {
     const z = segment.points.map((p) => p.z);
     const floorActive = (options.spreadFloorSd ?? 0) > 0;
-    const L = designs.limitWidthFor && segment.points.length > 0 ? designs.limitWidthFor(segment.baseline.nReference, floorActive) : designs.ewma.L;
-    const ewma = ewmaChart(z, { lambda: designs.ewma.lambda, L });
+    const sized = segment.points.length > 0;
+    const L = designs.limitWidthFor && sized ? designs.limitWidthFor(segment.baseline.nReference, floorActive) : designs.ewma.L;
+    const watchL = designs.watchLimitWidthFor && sized ? designs.watchLimitWidthFor(segment.baseline.nReference, floorActive) : null;
+    // Unit-width limits, scaled per level: the same products the flag engine compares with.
+    const ewma = ewmaChart(z, { lambda: designs.ewma.lambda, L: 1 });
     const cusum = cusumChart(z, designs.cusum);
     const rules = individualsChart(z, designs.rules);
-    const points: MonitoredPoint[] = segment.points.map((p, i) => ({
-      ...p,
-      ewma: ewma.points[i].statistic,
-      ewmaLimit: ewma.points[i].limit,
-      cusumUpper: cusum.points[i].upper,
-      cusumLower: cusum.points[i].lower,
-      rules: rules[i].rules,
-      ewmaSignal: ewma.points[i].signal,
-      cusumSignal: cusum.points[i].signal,
-    }));
+    let ewmaFirstSignalIndex: number | null = null;
+    const points: MonitoredPoint[] = segment.points.map((p, i) => {
+      const statistic = ewma.points[i].statistic;
+      const limit = L * ewma.points[i].limit;
+      const ewmaSignal = statistic > limit ? 'up' : statistic < -limit ? 'down' : null;
+      if (ewmaSignal && ewmaFirstSignalIndex === null) ewmaFirstSignalIndex = i;
+      return {
+        session: p.session,
+        date: p.date,
+        value: p.value,
+        z: p.z,
+        ewma: statistic,
+        ewmaLimit: limit,
+        ewmaWatchLimit: watchL === null ? null : watchL * ewma.points[i].limit,
+        cusumUpper: cusum.points[i].upper,
+        cusumLower: cusum.points[i].lower,
+        rules: rules[i].rules,
+        ewmaSignal,
+        cusumSignal: cusum.points[i].signal,
+      };
+    });
     const signal = cusum.firstSignal;
     const { centre } = segment.baseline;
     const spreadSd = segment.spreadUsedSd ?? segment.baseline.spreadSd;
@@ -175,8 +198,9 @@ export function monitorSeries(series: readonly SeriesPoint[], designs: ChartDesi
       baselineSource: segment.baselineSource,
       unchartedPoints: segment.unchartedPoints,
       points,
-      ewmaFirstSignalSession: ewma.firstSignalIndex === null ? null : points[ewma.firstSignalIndex].session,
+      ewmaFirstSignalSession: ewmaFirstSignalIndex === null ? null : points[ewmaFirstSignalIndex].session,
       ewmaLimitWidth: L,
+      ewmaWatchLimitWidth: watchL,
       ...(segment.spreadUsedSd !== undefined ? { spreadUsedSd: segment.spreadUsedSd } : {}),
       cusumFirstSignal:
         signal && centre !== null && spreadSd !== null

@@ -9,6 +9,7 @@
 import { normalCdf } from '../distributions/index.js';
 import { solveDense } from './linear-solve.js';
 import { solveIncreasing } from './solve-monotone.js';
+import { memoised, type ChartSizingMemo } from './sizing-memo.js';
 
 export interface CusumDesign {
   /** Reference value k (σ units; k = 0.5 is tuned to a 1σ shift). */
@@ -127,14 +128,7 @@ export function siegmundArl(design: CusumDesign, shiftSd = 0): number {
   return 1 / (1 / siegmundArlOneSided(design, shiftSd) + 1 / siegmundArlOneSided(design, -shiftSd));
 }
 
-const intervalCache = new Map<string, number>();
-
-/** h such that the two-sided in-control ARL equals `targetArl0` (root search on h ∈ [0.5, 20]); memoised. */
-export function cusumIntervalForArl0(k: number, targetArl0: number, nStates = 400): number {
-  const key = `${k}|${targetArl0}|${nStates}`;
-  const cached = intervalCache.get(key);
-  if (cached !== undefined) return cached;
-  const h = solveIncreasing((interval) => cusumArl({ k, h: interval }, 0, nStates), targetArl0, 0.5, 20);
-  intervalCache.set(key, h);
-  return h;
+/** h such that the two-sided in-control ARL equals `targetArl0` (root search on h ∈ [0.5, 20]); pure, kept in the caller's memo when given. */
+export function cusumIntervalForArl0(k: number, targetArl0: number, nStates = 400, memo?: ChartSizingMemo): number {
+  return memoised(memo?.cusumIntervals, `${k}|${targetArl0}|${nStates}`, () => solveIncreasing((interval) => cusumArl({ k, h: interval }, 0, nStates), targetArl0, 0.5, 20));
 }

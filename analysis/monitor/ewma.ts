@@ -11,6 +11,7 @@
 import { normalCdf } from '../distributions/index.js';
 import { solveDense } from './linear-solve.js';
 import { solveIncreasing } from './solve-monotone.js';
+import { memoised, type ChartSizingMemo } from './sizing-memo.js';
 
 export interface EwmaDesign {
   /** Smoothing weight λ in (0, 1]. */
@@ -85,17 +86,10 @@ function interpolateAtZero(mid: Float64Array, values: Float64Array): number {
   return values[Math.floor(mid.length / 2)];
 }
 
-const limitCache = new Map<string, number>();
-
 /**
  * L such that the in-control zero-state ARL equals `targetArl0` (ARL0 is increasing in L;
- * root search on L ∈ [1.5, 6]). Results are memoised per (λ, target, nStates): the function is pure.
+ * root search on L ∈ [1.5, 6]). Pure; kept in the caller's memo per (λ, target, nStates) when given.
  */
-export function ewmaLimitForArl0(lambda: number, targetArl0: number, nStates = 301): number {
-  const key = `${lambda}|${targetArl0}|${nStates}`;
-  const cached = limitCache.get(key);
-  if (cached !== undefined) return cached;
-  const L = solveIncreasing((width) => ewmaArl({ lambda, L: width }, 0, nStates), targetArl0, 1.5, 6);
-  limitCache.set(key, L);
-  return L;
+export function ewmaLimitForArl0(lambda: number, targetArl0: number, nStates = 301, memo?: ChartSizingMemo): number {
+  return memoised(memo?.ewmaLimits, `${lambda}|${targetArl0}|${nStates}`, () => solveIncreasing((width) => ewmaArl({ lambda, L: width }, 0, nStates), targetArl0, 1.5, 6));
 }

@@ -15,6 +15,7 @@
  */
 import { normalCdf } from '../distributions/index.js';
 import { standardiseSegments, type SegmentOptions, type SeriesPoint } from './chart.js';
+import { memoised, type ChartSizingMemo } from './sizing-memo.js';
 
 /** Smallest jump the rule looks for, in the assessor's SDs (the size the panel leader asked to see). */
 export const MIN_JUMP_SD = 2;
@@ -82,13 +83,12 @@ function binomialUpperTail(n: number, m: number, p: number): number {
   return total;
 }
 
-const ruleCache = new Map<string, JumpRule>();
+/** The rule for n evaluable attributes and a per-session false-alarm chance; kept in the caller's memo when given. */
+export function jumpRule(nAttributes: number, chanceBudget: number, memo?: ChartSizingMemo): JumpRule {
+  return memoised(memo?.jumpRules, `${nAttributes}|${chanceBudget}`, () => sizeJumpRule(nAttributes, chanceBudget));
+}
 
-/** The rule for n evaluable attributes and a per-session false-alarm chance. */
-export function jumpRule(nAttributes: number, chanceBudget: number): JumpRule {
-  const key = `${nAttributes}|${chanceBudget}`;
-  const cached = ruleCache.get(key);
-  if (cached) return cached;
+function sizeJumpRule(nAttributes: number, chanceBudget: number): JumpRule {
   const minAttributes = Math.floor(nAttributes / 2) + 1;
   let thresholdSd = MIN_JUMP_SD;
   let chance = 1;
@@ -97,9 +97,7 @@ export function jumpRule(nAttributes: number, chanceBudget: number): JumpRule {
     chance = 2 * binomialUpperTail(nAttributes, minAttributes, p);
     if (chance <= chanceBudget) break;
   }
-  const rule = { thresholdSd: Math.round(thresholdSd * 100) / 100, minAttributes, chancePerSession: chance };
-  ruleCache.set(key, rule);
-  return rule;
+  return { thresholdSd: Math.round(thresholdSd * 100) / 100, minAttributes, chancePerSession: chance };
 }
 
 function middle(values: readonly number[]): number {
@@ -109,7 +107,7 @@ function middle(values: readonly number[]): number {
 }
 
 /** The latest jump in the series' current segments, or null. */
-export function detectJump(series: readonly JumpInput[], options: SegmentOptions, sizing: JumpSizing): Jump | null {
+export function detectJump(series: readonly JumpInput[], options: SegmentOptions, sizing: JumpSizing, memo?: ChartSizingMemo): Jump | null {
   const budget = sizing.falseAlarmsPerYear / (Math.max(1, sizing.nCharts) * sizing.sessionsPerYear);
   // Per attribute: session → jump measured in its current segment.
   const bySession = new Map<string, (JumpAttribute & { provisional: boolean })[]>();
@@ -136,7 +134,7 @@ export function detectJump(series: readonly JumpInput[], options: SegmentOptions
   const lastAt = { up: -Infinity, down: -Infinity };
   for (const [position, session] of order.entries()) {
     const list = bySession.get(session) as (JumpAttribute & { provisional: boolean })[];
-    const rule = jumpRule(list.length, budget);
+    const rule = jumpRule(list.length, budget, memo);
     for (const direction of ['up', 'down'] as const) {
       const sign = direction === 'up' ? 1 : -1;
       const jumped = list.filter((a) => sign * a.jumpSd >= rule.thresholdSd);

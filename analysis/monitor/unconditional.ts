@@ -14,6 +14,7 @@ import { chiSquareQuantile, normalQuantile } from '../distributions/index.js';
 import { ewmaArl } from './ewma.js';
 import { DEFAULT_LAMBDA_GRID } from './arl-grid-default.js';
 import { solveIncreasing } from './solve-monotone.js';
+import { memoised, type ChartSizingMemo } from './sizing-memo.js';
 
 /** Effective degrees of freedom of MR̄/d2 from N values (see header). */
 export function movingRangeDf(nReference: number): number {
@@ -32,18 +33,14 @@ export function computeLogArlGrid(lambda: number): Float64Array[] {
   return L_GRID.map((L) => Float64Array.from(SHIFT_GRID.map((shift) => Math.log(Math.min(ewmaArl({ lambda, L }, shift, GRID_STATES), 1e12)))));
 }
 
-// The default λ's grid ships precomputed (a worker thread's first flag build would otherwise
-// spend 0.15–0.3 s on it); test/analysis/monitor/arl-grid.test.ts recomputes it and compares
-// every value exactly, so the numbers are the same as computing them.
-const gridCache = new Map<number, Float64Array[]>([[DEFAULT_LAMBDA_GRID.lambda, DEFAULT_LAMBDA_GRID.logArl.map((row) => Float64Array.from(row))]]);
+// The default λ's grid ships precomputed as a constant table (a worker thread's first flag build
+// would otherwise spend 0.15–0.3 s on it); test/analysis/monitor/arl-grid.test.ts recomputes it and
+// compares every value exactly, so the numbers are the same as computing them.
+const DEFAULT_GRID: readonly Float64Array[] = DEFAULT_LAMBDA_GRID.logArl.map((row) => Float64Array.from(row));
 
-function logArlGrid(lambda: number): Float64Array[] {
-  let grid = gridCache.get(lambda);
-  if (!grid) {
-    grid = computeLogArlGrid(lambda);
-    gridCache.set(lambda, grid);
-  }
-  return grid;
+function logArlGrid(lambda: number, memo?: ChartSizingMemo): readonly Float64Array[] {
+  if (lambda === DEFAULT_LAMBDA_GRID.lambda) return DEFAULT_GRID;
+  return memoised(memo?.logArlGrids, lambda, () => computeLogArlGrid(lambda));
 }
 
 function interpolate(grid: readonly number[], value: number): { index: number; fraction: number } {
@@ -55,8 +52,7 @@ function interpolate(grid: readonly number[], value: number): { index: number; f
 }
 
 /** log ARL(L, |shift|) by bilinear interpolation on the grid (beyond the grid: clamped). */
-function logArl(lambda: number, L: number, shift: number): number {
-  const grid = logArlGrid(lambda);
+function logArl(grid: readonly Float64Array[], L: number, shift: number): number {
   const a = interpolate(L_GRID, L);
   const b = interpolate(SHIFT_GRID, Math.abs(shift));
   const v00 = grid[a.index][b.index];
@@ -68,52 +64,53 @@ function logArl(lambda: number, L: number, shift: number): number {
 
 const QUADRATURE_POINTS = 24;
 
+interface QuadratureNodes {
+  spreads: Float64Array;
+  shifts: Float64Array;
+}
+
 /**
  * E[1/ARL(L·u, ε)] over the estimation error of a baseline of `nReference` values.
  * `spreadFloor`: when the spread used is max(own σ̂, a panel-pooled σ̂) and the pooled one is
  * precise, u is effectively max(u, spreadFloor) with spreadFloor ≈ 1 for an ordinary series.
  */
-export function unconditionalFalseAlarmRate(lambda: number, L: number, nReference: number, spreadFloor = 0): number {
-  const { spreads, shifts } = quadratureNodes(nReference, spreadFloor);
+export function unconditionalFalseAlarmRate(lambda: number, L: number, nReference: number, spreadFloor = 0, memo?: ChartSizingMemo): number {
+  return averageFalseAlarmRate(logArlGrid(lambda, memo), L, nodesFor(nReference, spreadFloor, memo));
+}
+
+function averageFalseAlarmRate(grid: readonly Float64Array[], L: number, { spreads, shifts }: QuadratureNodes): number {
   let total = 0;
   for (let i = 0; i < QUADRATURE_POINTS; i++) {
     const u = spreads[i];
-    for (let j = 0; j < QUADRATURE_POINTS / 2; j++) total += Math.exp(-logArl(lambda, L * u, shifts[j]));
+    for (let j = 0; j < QUADRATURE_POINTS / 2; j++) total += Math.exp(-logArl(grid, L * u, shifts[j]));
   }
   return total / (QUADRATURE_POINTS * (QUADRATURE_POINTS / 2));
 }
 
-const nodeCache = new Map<string, { spreads: Float64Array; shifts: Float64Array }>();
-
 /**
  * Equal-probability nodes (midpoint rule on the probability scale) for u and ε; they do not
- * depend on L, so the root search on L reuses them (memoised: the quantile inversions were most
- * of a limit's cost).
+ * depend on L, so the root search on L computes them once (the quantile inversions were most of
+ * a limit's cost).
  */
-function quadratureNodes(nReference: number, spreadFloor: number): { spreads: Float64Array; shifts: Float64Array } {
-  const key = `${nReference}|${spreadFloor}`;
-  let nodes = nodeCache.get(key);
-  if (!nodes) {
-    const df = movingRangeDf(nReference);
-    const centreSd = 1 / Math.sqrt(nReference);
-    const spreads = new Float64Array(QUADRATURE_POINTS);
-    const shifts = new Float64Array(QUADRATURE_POINTS / 2);
-    for (let i = 0; i < QUADRATURE_POINTS; i++) spreads[i] = Math.max(spreadFloor, Math.sqrt(chiSquareQuantile((i + 0.5) / QUADRATURE_POINTS, df) / df));
-    for (let j = 0; j < QUADRATURE_POINTS / 2; j++) shifts[j] = centreSd * normalQuantile((j + 0.5) / QUADRATURE_POINTS);
-    nodes = { spreads, shifts };
-    if (nodeCache.size < 10_000) nodeCache.set(key, nodes);
-  }
-  return nodes;
+function quadratureNodes(nReference: number, spreadFloor: number): QuadratureNodes {
+  const df = movingRangeDf(nReference);
+  const centreSd = 1 / Math.sqrt(nReference);
+  const spreads = new Float64Array(QUADRATURE_POINTS);
+  const shifts = new Float64Array(QUADRATURE_POINTS / 2);
+  for (let i = 0; i < QUADRATURE_POINTS; i++) spreads[i] = Math.max(spreadFloor, Math.sqrt(chiSquareQuantile((i + 0.5) / QUADRATURE_POINTS, df) / df));
+  for (let j = 0; j < QUADRATURE_POINTS / 2; j++) shifts[j] = centreSd * normalQuantile((j + 0.5) / QUADRATURE_POINTS);
+  return { spreads, shifts };
 }
 
-const limitCache = new Map<string, number>();
+function nodesFor(nReference: number, spreadFloor: number, memo?: ChartSizingMemo): QuadratureNodes {
+  return memoised(memo?.quadratureNodes, `${nReference}|${spreadFloor}`, () => quadratureNodes(nReference, spreadFloor));
+}
 
-/** L whose unconditional in-control ARL (1 / average false-alarm rate) is `targetArl0`; memoised. */
-export function ewmaLimitForUnconditionalArl0(lambda: number, targetArl0: number, nReference: number, spreadFloor = 0): number {
-  const key = `${lambda}|${targetArl0}|${nReference}|${spreadFloor}`;
-  const cached = limitCache.get(key);
-  if (cached !== undefined) return cached;
-  const L = solveIncreasing((width) => 1 / unconditionalFalseAlarmRate(lambda, width, nReference, spreadFloor), targetArl0, 1.5, 7.9, 1e-5);
-  limitCache.set(key, L);
-  return L;
+/** L whose unconditional in-control ARL (1 / average false-alarm rate) is `targetArl0`; pure, kept in the caller's memo when given. */
+export function ewmaLimitForUnconditionalArl0(lambda: number, targetArl0: number, nReference: number, spreadFloor = 0, memo?: ChartSizingMemo): number {
+  return memoised(memo?.unconditionalLimits, `${lambda}|${targetArl0}|${nReference}|${spreadFloor}`, () => {
+    const grid = logArlGrid(lambda, memo);
+    const nodes = nodesFor(nReference, spreadFloor, memo);
+    return solveIncreasing((width) => 1 / averageFalseAlarmRate(grid, width, nodes), targetArl0, 1.5, 7.9, 1e-5);
+  });
 }

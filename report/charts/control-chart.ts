@@ -19,11 +19,21 @@ export interface ChartSeriesInput {
   signals?: (SignalSeverity | null)[];
   /** Optional, aligned with values: a short text shown on hover (the point's <title>). */
   notes?: (string | null)[];
+  /** Optional, aligned with values: why a signal is drawn there (the case it belongs to, or why no case comes from it). */
+  signalReasons?: (SignalReasonInput | null)[];
+}
+
+export interface SignalReasonInput {
+  /** 'case' when the signal belongs to a case, else the reason code (chart-signals.ts). */
+  code: string;
+  /** The same in plain words for the page. */
+  text: string;
 }
 
 export interface ChartLineInput {
   name: string;
-  kind: 'centre' | 'limit';
+  /** 'reference': what the values are compared with (e.g. the median of the other assessors). */
+  kind: 'centre' | 'limit' | 'reference';
   /** A constant, or one value per session (null = not drawn there, e.g. before a baseline exists). */
   values: number | (number | null)[];
 }
@@ -55,6 +65,10 @@ export interface ChartPoint {
   value: number;
   isSignal: boolean;
   severity: SignalSeverity | null;
+  /** For a signal: 'case' when it belongs to a case, else why no case comes from it (code); null otherwise. */
+  signalReason: string | null;
+  /** The same in plain words. */
+  signalReasonText: string | null;
   title: string;
 }
 
@@ -70,10 +84,14 @@ export interface ChartView {
   yTicks: { y: number; label: string }[];
   xTicks: { x: number; label: string }[];
   series: { name: string; path: string; colour: string; points: ChartPoint[] }[];
-  lines: { name: string; path: string; isDashed: boolean; colour: string; labelX: number; labelY: number }[];
+  lines: { name: string; path: string; isDashed: boolean; colour: string; labelX: number; labelY: number; isReference: boolean }[];
   events: { x: number; top: number; bottom: number; label: string; labelY: number }[];
   isProvisional: boolean;
   nSignals: number;
+  /** The marked points grouped by what they mean, in plain words (shown under the chart). */
+  signalNotes: { text: string; nPoints: number }[];
+  /** Plain-words legend of the lines other than the limits (e.g. the reference the values are compared with). */
+  legend: { name: string; colour: string; isDashed: boolean; isReference: boolean }[];
   /** True when there is nothing to draw (no values). */
   isEmpty: boolean;
 }
@@ -82,6 +100,8 @@ export interface ChartView {
 const SERIES_COLOURS = ['#0072B2', '#D55E00', '#009E73', '#CC79A7'];
 const CENTRE_COLOUR = '#555555';
 const LIMIT_COLOUR = '#999999';
+/** The reference line (e.g. the median of the other assessors): bluish green of the same palette, dashed. */
+const REFERENCE_COLOUR = '#009E73';
 
 function fixed(value: number): number {
   return Math.round(value * 100) / 100;
@@ -137,6 +157,7 @@ export function buildControlChart(input: ChartInput): ChartView {
       if (v === null || !Number.isFinite(v)) return [];
       const severity = s.signals?.[i] ?? null;
       const note = s.notes?.[i];
+      const reason = severity === null ? null : (s.signalReasons?.[i] ?? null);
       return [
         {
           cx: xOf(input.sessions[i]),
@@ -145,7 +166,9 @@ export function buildControlChart(input: ChartInput): ChartView {
           value: v,
           isSignal: severity !== null,
           severity,
-          title: `${input.sessions[i]}: ${s.name} ${v.toFixed(2)}${severity ? ` (signal, ${severity})` : ''}${note ? `; ${note}` : ''}`,
+          signalReason: reason?.code ?? null,
+          signalReasonText: reason?.text ?? null,
+          title: `${input.sessions[i]}: ${s.name} ${v.toFixed(2)}${severity ? ` (signal, ${severity})` : ''}${reason ? `; ${reason.text}` : ''}${note ? `; ${note}` : ''}`,
         },
       ];
     }),
@@ -155,8 +178,9 @@ export function buildControlChart(input: ChartInput): ChartView {
     return {
       name: l.name,
       path: path(pairs(l.resolved)) ?? '',
-      isDashed: l.kind === 'limit' && input.isProvisional,
-      colour: l.kind === 'centre' ? CENTRE_COLOUR : LIMIT_COLOUR,
+      isDashed: (l.kind === 'limit' && input.isProvisional) || l.kind === 'reference',
+      colour: l.kind === 'centre' ? CENTRE_COLOUR : l.kind === 'reference' ? REFERENCE_COLOUR : LIMIT_COLOUR,
+      isReference: l.kind === 'reference',
       labelX: plot.right + 4,
       labelY: lastIndex >= 0 ? fixed(y(l.resolved[lastIndex] as number)) : plot.top,
     };
@@ -183,6 +207,15 @@ export function buildControlChart(input: ChartInput): ChartView {
     events,
     isProvisional: input.isProvisional,
     nSignals: series.reduce((sum, s) => sum + s.points.filter((p) => p.isSignal).length, 0),
+    signalNotes: signalNotesOf(series.flatMap((s) => s.points)),
+    legend: lines.filter((l) => l.isReference).map((l) => ({ name: l.name, colour: l.colour, isDashed: l.isDashed, isReference: l.isReference })),
     isEmpty,
   };
+}
+
+/** Signal points grouped by the words that explain them, in order of first appearance. */
+function signalNotesOf(points: readonly ChartPoint[]): { text: string; nPoints: number }[] {
+  const counts = new Map<string, number>();
+  for (const p of points) if (p.isSignal && p.signalReasonText) counts.set(p.signalReasonText, (counts.get(p.signalReasonText) ?? 0) + 1);
+  return [...counts].map(([text, nPoints]) => ({ text, nPoints }));
 }

@@ -3,6 +3,7 @@
  * Pure analysis: observations in, results out; no database, no clock.
  */
 import { buildFlags, createFlagsMemo, evaluateRetraining, validateThresholds } from '../../analysis/flags/index.js';
+import { createChartSizingMemo } from '../../analysis/monitor/sizing-memo.js';
 import { computeAssessorIndices } from '../../analysis/indices/compute-assessor-indices.js';
 import { UNEXPECTED_FIT_FAILURE } from '../../analysis/analyze-ratings.js';
 import { LmmFitError } from '../../analysis/lmm/errors.js';
@@ -82,17 +83,21 @@ export function runPeriodTask(task: PeriodTask): PeriodTaskResult {
 
 /**
  * Kept by this thread for its life (a worker runs the flags of every refit it is given): the
- * per-session checks of sessions that did not change are not repeated at the next refit.
+ * per-session checks of sessions that did not change are not repeated at the next refit, and the
+ * chart sizings (limit widths, decision intervals, jump rules), which depend only on the chart
+ * settings and baseline lengths, are found here by every build after the first. The analysis
+ * functions themselves keep nothing.
  */
 const FLAGS_MEMO = createFlagsMemo();
+const SIZING_MEMO = createChartSizingMemo();
 
-export function runFlagsTask(task: FlagsTask, memo = FLAGS_MEMO): FlagsTaskResult {
+export function runFlagsTask(task: FlagsTask, memo = FLAGS_MEMO, sizingMemo = SIZING_MEMO): FlagsTaskResult {
   // Stored thresholds were validated when saved; validating again fills in defaults added since.
   const { thresholds } = validateThresholds(task.thresholds ?? {});
   const history = { ...task.history, ratings: unpackRatings(task.ratings) };
   return {
-    flags: buildFlags(history, thresholds, { memo }),
-    retraining: task.retraining.map((r) => ({ id: r.id, evaluation: evaluateRetraining(history, r.assessor, r.eventSession, thresholds, { memo }) })),
+    flags: buildFlags(history, thresholds, { memo, sizingMemo }),
+    retraining: task.retraining.map((r) => ({ id: r.id, evaluation: evaluateRetraining(history, r.assessor, r.eventSession, thresholds, { memo, sizingMemo }) })),
   };
 }
 

@@ -88,6 +88,9 @@ describe('monitorChartInputs', () => {
     segments,
     designs: DEFAULT_CHART_DESIGNS,
     events: [],
+    role: 'index',
+    owner: { assessor: 'A1', attribute: 'x' },
+    flags: [],
   });
 
   it('individuals chart: centre and ±3σ limits from the baseline, provisional with fewer than 20 values', () => {

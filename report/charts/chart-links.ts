@@ -1,0 +1,51 @@
+/**
+ * Which case each signal drawn on a chart belongs to (docs/methods.md §3.11). A signal that a flag
+ * rule reads (chart-signals.ts) belongs to that rule's case for the chart's
+ * assessor: the attribute's own case, or the assessor-wide case that summarises the attribute
+ * charts (the drift rule reports one or the other), from the case's first session (its change
+ * estimate or its signal, whichever is earlier) on. Any other signal of a level chart inside such a
+ * case (a value beyond ±3σ, the CUSUM that dated it) is part of that case too, and a single value
+ * beyond ±3σ belongs to a jump case of that session when its attribute is among those that jumped.
+ * Outside a case such signals keep their reason. A read signal with no such
+ * case is reported as 'no-open-case': on the pages that means a reviewed case or flags older than
+ * the data; with freshly built flags it means the charts and the flags disagree.
+ */
+import type { Flag } from '../../domain/flags.js';
+import type { DesignedSignal, SignalReason } from './chart-signals.js';
+
+export interface ChartOwner {
+  assessor: string | null;
+  /** The chart's attribute, or null for the summary over attributes. */
+  attribute: string | null;
+}
+
+export type LinkedSignal = DesignedSignal & { link: { flag: Flag } | { reason: SignalReason | 'no-open-case' } };
+
+function firstCovered(flag: Flag, order: ReadonlyMap<string, number>): number {
+  const candidates = [flag.firstSession, flag.evidence.signalSession, flag.evidence.ewmaSignalSession].filter((s): s is string => typeof s === 'string');
+  return Math.min(...candidates.map((s) => order.get(s) ?? Infinity));
+}
+
+export function linkSignals(signals: readonly DesignedSignal[], flags: readonly Flag[], owner: ChartOwner, sessions: readonly string[]): LinkedSignal[] {
+  const order = new Map(sessions.map((s, i) => [s, i]));
+  const own = flags.filter((f) => f.kind === 'drift' && f.assessor !== null && f.assessor === owner.assessor);
+  const wide = own.filter((f) => f.attribute === null);
+  const covering = (at: number) => own.find((f) => (f.attribute === owner.attribute || f.attribute === null) && at >= firstCovered(f, order));
+  return signals.map((signal) => {
+    const at = order.get(signal.session) ?? -1;
+    if (signal.flagKind === 'drift') {
+      // The assessor-wide case summarises the attribute charts (no attribute case is raised beside it).
+      const flag = (owner.attribute !== null ? wide[0] : undefined) ?? own.find((f) => f.attribute === owner.attribute && at >= firstCovered(f, order));
+      return { ...signal, link: flag ? { flag } : { reason: 'no-open-case' as const } };
+    }
+    const inside = signal.reason === 'single-value' || signal.reason === 'cusum-dates-change' ? covering(at) : undefined;
+    if (inside) return { ...signal, link: { flag: inside } };
+    if (signal.reason === 'single-value') {
+      const jump = wide.find(
+        (f) => f.evidence.pattern === 'jump' && f.firstSession === signal.session && (owner.attribute === null || (Array.isArray(f.evidence.attributesJumped) && f.evidence.attributesJumped.includes(owner.attribute))),
+      );
+      if (jump) return { ...signal, link: { flag: jump } };
+    }
+    return { ...signal, link: { reason: signal.reason ?? 'no-open-case' } };
+  });
+}

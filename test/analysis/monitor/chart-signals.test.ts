@@ -1,0 +1,61 @@
+/**
+ * What each drawn signal means (docs/methods.md §3.11): the classification of chartSignals and the
+ * case linking of linkSignals on small hand-made charts, so each reason is seen at least once
+ * (the simulated panels of chart-flag-agreement.test.ts have no restarts or control-product cases).
+ */
+import { describe, expect, it } from 'vitest';
+import { linkSignals } from '../../../report/charts/chart-links.js';
+import { monitorSeries, type SeriesPoint } from '../../../analysis/monitor/chart.js';
+import { chartSignals } from '../../../report/charts/chart-signals.js';
+import type { Flag } from '../../../domain/flags.js';
+
+const DESIGNS = { ewma: { lambda: 0.2, L: 2.962 }, cusum: { k: 0.5, h: 5 }, rules: [1] as const };
+// Alternating 0/1 for 10 sessions (σ̂ from MR̄ = 1), then a lasting step of +3 points, twice: a
+// restart at S21 starts a second segment that repeats the pattern.
+const values = [...Array.from({ length: 10 }, (_, i) => i % 2), 3, 3.5, 3, 3.5, 3, 3.5, 3, 3.5, 3, 3.5];
+const series: SeriesPoint[] = [...values, ...values].map((value, i) => ({ session: `S${i + 1}`, date: `2026-01-01`, value }));
+const sessions = series.map((p) => p.session);
+const segments = monitorSeries(series, DESIGNS, { baseline: { fullValues: 10, minimumValues: 8 }, restartSessions: ['S21'] });
+
+function driftFlag(attribute: string | null, firstSession: string, signalSession: string): Flag {
+  return { kind: 'drift', assessor: 'A1', product: null, attribute, firstSession, severity: 'act', evidence: { signalSession }, message: 'm' } as unknown as Flag;
+}
+
+describe('chart signals and their cases', () => {
+  it('level chart: EWMA in the current segment is read by the drift rule, the earlier segment is not, CUSUM dates changes', () => {
+    expect(segments).toHaveLength(2);
+    const signals = chartSignals(segments, 'level-attribute', false);
+    const earlier = signals.filter((s) => sessions.indexOf(s.session) < 20);
+    const current = signals.filter((s) => sessions.indexOf(s.session) >= 20);
+    expect(earlier.length).toBeGreaterThan(0);
+    expect(earlier.every((s) => s.reason === 'earlier-baseline' && s.flagKind === null)).toBe(true);
+    expect(current.filter((s) => s.chart === 'ewma').every((s) => s.flagKind === 'drift' && s.reason === null)).toBe(true);
+    expect(current.filter((s) => s.chart === 'cusum').every((s) => s.reason === 'cusum-dates-change')).toBe(true);
+    expect(current.filter((s) => s.chart === 'individuals').every((s) => s.reason === 'single-value')).toBe(true);
+  });
+
+  it('index and control charts raise no case: stated reasons', () => {
+    const index = chartSignals(segments, 'index', false).filter((s) => sessions.indexOf(s.session) >= 20);
+    expect(index.length).toBeGreaterThan(0);
+    expect(index.filter((s) => s.chart !== 'cusum').every((s) => s.reason === 'pooled-window')).toBe(true);
+    expect(chartSignals(segments, 'control', false).filter((s) => sessions.indexOf(s.session) >= 20).every((s) => s.reason === 'no-case-from-chart')).toBe(true);
+  });
+
+  it('a read signal belongs to the case that covers it, or is reported as having no open case', () => {
+    const signals = chartSignals(segments, 'level-attribute', false);
+    const firstEwma = signals.find((s) => s.chart === 'ewma' && sessions.indexOf(s.session) >= 20)!;
+    const covered = linkSignals(signals, [driftFlag('x', 'S21', firstEwma.session)], { assessor: 'A1', attribute: 'x' }, sessions);
+    expect(covered.filter((s) => s.flagKind === 'drift').every((s) => 'flag' in s.link)).toBe(true);
+    // Values beyond ±3σ and CUSUM signals inside the case are part of it; the earlier segment keeps its reason.
+    expect(covered.filter((s) => sessions.indexOf(s.session) >= 20).every((s) => 'flag' in s.link)).toBe(true);
+    expect(covered.filter((s) => sessions.indexOf(s.session) < 20).every((s) => 'reason' in s.link && s.link.reason === 'earlier-baseline')).toBe(true);
+    // Another assessor's case, or a case starting after the signal, does not cover it.
+    const other = linkSignals(signals, [{ ...driftFlag('x', 'S21', firstEwma.session), assessor: 'A2' }], { assessor: 'A1', attribute: 'x' }, sessions);
+    expect(other.filter((s) => s.flagKind === 'drift').every((s) => 'reason' in s.link && s.link.reason === 'no-open-case')).toBe(true);
+    const later = linkSignals(signals, [driftFlag('x', 'S40', 'S40')], { assessor: 'A1', attribute: 'x' }, sessions);
+    expect(later.some((s) => s.flagKind === 'drift' && 'reason' in s.link)).toBe(true);
+    // An assessor-wide case summarises the attribute charts.
+    const wide = linkSignals(signals, [driftFlag(null, 'S25', 'S25')], { assessor: 'A1', attribute: 'x' }, sessions);
+    expect(wide.filter((s) => s.flagKind === 'drift').every((s) => 'flag' in s.link)).toBe(true);
+  });
+});
