@@ -164,7 +164,8 @@ function sessionFlags(
   const data = sessionData(session, sessionRatings, ctx.history.attributes);
   const base = { product: null, attribute: null, firstSession: session };
 
-  for (const swap of detectSwappedCodes(data, productTestP, { minRelativeGain: q.swapMinRelativeGain, minAttributes: q.swapMinAttributes })) {
+  const swapOptions = { minRelativeGain: q.swapMinRelativeGain, minAttributes: q.swapMinAttributes, falseAlertsPerYear: q.swapFalseAlertsPerYear, sessionsPerYear: ctx.settings.charts.sessionsPerYear };
+  for (const swap of detectSwappedCodes(data, productTestP, swapOptions)) {
     const codes = swap.codes[0] && swap.codes[1] ? ` (codes ${swap.codes[0]} and ${swap.codes[1]})` : '';
     out.push({
       ...base,
@@ -174,18 +175,24 @@ function sessionFlags(
       product: swap.productA,
       severity: 'watch',
       evidence: {
-        test: 'profile distance swap check (methods §5.10)',
+        test: 'served-versus-swapped test on the pair, against the assessor’s own residual spread (methods §5.10)',
         statistic: swap.relativeGain,
-        pValue: null,
+        pValue: swap.pValue,
         qValue: null,
         n: swap.nAttributes,
-        threshold: `relative gain ρ ≥ ${q.swapMinRelativeGain} with each profile closer to the other product's panel profile`,
+        threshold: `one-sided p < ${formatAlpha(swap.alphaPerTest)} (${q.swapFalseAlertsPerYear} false alerts per year shared over sessions, assessors and product pairs), the swapped order not rejected, the panel separating the pair, and relative gain ρ ≥ ${q.swapMinRelativeGain}`,
         lastSession: session,
         replicate: swap.replicate,
         products: [swap.productA, swap.productB],
         codes: swap.codes,
+        tServed: swap.tServed,
+        tSwapped: swap.tSwapped,
+        df: swap.df,
+        alphaPerTest: swap.alphaPerTest,
+        separationSd: swap.separationSd,
+        panelSeparationT: swap.panelSeparationT,
       },
-      message: `In session ${session}, ${swap.assessor}'s ratings of ${swap.productA} and ${swap.productB}${codes}, ${swap.replicate === null ? 'averaged over the replicates' : `replicate ${swap.replicate}`}, each matched the other product's panel profile better than their own, so the two samples may have been entered under each other's code.`,
+      message: `In session ${session}, ${swap.assessor}'s ratings of ${swap.productA} and ${swap.productB}${codes}, ${swap.replicate === null ? 'averaged over the replicates' : `replicate ${swap.replicate}`}, each matched the other product's panel profile better than their own, by more than this assessor's own rating noise explains (the panel's two profiles are ${points(swap.separationSd, 1)} of the assessor's own SDs apart), so the two samples may have been entered under each other's code.`,
     });
   }
 
@@ -286,4 +293,9 @@ function sessionFlags(
       message: `In session ${session}, ${Math.round(clip.endShare * 100)}% of ${clip.assessor}'s ratings were at the very ends of the scale, against ${Math.round(clip.panelMedianEndShare * 100)}% for the median assessor.`,
     });
   }
+}
+
+/** A small per-test level in plain digits (e.g. 3.4e-6 → "0.0000034"). */
+function formatAlpha(alpha: number): string {
+  return alpha >= 0.001 ? String(Number(alpha.toPrecision(2))) : alpha.toFixed(Math.max(0, -Math.floor(Math.log10(alpha)) + 1));
 }
