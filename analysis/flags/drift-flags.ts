@@ -278,7 +278,7 @@ function driftPass(ctx: FlagContext, exclusions: readonly ConsensusExclusion[]):
     const jump = detectJump(
       seriesList.map((s) => ({ attribute: s.attribute, points: s.points, spreadFloorSd: pooledSpread(spreadsByAttribute.get(s.attribute) ?? []) })),
       options,
-      { nCharts: nAssessors, sessionsPerYear: c.sessionsPerYear, falseAlarmsPerYear: c.actFalseAlarmsPerYear },
+      { nCharts: nAssessors, sessionsPerYear: c.sessionsPerYear, falseAlarmsPerYear: c.actFalseAlarmsPerYear, minJumpSd: c.jumpMinSd, attributeShare: c.jumpAttributeShare },
     );
     if (jump) {
       out.push(jumpFlag(ctx, assessor, jump, summarySignal));

@@ -55,6 +55,8 @@ export const PanelThresholdsSchema = Type.Object(
       sessionsPerYear: positive('Sessions per year used to turn a yearly false-alarm budget into a target ARL0. CP (weekly sessions).'),
       actFalseAlarmsPerYear: positive('Tolerated false act-level chart signals per year across a chart set (per-assessor summary charts; per-attribute charts each get this budget too). Chart limits are sized so that ARL0 = K × sessionsPerYear / budget (methods §3.4). Ours, from the issue goal ≤ 1 act flag per 10 clean assessor-years.'),
       watchFalseAlarmsPerYear: positive('As actFalseAlarmsPerYear for watch-level chart signals. CP.'),
+      jumpMinSd: positive('Sudden shift: smallest one-session jump looked for, in the assessor\'s own session-to-session SDs, on more than jumpAttributeShare of the attributes in the same direction; raised automatically when needed to keep the false-alarm budget (actFalseAlarmsPerYear). Methods §3.10 (2 SDs: CP).'),
+      jumpAttributeShare: Type.Number({ minimum: 0, exclusiveMaximum: 1, description: 'Sudden shift: the jump must show on more than this share of the evaluable attributes (0.5: most attributes). Methods §3.10 (CP).' }),
       westernElectricWatch: Type.Boolean({ description: 'Western Electric rules 2–4 on the per-assessor summary chart give watch flags. Western Electric (1956); mapping CP (methods §6.3).' }),
     }),
     productStability: Type.Object({
@@ -108,6 +110,8 @@ export const DEFAULT_THRESHOLDS: PanelThresholds = {
     sessionsPerYear: 52,
     actFalseAlarmsPerYear: 0.05,
     watchFalseAlarmsPerYear: 1,
+    jumpMinSd: 2,
+    jumpAttributeShare: 0.5,
     westernElectricWatch: false,
   },
   productStability: { lrtWatchPValue: 0.05, lrtActPValue: 0.01, lrtWatchMinSdFraction: 0.02, lrtActMinSdFraction: 0.05, minSessions: 8, stepFalseAlarmsPerYear: 0.5, stepWatchFalseAlarmsPerYear: 1 },
