@@ -12,10 +12,11 @@
  * the log likelihood ratio (swapped : served) is −2b·S with S = Σ d_j c_j / v, and
  * t₀ = (S − b·D²)/D, t₁ = (S + b·D²)/D with D² = Σ c_j² / v (≈ t_ν under the respective model).
  * A swap is alleged when the served assignment is rejected (t₀ ≤ −t*) and the swapped one is not
- * (|t₁| < t*), with t* the t_ν quantile at α = alerts per year / (sessions per year × the session's
- * tests) (Bonferroni over assessors × pairs × checks × sessions), b > 0, the panel itself tells p
- * and q apart (some attribute with |c_j|/SE_j beyond the Bonferroni-over-attributes t quantile at
- * 0.05, SE from MS_AP), and the distance gain ρ ≥ minRelativeGain.
+ * (|t₁| < t*), with t* the t_ν quantile at α = alerts per year / (sessions per year × assessors ×
+ * pairs), halved between the whole-session and the replicate checks (weighted Bonferroni), b > 0,
+ * the panel itself tells p and q apart (some attribute with |c_j|/SE_j beyond the
+ * Bonferroni-over-attributes t quantile at 0.05, SE from MS_AP), and the distance gain
+ * ρ ≥ minRelativeGain.
  * Replicate level (only when the whole session shows nothing for the pair): the same test on one
  * replicate's ratings, and the replicate's contrast must differ from the assessor's own other
  * replicates' in the direction a swap predicts, judged against their own replicate error.
