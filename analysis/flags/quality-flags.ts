@@ -27,7 +27,8 @@ export function qualityFlags(ctx: FlagContext): Flag[] {
   const importedMissing = new Set(ctx.history.importFindings.filter((f) => f.code === 'missing-cells').map((f) => `${f.session ?? ''}\u0000${f.assessor ?? ''}`));
   const out: Flag[] = [];
   const sessions = [...bySession.keys()].sort((a, b) => (ctx.sessionOrder.get(a) ?? 0) - (ctx.sessionOrder.get(b) ?? 0));
-  const qualityKey = JSON.stringify(q);
+  // The swap check also reads charts.sessionsPerYear (its yearly false-alert budget).
+  const qualityKey = JSON.stringify([q, ctx.settings.charts.sessionsPerYear]);
   for (const session of sessions) {
     const sessionRatings = bySession.get(session) as Rating[];
     const productTestP = new Map(ctx.history.attributes.map((a) => [a.name, ctx.results.get(resultKey(session, a.name))?.productTestP ?? null]));
