@@ -9,7 +9,17 @@
  */
 import type { Flag } from '../../domain/flags.js';
 import type { Rating } from '../../domain/ratings.js';
-import { checkClipping, checkInRangeDecimalShift, checkMissingCells, checkStraightLining, detectSwappedCodes, sessionData } from '../quality/index.js';
+import {
+  assessorResidualSpreads,
+  checkClipping,
+  checkInRangeDecimalShift,
+  checkMissingCells,
+  checkStraightLining,
+  detectSwappedCodes,
+  sessionData,
+  SWAP_HISTORY_SESSIONS,
+  type ResidualSpread,
+} from '../quality/index.js';
 import { resultKey, type FlagContext } from './context.js';
 import { points } from './format.js';
 
@@ -29,8 +39,16 @@ export function qualityFlags(ctx: FlagContext): Flag[] {
   const sessions = [...bySession.keys()].sort((a, b) => (ctx.sessionOrder.get(a) ?? 0) - (ctx.sessionOrder.get(b) ?? 0));
   // The swap check also reads charts.sessionsPerYear (its yearly false-alert budget).
   const qualityKey = JSON.stringify([q, ctx.settings.charts.sessionsPerYear]);
+  // Each assessor's residual spreads in the sessions so far (oldest first), pooled by the swap check.
+  const spreadHistory = new Map<string, ResidualSpread[]>();
   for (const session of sessions) {
     const sessionRatings = bySession.get(session) as Rating[];
+    const priorSpreads = new Map([...spreadHistory].map(([assessor, list]) => [assessor, list.slice(-SWAP_HISTORY_SESSIONS)]));
+    for (const [assessor, spread] of assessorResidualSpreads(sessionData(session, sessionRatings, ctx.history.attributes), q.swapMinAttributes)) {
+      const list = spreadHistory.get(assessor);
+      if (list) list.push(spread);
+      else spreadHistory.set(assessor, [spread]);
+    }
     const productTestP = new Map(ctx.history.attributes.map((a) => [a.name, ctx.results.get(resultKey(session, a.name))?.productTestP ?? null]));
     const key = [
       session,
@@ -40,6 +58,7 @@ export function qualityFlags(ctx: FlagContext): Flag[] {
       JSON.stringify(ctx.history.attributes),
       importedMissing.size > 0 ? JSON.stringify([...importedMissing].filter((k) => k.startsWith(`${session}\u0000`))) : '',
       fingerprint(sessionRatings),
+      JSON.stringify([...priorSpreads]),
     ].join('\u0001');
     const cached = SESSION_CACHE.get(key);
     if (cached) {
@@ -47,7 +66,7 @@ export function qualityFlags(ctx: FlagContext): Flag[] {
       continue;
     }
     const before = out.length;
-    sessionFlags(ctx, session, sessionRatings, productTestP, recent, importedMissing, out);
+    sessionFlags(ctx, session, sessionRatings, productTestP, priorSpreads, recent, importedMissing, out);
     remember(key, out.slice(before));
   }
   return out;
@@ -157,6 +176,7 @@ function sessionFlags(
   session: string,
   sessionRatings: Rating[],
   productTestP: Map<string, number | null>,
+  priorSpreads: ReadonlyMap<string, readonly ResidualSpread[]>,
   recent: Set<string>,
   importedMissing: Set<string>,
   out: Flag[],
@@ -166,7 +186,7 @@ function sessionFlags(
   const base = { product: null, attribute: null, firstSession: session };
 
   const swapOptions = { minRelativeGain: q.swapMinRelativeGain, minAttributes: q.swapMinAttributes, falseAlertsPerYear: q.swapFalseAlertsPerYear, sessionsPerYear: ctx.settings.charts.sessionsPerYear };
-  for (const swap of detectSwappedCodes(data, productTestP, swapOptions)) {
+  for (const swap of detectSwappedCodes(data, productTestP, swapOptions, priorSpreads)) {
     const codes = swap.codes[0] && swap.codes[1] ? ` (codes ${swap.codes[0]} and ${swap.codes[1]})` : '';
     out.push({
       ...base,

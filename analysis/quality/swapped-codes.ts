@@ -21,7 +21,7 @@
  * replicate's ratings, and the replicate's contrast must differ from the assessor's own other
  * replicates' in the direction a swap predicts, judged against their own replicate error.
  */
-import { tQuantile, tUpperTail } from '../distributions/index.js';
+import { fQuantile, tQuantile, tUpperTail } from '../distributions/index.js';
 import { cellMeans, interactionMeanSquare, type SessionData } from './session-data.js';
 
 export interface SwapFinding {
@@ -64,21 +64,35 @@ export interface SwapOptions {
 /** Level of the panel's own pairwise separation (LSD with Bonferroni over attributes). CP. */
 const PANEL_SEPARATION_ALPHA = 0.05;
 
-export function detectSwappedCodes(data: SessionData, productTestP: ReadonlyMap<string, number | null>, options: SwapOptions): SwapFinding[] {
+/**
+ * An assessor's residual variance τ² from one session's whole-session fit (cell means, all
+ * products, no pair pooled), in the s_j units of that session, with its df and the number of
+ * replicates behind the cell means (τ² of a cell mean shrinks with more replicates).
+ */
+export interface ResidualSpread {
+  variance: number;
+  df: number;
+  nReplicates: number;
+}
+
+/** Previous sessions of the assessor whose residual variances are pooled with the session's own. */
+export const SWAP_HISTORY_SESSIONS = 6;
+/**
+ * Level of the check that the session's own residual variance is not larger than the assessor's
+ * recent ones (one-sided F test); when it is, the session is judged on its own variance and df.
+ */
+export const SWAP_VARIANCE_CHECK_ALPHA = 0.05;
+
+/** Usable attributes and their per-product sums; null when the session is too small for the check. */
+function sessionTables(data: SessionData, minAttributes: number) {
   const usable = data.attributes
     .map((a) => ({ name: a.name, ms: interactionMeanSquare(data, a.name) ?? 0 }))
     .filter((a) => a.ms > 0)
     .map((a) => ({ ...a, sd: Math.sqrt(a.ms) }));
-  if (usable.length < options.minAttributes || data.products.length < 4) return [];
-  const discriminating = usable.filter((a) => {
-    const p = productTestP.get(a.name);
-    return p !== null && p !== undefined && p < 0.05;
-  });
-  if (discriminating.length < 3) return [];
-  const nJ = usable.length;
+  if (usable.length < minAttributes || data.products.length < 4) return null;
   // Per attribute: cell means, and per product the sum and count of all assessors' cell means, so
   // that a leave-one-out panel mean is (sum − own)/(count − 1) without rescanning the panel.
-  const tables = usable.map((attribute) => {
+  return usable.map((attribute) => {
     const means = cellMeans(data, attribute.name);
     const sum = new Map<string, number>();
     const count = new Map<string, number>();
@@ -94,6 +108,49 @@ export function detectSwappedCodes(data: SessionData, productTestP: ReadonlyMap<
     }
     return { attribute, means, sum, count, replicatesPerCell: nValues / Math.max(1, nCells), replicates: data.byReplicate.get(attribute.name) };
   });
+}
+
+/**
+ * Each assessor's residual variance τ² about b·g in this session (the whole-session fit with no
+ * pair pooled, df = J(P − 1) − 1), for pooling into later sessions' swap checks. A swap in this
+ * session inflates it, which only makes later checks more cautious.
+ */
+export function assessorResidualSpreads(data: SessionData, minAttributes: number): Map<string, ResidualSpread> {
+  const out = new Map<string, ResidualSpread>();
+  const tables = sessionTables(data, minAttributes);
+  if (!tables) return out;
+  const nJ = tables.length;
+  for (const assessor of data.assessors) {
+    const products = data.products.filter((p) => tables.every((t) => t.means.get(assessor)?.has(p)));
+    if (products.length < 4) continue;
+    const profiles = profilesOf(tables, assessor, 0, products);
+    if (!profiles) continue;
+    const fit = residualFit(profiles.x, profiles.g, products.length, nJ, -1, -1);
+    const df = nJ * (products.length - 1) - 1;
+    if (!fit || df < 3 || !(fit.rss > 0)) continue;
+    out.set(assessor, { variance: fit.rss / df, df, nReplicates: data.nReplicates });
+  }
+  return out;
+}
+
+/**
+ * @param priorSpreads per assessor, their residual spreads in earlier sessions (oldest first); the
+ *   last SWAP_HISTORY_SESSIONS with the session's number of replicates are pooled with its own.
+ */
+export function detectSwappedCodes(
+  data: SessionData,
+  productTestP: ReadonlyMap<string, number | null>,
+  options: SwapOptions,
+  priorSpreads: ReadonlyMap<string, readonly ResidualSpread[]> = new Map(),
+): SwapFinding[] {
+  const tables = sessionTables(data, options.minAttributes);
+  if (!tables) return [];
+  const discriminating = tables.filter((t) => {
+    const p = productTestP.get(t.attribute.name);
+    return p !== null && p !== undefined && p < 0.05;
+  });
+  if (discriminating.length < 3) return [];
+  const nJ = tables.length;
   const nPairs = (data.products.length * (data.products.length - 1)) / 2;
   // Weighted Bonferroni (Holm 1979): the yearly budget over sessions × assessors × pairs, half to
   // the whole-session check and half shared by the replicate checks (all of it when unreplicated).
@@ -102,48 +159,17 @@ export function detectSwappedCodes(data: SessionData, productTestP: ReadonlyMap<
   const alphaReplicate = perPair / 2 / data.nReplicates;
   const findings: SwapFinding[] = [];
 
-  /** Centred, scaled own ratings x and leave-one-out panel profile g over `products`. */
-  function profilesOf(assessor: string, replicate: number, products: readonly string[]): { x: Float64Array; g: Float64Array; panelN: Float64Array } | null {
-    const nP = products.length;
-    const x = new Float64Array(nP * nJ);
-    const g = new Float64Array(nP * nJ);
-    // Per product × attribute: assessors behind the leave-one-out mean (for the panel's SE).
-    const panelN = new Float64Array(nP * nJ);
-    for (let j = 0; j < nJ; j++) {
-      const table = tables[j];
-      let ownSum = 0;
-      let panelSum = 0;
-      for (let i = 0; i < nP; i++) {
-        const p = products[i];
-        const others = (table.count.get(p) ?? 0) - 1;
-        if (others <= 0) return null;
-        const own = (replicate === 0 ? table.means.get(assessor)?.get(p) : table.replicates?.get(assessor)?.get(p)?.get(replicate)) as number;
-        const panel = ((table.sum.get(p) ?? 0) - (table.means.get(assessor)?.get(p) ?? 0)) / others;
-        x[i * nJ + j] = own;
-        g[i * nJ + j] = panel;
-        panelN[i * nJ + j] = others;
-        ownSum += own;
-        panelSum += panel;
-      }
-      const sd = table.attribute.sd;
-      for (let i = 0; i < nP; i++) {
-        x[i * nJ + j] = (x[i * nJ + j] - ownSum / nP) / sd;
-        g[i * nJ + j] = (g[i * nJ + j] - panelSum / nP) / sd;
-      }
-    }
-    return { x, g, panelN };
-  }
-
   for (const assessor of data.assessors) {
     const seen = new Set<string>();
     // 1. The whole session (cell means): a swap of every replicate, with the replicate noise averaged.
     const sessionProducts = data.products.filter((p) => tables.every((t) => t.means.get(assessor)?.has(p)));
+    const prior = pooledPrior(priorSpreads.get(assessor) ?? [], data.nReplicates);
     if (sessionProducts.length >= 4) {
-      const whole = profilesOf(assessor, 0, sessionProducts);
+      const whole = profilesOf(tables, assessor, 0, sessionProducts);
       if (whole) {
         for (let p = 0; p < sessionProducts.length - 1; p++) {
           for (let q = p + 1; q < sessionProducts.length; q++) {
-            const test = pairTest(whole.x, whole.g, whole.panelN, sessionProducts.length, nJ, p, q, tables, alphaWhole, options.minRelativeGain);
+            const test = pairTest(whole.x, whole.g, whole.panelN, sessionProducts.length, nJ, p, q, tables, alphaWhole, options.minRelativeGain, prior);
             if (!test) continue;
             seen.add(`${sessionProducts[p]}|${sessionProducts[q]}`);
             findings.push({
@@ -167,13 +193,13 @@ export function detectSwappedCodes(data: SessionData, productTestP: ReadonlyMap<
         tables.every((t) => t.replicates?.get(assessor)?.get(p)?.has(replicate) && [...(t.replicates?.get(assessor)?.get(p)?.keys() ?? [])].some((r) => r !== replicate)),
       );
       if (products.length < 4) continue;
-      const own = profilesOf(assessor, replicate, products);
+      const own = profilesOf(tables, assessor, replicate, products);
       if (!own) continue;
       const within = withinAssessor(tables, assessor, replicate, products, nJ);
       for (let p = 0; p < products.length - 1; p++) {
         for (let q = p + 1; q < products.length; q++) {
           if (seen.has(`${products[p]}|${products[q]}`)) continue;
-          const test = pairTest(own.x, own.g, own.panelN, products.length, nJ, p, q, tables, alphaReplicate, options.minRelativeGain);
+          const test = pairTest(own.x, own.g, own.panelN, products.length, nJ, p, q, tables, alphaReplicate, options.minRelativeGain, null);
           if (!test || !replicatesDisagree(within, own.g, products.length, nJ, p, q, alphaReplicate)) continue;
           findings.push({
             assessor,
@@ -190,6 +216,73 @@ export function detectSwappedCodes(data: SessionData, productTestP: ReadonlyMap<
     }
   }
   return findings;
+}
+
+/** Centred, scaled own ratings x and leave-one-out panel profile g over `products`. */
+function profilesOf(tables: NonNullable<ReturnType<typeof sessionTables>>, assessor: string, replicate: number, products: readonly string[]): { x: Float64Array; g: Float64Array; panelN: Float64Array } | null {
+  const nP = products.length;
+  const nJ = tables.length;
+  const x = new Float64Array(nP * nJ);
+  const g = new Float64Array(nP * nJ);
+  // Per product × attribute: assessors behind the leave-one-out mean (for the panel's SE).
+  const panelN = new Float64Array(nP * nJ);
+  for (let j = 0; j < nJ; j++) {
+    const table = tables[j];
+    let ownSum = 0;
+    let panelSum = 0;
+    for (let i = 0; i < nP; i++) {
+      const p = products[i];
+      const others = (table.count.get(p) ?? 0) - 1;
+      if (others <= 0) return null;
+      const own = (replicate === 0 ? table.means.get(assessor)?.get(p) : table.replicates?.get(assessor)?.get(p)?.get(replicate)) as number;
+      const panel = ((table.sum.get(p) ?? 0) - (table.means.get(assessor)?.get(p) ?? 0)) / others;
+      x[i * nJ + j] = own;
+      g[i * nJ + j] = panel;
+      panelN[i * nJ + j] = others;
+      ownSum += own;
+      panelSum += panel;
+    }
+    const sd = table.attribute.sd;
+    for (let i = 0; i < nP; i++) {
+      x[i * nJ + j] = (x[i * nJ + j] - ownSum / nP) / sd;
+      g[i * nJ + j] = (g[i * nJ + j] - panelSum / nP) / sd;
+    }
+  }
+  return { x, g, panelN };
+}
+
+/**
+ * The assessor's df-weighted residual variance over their last SWAP_HISTORY_SESSIONS earlier
+ * sessions with the same number of replicates (a cell mean's τ² depends on it); null when none.
+ */
+function pooledPrior(spreads: readonly ResidualSpread[], nReplicates: number): { variance: number; df: number } | null {
+  const same = spreads.filter((s) => s.nReplicates === nReplicates && s.df > 0 && s.variance > 0).slice(-SWAP_HISTORY_SESSIONS);
+  const df = same.reduce((a, s) => a + s.df, 0);
+  if (same.length === 0 || !(df > 0)) return null;
+  return { variance: same.reduce((a, s) => a + s.df * s.variance, 0) / df, df };
+}
+
+/** Slope of x on g and residual sum of squares, rows p and q replaced by their mean (p = q = −1: none). */
+function residualFit(x: Float64Array, g: Float64Array, nP: number, nJ: number, p: number, q: number): { slope: number; rss: number } | null {
+  let sxg = 0;
+  let sgg = 0;
+  for (let i = 0; i < nP; i++) {
+    for (let j = 0; j < nJ; j++) {
+      const [xv, gv] = pooledRow(x, g, nJ, p, q, i, j);
+      sxg += xv * gv;
+      sgg += gv * gv;
+    }
+  }
+  if (!(sgg > 0)) return null;
+  const slope = sxg / sgg;
+  let rss = 0;
+  for (let i = 0; i < nP; i++) {
+    for (let j = 0; j < nJ; j++) {
+      const [xv, gv] = pooledRow(x, g, nJ, p, q, i, j);
+      rss += (xv - slope * gv) ** 2;
+    }
+  }
+  return { slope, rss };
 }
 
 type Table = { attribute: { name: string; sd: number; ms: number }; replicatesPerCell: number };
@@ -210,6 +303,7 @@ function pairTest(
   tables: readonly Table[],
   alphaPerTest: number,
   minRelativeGain: number,
+  prior: { variance: number; df: number } | null,
 ): PairTest | null {
   // The panel must tell p and q apart on some attribute: |c_j| against the SE of a difference of
   // two product means, √(2 MS_AP / (n̄ · assessors)), in the same s_j units (so √(2 / (n̄ n))).
@@ -225,28 +319,23 @@ function pairTest(
   if (panelSeparationT < tQuantile(1 - PANEL_SEPARATION_ALPHA / (2 * nJ), minDf)) return null;
   // The assessor's slope on the panel profile and residual variance, with the pair pooled (both
   // rows replaced by their mean, so the pair's own difference is not used to judge it).
-  let sxg = 0;
-  let sgg = 0;
-  for (let i = 0; i < nP; i++) {
-    for (let j = 0; j < nJ; j++) {
-      const [xv, gv] = pooledRow(x, g, nJ, p, q, i, j);
-      sxg += xv * gv;
-      sgg += gv * gv;
-    }
-  }
-  if (!(sgg > 0)) return null;
-  const slope = sxg / sgg;
-  let rss = 0;
-  for (let i = 0; i < nP; i++) {
-    for (let j = 0; j < nJ; j++) {
-      const [xv, gv] = pooledRow(x, g, nJ, p, q, i, j);
-      rss += (xv - slope * gv) ** 2;
-    }
-  }
+  const fit = residualFit(x, g, nP, nJ, p, q);
+  if (!fit) return null;
+  const { slope, rss } = fit;
   // Rows p and q pooled leave P − 2 df per attribute after centring; one more for the slope.
-  const df = nJ * (nP - 2) - 1;
-  if (df < 3 || !(rss > 0) || !(slope > 0)) return null;
-  const differenceVariance = (2 * rss) / df;
+  const ownDf = nJ * (nP - 2) - 1;
+  if (ownDf < 3 || !(rss > 0) || !(slope > 0)) return null;
+  const ownVariance = rss / ownDf;
+  // With the assessor's recent sessions: the df-weighted pool, never below the session's own
+  // variance (so a noisy day is not judged by a quieter history), and the session alone when its
+  // variance is beyond the history's by the one-sided F test.
+  let residualVariance = ownVariance;
+  let df = ownDf;
+  if (prior && ownVariance / prior.variance <= fQuantile(1 - SWAP_VARIANCE_CHECK_ALPHA, ownDf, prior.df)) {
+    df = ownDf + prior.df;
+    residualVariance = Math.max(ownVariance, (rss + prior.variance * prior.df) / df);
+  }
+  const differenceVariance = 2 * residualVariance;
   let s = 0;
   let cc = 0;
   for (let j = 0; j < nJ; j++) {

@@ -10,7 +10,7 @@
  */
 import { describe, expect, it } from 'vitest';
 import type { Rating } from '../../../domain/ratings.js';
-import { detectSwappedCodes, sessionData, type SwapFinding } from '../../../analysis/quality/index.js';
+import { assessorResidualSpreads, detectSwappedCodes, sessionData, type ResidualSpread, type SwapFinding } from '../../../analysis/quality/index.js';
 import { seededRandom } from '../flags/helpers/random.js';
 
 interface Shape {
@@ -68,13 +68,27 @@ function session(shape: Shape): { ratings: Rating[]; profiles: number[][] } {
   return { ratings, profiles };
 }
 
-function detect(shape: Shape): { findings: SwapFinding[]; profiles: number[][] } {
+const attributesOf = (shape: Shape) => Array.from({ length: shape.nAttributes }, (_, j) => ({ name: `attr${j + 1}`, scaleMin: 0, scaleMax: 10 }));
+
+function detect(shape: Shape, priorSpreads?: ReadonlyMap<string, readonly ResidualSpread[]>): { findings: SwapFinding[]; profiles: number[][] } {
   const { ratings, profiles } = session(shape);
-  const attributes = Array.from({ length: shape.nAttributes }, (_, j) => ({ name: `attr${j + 1}`, scaleMin: 0, scaleMax: 10 }));
+  const attributes = attributesOf(shape);
   // The panel product test is part of the caller's gate (fits); every attribute here has real product differences.
   const productTestP = new Map(attributes.map((a) => [a.name, 0.001]));
-  const findings = detectSwappedCodes(sessionData('S01', ratings, attributes), productTestP, { minRelativeGain: 0.3, minAttributes: 5, falseAlertsPerYear: 0.05, sessionsPerYear: 52 });
+  const findings = detectSwappedCodes(sessionData('S01', ratings, attributes), productTestP, { minRelativeGain: 0.3, minAttributes: 5, falseAlertsPerYear: 0.05, sessionsPerYear: 52 }, priorSpreads);
   return { findings, profiles };
+}
+
+/** Residual spreads of each assessor in `n` earlier sessions of the same panel shape (other draws), oldest first. */
+function history(shape: Shape, n: number): Map<string, ResidualSpread[]> {
+  const out = new Map<string, ResidualSpread[]>();
+  for (let k = 1; k <= n; k++) {
+    const earlier = session({ ...shape, seed: shape.seed * 100 + k, swap: undefined });
+    for (const [assessor, spread] of assessorResidualSpreads(sessionData('S01', earlier.ratings, attributesOf(shape)), 5)) {
+      out.set(assessor, [...(out.get(assessor) ?? []), spread]);
+    }
+  }
+  return out;
 }
 
 /** Seeds × shapes: 8 and 15 assessors, 4 and 8 products, 1–3 replicates. */
@@ -128,6 +142,47 @@ describe('swapped codes: properties over seeds and panel shapes', () => {
       for (const base of shapes(nearIdentical)) {
         const label = `seed ${base.seed}, ${base.nAssessors} × ${base.nProducts} × ${base.nReplicates}, near-identical ${nearIdentical}`;
         const { findings } = detect({ ...base, levels: { A01: 1.5, A04: -1.5 }, noise: { A02: 2.5, A03: 2.5 } });
+        expect(findings.map((f) => `${f.assessor} ${names(f)} replicate ${f.replicate}`), label).toEqual([]);
+      }
+    }
+  });
+
+  it('(d) an inconsistent assessor (noise × 2.5) with a swap of two products 4–6 of their SDs apart is found in ≥ 95 % of cases when five earlier sessions are pooled', () => {
+    // SD: of a difference of the assessor's cell means from their replicate noise alone,
+    // 0.45 × 2.5 × √(2 / replicates) points; the pair's distance is the profiles' Euclidean one.
+    // Alone (no history) this assessor's pairs at that distance are found in 120 of 128 cases here.
+    let planted = 0;
+    let found = 0;
+    for (const base of shapes(false)) {
+      const noise = { A02: 2.5 };
+      const { profiles } = session(base);
+      const sdDifference = 0.45 * 2.5 * Math.sqrt(2 / base.nReplicates);
+      const prior = history({ ...base, noise }, 5);
+      for (let a = 0; a < profiles.length; a++) {
+        for (let b = a + 1; b < profiles.length; b++) {
+          const d = distance(profiles[a], profiles[b]) / sdDifference;
+          if (d < 4 || d > 6) continue;
+          const swap = { assessor: 'A02', a: productName(a), b: productName(b) };
+          const { findings } = detect({ ...base, noise, swap }, prior);
+          planted++;
+          if (findings.some((f) => f.assessor === 'A02' && f.replicate === null && names(f) === [swap.a, swap.b].sort().join('/'))) found++;
+          // Never another pair or another assessor.
+          expect(findings.filter((f) => f.assessor !== 'A02' || names(f) !== [swap.a, swap.b].sort().join('/')), `seed ${base.seed} ${swap.a}/${swap.b}`).toEqual([]);
+        }
+      }
+    }
+    expect(planted).toBeGreaterThan(100);
+    expect(found / planted).toBeGreaterThanOrEqual(0.95);
+  });
+
+  it('(e) with five earlier sessions pooled, an inconsistent assessor with no swap gets no swap finding, also on a day much noisier than their history', () => {
+    for (const nearIdentical of [false, true]) {
+      for (const base of shapes(nearIdentical)) {
+        const label = `seed ${base.seed}, ${base.nAssessors} × ${base.nProducts} × ${base.nReplicates}, near-identical ${nearIdentical}`;
+        const today = { ...base, levels: { A01: 1.5, A04: -1.5 }, noise: { A02: 2.5, A03: 2.5 } };
+        // A02's history is as noisy as today; A03 is usually consistent (noise × 1) and noisy today only.
+        const prior = history({ ...base, noise: { A02: 2.5 } }, 5);
+        const { findings } = detect(today, prior);
         expect(findings.map((f) => `${f.assessor} ${names(f)} replicate ${f.replicate}`), label).toEqual([]);
       }
     }
