@@ -75,7 +75,7 @@ function driftPass(ctx: FlagContext, exclusions: readonly ConsensusExclusion[]):
     const jump = detectJump(
       attributeCharts.map(({ attribute, chart }) => ({ attribute, points: chart.series, spreadFloorSd: chart.spreadFloorSd })),
       options,
-      { nCharts: nAssessors, sessionsPerYear: c.sessionsPerYear, falseAlarmsPerYear: c.actFalseAlarmsPerYear },
+      { nCharts: nAssessors, sessionsPerYear: c.sessionsPerYear, falseAlarmsPerYear: c.actFalseAlarmsPerYear, minJumpSd: c.jumpMinSd, attributeShare: c.jumpAttributeShare },
       ctx.sizingMemo,
     );
     if (jump) {

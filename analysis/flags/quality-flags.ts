@@ -9,7 +9,17 @@
  */
 import type { Flag } from '../../domain/flags.js';
 import type { Rating } from '../../domain/ratings.js';
-import { checkClipping, checkInRangeDecimalShift, checkMissingCells, checkStraightLining, detectSwappedCodes, sessionData } from '../quality/index.js';
+import {
+  assessorResidualSpreads,
+  checkClipping,
+  checkInRangeDecimalShift,
+  checkMissingCells,
+  checkStraightLining,
+  detectSwappedCodes,
+  sessionData,
+  SWAP_HISTORY_SESSIONS,
+  type ResidualSpread,
+} from '../quality/index.js';
 import { resultKey, type FlagContext } from './context.js';
 import { points } from './format.js';
 
@@ -49,14 +59,23 @@ export function qualityFlags(ctx: FlagContext, memo?: QualityFlagsMemo): Flag[] 
   const importedMissing = new Set(ctx.history.importFindings.filter((f) => f.code === 'missing-cells').map((f) => `${f.session ?? ''}\u0000${f.assessor ?? ''}`));
   const out: Flag[] = [];
   const sessions = [...bySession.keys()].sort((a, b) => (ctx.sessionOrder.get(a) ?? 0) - (ctx.sessionOrder.get(b) ?? 0));
-  const qualityKey = JSON.stringify(q);
+  // The swap check also reads charts.sessionsPerYear (its yearly false-alert budget).
+  const qualityKey = JSON.stringify([q, ctx.settings.charts.sessionsPerYear]);
   // Cleared between calls only, so every text slot used below belongs to one text for the whole call.
   if (memo && memo.textSlots.size >= TEXT_SLOT_LIMIT) memo.textSlots.clear();
+  // Each assessor's residual spreads in the sessions so far (oldest first), pooled by the swap check.
+  const spreadHistory = new Map<string, ResidualSpread[]>();
   for (const session of sessions) {
     const sessionRatings = bySession.get(session) as Rating[];
+    const priorSpreads = new Map([...spreadHistory].map(([assessor, list]) => [assessor, list.slice(-SWAP_HISTORY_SESSIONS)]));
+    for (const [assessor, spread] of assessorResidualSpreads(sessionData(session, sessionRatings, ctx.history.attributes), q.swapMinAttributes)) {
+      const list = spreadHistory.get(assessor);
+      if (list) list.push(spread);
+      else spreadHistory.set(assessor, [spread]);
+    }
     const productTestP = new Map(ctx.history.attributes.map((a) => [a.name, ctx.results.get(resultKey(session, a.name))?.productTestP ?? null]));
     if (!memo) {
-      sessionFlags(ctx, session, sessionRatings, productTestP, recent, importedMissing, out);
+      sessionFlags(ctx, session, sessionRatings, productTestP, priorSpreads, recent, importedMissing, out);
       continue;
     }
     const key = [
@@ -67,6 +86,8 @@ export function qualityFlags(ctx: FlagContext, memo?: QualityFlagsMemo): Flag[] 
       JSON.stringify(ctx.history.attributes),
       importedMissing.size > 0 ? JSON.stringify([...importedMissing].filter((k) => k.startsWith(`${session}\u0000`))) : '',
       fingerprint(memo, sessionRatings),
+      // The swap check pools earlier sessions' spreads: a changed history changes the result.
+      JSON.stringify([...priorSpreads]),
     ].join('\u0001');
     const cached = memo.sessions.get(key);
     if (cached) {
@@ -74,7 +95,7 @@ export function qualityFlags(ctx: FlagContext, memo?: QualityFlagsMemo): Flag[] 
       continue;
     }
     const before = out.length;
-    sessionFlags(ctx, session, sessionRatings, productTestP, recent, importedMissing, out);
+    sessionFlags(ctx, session, sessionRatings, productTestP, priorSpreads, recent, importedMissing, out);
     if (memo.sessions.size >= SESSION_MEMO_LIMIT) memo.sessions.delete(memo.sessions.keys().next().value as string);
     memo.sessions.set(key, structuredClone(out.slice(before)));
   }
@@ -165,6 +186,7 @@ function sessionFlags(
   session: string,
   sessionRatings: Rating[],
   productTestP: Map<string, number | null>,
+  priorSpreads: ReadonlyMap<string, readonly ResidualSpread[]>,
   recent: Set<string>,
   importedMissing: Set<string>,
   out: Flag[],
@@ -173,7 +195,8 @@ function sessionFlags(
   const data = sessionData(session, sessionRatings, ctx.history.attributes);
   const base = { product: null, attribute: null, firstSession: session };
 
-  for (const swap of detectSwappedCodes(data, productTestP, { minRelativeGain: q.swapMinRelativeGain, minAttributes: q.swapMinAttributes })) {
+  const swapOptions = { minRelativeGain: q.swapMinRelativeGain, minAttributes: q.swapMinAttributes, falseAlertsPerYear: q.swapFalseAlertsPerYear, sessionsPerYear: ctx.settings.charts.sessionsPerYear };
+  for (const swap of detectSwappedCodes(data, productTestP, swapOptions, priorSpreads)) {
     const codes = swap.codes[0] && swap.codes[1] ? ` (codes ${swap.codes[0]} and ${swap.codes[1]})` : '';
     out.push({
       ...base,
@@ -183,18 +206,24 @@ function sessionFlags(
       product: swap.productA,
       severity: 'watch',
       evidence: {
-        test: 'profile distance swap check (methods §5.10)',
+        test: 'served-versus-swapped test on the pair, against the assessor’s own residual spread (methods §5.10)',
         statistic: swap.relativeGain,
-        pValue: null,
+        pValue: swap.pValue,
         qValue: null,
         n: swap.nAttributes,
-        threshold: `relative gain ρ ≥ ${q.swapMinRelativeGain} with each profile closer to the other product's panel profile`,
+        threshold: `one-sided p < ${formatAlpha(swap.alphaPerTest)} (${q.swapFalseAlertsPerYear} false alerts per year shared over sessions, assessors and product pairs), the swapped order not rejected, the panel separating the pair, and relative gain ρ ≥ ${q.swapMinRelativeGain}`,
         lastSession: session,
         replicate: swap.replicate,
         products: [swap.productA, swap.productB],
         codes: swap.codes,
+        tServed: swap.tServed,
+        tSwapped: swap.tSwapped,
+        df: swap.df,
+        alphaPerTest: swap.alphaPerTest,
+        separationSd: swap.separationSd,
+        panelSeparationT: swap.panelSeparationT,
       },
-      message: `In session ${session}, ${swap.assessor}'s ratings of ${swap.productA} and ${swap.productB}${codes}, ${swap.replicate === null ? 'averaged over the replicates' : `replicate ${swap.replicate}`}, each matched the other product's panel profile better than their own, so the two samples may have been entered under each other's code.`,
+      message: `In session ${session}, ${swap.assessor}'s ratings of ${swap.productA} and ${swap.productB}${codes}, ${swap.replicate === null ? 'averaged over the replicates' : `replicate ${swap.replicate}`}, each matched the other product's panel profile better than their own, by more than this assessor's own rating noise explains (the panel's two profiles are ${points(swap.separationSd, 1)} of the assessor's own SDs apart), so the two samples may have been entered under each other's code.`,
     });
   }
 
@@ -295,4 +324,9 @@ function sessionFlags(
       message: `In session ${session}, ${Math.round(clip.endShare * 100)}% of ${clip.assessor}'s ratings were at the very ends of the scale, against ${Math.round(clip.panelMedianEndShare * 100)}% for the median assessor.`,
     });
   }
+}
+
+/** A small per-test level in plain digits (e.g. 3.4e-6 → "0.0000034"). */
+function formatAlpha(alpha: number): string {
+  return alpha >= 0.001 ? String(Number(alpha.toPrecision(2))) : alpha.toFixed(Math.max(0, -Math.floor(Math.log10(alpha)) + 1));
 }

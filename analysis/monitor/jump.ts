@@ -9,7 +9,9 @@
  * at least two) charted values, in units of the segment's spread σ̂ (max of the own moving-range
  * σ̂ and the panel-pooled one, as the drift charts use). A session is a jump when at least
  * `minAttributes` (a majority) of the evaluable attributes jump by at least `thresholdSd` in the
- * same direction. The threshold starts at 2 SDs and is raised until the chance of that count under
+ * same direction. The threshold starts at `minJumpSd` (2 SDs by default, the panel setting
+ * charts.jumpMinSd) on more than `attributeShare` (half, charts.jumpAttributeShare) of the
+ * attributes, and the threshold is raised until the chance of that count under
  * independent normal attributes, 2·P(Binomial(n, p) ≥ m) with p = 1 − Φ(c/√(1 + 1/4)), is within
  * the false-alarm budget of one chart among `nCharts` charted each session.
  */
@@ -17,8 +19,10 @@ import { normalCdf } from '../distributions/index.js';
 import { standardiseSegments, type SegmentOptions, type SeriesPoint } from './chart.js';
 import { memoised, type ChartSizingMemo } from './sizing-memo.js';
 
-/** Smallest jump the rule looks for, in the assessor's SDs (the size the panel leader asked to see). */
+/** Default smallest jump the rule looks for, in the assessor's SDs (the size the panel leader asked to see). */
 export const MIN_JUMP_SD = 2;
+/** Default share of the evaluable attributes a jump must exceed (a majority). */
+export const JUMP_ATTRIBUTE_SHARE = 0.5;
 /** Values before the session that the jump is measured from. */
 const PREVIOUS_VALUES = 4;
 const MIN_PREVIOUS_VALUES = 2;
@@ -35,6 +39,15 @@ export interface JumpSizing {
   nCharts: number;
   sessionsPerYear: number;
   falseAlarmsPerYear: number;
+  /** Smallest jump, in the assessor's SDs (default MIN_JUMP_SD). */
+  minJumpSd?: number;
+  /** A jump must show on more than this share of the evaluable attributes (default JUMP_ATTRIBUTE_SHARE). */
+  attributeShare?: number;
+}
+
+export interface JumpRuleOptions {
+  minJumpSd: number;
+  attributeShare: number;
 }
 
 export interface JumpRule {
@@ -84,15 +97,22 @@ function binomialUpperTail(n: number, m: number, p: number): number {
 }
 
 /** The rule for n evaluable attributes and a per-session false-alarm chance; kept in the caller's memo when given. */
-export function jumpRule(nAttributes: number, chanceBudget: number, memo?: ChartSizingMemo): JumpRule {
-  return memoised(memo?.jumpRules, `${nAttributes}|${chanceBudget}`, () => sizeJumpRule(nAttributes, chanceBudget));
+export function jumpRule(
+  nAttributes: number,
+  chanceBudget: number,
+  options: JumpRuleOptions = { minJumpSd: MIN_JUMP_SD, attributeShare: JUMP_ATTRIBUTE_SHARE },
+  memo?: ChartSizingMemo,
+): JumpRule {
+  const key = `${nAttributes}|${chanceBudget}|${options.minJumpSd}|${options.attributeShare}`;
+  return memoised(memo?.jumpRules, key, () => sizeJumpRule(nAttributes, chanceBudget, options));
 }
 
-function sizeJumpRule(nAttributes: number, chanceBudget: number): JumpRule {
-  const minAttributes = Math.floor(nAttributes / 2) + 1;
-  let thresholdSd = MIN_JUMP_SD;
+function sizeJumpRule(nAttributes: number, chanceBudget: number, options: JumpRuleOptions): JumpRule {
+  // "More than the share": with 0.5, a majority (floor(n/2) + 1); never more than all of them.
+  const minAttributes = Math.min(nAttributes, Math.floor(nAttributes * options.attributeShare) + 1);
+  let thresholdSd = options.minJumpSd;
   let chance = 1;
-  for (; thresholdSd < 10; thresholdSd += 0.05) {
+  for (; thresholdSd < Math.max(10, options.minJumpSd); thresholdSd += 0.05) {
     const p = 1 - normalCdf(thresholdSd / Math.sqrt(1 + 1 / PREVIOUS_VALUES));
     chance = 2 * binomialUpperTail(nAttributes, minAttributes, p);
     if (chance <= chanceBudget) break;
@@ -109,6 +129,7 @@ function middle(values: readonly number[]): number {
 /** The latest jump in the series' current segments, or null. */
 export function detectJump(series: readonly JumpInput[], options: SegmentOptions, sizing: JumpSizing, memo?: ChartSizingMemo): Jump | null {
   const budget = sizing.falseAlarmsPerYear / (Math.max(1, sizing.nCharts) * sizing.sessionsPerYear);
+  const ruleOptions = { minJumpSd: sizing.minJumpSd ?? MIN_JUMP_SD, attributeShare: sizing.attributeShare ?? JUMP_ATTRIBUTE_SHARE };
   // Per attribute: session → jump measured in its current segment.
   const bySession = new Map<string, (JumpAttribute & { provisional: boolean })[]>();
   const order: string[] = [];
@@ -134,7 +155,7 @@ export function detectJump(series: readonly JumpInput[], options: SegmentOptions
   const lastAt = { up: -Infinity, down: -Infinity };
   for (const [position, session] of order.entries()) {
     const list = bySession.get(session) as (JumpAttribute & { provisional: boolean })[];
-    const rule = jumpRule(list.length, budget, memo);
+    const rule = jumpRule(list.length, budget, ruleOptions, memo);
     for (const direction of ['up', 'down'] as const) {
       const sign = direction === 'up' ? 1 : -1;
       const jumped = list.filter((a) => sign * a.jumpSd >= rule.thresholdSd);

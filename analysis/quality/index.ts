@@ -1,5 +1,5 @@
 export { sessionData, interactionMeanSquare, cellMeans, type SessionData, type QualityAttribute } from './session-data.js';
-export { detectSwappedCodes, type SwapFinding } from './swapped-codes.js';
+export { assessorResidualSpreads, detectSwappedCodes, SWAP_HISTORY_SESSIONS, type ResidualSpread, type SwapFinding } from './swapped-codes.js';
 export {
   checkStraightLining,
   checkClipping,

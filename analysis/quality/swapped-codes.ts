@@ -1,18 +1,27 @@
 /**
- * Suspected swapped sample codes (methods §5.10, common practice): an assessor's profiles of two
- * products each lie closer to the other product's panel profile than to their own.
- * Per assessor × replicate: x_pj = own rating, g_pj = leave-one-out panel mean (all replicates),
- * both centred over products and divided by s_j = √MS_AP,j; D_pq = Σ_j (x̃_pj − g̃_qj)²;
- * G_pq = (D_pp + D_qq) − (D_pq + D_qp), ρ_pq = G_pq/(D_pp + D_qq). Flag (watch, never act) when
- * D_pq < D_pp, D_qp < D_qq and ρ_pq ≥ minRelativeGain (0.30).
- * Checked first on the assessor's whole-session profiles (replicates averaged: a swap in every
- * replicate), then per replicate only where the replicates disagree as a swap would make them:
- * the replicate's profiles of p and q must also each lie closer to the assessor's own other
- * replicates' profile of the other product (our addition, CP: single-replicate checks alone
- * raised swaps on ordinary noise).
- * Requirements: ≥ minAttributes attributes with s_j > 0, ≥ 4 products, panel product p < 0.05 in
- * ≥ 3 attributes. Products with similar profiles cannot be told apart (documented limitation).
+ * Suspected swapped sample codes (methods §5.10 and §5.13): a test of "served as labelled" against
+ * "p and q exchanged" for one assessor, judged against that assessor's own residual spread.
+ *
+ * Per assessor (cell means over replicates, or one replicate), each attribute centred over the
+ * assessor's products and divided by s_j = √MS_AP,j: x_pj (own) and g_pj (leave-one-out panel
+ * mean). Model: x_pj = b·g_pj + e_pj, e ~ N(0, τ²) (one slope b and one residual variance τ² for
+ * the assessor, pooled over attributes). For the pair p, q, b and τ² are estimated with the two
+ * products' ratings replaced by their mean (the pair's own difference is not used to judge it);
+ * df ν = J(P − 2) − 1. With d_j = x_pj − x_qj and c_j = g_pj − g_qj, v = 2τ̂²:
+ *   served:  d_j = b·c_j + ε_j,   swapped: d_j = −b·c_j + ε_j,
+ * the log likelihood ratio (swapped : served) is −2b·S with S = Σ d_j c_j / v, and
+ * t₀ = (S − b·D²)/D, t₁ = (S + b·D²)/D with D² = Σ c_j² / v (≈ t_ν under the respective model).
+ * A swap is alleged when the served assignment is rejected (t₀ ≤ −t*) and the swapped one is not
+ * (|t₁| < t*), with t* the t_ν quantile at α = alerts per year / (sessions per year × assessors ×
+ * pairs), halved between the whole-session and the replicate checks (weighted Bonferroni), b > 0,
+ * the panel itself tells p and q apart (some attribute with |c_j|/SE_j beyond the
+ * Bonferroni-over-attributes t quantile at 0.05, SE from MS_AP), and the distance gain
+ * ρ ≥ minRelativeGain.
+ * Replicate level (only when the whole session shows nothing for the pair): the same test on one
+ * replicate's ratings, and the replicate's contrast must differ from the assessor's own other
+ * replicates' in the direction a swap predicts, judged against their own replicate error.
  */
+import { fQuantile, tQuantile, tUpperTail } from '../distributions/index.js';
 import { cellMeans, interactionMeanSquare, type SessionData } from './session-data.js';
 
 export interface SwapFinding {
@@ -25,200 +34,416 @@ export interface SwapFinding {
   /** Sample codes served for the two products in this replicate, when known. */
   codes: [string | null, string | null];
   nAttributes: number;
+  /** t₀: how far the pair's contrast lies from the served assignment's prediction, in its SEs. */
+  tServed: number;
+  /** t₁: the same for the swapped assignment (near 0 when the swap explains the ratings). */
+  tSwapped: number;
+  /** Degrees of freedom of the assessor's residual spread behind t₀ and t₁. */
+  df: number;
+  /** One-sided p of t₀ under "served as labelled" (before the Bonferroni correction). */
+  pValue: number;
+  /** The Bonferroni per-test level the p was compared with. */
+  alphaPerTest: number;
+  /** D: the pair's panel difference in units of the assessor's own SD of a difference. */
+  separationSd: number;
+  /** Largest |panel difference / SE| of the pair over the attributes. */
+  panelSeparationT: number;
+  /** The assessor's slope on the panel profile (pair pooled). */
+  slope: number;
 }
 
-export function detectSwappedCodes(
-  data: SessionData,
-  productTestP: ReadonlyMap<string, number | null>,
-  options: { minRelativeGain: number; minAttributes: number },
-): SwapFinding[] {
+export interface SwapOptions {
+  minRelativeGain: number;
+  minAttributes: number;
+  /** Tolerated false swap alerts per panel-year (Bonferroni budget). */
+  falseAlertsPerYear: number;
+  /** Sessions per year, so the per-session budget adds up to the yearly one. */
+  sessionsPerYear: number;
+}
+
+/** Level of the panel's own pairwise separation (LSD with Bonferroni over attributes). CP. */
+const PANEL_SEPARATION_ALPHA = 0.05;
+
+/**
+ * An assessor's residual variance τ² from one session's whole-session fit (cell means, all
+ * products, no pair pooled), in the s_j units of that session, with its df and the number of
+ * replicates behind the cell means (τ² of a cell mean shrinks with more replicates).
+ */
+export interface ResidualSpread {
+  variance: number;
+  df: number;
+  nReplicates: number;
+}
+
+/** Previous sessions of the assessor whose residual variances are pooled with the session's own. */
+export const SWAP_HISTORY_SESSIONS = 6;
+/**
+ * Level of the check that the session's own residual variance is not larger than the assessor's
+ * recent ones (one-sided F test); when it is, the session is judged on its own variance and df.
+ */
+export const SWAP_VARIANCE_CHECK_ALPHA = 0.05;
+
+/** Usable attributes and their per-product sums; null when the session is too small for the check. */
+function sessionTables(data: SessionData, minAttributes: number) {
   const usable = data.attributes
-    .map((a) => ({ name: a.name, sd: Math.sqrt(interactionMeanSquare(data, a.name) ?? 0) }))
-    .filter((a) => a.sd > 0);
-  if (usable.length < options.minAttributes || data.products.length < 4) return [];
-  const discriminating = usable.filter((a) => {
-    const p = productTestP.get(a.name);
-    return p !== null && p !== undefined && p < 0.05;
-  });
-  if (discriminating.length < 3) return [];
+    .map((a) => ({ name: a.name, ms: interactionMeanSquare(data, a.name) ?? 0 }))
+    .filter((a) => a.ms > 0)
+    .map((a) => ({ ...a, sd: Math.sqrt(a.ms) }));
+  if (usable.length < minAttributes || data.products.length < 4) return null;
   // Per attribute: cell means, and per product the sum and count of all assessors' cell means, so
   // that a leave-one-out panel mean is (sum − own)/(count − 1) without rescanning the panel.
-  const tables = usable.map((attribute) => {
+  return usable.map((attribute) => {
     const means = cellMeans(data, attribute.name);
     const sum = new Map<string, number>();
     const count = new Map<string, number>();
-    for (const row of means.values()) {
+    let nValues = 0;
+    let nCells = 0;
+    for (const [assessor, row] of means) {
       for (const [product, mean] of row) {
         sum.set(product, (sum.get(product) ?? 0) + mean);
         count.set(product, (count.get(product) ?? 0) + 1);
+        nValues += data.values.get(attribute.name)?.get(assessor)?.get(product)?.length ?? 1;
+        nCells++;
       }
     }
-    return { attribute, means, sum, count, replicates: data.byReplicate.get(attribute.name) };
+    return { attribute, means, sum, count, replicatesPerCell: nValues / Math.max(1, nCells), replicates: data.byReplicate.get(attribute.name) };
   });
-  const findings: SwapFinding[] = [];
+}
+
+/**
+ * Each assessor's residual variance τ² about b·g in this session (the whole-session fit with no
+ * pair pooled, df = J(P − 1) − 1), for pooling into later sessions' swap checks. A swap in this
+ * session inflates it, which only makes later checks more cautious.
+ */
+export function assessorResidualSpreads(data: SessionData, minAttributes: number): Map<string, ResidualSpread> {
+  const out = new Map<string, ResidualSpread>();
+  const tables = sessionTables(data, minAttributes);
+  if (!tables) return out;
   const nJ = tables.length;
-  const typicalCache = new Map<number, number>();
-  // The panel's typical correlation of an assessor's profile with the others' (median over assessors).
-  const typicalCorrelation = (replicate: number): number => {
-    const cached = typicalCache.get(replicate);
-    if (cached !== undefined) return cached;
-    const rs: number[] = [];
-    for (const other of data.assessors) {
-      const products = data.products.filter((p) => tables.every((t) => (replicate === 0 ? t.means.get(other)?.has(p) : t.replicates?.get(other)?.get(p)?.has(replicate))));
-      if (products.length < 4) continue;
-      const built = profilesOf(other, replicate, products);
-      if (built) rs.push(profileCorrelation(built.x, built.g, products.length, nJ, -1, -1));
-    }
-    const sorted = rs.sort((a, b) => a - b);
-    const typical = sorted.length === 0 ? -1 : sorted.length % 2 ? sorted[sorted.length >> 1] : (sorted[(sorted.length >> 1) - 1] + sorted[sorted.length >> 1]) / 2;
-    typicalCache.set(replicate, typical);
-    return typical;
-  };
-  function profilesOf(assessor: string, replicate: number, products: readonly string[]): { x: Float64Array; g: Float64Array } | null {
-    const ownValue = (table: (typeof tables)[number], product: string): number | undefined =>
-      replicate === 0 ? table.means.get(assessor)?.get(product) : table.replicates?.get(assessor)?.get(product)?.get(replicate);
-    const nP = products.length;
-    const x = new Float64Array(nP * nJ);
-    const g = new Float64Array(nP * nJ);
-    for (let j = 0; j < nJ; j++) {
-      const table = tables[j];
-      let ownSum = 0;
-      let panelSum = 0;
-      for (let i = 0; i < nP; i++) {
-        const p = products[i];
-        const others = (table.count.get(p) ?? 0) - 1;
-        if (others <= 0) return null;
-        const own = ownValue(table, p) as number;
-        const panel = ((table.sum.get(p) ?? 0) - (table.means.get(assessor)?.get(p) ?? 0)) / others;
-        x[i * nJ + j] = own;
-        g[i * nJ + j] = panel;
-        ownSum += own;
-        panelSum += panel;
-      }
-      const sd = table.attribute.sd;
-      for (let i = 0; i < nP; i++) {
-        x[i * nJ + j] = (x[i * nJ + j] - ownSum / nP) / sd;
-        g[i * nJ + j] = (g[i * nJ + j] - panelSum / nP) / sd;
-      }
-    }
-    return { x, g };
-  }
   for (const assessor of data.assessors) {
-    const profiles = (replicate: number, products: readonly string[]) => profilesOf(assessor, replicate, products);
-    const distance = (a: Float64Array, p: number, b: Float64Array, q: number): number => {
-      let sum = 0;
-      for (let j = 0; j < nJ; j++) {
-        const d = a[p * nJ + j] - b[q * nJ + j];
-        sum += d * d;
-      }
-      return sum;
-    };
-    /**
-     * Pairs whose own profiles each lie closer to the other product's panel profile, and where the
-     * exchange explains the assessor's disagreement: with p and q put back, the correlation of the
-     * assessor's profile with the panel's reaches the panel's typical correlation (median − margin).
-     * An assessor who ranks, flattens or scrambles products disagrees whatever is exchanged.
-     */
-    const swappedPairs = (x: Float64Array, g: Float64Array, nP: number, typicalR: number): { p: number; q: number; relativeGain: number }[] => {
-      const out: { p: number; q: number; relativeGain: number }[] = [];
-      for (let p = 0; p < nP - 1; p++) {
-        for (let q = p + 1; q < nP; q++) {
-          if (profileCorrelation(x, g, nP, nJ, p, q) < typicalR - SWAP_R_MARGIN) continue;
-          const dpp = distance(x, p, g, p);
-          const dqq = distance(x, q, g, q);
-          const dpq = distance(x, p, g, q);
-          const dqp = distance(x, q, g, p);
-          const relativeGain = dpp + dqq > 0 ? (dpp + dqq - (dpq + dqp)) / (dpp + dqq) : 0;
-          if (dpq < dpp && dqp < dqq && relativeGain >= options.minRelativeGain) out.push({ p, q, relativeGain });
-        }
-      }
-      return out;
-    };
-    // 1. The whole session: both (all) replicates averaged, so a swap of every replicate is seen
-    //    with the replicate noise halved.
-    const sessionProducts = data.products.filter((p) => tables.every((t) => t.means.get(assessor)?.has(p)));
+    const products = data.products.filter((p) => tables.every((t) => t.means.get(assessor)?.has(p)));
+    if (products.length < 4) continue;
+    const profiles = profilesOf(tables, assessor, 0, products);
+    if (!profiles) continue;
+    const fit = residualFit(profiles.x, profiles.g, products.length, nJ, -1, -1);
+    const df = nJ * (products.length - 1) - 1;
+    if (!fit || df < 3 || !(fit.rss > 0)) continue;
+    out.set(assessor, { variance: fit.rss / df, df, nReplicates: data.nReplicates });
+  }
+  return out;
+}
+
+/**
+ * @param priorSpreads per assessor, their residual spreads in earlier sessions (oldest first); the
+ *   last SWAP_HISTORY_SESSIONS with the session's number of replicates are pooled with its own.
+ */
+export function detectSwappedCodes(
+  data: SessionData,
+  productTestP: ReadonlyMap<string, number | null>,
+  options: SwapOptions,
+  priorSpreads: ReadonlyMap<string, readonly ResidualSpread[]> = new Map(),
+): SwapFinding[] {
+  const tables = sessionTables(data, options.minAttributes);
+  if (!tables) return [];
+  const discriminating = tables.filter((t) => {
+    const p = productTestP.get(t.attribute.name);
+    return p !== null && p !== undefined && p < 0.05;
+  });
+  if (discriminating.length < 3) return [];
+  const nJ = tables.length;
+  const nPairs = (data.products.length * (data.products.length - 1)) / 2;
+  // Weighted Bonferroni (Holm 1979): the yearly budget over sessions × assessors × pairs, half to
+  // the whole-session check and half shared by the replicate checks (all of it when unreplicated).
+  const perPair = options.falseAlertsPerYear / (Math.max(1, options.sessionsPerYear) * data.assessors.length * nPairs);
+  const alphaWhole = data.nReplicates >= 2 ? perPair / 2 : perPair;
+  const alphaReplicate = perPair / 2 / data.nReplicates;
+  const findings: SwapFinding[] = [];
+
+  for (const assessor of data.assessors) {
     const seen = new Set<string>();
+    // 1. The whole session (cell means): a swap of every replicate, with the replicate noise averaged.
+    const sessionProducts = data.products.filter((p) => tables.every((t) => t.means.get(assessor)?.has(p)));
+    const prior = pooledPrior(priorSpreads.get(assessor) ?? [], data.nReplicates);
     if (sessionProducts.length >= 4) {
-      const whole = profiles(0, sessionProducts);
+      const whole = profilesOf(tables, assessor, 0, sessionProducts);
       if (whole) {
-        for (const { p, q, relativeGain } of swappedPairs(whole.x, whole.g, sessionProducts.length, typicalCorrelation(0))) {
-          seen.add(`${sessionProducts[p]}|${sessionProducts[q]}`);
-          findings.push({
-            assessor,
-            replicate: null,
-            productA: sessionProducts[p],
-            productB: sessionProducts[q],
-            relativeGain,
-            codes: [codeOf(data, assessor, sessionProducts[p], 1), codeOf(data, assessor, sessionProducts[q], 1)],
-            nAttributes: usable.length,
-          });
+        for (let p = 0; p < sessionProducts.length - 1; p++) {
+          for (let q = p + 1; q < sessionProducts.length; q++) {
+            const test = pairTest(whole.x, whole.g, whole.panelN, sessionProducts.length, nJ, p, q, tables, alphaWhole, options.minRelativeGain, prior);
+            if (!test) continue;
+            seen.add(`${sessionProducts[p]}|${sessionProducts[q]}`);
+            findings.push({
+              assessor,
+              replicate: null,
+              productA: sessionProducts[p],
+              productB: sessionProducts[q],
+              codes: [codeOf(data, assessor, sessionProducts[p], 1), codeOf(data, assessor, sessionProducts[q], 1)],
+              nAttributes: nJ,
+              alphaPerTest: alphaWhole,
+              ...test,
+            });
+          }
         }
       }
     }
     if (data.nReplicates < 2) continue;
-    // 2. One replicate, only where the assessor's replicates disagree in the way a swap explains:
-    //    the replicate's profiles of p and q must each also lie closer to the assessor's OWN other
-    //    replicates' profile of the other product. Noise alone rarely passes both checks.
+    // 2. One replicate, only where the pair is not already explained by a whole-session swap.
     for (let replicate = 1; replicate <= data.nReplicates; replicate++) {
       const products = data.products.filter((p) =>
         tables.every((t) => t.replicates?.get(assessor)?.get(p)?.has(replicate) && [...(t.replicates?.get(assessor)?.get(p)?.keys() ?? [])].some((r) => r !== replicate)),
       );
       if (products.length < 4) continue;
-      const own = profiles(replicate, products);
+      const own = profilesOf(tables, assessor, replicate, products);
       if (!own) continue;
-      // The assessor's other replicates, averaged, centred and scaled like x.
-      const rest = new Float64Array(products.length * nJ);
-      for (let j = 0; j < nJ; j++) {
-        const table = tables[j];
-        let sum = 0;
-        products.forEach((p, i) => {
-          const values = [...(table.replicates?.get(assessor)?.get(p) ?? new Map<number, number>())].filter(([r]) => r !== replicate).map(([, v]) => v);
-          rest[i * nJ + j] = values.reduce((a, b) => a + b, 0) / values.length;
-          sum += rest[i * nJ + j];
-        });
-        for (let i = 0; i < products.length; i++) rest[i * nJ + j] = (rest[i * nJ + j] - sum / products.length) / table.attribute.sd;
-      }
-      for (const { p, q, relativeGain } of swappedPairs(own.x, own.g, products.length, typicalCorrelation(replicate))) {
-        if (seen.has(`${products[p]}|${products[q]}`)) continue;
-        const confirmed = distance(own.x, p, rest, q) < distance(own.x, p, rest, p) && distance(own.x, q, rest, p) < distance(own.x, q, rest, q);
-        if (!confirmed) continue;
-        findings.push({
-          assessor,
-          replicate,
-          productA: products[p],
-          productB: products[q],
-          relativeGain,
-          codes: [codeOf(data, assessor, products[p], replicate), codeOf(data, assessor, products[q], replicate)],
-          nAttributes: usable.length,
-        });
+      const within = withinAssessor(tables, assessor, replicate, products, nJ);
+      for (let p = 0; p < products.length - 1; p++) {
+        for (let q = p + 1; q < products.length; q++) {
+          if (seen.has(`${products[p]}|${products[q]}`)) continue;
+          const test = pairTest(own.x, own.g, own.panelN, products.length, nJ, p, q, tables, alphaReplicate, options.minRelativeGain, null);
+          if (!test || !replicatesDisagree(within, own.g, products.length, nJ, p, q, alphaReplicate)) continue;
+          findings.push({
+            assessor,
+            replicate,
+            productA: products[p],
+            productB: products[q],
+            codes: [codeOf(data, assessor, products[p], replicate), codeOf(data, assessor, products[q], replicate)],
+            nAttributes: nJ,
+            alphaPerTest: alphaReplicate,
+            ...test,
+          });
+        }
       }
     }
   }
   return findings;
 }
 
-/** Minimum correlation, below the panel's median, of an assessor's profile once the pair is put back (CP). */
-const SWAP_R_MARGIN = 0.15;
-
-/**
- * Correlation over products × attributes of the assessor's centred, scaled profile x with the
- * panel's g, with rows p and q of x exchanged (p = q = −1: as rated).
- */
-function profileCorrelation(x: Float64Array, g: Float64Array, nP: number, nJ: number, p: number, q: number): number {
-  let sxy = 0;
-  let sxx = 0;
-  let syy = 0;
-  for (let i = 0; i < nP; i++) {
-    const row = i === p ? q : i === q ? p : i;
-    for (let j = 0; j < nJ; j++) {
-      const xv = x[row * nJ + j];
-      const gv = g[i * nJ + j];
-      sxy += xv * gv;
-      sxx += xv * xv;
-      syy += gv * gv;
+/** Centred, scaled own ratings x and leave-one-out panel profile g over `products`. */
+function profilesOf(tables: NonNullable<ReturnType<typeof sessionTables>>, assessor: string, replicate: number, products: readonly string[]): { x: Float64Array; g: Float64Array; panelN: Float64Array } | null {
+  const nP = products.length;
+  const nJ = tables.length;
+  const x = new Float64Array(nP * nJ);
+  const g = new Float64Array(nP * nJ);
+  // Per product × attribute: assessors behind the leave-one-out mean (for the panel's SE).
+  const panelN = new Float64Array(nP * nJ);
+  for (let j = 0; j < nJ; j++) {
+    const table = tables[j];
+    let ownSum = 0;
+    let panelSum = 0;
+    for (let i = 0; i < nP; i++) {
+      const p = products[i];
+      const others = (table.count.get(p) ?? 0) - 1;
+      if (others <= 0) return null;
+      const own = (replicate === 0 ? table.means.get(assessor)?.get(p) : table.replicates?.get(assessor)?.get(p)?.get(replicate)) as number;
+      const panel = ((table.sum.get(p) ?? 0) - (table.means.get(assessor)?.get(p) ?? 0)) / others;
+      x[i * nJ + j] = own;
+      g[i * nJ + j] = panel;
+      panelN[i * nJ + j] = others;
+      ownSum += own;
+      panelSum += panel;
+    }
+    const sd = table.attribute.sd;
+    for (let i = 0; i < nP; i++) {
+      x[i * nJ + j] = (x[i * nJ + j] - ownSum / nP) / sd;
+      g[i * nJ + j] = (g[i * nJ + j] - panelSum / nP) / sd;
     }
   }
-  return sxx > 0 && syy > 0 ? sxy / Math.sqrt(sxx * syy) : 0;
+  return { x, g, panelN };
+}
+
+/**
+ * The assessor's df-weighted residual variance over their last SWAP_HISTORY_SESSIONS earlier
+ * sessions with the same number of replicates (a cell mean's τ² depends on it); null when none.
+ */
+function pooledPrior(spreads: readonly ResidualSpread[], nReplicates: number): { variance: number; df: number } | null {
+  const same = spreads.filter((s) => s.nReplicates === nReplicates && s.df > 0 && s.variance > 0).slice(-SWAP_HISTORY_SESSIONS);
+  const df = same.reduce((a, s) => a + s.df, 0);
+  if (same.length === 0 || !(df > 0)) return null;
+  return { variance: same.reduce((a, s) => a + s.df * s.variance, 0) / df, df };
+}
+
+/** Slope of x on g and residual sum of squares, rows p and q replaced by their mean (p = q = −1: none). */
+function residualFit(x: Float64Array, g: Float64Array, nP: number, nJ: number, p: number, q: number): { slope: number; rss: number } | null {
+  let sxg = 0;
+  let sgg = 0;
+  for (let i = 0; i < nP; i++) {
+    for (let j = 0; j < nJ; j++) {
+      const [xv, gv] = pooledRow(x, g, nJ, p, q, i, j);
+      sxg += xv * gv;
+      sgg += gv * gv;
+    }
+  }
+  if (!(sgg > 0)) return null;
+  const slope = sxg / sgg;
+  let rss = 0;
+  for (let i = 0; i < nP; i++) {
+    for (let j = 0; j < nJ; j++) {
+      const [xv, gv] = pooledRow(x, g, nJ, p, q, i, j);
+      rss += (xv - slope * gv) ** 2;
+    }
+  }
+  return { slope, rss };
+}
+
+type Table = { attribute: { name: string; sd: number; ms: number }; replicatesPerCell: number };
+type PairTest = Pick<SwapFinding, 'relativeGain' | 'tServed' | 'tSwapped' | 'df' | 'pValue' | 'separationSd' | 'panelSeparationT' | 'slope'>;
+
+/**
+ * The served-versus-swapped test of products p and q on centred, scaled profiles x (own) and g
+ * (panel), nP products × nJ attributes, row-major. null when no swap is alleged.
+ */
+function pairTest(
+  x: Float64Array,
+  g: Float64Array,
+  panelN: Float64Array,
+  nP: number,
+  nJ: number,
+  p: number,
+  q: number,
+  tables: readonly Table[],
+  alphaPerTest: number,
+  minRelativeGain: number,
+  prior: { variance: number; df: number } | null,
+): PairTest | null {
+  // The panel must tell p and q apart on some attribute: |c_j| against the SE of a difference of
+  // two product means, √(2 MS_AP / (n̄ · assessors)), in the same s_j units (so √(2 / (n̄ n))).
+  let panelSeparationT = 0;
+  let minDf = Infinity;
+  for (let j = 0; j < nJ; j++) {
+    const c = g[p * nJ + j] - g[q * nJ + j];
+    const n = Math.min(panelN[p * nJ + j], panelN[q * nJ + j]);
+    const se = Math.sqrt(2 / (tables[j].replicatesPerCell * n));
+    panelSeparationT = Math.max(panelSeparationT, Math.abs(c) / se);
+    minDf = Math.min(minDf, Math.max(1, (n - 1) * (nP - 1)));
+  }
+  if (panelSeparationT < tQuantile(1 - PANEL_SEPARATION_ALPHA / (2 * nJ), minDf)) return null;
+  // The assessor's slope on the panel profile and residual variance, with the pair pooled (both
+  // rows replaced by their mean, so the pair's own difference is not used to judge it).
+  const fit = residualFit(x, g, nP, nJ, p, q);
+  if (!fit) return null;
+  const { slope, rss } = fit;
+  // Rows p and q pooled leave P − 2 df per attribute after centring; one more for the slope.
+  const ownDf = nJ * (nP - 2) - 1;
+  if (ownDf < 3 || !(rss > 0) || !(slope > 0)) return null;
+  const ownVariance = rss / ownDf;
+  // With the assessor's recent sessions: the df-weighted pool, never below the session's own
+  // variance (so a noisy day is not judged by a quieter history), and the session alone when its
+  // variance is beyond the history's by the one-sided F test.
+  let residualVariance = ownVariance;
+  let df = ownDf;
+  if (prior && ownVariance / prior.variance <= fQuantile(1 - SWAP_VARIANCE_CHECK_ALPHA, ownDf, prior.df)) {
+    df = ownDf + prior.df;
+    residualVariance = Math.max(ownVariance, (rss + prior.variance * prior.df) / df);
+  }
+  const differenceVariance = 2 * residualVariance;
+  let s = 0;
+  let cc = 0;
+  for (let j = 0; j < nJ; j++) {
+    const d = x[p * nJ + j] - x[q * nJ + j];
+    const c = g[p * nJ + j] - g[q * nJ + j];
+    s += d * c;
+    cc += c * c;
+  }
+  s /= differenceVariance;
+  const separationSq = cc / differenceVariance;
+  const separationSd = Math.sqrt(separationSq);
+  if (!(separationSd > 0)) return null;
+  const tServed = (s - slope * separationSq) / separationSd;
+  const tSwapped = (s + slope * separationSq) / separationSd;
+  const critical = tQuantile(1 - alphaPerTest, df);
+  if (!(tServed <= -critical) || !(Math.abs(tSwapped) < critical)) return null;
+  // ρ: the share of the pair's distance from the panel profiles that the exchange removes.
+  const distance = (a: number, b: number): number => {
+    let sum = 0;
+    for (let j = 0; j < nJ; j++) sum += (x[a * nJ + j] - g[b * nJ + j]) ** 2;
+    return sum;
+  };
+  const served = distance(p, p) + distance(q, q);
+  const relativeGain = served > 0 ? (served - distance(p, q) - distance(q, p)) / served : 0;
+  if (relativeGain < minRelativeGain) return null;
+  return { relativeGain, tServed, tSwapped, df, pValue: 1 - tUpperTail(tServed, df), separationSd, panelSeparationT, slope };
+}
+
+/** Row i, attribute j of (x, g) with rows p and q replaced by their mean. */
+function pooledRow(x: Float64Array, g: Float64Array, nJ: number, p: number, q: number, i: number, j: number): [number, number] {
+  if (i === p || i === q) return [(x[p * nJ + j] + x[q * nJ + j]) / 2, (g[p * nJ + j] + g[q * nJ + j]) / 2];
+  return [x[i * nJ + j], g[i * nJ + j]];
+}
+
+/**
+ * The assessor's replicate r and their other replicates' mean, both scaled by s_j, and per cell the
+ * squared deviations of the replicates from the cell mean (scaled) with their df, for the
+ * assessor's own replicate error.
+ */
+function withinAssessor(
+  tables: readonly (Table & { replicates?: Map<string, Map<string, Map<number, number>>> })[],
+  assessor: string,
+  replicate: number,
+  products: readonly string[],
+  nJ: number,
+): { one: Float64Array; rest: Float64Array; restWeight: Float64Array; cellSs: Float64Array; cellDf: Float64Array } {
+  const nP = products.length;
+  const one = new Float64Array(nP * nJ);
+  const rest = new Float64Array(nP * nJ);
+  // 1 + 1/(number of other replicates): the variance of (one − rest) in units of the replicate error.
+  const restWeight = new Float64Array(nP * nJ);
+  const cellSs = new Float64Array(nP * nJ);
+  const cellDf = new Float64Array(nP * nJ);
+  for (let j = 0; j < nJ; j++) {
+    const sd = tables[j].attribute.sd;
+    for (let i = 0; i < nP; i++) {
+      const cell = tables[j].replicates?.get(assessor)?.get(products[i]) ?? new Map<number, number>();
+      const values = [...cell.values()];
+      const mean = values.reduce((a, b) => a + b, 0) / values.length;
+      for (const v of values) cellSs[i * nJ + j] += ((v - mean) / sd) ** 2;
+      cellDf[i * nJ + j] = values.length - 1;
+      const others = [...cell].filter(([r]) => r !== replicate).map(([, v]) => v);
+      one[i * nJ + j] = (cell.get(replicate) as number) / sd;
+      rest[i * nJ + j] = others.reduce((a, b) => a + b, 0) / others.length / sd;
+      restWeight[i * nJ + j] = 1 + 1 / others.length;
+    }
+  }
+  return { one, rest, restWeight, cellSs, cellDf };
+}
+
+/**
+ * Whether replicate r's contrast of p and q differs from the assessor's other replicates' in the
+ * direction a swap in r predicts (against the panel's contrast c): z = Σ (Δ_r − Δ_rest)_j c_j /
+ * √(Var · Σ c_j²) ≤ −t*, with Var the assessor's own replicate error over the other products
+ * (a swap in r would inflate it in the pair's cells). Product and level effects cancel in
+ * Δ_r − Δ_rest, so only replicate error is left under "no swap".
+ */
+function replicatesDisagree(
+  within: ReturnType<typeof withinAssessor>,
+  g: Float64Array,
+  nP: number,
+  nJ: number,
+  p: number,
+  q: number,
+  alphaPerTest: number,
+): boolean {
+  let ss = 0;
+  let df = 0;
+  for (let i = 0; i < nP; i++) {
+    if (i === p || i === q) continue;
+    for (let j = 0; j < nJ; j++) {
+      ss += within.cellSs[i * nJ + j];
+      df += within.cellDf[i * nJ + j];
+    }
+  }
+  if (df < 3 || !(ss > 0)) return false;
+  const errorVariance = ss / df;
+  let s = 0;
+  let scale = 0;
+  for (let j = 0; j < nJ; j++) {
+    const c = g[p * nJ + j] - g[q * nJ + j];
+    const delta = within.one[p * nJ + j] - within.one[q * nJ + j] - (within.rest[p * nJ + j] - within.rest[q * nJ + j]);
+    s += delta * c;
+    scale += c * c * (within.restWeight[p * nJ + j] + within.restWeight[q * nJ + j]);
+  }
+  if (!(scale > 0)) return false;
+  const t = s / Math.sqrt(errorVariance * scale);
+  return t <= -tQuantile(1 - alphaPerTest, df);
 }
 
 function codeOf(data: SessionData, assessor: string, product: string, replicate: number): string | null {

@@ -25,8 +25,8 @@ describe('chart sizing memo', () => {
     expect(chartDecisionInterval(0.5, 4800, used)).toBe(chartDecisionInterval(0.5, 4800));
     expect(chartDecisionInterval(0.5, 480, used)).toBe(chartDecisionInterval(0.5, 480, createChartSizingMemo()));
     expect(ewmaLimitForArl0(0.2, 500, 101, used)).toBe(ewmaLimitForArl0(0.2, 500, 101));
-    expect(jumpRule(10, 1e-4, used)).toEqual(jumpRule(10, 1e-4));
-    expect(jumpRule(3, 1e-4, used)).toEqual(jumpRule(3, 1e-4, createChartSizingMemo()));
+    expect(jumpRule(10, 1e-4, undefined, used)).toEqual(jumpRule(10, 1e-4));
+    expect(jumpRule(3, 1e-4, undefined, used)).toEqual(jumpRule(3, 1e-4, undefined, createChartSizingMemo()));
     expect(used.unconditionalLimits.size).toBeGreaterThan(4);
   });
 });

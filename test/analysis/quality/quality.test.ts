@@ -17,7 +17,7 @@ import {
 import { attributesOf, swapProducts, syntheticRatings } from '../flags/helpers/synthetic-ratings.js';
 
 const allDiscriminate = (n: number) => new Map(attributesOf(n).map((a) => [a.name, 1e-6 as number | null]));
-const SWAP_OPTIONS = { minRelativeGain: 0.3, minAttributes: 5 };
+const SWAP_OPTIONS = { minRelativeGain: 0.3, minAttributes: 5, falseAlertsPerYear: 0.05, sessionsPerYear: 52 };
 
 describe('swapped sample codes (methods §5.10)', () => {
   it('no swap found in unmodified sessions (5 seeds × 8 assessors × 2 replicates)', () => {

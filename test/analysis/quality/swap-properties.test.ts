@@ -1,0 +1,190 @@
+/**
+ * Properties of the swapped-codes test (docs/methods.md §5.10, §5.13) on sessions drawn here,
+ * independently of the demo generator: several seeds and shapes (8 and 15 assessors, 4 and 8
+ * products, 1–3 replicates, 8 or 10 attributes), assessors with their own level, scaling,
+ * interaction and noise, and optionally a pair of near-identical products.
+ * (a) a whole-session swap of two clearly different products is found;
+ * (b) no swap is alleged between two products the panel cannot tell apart, even when one is planted;
+ * (c) a lenient or inconsistent assessor with no swap gets no swap finding.
+ * Invented data (a property test), the expected outcome written beside each case.
+ */
+import { describe, expect, it } from 'vitest';
+import type { Rating } from '../../../domain/ratings.js';
+import { assessorResidualSpreads, detectSwappedCodes, sessionData, type ResidualSpread, type SwapFinding } from '../../../analysis/quality/index.js';
+import { seededRandom } from '../flags/helpers/random.js';
+
+interface Shape {
+  seed: number;
+  nAssessors: number;
+  nProducts: number;
+  nReplicates: number;
+  nAttributes: number;
+  /** Products P1 and P2 differ by at most 0.1 points on every attribute. */
+  nearIdentical: boolean;
+  /** Assessor → level shift in points (lenient > 0). */
+  levels?: Record<string, number>;
+  /** Assessor → multiplier of the replicate noise SD (inconsistent > 1). */
+  noise?: Record<string, number>;
+  /** Assessor whose P_a and P_b are exchanged in every replicate. */
+  swap?: { assessor: string; a: string; b: string };
+}
+
+const assessorName = (i: number) => `A${String(i + 1).padStart(2, '0')}`;
+const productName = (i: number) => `P${i + 1}`;
+
+/**
+ * value = profile + assessor level (SD 0.3, + planted) + (scaling 0.85–1.18 − 1) × centred profile
+ * + assessor × product (SD 0.3) + replicate noise (SD 0.45 × multiplier), kept on 0–10, 0.1 steps.
+ */
+function session(shape: Shape): { ratings: Rating[]; profiles: number[][] } {
+  const rng = seededRandom(shape.seed);
+  const profiles = Array.from({ length: shape.nProducts }, () => Array.from({ length: shape.nAttributes }, () => 1.5 + 7 * rng.uniform()));
+  if (shape.nearIdentical) profiles[1] = profiles[0].map((v) => v + 0.2 * (rng.uniform() - 0.5));
+  const attributeMean = Array.from({ length: shape.nAttributes }, (_, j) => profiles.reduce((s, p) => s + p[j], 0) / profiles.length);
+  const ratings: Rating[] = [];
+  for (let a = 0; a < shape.nAssessors; a++) {
+    const assessor = assessorName(a);
+    const level = rng.normal(0, 0.3) + (shape.levels?.[assessor] ?? 0);
+    const scaling = 0.85 + 0.33 * rng.uniform();
+    const noiseSd = 0.45 * (shape.noise?.[assessor] ?? 1);
+    const interaction = profiles.map(() => profiles[0].map(() => rng.normal(0, 0.3)));
+    for (let p = 0; p < shape.nProducts; p++) {
+      // The sample rated as product p: its own, or the other product's when codes were exchanged.
+      let served = p;
+      if (shape.swap?.assessor === assessor) {
+        if (productName(p) === shape.swap.a) served = Number(shape.swap.b.slice(1)) - 1;
+        else if (productName(p) === shape.swap.b) served = Number(shape.swap.a.slice(1)) - 1;
+      }
+      for (let r = 1; r <= shape.nReplicates; r++) {
+        for (let j = 0; j < shape.nAttributes; j++) {
+          const truth = profiles[served][j];
+          const raw = attributeMean[j] + scaling * (truth - attributeMean[j]) + level + interaction[served][j] + rng.normal(0, noiseSd);
+          const value = Math.min(10, Math.max(0, Math.round(raw * 10) / 10));
+          ratings.push({ session: 'S01', date: '2026-02-02', assessor, product: productName(p), replicate: r, attribute: `attr${j + 1}`, value, code: String(100 + a * 40 + p * 4 + r) });
+        }
+      }
+    }
+  }
+  return { ratings, profiles };
+}
+
+const attributesOf = (shape: Shape) => Array.from({ length: shape.nAttributes }, (_, j) => ({ name: `attr${j + 1}`, scaleMin: 0, scaleMax: 10 }));
+
+function detect(shape: Shape, priorSpreads?: ReadonlyMap<string, readonly ResidualSpread[]>): { findings: SwapFinding[]; profiles: number[][] } {
+  const { ratings, profiles } = session(shape);
+  const attributes = attributesOf(shape);
+  // The panel product test is part of the caller's gate (fits); every attribute here has real product differences.
+  const productTestP = new Map(attributes.map((a) => [a.name, 0.001]));
+  const findings = detectSwappedCodes(sessionData('S01', ratings, attributes), productTestP, { minRelativeGain: 0.3, minAttributes: 5, falseAlertsPerYear: 0.05, sessionsPerYear: 52 }, priorSpreads);
+  return { findings, profiles };
+}
+
+/** Residual spreads of each assessor in `n` earlier sessions of the same panel shape (other draws), oldest first. */
+function history(shape: Shape, n: number): Map<string, ResidualSpread[]> {
+  const out = new Map<string, ResidualSpread[]>();
+  for (let k = 1; k <= n; k++) {
+    const earlier = session({ ...shape, seed: shape.seed * 100 + k, swap: undefined });
+    for (const [assessor, spread] of assessorResidualSpreads(sessionData('S01', earlier.ratings, attributesOf(shape)), 5)) {
+      out.set(assessor, [...(out.get(assessor) ?? []), spread]);
+    }
+  }
+  return out;
+}
+
+/** Seeds × shapes: 8 and 15 assessors, 4 and 8 products, 1–3 replicates. */
+function shapes(nearIdentical: boolean): Omit<Shape, 'levels' | 'noise' | 'swap'>[] {
+  const out: Omit<Shape, 'levels' | 'noise' | 'swap'>[] = [];
+  let seed = nearIdentical ? 900 : 100;
+  for (const nAssessors of [8, 15]) {
+    for (const nProducts of [4, 8]) {
+      for (const nReplicates of [1, 2, 3]) {
+        for (let k = 0; k < 2; k++) out.push({ seed: seed++, nAssessors, nProducts, nReplicates, nAttributes: k === 0 ? 8 : 10, nearIdentical });
+      }
+    }
+  }
+  return out;
+}
+
+const distance = (x: number[], y: number[]) => Math.sqrt(x.reduce((s, v, j) => s + (v - y[j]) ** 2, 0));
+const names = (f: SwapFinding) => [f.productA, f.productB].sort().join('/');
+
+describe('swapped codes: properties over seeds and panel shapes', () => {
+  it('(a) a whole-session swap of the two most different products is found, for exactly that pair and assessor', () => {
+    for (const base of shapes(false)) {
+      const { profiles } = session(base);
+      // The two most different products of this draw (their profiles are ≥ 5 points apart: checked).
+      let best = { a: 0, b: 1, d: -1 };
+      for (let a = 0; a < profiles.length; a++) for (let b = a + 1; b < profiles.length; b++) if (distance(profiles[a], profiles[b]) > best.d) best = { a, b, d: distance(profiles[a], profiles[b]) };
+      expect(best.d).toBeGreaterThan(5);
+      const swap = { assessor: 'A02', a: productName(best.a), b: productName(best.b) };
+      const { findings } = detect({ ...base, swap });
+      const label = `seed ${base.seed}, ${base.nAssessors} assessors × ${base.nProducts} products × ${base.nReplicates} replicates`;
+      expect(findings.map((f) => `${f.assessor} ${names(f)} ${f.replicate}`), label).toContain(`A02 ${[swap.a, swap.b].sort().join('/')} null`);
+      // Nothing else in the session: the other assessors are clean.
+      expect(findings.filter((f) => f.assessor !== 'A02'), label).toEqual([]);
+    }
+  });
+
+  it('(b) no swap is alleged between near-identical products, even when one is planted', () => {
+    for (const base of shapes(true)) {
+      const label = `seed ${base.seed}, ${base.nAssessors} × ${base.nProducts} × ${base.nReplicates}`;
+      for (const assessor of ['A01', 'A03']) {
+        const { findings } = detect({ ...base, swap: { assessor, a: 'P1', b: 'P2' } });
+        expect(findings.filter((f) => names(f) === 'P1/P2'), label).toEqual([]);
+      }
+      // And a clean session gives no finding at all.
+      expect(detect(base).findings, label).toEqual([]);
+    }
+  });
+
+  it('(c) a lenient (+1.5 points) or inconsistent (noise × 2.5) assessor with no swap gets no swap finding', () => {
+    for (const nearIdentical of [false, true]) {
+      for (const base of shapes(nearIdentical)) {
+        const label = `seed ${base.seed}, ${base.nAssessors} × ${base.nProducts} × ${base.nReplicates}, near-identical ${nearIdentical}`;
+        const { findings } = detect({ ...base, levels: { A01: 1.5, A04: -1.5 }, noise: { A02: 2.5, A03: 2.5 } });
+        expect(findings.map((f) => `${f.assessor} ${names(f)} replicate ${f.replicate}`), label).toEqual([]);
+      }
+    }
+  });
+
+  it('(d) an inconsistent assessor (noise × 2.5) with a swap of two products 4–6 of their SDs apart is found in ≥ 95 % of cases when five earlier sessions are pooled', () => {
+    // SD: of a difference of the assessor's cell means from their replicate noise alone,
+    // 0.45 × 2.5 × √(2 / replicates) points; the pair's distance is the profiles' Euclidean one.
+    // Alone (no history) this assessor's pairs at that distance are found in 120 of 128 cases here.
+    let planted = 0;
+    let found = 0;
+    for (const base of shapes(false)) {
+      const noise = { A02: 2.5 };
+      const { profiles } = session(base);
+      const sdDifference = 0.45 * 2.5 * Math.sqrt(2 / base.nReplicates);
+      const prior = history({ ...base, noise }, 5);
+      for (let a = 0; a < profiles.length; a++) {
+        for (let b = a + 1; b < profiles.length; b++) {
+          const d = distance(profiles[a], profiles[b]) / sdDifference;
+          if (d < 4 || d > 6) continue;
+          const swap = { assessor: 'A02', a: productName(a), b: productName(b) };
+          const { findings } = detect({ ...base, noise, swap }, prior);
+          planted++;
+          if (findings.some((f) => f.assessor === 'A02' && f.replicate === null && names(f) === [swap.a, swap.b].sort().join('/'))) found++;
+          // Never another pair or another assessor.
+          expect(findings.filter((f) => f.assessor !== 'A02' || names(f) !== [swap.a, swap.b].sort().join('/')), `seed ${base.seed} ${swap.a}/${swap.b}`).toEqual([]);
+        }
+      }
+    }
+    expect(planted).toBeGreaterThan(100);
+    expect(found / planted).toBeGreaterThanOrEqual(0.95);
+  });
+
+  it('(e) with five earlier sessions pooled, an inconsistent assessor with no swap gets no swap finding, also on a day much noisier than their history', () => {
+    for (const nearIdentical of [false, true]) {
+      for (const base of shapes(nearIdentical)) {
+        const label = `seed ${base.seed}, ${base.nAssessors} × ${base.nProducts} × ${base.nReplicates}, near-identical ${nearIdentical}`;
+        const today = { ...base, levels: { A01: 1.5, A04: -1.5 }, noise: { A02: 2.5, A03: 2.5 } };
+        // A02's history is as noisy as today; A03 is usually consistent (noise × 1) and noisy today only.
+        const prior = history({ ...base, noise: { A02: 2.5 } }, 5);
+        const { findings } = detect(today, prior);
+        expect(findings.map((f) => `${f.assessor} ${names(f)} replicate ${f.replicate}`), label).toEqual([]);
+      }
+    }
+  });
+});
