@@ -242,3 +242,16 @@ describe('templates', () => {
     expect(problems).toEqual([]);
   });
 });
+
+describe('file length', () => {
+  // A long file is allowed only with its reason written at its top ("Longer than 400 lines: …").
+  const SOURCE_FOLDERS = ['analysis', 'domain', 'ingest', 'monitor', 'report', 'server', 'store', 'bench', 'bin'];
+  it('no source file outside test/ and demo/ is over 400 lines without a written reason at its top', () => {
+    const problems = SOURCE_FOLDERS.flatMap((folder) => listFiles(folder, '.ts'))
+      .filter((file) => {
+        const lines = readFileSync(join(ROOT, file), 'utf8').split('\n');
+        return lines.length > 400 && !lines.slice(0, 40).some((line) => line.includes('Longer than 400 lines:'));
+      });
+    expect(problems).toEqual([]);
+  });
+});

@@ -1,4 +1,7 @@
 /**
+ * Longer than 400 lines: the factorisation and its solves share one index layout of the packed
+ * blocks and border; kept together so that a change to the layout is made in one place.
+ *
  * Cholesky factorisation of a symmetric positive-definite "block-arrow" matrix:
  *
  *     [ A_1              C_1 ]

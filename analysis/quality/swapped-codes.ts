@@ -1,4 +1,7 @@
 /**
+ * Longer than 400 lines: the whole-session test, the replicate-level test and the pooled spread
+ * they share are one method (methods §5.10); apart, the same profile tables would be built twice.
+ *
  * Suspected swapped sample codes (methods §5.10 and §5.13): a test of "served as labelled" against
  * "p and q exchanged" for one assessor, judged against that assessor's own residual spread.
  *
