@@ -57,6 +57,7 @@ describe('templates read only what their views hold', () => {
     expect(() => renderer.render('login', { title: 'Sign in', breadcrumbs: [], next: '/', failure: null }, chrome)).not.toThrow();
     expect(() => renderer.render('error', { title: 'Not found', breadcrumbs: [], error: 'x', listedErrors: [] }, chrome)).not.toThrow();
     for (const page of ['login', 'error']) rendered.add(page);
+    // The monitor pages need a fitted panel: test/http/monitor-template-contract.test.ts renders them.
     const ownPages = renderer.pageNames().filter((name) => !name.startsWith('monitor'));
     expect(ownPages.filter((name) => !rendered.has(name))).toEqual([]);
   });
