@@ -36,6 +36,8 @@ interface PooledRule {
 /** Runs one pooled rule over every assessor × attribute pair in the recent window, with BH across pairs. */
 export function pooledPairs(ctx: FlagContext, rule: PooledRule): PooledPair[] {
   const pairs: Omit<PooledPair, 'qValue'>[] = [];
+  // The 95 % interval's t quantile by df, for this rule's tests only (the window gives few df).
+  const quantiles = new Map<number, number>();
   for (const attribute of ctx.history.attributes) {
     const byAssessor = new Map<string, { sessions: string[]; values: number[]; companions: number[] }>();
     for (const session of ctx.recentWindow) {
@@ -53,7 +55,7 @@ export function pooledPairs(ctx: FlagContext, rule: PooledRule): PooledPair[] {
     }
     for (const [assessor, entry] of byAssessor) {
       if (entry.values.length < ctx.settings.minPooledSessions) continue;
-      const test = oneSampleTTest(entry.values, rule.alternative);
+      const test = oneSampleTTest(entry.values, rule.alternative, 0, quantiles);
       if (test) pairs.push({ assessor, attribute: attribute.name, ...entry, test });
     }
   }

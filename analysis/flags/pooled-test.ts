@@ -21,7 +21,8 @@ export interface PooledTest {
 }
 
 /** null when fewer than two values. A zero SD with a non-zero mean gives t = ±∞ and p = 0. */
-export function oneSampleTTest(values: readonly number[], alternative: Alternative, nullMean = 0): PooledTest | null {
+/** `quantiles`: a df → t(0.975) table the caller keeps for one build (results are the same without). */
+export function oneSampleTTest(values: readonly number[], alternative: Alternative, nullMean = 0, quantiles?: Map<number, number>): PooledTest | null {
   const n = values.length;
   if (n < 2) return null;
   let sum = 0;
@@ -38,17 +39,16 @@ export function oneSampleTTest(values: readonly number[], alternative: Alternati
   if (alternative === 'two-sided') pValue = Number.isFinite(t) ? tTwoSidedP(t, df) : 0;
   else if (alternative === 'greater') pValue = Number.isFinite(t) ? tUpperTail(t, df) : t > 0 ? 0 : 1;
   else pValue = Number.isFinite(t) ? tUpperTail(-t, df) : t < 0 ? 0 : 1;
-  const half = tQuantile975(df) * se;
+  const half = tQuantile975(df, quantiles) * se;
   return { n, mean, sessionSd, t, df, pValue, ciLow: mean - half, ciHigh: mean + half };
 }
 
-/** t quantile for the 95 % interval, memoised by df (a few distinct df per panel; the inversion is costly). */
-const QUANTILE_975 = new Map<number, number>();
-function tQuantile975(df: number): number {
-  let q = QUANTILE_975.get(df);
+/** t quantile for the 95 % interval; kept in the caller's table when given (few distinct df per build; the inversion costs about 50 µs). */
+function tQuantile975(df: number, quantiles?: Map<number, number>): number {
+  let q = quantiles?.get(df);
   if (q === undefined) {
     q = tQuantile(0.975, df);
-    if (QUANTILE_975.size < 10_000) QUANTILE_975.set(df, q);
+    quantiles?.set(df, q);
   }
   return q;
 }
