@@ -6,14 +6,12 @@
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { resolveAppConfig } from '../../server/app.js';
-import { createFitPool } from '../../server/fit-pool.js';
 import { createViewRenderer, type PageChrome } from '../../server/plugins/views.js';
-import { refitPanel } from '../../server/refit.js';
 import { findPanel } from '../../store/fits-sessions.js';
 import { addPanelEvent, addRetraining } from '../../store/monitor-events.js';
 import { listFlags } from '../../store/monitor-flags.js';
-import { importRatings, smallPanel } from '../monitor/helpers.js';
-import { makeTestApp, type TestApp } from './http-helpers.js';
+import { makeFittedTestApp, smallPanel } from '../monitor/helpers.js';
+import type { TestApp } from './http-helpers.js';
 
 const renderer = createViewRenderer(resolveAppConfig().templatesDir, { strict: true });
 const chrome: PageChrome = {
@@ -32,11 +30,7 @@ const panel = smallPanel({ nWeeks: 10, nAssessors: 6, faults: [{ kind: 'lenient'
 const enc = encodeURIComponent(panel.panelName);
 
 beforeAll(async () => {
-  t = await makeTestApp();
-  await importRatings(t.db, panel);
-  const runner = createFitPool({ mode: 'in-thread' });
-  await refitPanel(t.db, panel.panelName, { runner });
-  await runner.close();
+  t = await makeFittedTestApp(panel);
 }, 120_000);
 afterAll(async () => t.close());
 

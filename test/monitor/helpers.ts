@@ -5,7 +5,9 @@ import { generatePanel, panelSettings, type GeneratedPanel, type PanelScenarioOp
 import type { Rating } from '../../domain/ratings.js';
 import { importRatingEvents, type ImportReport } from '../../store/import-core.js';
 import { openStore } from '../../store/open-store.js';
-import type { FitRunner } from '../../server/fit-pool.js';
+import { createFitPool, type FitRunner } from '../../server/fit-pool.js';
+import { refitPanel } from '../../server/refit.js';
+import { makeTestApp, type TestApp } from '../http/http-helpers.js';
 import type { FitTask, FitTaskResult } from '../../server/workers/fit-task-types.js';
 
 export function makeTestStore(): Database {
@@ -66,4 +68,14 @@ export function countingRunner(
     },
     close: () => inner.close(),
   };
+}
+
+/** A test app whose store holds the panel, imported and refitted in-thread (fits, indices, flags). */
+export async function makeFittedTestApp(panel: GeneratedPanel): Promise<TestApp> {
+  const t = await makeTestApp();
+  await importRatings(t.db, panel);
+  const runner = createFitPool({ mode: 'in-thread' });
+  await refitPanel(t.db, panel.panelName, { runner });
+  await runner.close();
+  return t;
 }

@@ -7,15 +7,13 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Flag, FlagCase } from '../../domain/flags.js';
 import { FLAG_KINDS } from '../../domain/flags.js';
 import type { PeriodFitResult } from '../../domain/analysis.js';
-import { createFitPool } from '../../server/fit-pool.js';
-import { refitPanel } from '../../server/refit.js';
 import { findPanel } from '../../store/fits-sessions.js';
 import { loadPeriodFits, loadSessionFits, loadSessionIndices } from '../../store/fits-results.js';
 import { listFlags, replaceCurrentFlags, reviewFlag } from '../../store/monitor-flags.js';
 import { listRetraining } from '../../store/monitor-events.js';
 import { csrfFrom, makeTestApp, postCsv, type TestApp } from '../http/http-helpers.js';
 import { toLongCsv } from '../../demo/generate-panel.js';
-import { importRatings, smallPanel } from './helpers.js';
+import { importRatings, makeFittedTestApp, smallPanel } from './helpers.js';
 
 let t: TestApp;
 const panel = smallPanel({ nWeeks: 10, nAssessors: 6, faults: [{ kind: 'lenient', assessor: 'A02', size: 2.5 }] });
@@ -23,11 +21,7 @@ const name = panel.panelName;
 const enc = encodeURIComponent(name);
 
 beforeAll(async () => {
-  t = await makeTestApp();
-  await importRatings(t.db, panel);
-  const runner = createFitPool({ mode: 'in-thread' });
-  await refitPanel(t.db, name, { runner });
-  await runner.close();
+  t = await makeFittedTestApp(panel);
 }, 120_000);
 afterAll(async () => t.close());
 

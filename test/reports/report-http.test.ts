@@ -5,11 +5,9 @@
  */
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { resolveAppConfig } from '../../server/app.js';
-import { createFitPool } from '../../server/fit-pool.js';
-import { refitPanel } from '../../server/refit.js';
 import { createViewRenderer, type PageChrome } from '../../server/plugins/views.js';
-import { makeTestApp, type TestApp } from '../http/http-helpers.js';
-import { importRatings, smallPanel } from '../monitor/helpers.js';
+import type { TestApp } from '../http/http-helpers.js';
+import { makeFittedTestApp, smallPanel } from '../monitor/helpers.js';
 
 let t: TestApp;
 const panel = smallPanel({ nWeeks: 4, nAssessors: 6, faults: [{ kind: 'lenient', assessor: 'A02', size: 2.5 }] });
@@ -17,11 +15,7 @@ const enc = encodeURIComponent(panel.panelName);
 const sessions = [...new Set(panel.ratings.map((r) => r.session))].sort();
 
 beforeAll(async () => {
-  t = await makeTestApp();
-  await importRatings(t.db, panel);
-  const runner = createFitPool({ mode: 'in-thread' });
-  await refitPanel(t.db, panel.panelName, { runner });
-  await runner.close();
+  t = await makeFittedTestApp(panel);
 }, 120_000);
 afterAll(async () => t.close());
 
