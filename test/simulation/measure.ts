@@ -70,7 +70,12 @@ export async function measureFlagDetection(
   buildFlags: FlagEngine,
   scenarios: SimulationScenario[] = simulationScenarios(),
   onPanel?: (name: string) => void,
-  options: { periodWindowSessions?: number; driftDelays?: boolean } = {},
+  options: {
+    periodWindowSessions?: number;
+    driftDelays?: boolean;
+    /** Sees each panel's whole history and its flags (the simulation report checks the charts against them). */
+    onFlags?: (scenario: SimulationScenario, history: PanelHistory, flags: Flag[]) => void;
+  } = {},
 ): Promise<SimulationReport> {
   const started = performance.now();
   const total = emptyTallies();
@@ -90,7 +95,9 @@ export async function measureFlagDetection(
   for (const scenario of scenarios) {
     onPanel?.(scenario.name);
     const run = await runPanel(scenario, { periodWindowSessions: options.periodWindowSessions });
-    const flags = buildFlags(historyUpTo(run));
+    const history = historyUpTo(run);
+    const flags = buildFlags(history);
+    options.onFlags?.(scenario, history, flags);
     const sessionsPresent = new Map<string, number>();
     for (const session of run.panel.sessions) for (const a of session.assessors) sessionsPresent.set(a, (sessionsPresent.get(a) ?? 0) + 1);
     const dropped = new Set(run.panel.droppedSamples.map((d) => `${d.session}|${d.assessor}`));
