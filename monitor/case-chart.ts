@@ -6,10 +6,14 @@
  * A drift case shows the level the drift rule charts: the offset from the median of the other
  * assessors (docs/methods.md §3.9), with that reference drawn as a line at 0.
  */
+import { productStepChartsOf, type PanelThresholds } from '../analysis/flags/index.js';
 import type { AssessorSessionIndices } from '../analysis/indices/types.js';
+import type { ChartSizingMemo } from '../analysis/monitor/sizing-memo.js';
 import { buildAssessorSeries, indexLookup, type PanelHistory } from '../analysis/monitor/series.js';
 import type { Flag } from '../domain/flags.js';
 import { buildControlChart, type ChartView } from '../report/charts/control-chart.js';
+import { monitorChartInputs } from '../report/charts/monitor-charts.js';
+import { eventMarks } from '../report/monitor-overview-view.js';
 import { kindLabel } from '../report/words.js';
 
 interface Measure {
@@ -45,8 +49,12 @@ export function flaggedSessions(flag: Flag, sessions: readonly string[]): Set<st
   return new Set(from < 0 ? [] : sessions.slice(from, Math.max(from, last) + 1));
 }
 
-/** null when the kind has no per-session series (product stability, data findings). */
-export function caseChart(flag: Flag, history: PanelHistory): ChartView | null {
+/**
+ * null when the kind has no per-session series (the period model's product test, data findings).
+ * A product's step case shows the step detector's own chart (with `settings`, which size it).
+ */
+export function caseChart(flag: Flag, history: PanelHistory, settings?: { thresholds: PanelThresholds; sizingMemo?: ChartSizingMemo }): ChartView | null {
+  if (flag.kind === 'unstable-product') return settings && flag.product !== null ? productStepCaseChart(flag, history, settings.thresholds, settings.sizingMemo) : null;
   const measure = MEASURES[flag.kind];
   if (!measure || flag.assessor === null) return null;
   const sessions = history.sessions.map((s) => s.label);
@@ -83,4 +91,23 @@ export function caseChart(flag: Flag, history: PanelHistory): ChartView | null {
     events: history.events.filter((e) => e.kind === 'retraining' && (e.assessor === null || e.assessor === flag.assessor)).map((e) => ({ session: e.session, label: 'retraining' })),
     description: `${marked.size} session${marked.size === 1 ? '' : 's'} behind the ${kindLabel(flag.kind)} case are marked in ${flag.severity === 'act' ? 'red' : 'orange'}.`,
   });
+}
+
+/** The moving-average chart the step rule read, its signals linked to this case. */
+function productStepCaseChart(flag: Flag, history: PanelHistory, thresholds: PanelThresholds, sizingMemo?: ChartSizingMemo): ChartView | null {
+  const step = productStepChartsOf(history, thresholds, sizingMemo).find((c) => c.series.product === flag.product && c.series.attribute === flag.attribute);
+  if (!step) return null;
+  const inputs = monitorChartInputs({
+    title: `${flag.product}, ${flag.attribute}: step detector`,
+    yLabel: 'effect (scale points)',
+    sessions: history.sessions.map((s) => s.label),
+    series: step.series.points,
+    segments: step.segments,
+    designs: step.designs,
+    events: eventMarks(history.events, null),
+    role: 'product-step',
+    owner: { assessor: null, attribute: flag.attribute, product: flag.product! },
+    flags: [flag],
+  });
+  return buildControlChart(inputs.ewma);
 }

@@ -3,7 +3,7 @@
  * related cases on the same assessor and attribute (each with its own evidence), the status
  * history, and the review form. Pure: a function of the loaded panel context.
  */
-import type { FlagCase } from '../domain/flags.js';
+import type { Flag, FlagCase } from '../domain/flags.js';
 import type { ChartView } from '../report/charts/control-chart.js';
 import { monitorCrumbs, monitorHref } from '../report/monitor-common.js';
 import type { PageViewBase } from '../report/page-common.js';
@@ -25,6 +25,8 @@ export interface CasePageView extends PageViewBase {
   case: CaseSummary;
   statusText: string;
   chart: ChartView | null;
+  /** How to read the chart, in one or two sentences. */
+  chartNote: string | null;
   history: CaseHistoryItem[];
   reviewAction: string;
   canDismiss: boolean;
@@ -55,13 +57,15 @@ export function buildCasePage(ctx: PanelContext, params: { caseId: string }): Ca
       : record.status === 'dismissed'
         ? `Dismissed${record.reviewedAt ? ` on ${localTime(record.reviewedAt)}` : ''}. It stays dismissed unless the evidence gets materially worse.`
         : `Closed${record.reviewedAt ? ` on ${localTime(record.reviewedAt)}` : ''}.`;
+  const chart = caseChart(record.flag, ctx.history(), { thresholds: ctx.thresholds(), sizingMemo: ctx.sizingMemo });
   return {
     title: `${summary(record).kindLabel[0].toUpperCase()}${summary(record).kindLabel.slice(1)}: ${self.scope}`,
     breadcrumbs: [...monitorCrumbs(panel, null).slice(0, -1), { label: 'Review', href: `${monitorHref(panel)}/review` }, { label: `Case ${id}`, href: null }],
     panel,
     case: self,
     statusText,
-    chart: caseChart(record.flag, ctx.history()),
+    chart,
+    chartNote: chart === null ? null : chartNoteOf(record.flag, chart),
     history: caseHistory(ctx.histories.get(id) ?? []),
     reviewAction: `${monitorHref(panel, 'flags')}/${id}/review`,
     canDismiss: record.status === 'open',
@@ -71,4 +75,11 @@ export function buildCasePage(ctx: PanelContext, params: { caseId: string }): Ca
     reviewHref: `${monitorHref(panel)}/review`,
     flag: record.flag,
   };
+}
+
+function chartNoteOf(flag: Flag, chart: ChartView): string {
+  if (flag.kind === 'unstable-product')
+    return `The moving average (EWMA) of ${flag.product}'s effect, in units of its baseline spread, against the limit the case rule uses; marked points are beyond it.`;
+  const panelLine = chart.lines.some((line) => line.name === 'panel') ? ' The line marked “panel” is the rest of the panel.' : '';
+  return `Marked points: the sessions this case rests on.${panelLine}`;
 }

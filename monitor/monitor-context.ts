@@ -6,7 +6,7 @@
  * context; only this loader holds the store connection.
  */
 import type { Database } from 'better-sqlite3';
-import { assessorLevelCharts, validateThresholds, type AssessorLevelCharts, type PanelThresholds } from '../analysis/flags/index.js';
+import { assessorLevelCharts, type AssessorLevelCharts, type PanelThresholds } from '../analysis/flags/index.js';
 import type { ChartSizingMemo } from '../analysis/monitor/sizing-memo.js';
 import { indexLookup, type PanelHistory } from '../analysis/monitor/series.js';
 import type { RefitStatusView } from '../report/monitor-common.js';
@@ -14,8 +14,7 @@ import { loadPeriodFits, loadSessionQuality, type StoredPeriodFit, type StoredQu
 import { findPanel, listAssessorCodes, listSessionVersions, type PanelRow } from '../store/fits-sessions.js';
 import { listFlags, type FlagQuery, type FlagRecord } from '../store/monitor-flags.js';
 import { listPanelEvents, listRetraining, type PanelEvent, type RetrainingRecord } from '../store/monitor-events.js';
-import { loadPanelThresholds } from '../store/monitor-settings.js';
-import { derivedFromHistory, panelHistoryFor, PanelNotFound, refitStatus, type HistoryMemo } from './panel-context.js';
+import { derivedFromHistory, panelHistoryFor, panelThresholds, PanelNotFound, refitStatus, type HistoryMemo } from './panel-context.js';
 
 /** What the monitor pages read from the store, each read when called. */
 export interface MonitorReads {
@@ -49,10 +48,7 @@ export interface MonitorContext extends MonitorPanel {
   levelCharts: () => Map<string, AssessorLevelCharts>;
 }
 
-/** The panel's thresholds with defaults filled in (stored ones were validated when saved). */
-export function panelThresholds(db: Database, panelId: number): PanelThresholds {
-  return validateThresholds(loadPanelThresholds(db, panelId)?.thresholds ?? {}).thresholds;
-}
+export { panelThresholds } from './panel-context.js';
 
 /** The panel and its store reads, without the history (pages that list flags, retraining, settings). */
 export function loadMonitorPanel(db: Database, panelName: string): MonitorPanel {

@@ -6,6 +6,7 @@
  * list itself does not need it.
  */
 import type { Database } from 'better-sqlite3';
+import { validateThresholds, type PanelThresholds } from '../analysis/flags/index.js';
 import type { PanelHistory } from '../analysis/monitor/series.js';
 import { createChartSizingMemo, type ChartSizingMemo } from '../analysis/monitor/sizing-memo.js';
 import type { RefitStatusView } from '../report/monitor-common.js';
@@ -14,6 +15,7 @@ import { findPanel, listSessionVersions, type PanelRow } from '../store/fits-ses
 import { flagHistories, listFlags, loadFlagBuild, type FlagHistoryEntry, type FlagRecord } from '../store/monitor-flags.js';
 import { latestRefitJob } from '../store/monitor-jobs.js';
 import { loadPanelHistory, panelDataSignature } from '../store/panel-history.js';
+import { loadPanelThresholds } from '../store/monitor-settings.js';
 import { listQuarantined, type QuarantinedCell } from '../store/quarantine.js';
 
 /** The refit status the pages show (the monitor pages' shape). */
@@ -30,6 +32,14 @@ export interface PanelContext {
   heldCells: QuarantinedCell[];
   /** Fits and indices of every session (read on first use). */
   history: () => PanelHistory;
+  /** The panel's thresholds with defaults filled in (read on first use). */
+  thresholds: () => PanelThresholds;
+  sizingMemo: ChartSizingMemo;
+}
+
+/** The panel's thresholds with defaults filled in (stored ones were validated when saved). */
+export function panelThresholds(db: Database, panelId: number): PanelThresholds {
+  return validateThresholds(loadPanelThresholds(db, panelId)?.thresholds ?? {}).thresholds;
 }
 
 export class PanelNotFound extends Error {
@@ -100,6 +110,8 @@ export function loadPanelContext(db: Database, panelName: string, memo: HistoryM
     refit: refitStatus(db, panel.id, versions),
     heldCells: listQuarantined(db, panel.name),
     history,
+    thresholds: () => panelThresholds(db, panel.id),
+    sizingMemo: memo.sizing,
   };
 }
 

@@ -2,7 +2,7 @@
  * Product stability of one attribute: the period fits' product × session variance, each recurring
  * product's effect across sessions with Cochran's Q, and the rank concordance of the latest window.
  */
-import { productEffectSeriesOf } from '../analysis/flags/product-flags.js';
+import { productStepChartsOf } from '../analysis/flags/product-flags.js';
 import { cochranQ, productRankConcordance } from '../analysis/monitor/stability.js';
 import {
   buildProductStabilityView,
@@ -36,18 +36,20 @@ export function buildProductsPage(ctx: MonitorContext, params: { attribute?: unk
       };
     });
   const results = ctx.history.results.filter((r) => r.attribute === attribute);
-  // The flag engine's own effect series (same reference-product choice as the step detector).
-  const effectSeries = productEffectSeriesOf(ctx.history, ctx.thresholds).filter((p) => p.attribute === attribute);
-  const referenceProduct = effectSeries[0]?.referenceProduct ?? null;
+  // The flag engine's own step charts (same effect series, reference product, limits and signals).
+  const stepCharts = productStepChartsOf(ctx.history, ctx.thresholds, ctx.sizingMemo).filter((c) => c.series.attribute === attribute);
+  const referenceProduct = stepCharts[0]?.series.referenceProduct ?? null;
   const minSessions = ctx.thresholds.productStability.minSessions;
-  const recurring: RecurringProductInput[] = effectSeries
-    .filter((p) => p.effects.length >= minSessions)
-    .map((p) => ({
-      product: p.product,
-      relativeTo: p.relativeTo,
-      effects: p.effects.map((e) => ({ session: e.session, effect: e.effect, ciLow: e.ciLow, ciHigh: e.ciHigh, df: e.df })),
-      cochran: cochranQ(p.effects),
-    }));
+  const recurring: RecurringProductInput[] = stepCharts.map(({ series: p, segments, designs }) => ({
+    product: p.product,
+    relativeTo: p.relativeTo,
+    effects: p.effects.map((e) => ({ session: e.session, effect: e.effect, ciLow: e.ciLow, ciHigh: e.ciHigh, df: e.df })),
+    cochran: cochranQ(p.effects),
+    step: { series: p.points, segments, designs },
+  }));
+  const productFlags = ctx.read
+    .flags({ kind: 'unstable-product' })
+    .filter((r) => r.flag.attribute === attribute || r.flag.attribute === null);
   const latestWindow = windows.filter((w) => w.attribute === attribute).at(-1);
   const windowResults = latestWindow
     ? results.slice(results.findIndex((r) => r.session === latestWindow.firstSession), results.findIndex((r) => r.session === latestWindow.lastSession) + 1)
@@ -76,9 +78,8 @@ export function buildProductsPage(ctx: MonitorContext, params: { attribute?: unk
       sessions: concordance.sessions,
     },
     confLevel: CONF_LEVEL,
-    flags: ctx.read
-      .flags({ kind: 'unstable-product' })
-      .filter((r) => r.flag.attribute === attribute || r.flag.attribute === null)
-      .map((r) => r.flag),
+    flags: productFlags.map((r) => r.flag),
+    openFlags: productFlags.filter((r) => r.status === 'open').map((r) => r.flag),
+    events: ctx.history.events,
   });
 }

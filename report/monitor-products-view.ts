@@ -4,8 +4,11 @@
  * of each recurring product with confidence intervals, Cochran's Q/I², and Kendall's W of the
  * product ranks over the latest window. All numbers come in computed; this only arranges them.
  */
+import type { ChartDesigns, MonitoredSegment, SeriesPoint } from '../analysis/monitor/chart.js';
 import { buildControlChart, type ChartView } from './charts/control-chart.js';
+import { monitorChartInputs } from './charts/monitor-charts.js';
 import type { Flag } from '../domain/flags.js';
+import { eventMarks, type MonitorEventInput } from './monitor-overview-view.js';
 import { evidenceItems, monitorCrumbs, monitorHref, type EvidenceItem } from './monitor-common.js';
 import type { PageViewBase } from './page-common.js';
 
@@ -35,6 +38,8 @@ export interface RecurringProductInput {
   relativeTo: 'session-mean' | 'reference';
   effects: ProductEffectPointInput[];
   cochran: { pooledEffect: number; q: number; df: number; pValue: number; iSquared: number } | null;
+  /** The step detector's chart of this product (the chart the unstable-product flags read). */
+  step: { series: SeriesPoint[]; segments: MonitoredSegment[]; designs: ChartDesigns } | null;
 }
 
 export interface ProductStabilityInput {
@@ -50,6 +55,9 @@ export interface ProductStabilityInput {
   confLevel: number;
   /** Current unstable-product flags of the attribute (step changes, period LRT). */
   flags: Flag[];
+  /** The open ones among them (signals on the step charts link to these). */
+  openFlags: Flag[];
+  events: readonly MonitorEventInput[];
   /** Sessions whose model of the chosen attribute could not be fitted, with the sentence saying why. */
   notFitted?: { session: string; reason: string }[];
 }
@@ -64,7 +72,17 @@ export interface ProductStabilityView extends PageViewBase {
   history: PeriodWindowInput[];
   referenceProduct: string | null;
   effectsNote: string;
-  products: (RecurringProductInput & { nSessions: number; chart: ChartView; cochran: (RecurringProductInput['cochran'] & { iSquaredPercent: number }) | null })[];
+  /** The plain answer first: which products changed on this attribute, and the latest window's test. */
+  summary: string;
+  products: (Omit<RecurringProductInput, 'step'> & {
+    nSessions: number;
+    /** One plain sentence: changed (with the case's words) or stable. */
+    sentence: string;
+    chart: ChartView;
+    /** The step detector's moving-average chart with its limits and signals (each on a case or with its reason). */
+    stepChart: ChartView | null;
+    cochran: (RecurringProductInput['cochran'] & { iSquaredPercent: number }) | null;
+  })[];
   minSessions: number;
   concordance: ProductStabilityInput['concordance'];
   lrtNote: string;
@@ -91,13 +109,30 @@ export function buildProductStabilityView(input: ProductStabilityInput): Product
       input.referenceProduct === null
         ? `Effects are differences from the session's mean of products, with ${confPercent} % confidence intervals.`
         : `Effects are differences from the reference product ${input.referenceProduct} (comparable when the product set rotates), with ${confPercent} % confidence intervals.`,
-    products: input.recurring.map((p) => {
+    summary: productSummary(input),
+    products: input.recurring.map(({ step, ...p }) => {
       const bySession = new Map(p.effects.map((e) => [e.session, e]));
       const pick = (f: (e: ProductEffectPointInput) => number) => input.sessions.map((s) => (bySession.has(s) ? f(bySession.get(s)!) : null));
+      const stepCharts =
+        step &&
+        monitorChartInputs({
+          title: `${p.product}, ${input.attribute}: step detector`,
+          yLabel: 'effect (scale points)',
+          sessions: input.sessions,
+          series: step.series,
+          segments: step.segments,
+          designs: step.designs,
+          events: eventMarks(input.events, null),
+          role: 'product-step',
+          owner: { assessor: null, attribute: input.attribute, product: p.product },
+          flags: input.openFlags,
+        });
       return {
         ...p,
         cochran: p.cochran ? { ...p.cochran, iSquaredPercent: 100 * p.cochran.iSquared } : null,
         nSessions: p.effects.length,
+        sentence: productSentence(p, input),
+        stepChart: stepCharts ? buildControlChart(stepCharts.ewma) : null,
         chart: buildControlChart({
           title: `${p.product}, ${input.attribute}`,
           yLabel: 'effect (scale points)',
@@ -121,4 +156,41 @@ export function buildProductStabilityView(input: ProductStabilityInput): Product
     lrtNote:
       'The test of product:session is the boundary likelihood-ratio test of the period model (REML, with and without the term): p = ½·P(χ²₁ ≥ LR) (Self & Liang 1987). With few sessions it tends to be conservative.',
   };
+}
+
+function against(input: ProductStabilityInput): string {
+  return input.referenceProduct === null ? 'relative to the session average' : `relative to ${input.referenceProduct}`;
+}
+
+function signedPoints(value: number): string {
+  return `${value >= 0 ? '+' : '−'}${Math.abs(value).toFixed(2)} points`;
+}
+
+/** Changed (the open step case's own sentence) or stable, for one recurring product. */
+function productSentence(p: Omit<RecurringProductInput, 'step'>, input: ProductStabilityInput): string {
+  const open = input.openFlags.find((f) => f.product === p.product && f.attribute === input.attribute);
+  if (open) return `Changed (${open.severity} case): ${open.message}`;
+  const reviewed = input.flags.find((f) => f.product === p.product && f.attribute === input.attribute);
+  if (reviewed) return `A step was found (${reviewed.severity}) and its case has been reviewed: ${reviewed.message}`;
+  const mean = p.cochran ? `; its mean effect is ${signedPoints(p.cochran.pooledEffect)} ${against(input)}` : '';
+  return `Stable: no step since its baseline in ${p.effects.length} sessions${mean}.`;
+}
+
+/** Which products changed on this attribute, then what the latest period window says. */
+function productSummary(input: ProductStabilityInput): string {
+  if (input.attribute === null) return 'No attribute chosen.';
+  const n = input.recurring.length;
+  const changed = input.recurring
+    .map((p) => ({ product: p.product, flag: input.openFlags.find((f) => f.product === p.product && f.attribute === input.attribute) }))
+    .filter((c): c is { product: string; flag: Flag } => c.flag !== undefined);
+  const steps =
+    n === 0
+      ? `On ${input.attribute}, no product has been served in enough sessions (${input.minSessions}) to follow it yet.`
+      : changed.length === 0
+        ? `On ${input.attribute}, none of the ${n} recurring product${n === 1 ? '' : 's'} has changed level since its baseline.`
+        : `On ${input.attribute}, ${changed.length} of the ${n} recurring products changed level since their baseline: ${changed.map((c) => `${c.product} (${c.flag.severity} case since ${c.flag.firstSession})`).join(', ')}.`;
+  const latest = input.windows.filter((w) => w.attribute === input.attribute).at(-1);
+  if (!latest || latest.pValue === null) return steps;
+  const varied = latest.pValue < 0.05;
+  return `${steps} In the latest window (${latest.firstSession} to ${latest.lastSession}) the differences between products ${varied ? 'varied from session to session more than' : 'varied from session to session no more than'} the ratings' noise explains (p ${latest.pValue < 0.001 ? '< 0.001' : `= ${latest.pValue.toFixed(latest.pValue < 0.01 ? 3 : 2)}`}).`;
 }

@@ -13,13 +13,14 @@
  * Cochran's Q / I² over the recent window and Kendall's W of product ranks go into the evidence.
  */
 import type { Flag, FlagSeverity } from '../../domain/flags.js';
-import type { SegmentOptions, SeriesPoint } from '../monitor/chart.js';
+import { monitorSeries, type ChartDesigns, type MonitoredSegment, type SegmentOptions, type SeriesPoint } from '../monitor/chart.js';
 import { controlBatchSessions, referencePeriodFor, type PanelHistory, type SessionAttributeResult } from '../monitor/series.js';
 import { cochranQ, productRankConcordance, sessionProductEffects, type SessionProductEffect } from '../monitor/stability.js';
 import { buildContext, resultKey, type FlagContext } from './context.js';
 import type { PanelThresholds } from './settings.js';
-import { chartSizing } from '../monitor/chart-design.js';
-import { currentSpread, evaluateChart, pooledSpread, thresholdText } from './chart-signal.js';
+import { chartSizing, sizedChartDesigns, type ChartSizing } from '../monitor/chart-design.js';
+import type { ChartSizingMemo } from '../monitor/sizing-memo.js';
+import { currentSpread, pooledSpread, signalOfSegment, thresholdText, type ChartSignal } from './chart-signal.js';
 import { points, pValueText } from './format.js';
 
 /** Share of sessions that must serve the reference product for effects to be taken relative to it. */
@@ -111,13 +112,26 @@ function periodFlags(ctx: FlagContext): Flag[] {
         kendallWPValue: concordance?.pValue ?? null,
         kendallWProducts: concordance?.products ?? [],
       },
-      message: `From ${first} to ${last}, the differences between products on ${period.attribute} changed from session to session more than the ratings' noise explains (product-by-session SD ${points(Math.sqrt(Math.max(0, period.productSessionVariance)), 2)} points, likelihood-ratio test p = ${pValueText(p)}).`,
+      message: `From ${first} to ${last}, the differences between products on ${period.attribute} changed from session to session more than the ratings' noise explains (product-by-session SD ${points(Math.sqrt(Math.max(0, period.productSessionVariance)), 2)} points, likelihood-ratio test p ${p < 1e-16 ? '' : '= '}${pValueText(p)}).`,
     });
   }
   return out;
 }
 
-function stepFlags(ctx: FlagContext): Flag[] {
+/**
+ * The step detector's chart of every recurring product × attribute: the exact chart the flags read
+ * (same designs, baseline, restarts and pooled spread floor), so the pages draw what the flag saw.
+ */
+export interface ProductStepChart {
+  series: ProductEffectSeries;
+  segments: MonitoredSegment[];
+  designs: ChartDesigns;
+  sizing: ChartSizing;
+  /** What the flag rule reads off the current segment (null: nothing). */
+  signal: ChartSignal | null;
+}
+
+export function productStepCharts(ctx: FlagContext): ProductStepChart[] {
   const s = ctx.settings.productStability;
   const c = ctx.settings.charts;
   const recurring = productEffectSeries(ctx).filter((series) => series.effects.length >= s.minSessions);
@@ -134,11 +148,19 @@ function stepFlags(ctx: FlagContext): Flag[] {
   // Effects of one attribute share the same noise (same SE formula): pool their spreads.
   const spreads = new Map<string, (number | null)[]>();
   for (const series of recurring) spreads.set(series.attribute, [...(spreads.get(series.attribute) ?? []), currentSpread(series.points, optionsOf(series))]);
+  const designs = sizedChartDesigns(sizing, c.baselineSessions, [], ctx.sizingMemo);
+  return recurring.map((series) => {
+    const guard = ctx.settings.level.watchFraction * (ctx.scaleRange.get(series.attribute) ?? 1);
+    const floor = pooledSpread(spreads.get(series.attribute) ?? []);
+    const segments = monitorSeries(series.points, designs, { ...optionsOf(series), spreadFloorSd: floor });
+    return { series, segments, designs, sizing, signal: signalOfSegment(segments[segments.length - 1], sizing, false, guard, floor) };
+  });
+}
+
+function stepFlags(ctx: FlagContext): Flag[] {
   const window = new Set(ctx.recentWindow);
   const out: Flag[] = [];
-  for (const series of recurring) {
-    const guard = ctx.settings.level.watchFraction * (ctx.scaleRange.get(series.attribute) ?? 1);
-    const signal = evaluateChart(series.points, optionsOf(series), sizing, false, guard, pooledSpread(spreads.get(series.attribute) ?? []), ctx.sizingMemo);
+  for (const { series, signal, sizing } of productStepCharts(ctx)) {
     if (!signal) continue;
     const recentEffects = series.effects.filter((e) => window.has(e.session));
     const heterogeneity = cochranQ(recentEffects);
@@ -177,4 +199,9 @@ function stepFlags(ctx: FlagContext): Flag[] {
 /** Session-wise product-effect series of a panel history (for the product-stability charts). */
 export function productEffectSeriesOf(history: PanelHistory, settings: PanelThresholds): ProductEffectSeries[] {
   return productEffectSeries(buildContext(history, settings));
+}
+
+/** The step detector's charts of a panel history (for the pages: the chart the flags read). */
+export function productStepChartsOf(history: PanelHistory, settings: PanelThresholds, sizingMemo?: ChartSizingMemo): ProductStepChart[] {
+  return productStepCharts(buildContext(history, settings, sizingMemo));
 }

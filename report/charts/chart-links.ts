@@ -6,7 +6,8 @@
  * estimate or its signal, whichever is earlier) on. Any other signal of a level chart inside such a
  * case (a value beyond ±3σ, the CUSUM that dated it) is part of that case too, and a single value
  * beyond ±3σ belongs to a jump case of that session when its attribute is among those that jumped.
- * Outside a case such signals keep their reason. A read signal with no such
+ * A product step chart's signals belong to the unstable-product case of its product and attribute
+ * in the same way. Outside a case such signals keep their reason. A read signal with no such
  * case is reported as 'no-open-case': on the pages that means a reviewed case or flags older than
  * the data; with freshly built flags it means the charts and the flags disagree.
  */
@@ -17,6 +18,8 @@ export interface ChartOwner {
   assessor: string | null;
   /** The chart's attribute, or null for the summary over attributes. */
   attribute: string | null;
+  /** A product step chart's product (its cases are the unstable-product cases of that product and attribute). */
+  product?: string;
 }
 
 export type LinkedSignal = DesignedSignal & { link: { flag: Flag } | { reason: SignalReason | 'no-open-case' } };
@@ -28,17 +31,24 @@ function firstCovered(flag: Flag, order: ReadonlyMap<string, number>): number {
 
 export function linkSignals(signals: readonly DesignedSignal[], flags: readonly Flag[], owner: ChartOwner, sessions: readonly string[]): LinkedSignal[] {
   const order = new Map(sessions.map((s, i) => [s, i]));
-  const own = flags.filter((f) => f.kind === 'drift' && f.assessor !== null && f.assessor === owner.assessor);
+  const own =
+    owner.product !== undefined
+      ? flags.filter((f) => f.kind === 'unstable-product' && f.product === owner.product && f.attribute === owner.attribute)
+      : flags.filter((f) => f.kind === 'drift' && f.assessor !== null && f.assessor === owner.assessor);
   const wide = own.filter((f) => f.attribute === null);
   const covering = (at: number) => own.find((f) => (f.attribute === owner.attribute || f.attribute === null) && at >= firstCovered(f, order));
   return signals.map((signal) => {
     const at = order.get(signal.session) ?? -1;
+    if (signal.flagKind === 'unstable-product') {
+      const flag = own.find((f) => at >= firstCovered(f, order));
+      return { ...signal, link: flag ? { flag } : { reason: 'no-open-case' as const } };
+    }
     if (signal.flagKind === 'drift') {
       // The assessor-wide case summarises the attribute charts (no attribute case is raised beside it).
       const flag = (owner.attribute !== null ? wide[0] : undefined) ?? own.find((f) => f.attribute === owner.attribute && at >= firstCovered(f, order));
       return { ...signal, link: flag ? { flag } : { reason: 'no-open-case' as const } };
     }
-    const inside = signal.reason === 'single-value' || signal.reason === 'cusum-dates-change' ? covering(at) : undefined;
+    const inside = signal.reason === 'single-value' || signal.reason === 'single-product-value' || signal.reason === 'cusum-dates-change' ? covering(at) : undefined;
     if (inside) return { ...signal, link: { flag: inside } };
     if (signal.reason === 'single-value') {
       const jump = wide.find(

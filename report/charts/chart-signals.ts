@@ -13,13 +13,16 @@
  *     jump together in that session; otherwise for reading.
  *   - Index charts (repeatability, discrimination, …): their cases pool the recent sessions.
  *   - Control-product charts: no case is raised from them.
+ *   - Product step charts (a product's effect across sessions): EWMA crossings of the act limit in
+ *     the current segment are read by the unstable-product step rule; a single value beyond ±3σ
+ *     is for reading.
  */
 import type { MonitoredSegment } from '../../analysis/monitor/chart.js';
 
 /** Which chart set a chart belongs to, and so which flag rule (if any) reads it. */
-export type ChartRole = 'level-summary' | 'level-attribute' | 'index' | 'control';
+export type ChartRole = 'level-summary' | 'level-attribute' | 'index' | 'control' | 'product-step';
 export type ChartKind = 'individuals' | 'ewma' | 'cusum';
-export type SignalReason = 'earlier-baseline' | 'cusum-dates-change' | 'single-value' | 'pooled-window' | 'no-case-from-chart';
+export type SignalReason = 'earlier-baseline' | 'cusum-dates-change' | 'single-value' | 'single-product-value' | 'pooled-window' | 'no-case-from-chart';
 
 export interface DesignedSignal {
   session: string;
@@ -27,7 +30,7 @@ export interface DesignedSignal {
   /** How the page draws it: act (beyond an act limit, rule 1) or watch (rules 2–4). */
   severity: 'act' | 'watch';
   /** The flag kind whose rule reads this signal, or null (then `reason` says why no case comes from it). */
-  flagKind: 'drift' | null;
+  flagKind: 'drift' | 'unstable-product' | null;
   reason: SignalReason | null;
   /** Western Electric rules that fired (individuals chart). */
   rules?: number[];
@@ -40,6 +43,9 @@ export interface DesignedSignal {
 export function chartSignals(segments: readonly MonitoredSegment[], role: ChartRole, westernElectricWatch: boolean): DesignedSignal[] {
   const out: DesignedSignal[] = [];
   const isLevel = role === 'level-summary' || role === 'level-attribute';
+  const isProduct = role === 'product-step';
+  const readBy = isLevel ? ('drift' as const) : isProduct ? ('unstable-product' as const) : null;
+  const singleValue: SignalReason = isLevel ? 'single-value' : isProduct ? 'single-product-value' : role === 'index' ? 'pooled-window' : 'no-case-from-chart';
   segments.forEach((segment, index) => {
     const current = index === segments.length - 1;
     const otherwise = (reason: SignalReason): SignalReason => (current ? reason : 'earlier-baseline');
@@ -52,13 +58,13 @@ export function chartSignals(segments: readonly MonitoredSegment[], role: ChartR
           chart: 'individuals',
           severity: p.rules.includes(1) ? 'act' : 'watch',
           flagKind: readByDrift ? 'drift' : null,
-          reason: readByDrift ? null : otherwise(isLevel ? 'single-value' : role === 'index' ? 'pooled-window' : 'no-case-from-chart'),
+          reason: readByDrift ? null : otherwise(singleValue),
           rules: [...p.rules],
         });
       }
       if (p.ewmaSignal) {
-        const readByDrift = current && isLevel;
-        out.push({ session: p.session, chart: 'ewma', severity: 'act', flagKind: readByDrift ? 'drift' : null, reason: readByDrift ? null : otherwise(role === 'index' ? 'pooled-window' : 'no-case-from-chart') });
+        const read = current && readBy !== null;
+        out.push({ session: p.session, chart: 'ewma', severity: 'act', flagKind: read ? readBy : null, reason: read ? null : otherwise(role === 'index' ? 'pooled-window' : 'no-case-from-chart') });
       }
       if (p.cusumSignal) out.push({ session: p.session, chart: 'cusum', severity: 'act', flagKind: null, reason: otherwise(role === 'control' ? 'no-case-from-chart' : 'cusum-dates-change') });
     }

@@ -18,6 +18,7 @@ export const SIGNAL_REASON_WORDS: Record<SignalReason | 'no-open-case', string> 
   'earlier-baseline': 'before a restart of the baseline (retraining or a new control batch): cases judge the current baseline only',
   'cusum-dates-change': 'the CUSUM dates where a change began; it raises no case itself (cases come from the moving-average chart)',
   'single-value': 'one value beyond the ±3σ limits, shown for reading: a case needs the moving average to cross its limit, or most attributes to jump in the same session',
+  'single-product-value': "one session's effect beyond the ±3σ limits, shown for reading: a product case needs the moving average to cross its limit",
   'pooled-window': 'one session beyond the ±3σ limits, shown for reading: cases on this measure pool the recent sessions',
   'no-case-from-chart': 'shown for reading: no case is raised from the control-product charts',
   'no-open-case': 'the case rule reads this chart here, but there is no open case: it has been reviewed, or the flags are older than the data',

@@ -1,10 +1,10 @@
 /**
  * One chart design, checked: the level charts the pages draw (assessorLevelCharts, act-level
- * limits) agree with the drift flags, and every signal drawn on any page's chart belongs to a
+ * limits) agree with the drift flags, the product step charts with the unstable-product cases, and every signal drawn on any page's chart belongs to a
  * case or carries a stated reason. Used by the agreement test (demo and one panel per scenario
  * family) and by the simulation report (every simulated panel).
  */
-import { assessorLevelCharts, buildFlags, DEFAULT_THRESHOLDS } from '../../analysis/flags/index.js';
+import { assessorLevelCharts, buildFlags, DEFAULT_THRESHOLDS, productStepChartsOf, type ProductStepChart } from '../../analysis/flags/index.js';
 import { monitorSeries, type MonitoredSegment, type SeriesPoint } from '../../analysis/monitor/chart.js';
 import { buildReferenceSeries, referencePeriodFor, type PanelHistory } from '../../analysis/monitor/series.js';
 import { createChartSizingMemo } from '../../analysis/monitor/sizing-memo.js';
@@ -14,6 +14,7 @@ import { SIGNAL_REASON_WORDS } from '../../report/charts/monitor-charts.js';
 import { buildAssessorMonitorView } from '../../report/monitor-assessor-view.js';
 import { buildControlProductView } from '../../report/monitor-control-view.js';
 import { buildMonitorOverviewView } from '../../report/monitor-overview-view.js';
+import { buildProductStabilityView } from '../../report/monitor-products-view.js';
 import { chartDesigns, controlRestartSessions, monitoredMeasures, monitoredSummary } from '../../monitor/monitor-charts.js';
 import type { Flag } from '../../domain/flags.js';
 import { historyUpTo, runPanel } from './pipeline.js';
@@ -32,7 +33,7 @@ export interface Unexplained {
  * with an assessor-wide drift or jump flag is summarised by that flag (stated reason); older
  * segments closed by a restart are not judged by the flags (stated reason).
  */
-export function unexplainedSignals(flags: readonly Flag[], charts: ReturnType<typeof assessorLevelCharts>): { unexplained: Unexplained[]; nSignals: number } {
+export function unexplainedSignals(flags: readonly Flag[], charts: ReturnType<typeof assessorLevelCharts>, stepCharts: readonly ProductStepChart[] = []): { unexplained: Unexplained[]; nSignals: number } {
   const unexplained: Unexplained[] = [];
   let nSignals = 0;
   const drift = flags.filter((f) => f.kind === 'drift');
@@ -50,6 +51,15 @@ export function unexplainedSignals(flags: readonly Flag[], charts: ReturnType<ty
   for (const [assessor, set] of charts) {
     check(assessor, null, set.summary.segments);
     for (const [attribute, chart] of set.attributes) check(assessor, attribute, chart.segments);
+  }
+  // Product step charts: the first drawn EWMA signal of the current segment is the step case's signal session.
+  for (const step of stepCharts) {
+    const { product, attribute } = step.series;
+    nSignals += step.segments.reduce((n, seg) => n + seg.points.filter((p) => p.ewmaSignal !== null).length, 0);
+    const first = step.segments[step.segments.length - 1]?.points.find((p) => p.ewmaSignal !== null);
+    if (!first) continue;
+    const flag = flags.find((f) => f.kind === 'unstable-product' && f.product === product && f.attribute === attribute);
+    if (flag?.evidence.signalSession !== first.session) unexplained.push({ assessor: `product ${product}`, chart: attribute, session: `${first.session} (flag: ${String(flag?.evidence.signalSession ?? 'none')})` });
   }
   return { unexplained, nSignals };
 }
@@ -146,14 +156,41 @@ export function pageAgreement(history: PanelHistory, flags: readonly Flag[]) {
     });
     results.push(unlinkedSignals(`control ${attribute}`, [...(view.panelMean?.charts ?? []), ...view.assessors.map((a) => a.chart)]));
   }
+  // Product stability page of every attribute: each recurring product's step chart.
+  const stepCharts = productStepChartsOf(history, thresholds, memo);
+  let nProductLinked = 0;
+  for (const attribute of attributes) {
+    const view = buildProductStabilityView({
+      panel: 'P',
+      attributes,
+      attribute,
+      sessions: history.sessions.map((s) => s.label),
+      windows: [],
+      referenceProduct: null,
+      recurring: stepCharts
+        .filter((c) => c.series.attribute === attribute)
+        .map((c) => ({ product: c.series.product, relativeTo: c.series.relativeTo, effects: [], cochran: null, step: { series: c.series.points, segments: c.segments, designs: c.designs } })),
+      minSessions: thresholds.productStability.minSessions,
+      concordance: null,
+      confLevel: 0.95,
+      flags: flags.filter((f) => f.kind === 'unstable-product'),
+      openFlags: flags.filter((f) => f.kind === 'unstable-product'),
+      events: history.events,
+    });
+    const productResult = unlinkedSignals(`products ${attribute}`, view.products.flatMap((p) => (p.stepChart ? [p.stepChart] : [])));
+    nProductLinked += productResult.nLinked;
+    results.push(productResult);
+  }
   for (const flag of flags) {
-    const chart = caseChart(flag, history);
+    const chart = caseChart(flag, history, { thresholds, sizingMemo: memo });
     if (chart) results.push(unlinkedSignals(`case ${flag.kind} ${flag.assessor} ${flag.attribute}`, [chart]));
   }
   return {
     unlinked: results.flatMap((r) => r.unlinked),
     nSignals: results.reduce((n, r) => n + r.nSignals, 0),
     nLinked: results.reduce((n, r) => n + r.nLinked, 0),
+    /** Signals on the product step charts that belong to an unstable-product case. */
+    nProductLinked,
   };
 }
 
@@ -165,5 +202,5 @@ export async function agreementOn(scenario: SimulationScenario) {
 
 /** Both checks on a history and the flags built from it. */
 export function chartFlagAgreement(history: PanelHistory, flags: readonly Flag[]) {
-  return { ...unexplainedSignals(flags, assessorLevelCharts(history, DEFAULT_THRESHOLDS)), pages: pageAgreement(history, flags) };
+  return { ...unexplainedSignals(flags, assessorLevelCharts(history, DEFAULT_THRESHOLDS), productStepChartsOf(history, DEFAULT_THRESHOLDS)), pages: pageAgreement(history, flags) };
 }

@@ -22,6 +22,8 @@ describe('charts and flags agree (one chart design)', () => {
     expect(result.nSignals).toBeGreaterThan(0);
     expect(result.unexplained).toEqual([]);
     expect(result.pages.nLinked).toBeGreaterThan(0);
+    // The demo plants a product step too: its chart's signals belong to the unstable-product case.
+    expect(result.pages.nProductLinked).toBeGreaterThan(0);
     expect(result.pages.unlinked).toEqual([]);
   }, 600_000);
 

@@ -58,4 +58,19 @@ describe('chart signals and their cases', () => {
     const wide = linkSignals(signals, [driftFlag(null, 'S25', 'S25')], { assessor: 'A1', attribute: 'x' }, sessions);
     expect(wide.filter((s) => s.flagKind === 'drift').every((s) => 'flag' in s.link)).toBe(true);
   });
+
+  it("product step chart: EWMA in the current segment belongs to that product's unstable-product case, not another product's or a drift case", () => {
+    const signals = chartSignals(segments, 'product-step', false);
+    const current = signals.filter((s) => sessions.indexOf(s.session) >= 20);
+    expect(current.filter((s) => s.chart === 'ewma').every((s) => s.flagKind === 'unstable-product')).toBe(true);
+    expect(current.filter((s) => s.chart === 'individuals').every((s) => s.reason === 'single-product-value')).toBe(true);
+    const firstEwma = current.find((s) => s.chart === 'ewma')!;
+    const step = (product: string): Flag =>
+      ({ kind: 'unstable-product', assessor: null, product, attribute: 'x', firstSession: 'S21', severity: 'act', evidence: { signalSession: firstEwma.session }, message: 'm' }) as unknown as Flag;
+    const owner = { assessor: null, attribute: 'x', product: 'T01' };
+    const own = linkSignals(signals, [step('T01')], owner, sessions);
+    expect(own.filter((s) => sessions.indexOf(s.session) >= 20).every((s) => 'flag' in s.link)).toBe(true);
+    const others = linkSignals(signals, [step('T02'), { ...driftFlag('x', 'S21', firstEwma.session), assessor: null }], owner, sessions);
+    expect(others.filter((s) => s.flagKind === 'unstable-product').every((s) => 'reason' in s.link && s.link.reason === 'no-open-case')).toBe(true);
+  });
 });
