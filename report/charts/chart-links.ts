@@ -39,13 +39,16 @@ export function linkSignals(signals: readonly DesignedSignal[], flags: readonly 
   const covering = (at: number) => own.find((f) => (f.attribute === owner.attribute || f.attribute === null) && at >= firstCovered(f, order));
   return signals.map((signal) => {
     const at = order.get(signal.session) ?? -1;
+    // A watch-level crossing before the case's first session is the same excursion building up:
+    // it belongs to the chart's case too (the case rule reads the whole current segment).
+    const chartCase = (f: Flag) => signal.severity === 'watch' || at >= firstCovered(f, order);
     if (signal.flagKind === 'unstable-product') {
-      const flag = own.find((f) => at >= firstCovered(f, order));
+      const flag = own.find(chartCase);
       return { ...signal, link: flag ? { flag } : { reason: 'no-open-case' as const } };
     }
     if (signal.flagKind === 'drift') {
       // The assessor-wide case summarises the attribute charts (no attribute case is raised beside it).
-      const flag = (owner.attribute !== null ? wide[0] : undefined) ?? own.find((f) => f.attribute === owner.attribute && at >= firstCovered(f, order));
+      const flag = (owner.attribute !== null ? wide[0] : undefined) ?? own.find((f) => f.attribute === owner.attribute && chartCase(f));
       return { ...signal, link: flag ? { flag } : { reason: 'no-open-case' as const } };
     }
     const inside = signal.reason === 'single-value' || signal.reason === 'single-product-value' || signal.reason === 'cusum-dates-change' ? covering(at) : undefined;

@@ -5,7 +5,8 @@
  * test/analysis/monitor/chart-flag-agreement.test.ts holds the two together on every page type. One function for every chart the pages draw
  * (individuals, EWMA and CUSUM of the level charts, the index charts, the control-product charts),
  * so the pages, their JSON twins and the agreement test classify a signal the same way.
- *   - EWMA crossings of the act limit in a level chart's current segment: read by the drift rule.
+ *   - EWMA crossings of the act limit (act) or of the watch limit only (watch) in a level chart's
+ *     current segment: read by the drift rule.
  *   - Western Electric rules 2–4 on the summary chart's current segment, when they give watch flags.
  *   - Signals in a segment closed by a restart: earlier baseline, not judged by the flags.
  *   - CUSUM: dates where a change began (the case's first session); it raises no case itself.
@@ -62,9 +63,11 @@ export function chartSignals(segments: readonly MonitoredSegment[], role: ChartR
           rules: [...p.rules],
         });
       }
-      if (p.ewmaSignal) {
+      // Beyond the act limit, or between the watch and act limits (what a watch case reads).
+      const ewmaSeverity = p.ewmaSignal ? 'act' : p.ewmaWatchLimit !== null && Math.abs(p.ewma) > p.ewmaWatchLimit ? 'watch' : null;
+      if (ewmaSeverity) {
         const read = current && readBy !== null;
-        out.push({ session: p.session, chart: 'ewma', severity: 'act', flagKind: read ? readBy : null, reason: read ? null : otherwise(role === 'index' ? 'pooled-window' : 'no-case-from-chart') });
+        out.push({ session: p.session, chart: 'ewma', severity: ewmaSeverity, flagKind: read ? readBy : null, reason: read ? null : otherwise(role === 'index' ? 'pooled-window' : 'no-case-from-chart') });
       }
       if (p.cusumSignal) out.push({ session: p.session, chart: 'cusum', severity: 'act', flagKind: null, reason: otherwise(role === 'control' ? 'no-case-from-chart' : 'cusum-dates-change') });
     }

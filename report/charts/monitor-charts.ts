@@ -87,6 +87,8 @@ export function monitorChartInputs(args: {
   const ewmaUpper = emptyArray<number | null>(n, null);
   const ewmaLower = emptyArray<number | null>(n, null);
   const ewmaSignals = emptyArray<SignalSeverity | null>(n, null);
+  const ewmaWatchUpper = emptyArray<number | null>(n, null);
+  const ewmaWatchLower = emptyArray<number | null>(n, null);
   const cusumUp = emptyArray<number | null>(n, null);
   const cusumDown = emptyArray<number | null>(n, null);
   const cusumSignals = emptyArray<SignalSeverity | null>(n, null);
@@ -114,7 +116,10 @@ export function monitorChartInputs(args: {
       ewma[i] = p.ewma;
       ewmaUpper[i] = p.ewmaLimit;
       ewmaLower[i] = -p.ewmaLimit;
-      ewmaSignals[i] = p.ewmaSignal ? 'act' : null;
+      const beyondWatch = p.ewmaWatchLimit !== null && Math.abs(p.ewma) > p.ewmaWatchLimit;
+      ewmaSignals[i] = p.ewmaSignal ? 'act' : beyondWatch ? 'watch' : null;
+      ewmaWatchUpper[i] = p.ewmaWatchLimit;
+      ewmaWatchLower[i] = p.ewmaWatchLimit === null ? null : -p.ewmaWatchLimit;
       cusumUp[i] = p.cusumUpper;
       cusumDown[i] = -p.cusumLower;
       cusumSignals[i] = p.cusumSignal ? 'act' : null;
@@ -149,8 +154,14 @@ export function monitorChartInputs(args: {
         { name: 'centre', kind: 'centre', values: ewma.map((v) => (v === null ? null : 0)) },
         { name: 'limit', kind: 'limit', values: ewmaUpper },
         { name: 'limit', kind: 'limit', values: ewmaLower },
+        ...(ewmaWatchUpper.some((v) => v !== null)
+          ? [
+              { name: 'watch', kind: 'limit' as const, values: ewmaWatchUpper },
+              { name: 'watch', kind: 'limit' as const, values: ewmaWatchLower },
+            ]
+          : []),
       ],
-      description: `${nCharted} standardised values; exact time-varying limits.`,
+      description: `${nCharted} standardised values; exact time-varying limits (the outer pair for act, the inner pair for watch).`,
     },
     cusum: {
       ...common,

@@ -73,4 +73,20 @@ describe('chart signals and their cases', () => {
     const others = linkSignals(signals, [step('T02'), { ...driftFlag('x', 'S21', firstEwma.session), assessor: null }], owner, sessions);
     expect(others.filter((s) => s.flagKind === 'unstable-product').every((s) => 'reason' in s.link && s.link.reason === 'no-open-case')).toBe(true);
   });
+
+  it('a watch-level EWMA crossing (beyond the watch limit, inside the act limit) is drawn as watch and belongs to the chart\'s case, even before its first session', () => {
+    const watchDesigns = { ...DESIGNS, rules: [1] as const, watchLimitWidthFor: () => 2.0, limitWidthFor: () => 2.962 };
+    // Baseline 0/1 (σ̂ ≈ 0.89), then a small lasting shift: z ≈ 0.9, so the EWMA settles near 0.9,
+    // beyond the watch limit (≈ 2.0 × 0.33) and inside the act limit (≈ 2.962 × 0.33).
+    const small: SeriesPoint[] = [...Array.from({ length: 10 }, (_, i) => i % 2), ...Array.from({ length: 10 }, () => 1.3)].map((value, i) => ({ session: `S${i + 1}`, date: '2026-01-01', value }));
+    const smallSessions = small.map((p) => p.session);
+    const segs = monitorSeries(small, watchDesigns, { baseline: { fullValues: 10, minimumValues: 8 } });
+    const signals = chartSignals(segs, 'level-attribute', false).filter((s) => s.chart === 'ewma');
+    expect(signals.length).toBeGreaterThan(0);
+    expect(signals.every((s) => s.severity === 'watch' && s.flagKind === 'drift')).toBe(true);
+    const linked = linkSignals(signals, [driftFlag('x', 'S20', 'S20')], { assessor: 'A1', attribute: 'x' }, smallSessions);
+    expect(linked.every((s) => 'flag' in s.link)).toBe(true);
+    // Without a case it says so.
+    expect(linkSignals(signals, [], { assessor: 'A1', attribute: 'x' }, smallSessions).every((s) => 'reason' in s.link && s.link.reason === 'no-open-case')).toBe(true);
+  });
 });
