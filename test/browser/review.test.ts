@@ -146,7 +146,13 @@ describe.skipIf(!hasChromium)('the weekly review in a browser, on a year of data
     await page.keyboard.type('Panel lead');
     await page.keyboard.press('Tab');
     expect(await page.evaluate(`document.activeElement && document.activeElement.value`)).toBe('dismissed');
-    await Promise.all([page.waitForURL(/cases\/\d+$/), page.keyboard.press('Enter')]);
+    // The form posts and redirects back to this same URL, so waiting for the URL would not wait:
+    // wait for the POST's answer and the page it leads to.
+    await Promise.all([
+      page.waitForResponse((r) => r.request().method() === 'GET' && /cases\/\d+$/.test(r.url()) && r.request().redirectedFrom()?.method() === 'POST'),
+      page.keyboard.press('Enter'),
+    ]);
+    await page.waitForFunction(`(document.querySelector('.case-status')?.textContent ?? '').includes('Dismissed')`, undefined, { timeout: 20_000 });
     expect(await page.textContent('.case-status')).toContain('Dismissed');
     expect(await page.textContent('table.history')).toContain(note);
 
