@@ -211,7 +211,7 @@ function sessionFlags(
         pValue: swap.pValue,
         qValue: null,
         n: swap.nAttributes,
-        threshold: `one-sided p < ${formatAlpha(swap.alphaPerTest)} (${q.swapFalseAlertsPerYear} false alerts per year shared over sessions, assessors and product pairs), the swapped order not rejected, the panel separating the pair, and relative gain ρ ≥ ${q.swapMinRelativeGain}`,
+        threshold: `one-sided p < ${formatAlpha(swap.alphaPerTest)} (${q.swapFalseAlertsPerYear} false alerts per year shared over sessions, assessors and product pairs, more to pairs where a swap would show), the swapped order not rejected, the panel separating the pair, and relative gain ρ ≥ ${q.swapMinRelativeGain}`,
         lastSession: session,
         replicate: swap.replicate,
         products: [swap.productA, swap.productB],

@@ -79,7 +79,7 @@ export const PanelThresholdsSchema = Type.Object(
       missingActCompleteness: probability('Missing cells act: assessor completeness below this. Methods §5.5 (CP).'),
       swapMinRelativeGain: probability('Swapped codes: relative distance gain ρ at least this (watch only, never act). Methods §5.10 (CP).'),
       swapMinAttributes: count(2, 'Swapped codes: attributes with spread needed. Methods §5.10 (CP).'),
-      swapFalseAlertsPerYear: positive('Swapped codes: tolerated false swap alerts per panel-year; the served-versus-swapped test level is this budget shared (Bonferroni) over charts.sessionsPerYear sessions × assessors × product pairs × checks. methods §5.10 (ours; half the goal of ≤ 1 per 10 panel-years, leaving room for misfit of the model).'),
+      swapFalseAlertsPerYear: positive('Swapped codes: tolerated false swap alerts per panel-year; the served-versus-swapped tests share this budget (Bonferroni) over charts.sessionsPerYear sessions and, within a session, over the whole-session and replicate checks and over assessors × product pairs (the whole-session check by what a swap of each pair would show). methods §5.10 (ours; half the goal of ≤ 1 per 10 panel-years, leaving room for misfit of the model).'),
       decimalShiftMinRange: positive('In-range decimal shift is checked only for scales at least this wide. Methods §5.3b (CP).'),
       decimalShiftRobustZ: positive('In-range decimal shift: |v − median| > this × 1.4826 MAD. Iglewicz & Hoaglin (1993) modified z cut-off 3.5; methods §5.3b.'),
     }),

@@ -12,14 +12,17 @@
  * products' ratings replaced by their mean (the pair's own difference is not used to judge it);
  * df ν = J(P − 2) − 1. With d_j = x_pj − x_qj and c_j = g_pj − g_qj, v = 2τ̂²:
  *   served:  d_j = b·c_j + ε_j,   swapped: d_j = −b·c_j + ε_j,
- * the log likelihood ratio (swapped : served) is −2b·S with S = Σ d_j c_j / v, and
- * t₀ = (S − b·D²)/D, t₁ = (S + b·D²)/D with D² = Σ c_j² / v (≈ t_ν under the respective model).
- * A swap is alleged when the served assignment is rejected (t₀ ≤ −t*) and the swapped one is not
- * (|t₁| < t*), with t* the t_ν quantile at α = alerts per year / (sessions per year × assessors ×
- * pairs), halved between the whole-session and the replicate checks (weighted Bonferroni), b > 0,
- * the panel itself tells p and q apart (some attribute with |c_j|/SE_j beyond the
- * Bonferroni-over-attributes t quantile at 0.05, SE from MS_AP), and the distance gain
- * ρ ≥ minRelativeGain.
+ * the log likelihood ratio (swapped : served) is −2b·S with S = Σ d c / v, D² = Σ c² / v.
+ * The panel's profile is itself an estimate (the other assessors' noise, known from MS_AP), so b
+ * and D² are taken net of it (errors in variables, Fuller 1987), and the SE of S ∓ b̂·D̃² includes
+ * the slope's own variance: t₀ = (S − b̂·D̃²)/SE and t₁ = (S + b̂·D̃²)/SE (≈ t_ν under the
+ * respective model; t₁ − t₀ is the shift a swap makes, computed without d).
+ * A swap is alleged when the served assignment is rejected (t₀ ≤ −c) and the swapped one is not
+ * (|t₁| < c), ρ ≥ minRelativeGain, b > 0 and the panel itself tells p and q apart (some attribute
+ * with |c_j|/SE_j beyond the Bonferroni-over-attributes t quantile at 0.05, SE from MS_AP). The
+ * cut-offs c of one session's whole-session tests share its part of the yearly budget (alerts per
+ * year / sessions per year, half of it with replicates, weighted Bonferroni) by the levels of
+ * these rules themselves, each pair's cut-off set by Spjøtvoll's (1972) most powerful allocation.
  * Replicate level (only when the whole session shows nothing for the pair): the same test on one
  * replicate's ratings, and the replicate's contrast must differ from the assessor's own other
  * replicates' in the direction a swap predicts, judged against their own replicate error.
@@ -45,13 +48,13 @@ export interface SwapFinding {
   df: number;
   /** One-sided p of t₀ under "served as labelled" (before the Bonferroni correction). */
   pValue: number;
-  /** The Bonferroni per-test level the p was compared with. */
+  /** The one-sided level the p was compared with: this pair's share of the budget (methods §5.10). */
   alphaPerTest: number;
   /** D: the pair's panel difference in units of the assessor's own SD of a difference. */
   separationSd: number;
   /** Largest |panel difference / SE| of the pair over the attributes. */
   panelSeparationT: number;
-  /** The assessor's slope on the panel profile (pair pooled). */
+  /** The assessor's slope on the panel profile (pair pooled, net of the panel's own noise). */
   slope: number;
 }
 
@@ -155,42 +158,56 @@ export function detectSwappedCodes(
   if (discriminating.length < 3) return [];
   const nJ = tables.length;
   const nPairs = (data.products.length * (data.products.length - 1)) / 2;
-  // Weighted Bonferroni (Holm 1979): the yearly budget over sessions × assessors × pairs, half to
-  // the whole-session check and half shared by the replicate checks (all of it when unreplicated).
-  const perPair = options.falseAlertsPerYear / (Math.max(1, options.sessionsPerYear) * data.assessors.length * nPairs);
-  const alphaWhole = data.nReplicates >= 2 ? perPair / 2 : perPair;
-  const alphaReplicate = perPair / 2 / data.nReplicates;
+  // The session's share of the yearly budget; with replicates, half of it goes to the whole-session
+  // check and half is shared by the replicate checks (weighted Bonferroni, Holm 1979).
+  const sessionBudget = options.falseAlertsPerYear / Math.max(1, options.sessionsPerYear);
+  const wholeBudget = data.nReplicates >= 2 ? sessionBudget / 2 : sessionBudget;
+  // Each replicate check: its half shared equally (Bonferroni) over assessors × pairs × replicates.
+  const alphaReplicate = sessionBudget / 2 / (data.assessors.length * nPairs * data.nReplicates);
   const findings: SwapFinding[] = [];
 
+  // 1. The whole session (cell means): a swap of every replicate, with the replicate noise averaged.
+  // Every pair of every assessor is measured first, then the session's whole-session budget is
+  // shared over them by what a swap of each would show (swapCutoffs), then judged.
+  const wholeTests: { assessor: string; productA: string; productB: string; stats: PairStatistics }[] = [];
   for (const assessor of data.assessors) {
-    const seen = new Set<string>();
-    // 1. The whole session (cell means): a swap of every replicate, with the replicate noise averaged.
     const sessionProducts = data.products.filter((p) => tables.every((t) => t.means.get(assessor)?.has(p)));
+    if (sessionProducts.length < 4) continue;
+    const whole = profilesOf(tables, assessor, 0, sessionProducts);
+    if (!whole) continue;
     const prior = pooledPrior(priorSpreads.get(assessor) ?? [], data.nReplicates);
-    if (sessionProducts.length >= 4) {
-      const whole = profilesOf(tables, assessor, 0, sessionProducts);
-      if (whole) {
-        for (let p = 0; p < sessionProducts.length - 1; p++) {
-          for (let q = p + 1; q < sessionProducts.length; q++) {
-            const test = pairTest(whole.x, whole.g, whole.panelN, sessionProducts.length, nJ, p, q, tables, alphaWhole, options.minRelativeGain, prior);
-            if (!test) continue;
-            seen.add(`${sessionProducts[p]}|${sessionProducts[q]}`);
-            findings.push({
-              assessor,
-              replicate: null,
-              productA: sessionProducts[p],
-              productB: sessionProducts[q],
-              codes: [codeOf(data, assessor, sessionProducts[p], 1), codeOf(data, assessor, sessionProducts[q], 1)],
-              nAttributes: nJ,
-              alphaPerTest: alphaWhole,
-              ...test,
-            });
-          }
-        }
+    for (let p = 0; p < sessionProducts.length - 1; p++) {
+      for (let q = p + 1; q < sessionProducts.length; q++) {
+        const stats = pairStatistics(whole.x, whole.g, whole.panelN, sessionProducts.length, nJ, p, q, tables, prior);
+        if (stats) wholeTests.push({ assessor, productA: sessionProducts[p], productB: sessionProducts[q], stats });
       }
     }
-    if (data.nReplicates < 2) continue;
-    // 2. One replicate, only where the pair is not already explained by a whole-session swap.
+  }
+  // t₁ − t₀: the shift of t₀ that a swap of the pair makes, free of the pair's own contrast.
+  const cutoffs = swapCutoffs(
+    wholeTests.map((t) => ({ effect: t.stats.tSwapped - t.stats.tServed, df: t.stats.df })),
+    wholeBudget,
+  );
+  const seen = new Set<string>();
+  wholeTests.forEach((test, i) => {
+    const critical = cutoffs[i];
+    if (!alleged(test.stats, critical, critical, options.minRelativeGain)) return;
+    seen.add(`${test.assessor}|${test.productA}|${test.productB}`);
+    findings.push({
+      assessor: test.assessor,
+      replicate: null,
+      productA: test.productA,
+      productB: test.productB,
+      codes: [codeOf(data, test.assessor, test.productA, 1), codeOf(data, test.assessor, test.productB, 1)],
+      nAttributes: nJ,
+      alphaPerTest: tUpperTail(critical, test.stats.df),
+      ...test.stats,
+    });
+  });
+  if (data.nReplicates < 2) return findings;
+
+  // 2. One replicate, only where the pair is not already explained by a whole-session swap.
+  for (const assessor of data.assessors) {
     for (let replicate = 1; replicate <= data.nReplicates; replicate++) {
       const products = data.products.filter((p) =>
         tables.every((t) => t.replicates?.get(assessor)?.get(p)?.has(replicate) && [...(t.replicates?.get(assessor)?.get(p)?.keys() ?? [])].some((r) => r !== replicate)),
@@ -201,9 +218,11 @@ export function detectSwappedCodes(
       const within = withinAssessor(tables, assessor, replicate, products, nJ);
       for (let p = 0; p < products.length - 1; p++) {
         for (let q = p + 1; q < products.length; q++) {
-          if (seen.has(`${products[p]}|${products[q]}`)) continue;
-          const test = pairTest(own.x, own.g, own.panelN, products.length, nJ, p, q, tables, alphaReplicate, options.minRelativeGain, null);
-          if (!test || !replicatesDisagree(within, own.g, products.length, nJ, p, q, alphaReplicate)) continue;
+          if (seen.has(`${assessor}|${products[p]}|${products[q]}`)) continue;
+          const stats = pairStatistics(own.x, own.g, own.panelN, products.length, nJ, p, q, tables, null);
+          if (!stats) continue;
+          const critical = tQuantile(1 - alphaReplicate, stats.df);
+          if (!alleged(stats, critical, critical, options.minRelativeGain) || !replicatesDisagree(within, own.g, products.length, nJ, p, q, alphaReplicate)) continue;
           findings.push({
             assessor,
             replicate,
@@ -212,7 +231,7 @@ export function detectSwappedCodes(
             codes: [codeOf(data, assessor, products[p], replicate), codeOf(data, assessor, products[q], replicate)],
             nAttributes: nJ,
             alphaPerTest: alphaReplicate,
-            ...test,
+            ...stats,
           });
         }
       }
@@ -266,7 +285,7 @@ function pooledPrior(spreads: readonly ResidualSpread[], nReplicates: number): {
 }
 
 /** Slope of x on g and residual sum of squares, rows p and q replaced by their mean (p = q = −1: none). */
-function residualFit(x: Float64Array, g: Float64Array, nP: number, nJ: number, p: number, q: number): { slope: number; rss: number } | null {
+function residualFit(x: Float64Array, g: Float64Array, nP: number, nJ: number, p: number, q: number): { slope: number; rss: number; sgg: number } | null {
   let sxg = 0;
   let sgg = 0;
   for (let i = 0; i < nP; i++) {
@@ -285,17 +304,19 @@ function residualFit(x: Float64Array, g: Float64Array, nP: number, nJ: number, p
       rss += (xv - slope * gv) ** 2;
     }
   }
-  return { slope, rss };
+  return { slope, rss, sgg };
 }
 
 type Table = { attribute: { name: string; sd: number; ms: number }; replicatesPerCell: number };
-type PairTest = Pick<SwapFinding, 'relativeGain' | 'tServed' | 'tSwapped' | 'df' | 'pValue' | 'separationSd' | 'panelSeparationT' | 'slope'>;
+type PairStatistics = Pick<SwapFinding, 'relativeGain' | 'tServed' | 'tSwapped' | 'df' | 'pValue' | 'separationSd' | 'panelSeparationT' | 'slope'>;
 
 /**
- * The served-versus-swapped test of products p and q on centred, scaled profiles x (own) and g
- * (panel), nP products × nJ attributes, row-major. null when no swap is alleged.
+ * The served-versus-swapped statistics of products p and q on centred, scaled profiles x (own) and
+ * g (panel), nP products × nJ attributes, row-major; null when the pair cannot be tested: the
+ * panel does not separate it, or the assessor's slope on the panel profile is not positive. These
+ * two conditions and the pair's separation D do not use the pair's own contrast d (methods §5.10).
  */
-function pairTest(
+function pairStatistics(
   x: Float64Array,
   g: Float64Array,
   panelN: Float64Array,
@@ -304,18 +325,19 @@ function pairTest(
   p: number,
   q: number,
   tables: readonly Table[],
-  alphaPerTest: number,
-  minRelativeGain: number,
   prior: { variance: number; df: number } | null,
-): PairTest | null {
+): PairStatistics | null {
   // The panel must tell p and q apart on some attribute: |c_j| against the SE of a difference of
   // two product means, √(2 MS_AP / (n̄ · assessors)), in the same s_j units (so √(2 / (n̄ n))).
   let panelSeparationT = 0;
   let minDf = Infinity;
+  // Σ_j of the panel contrast's own sampling variance (the squared SE below).
+  let panelNoise = 0;
   for (let j = 0; j < nJ; j++) {
     const c = g[p * nJ + j] - g[q * nJ + j];
     const n = Math.min(panelN[p * nJ + j], panelN[q * nJ + j]);
     const se = Math.sqrt(2 / (tables[j].replicatesPerCell * n));
+    panelNoise += se * se;
     panelSeparationT = Math.max(panelSeparationT, Math.abs(c) / se);
     minDf = Math.min(minDf, Math.max(1, (n - 1) * (nP - 1)));
   }
@@ -324,7 +346,17 @@ function pairTest(
   // rows replaced by their mean, so the pair's own difference is not used to judge it).
   const fit = residualFit(x, g, nP, nJ, p, q);
   if (!fit) return null;
-  const { slope, rss } = fit;
+  // The slope on the noisy panel profile is attenuated (Σg̃² holds the panel means' own sampling
+  // variance, 1/(n̄·n) per cell in s_j units, (P − 2)/P of it left after centring and pooling the
+  // pair); its method-of-moments correction divides by Σg̃² net of that noise (Fuller 1987, §1.1).
+  let profileNoise = 0;
+  for (let j = 0; j < nJ; j++) {
+    for (let i = 0; i < nP; i++) profileNoise += 1 / (tables[j].replicatesPerCell * panelN[i * nJ + j]);
+  }
+  const sggNet = fit.sgg - (profileNoise * (nP - 2)) / nP;
+  if (!(sggNet > 0)) return null;
+  const { rss } = fit;
+  const slope = (fit.slope * fit.sgg) / sggNet;
   // Rows p and q pooled leave P − 2 df per attribute after centring; one more for the slope.
   const ownDf = nJ * (nP - 2) - 1;
   if (ownDf < 3 || !(rss > 0) || !(slope > 0)) return null;
@@ -351,10 +383,20 @@ function pairTest(
   const separationSq = cc / differenceVariance;
   const separationSd = Math.sqrt(separationSq);
   if (!(separationSd > 0)) return null;
-  const tServed = (s - slope * separationSq) / separationSd;
-  const tSwapped = (s + slope * separationSq) / separationSd;
-  const critical = tQuantile(1 - alphaPerTest, df);
-  if (!(tServed <= -critical) || !(Math.abs(tSwapped) < critical)) return null;
+  // The panel's contrast c is itself an estimate, c = c_true + η (η: the other assessors' own
+  // interaction and replicate error, Σ Var η_j = panelNoise in s_j units), and E Σ c_j² = Σ c_true,j² +
+  // panelNoise: under "served" E[S] = b·(D² − K), K = panelNoise / v, not b·D². So the prediction uses
+  // the panel's separation net of its own noise (the method-of-moments correction for a regressor
+  // measured with error, Fuller 1987); v already holds b²·Var η (τ̂² is measured about the noisy g).
+  // A pair the panel does not separate beyond its noise predicts no difference: no swap is testable.
+  const netSeparationSq = separationSq - panelNoise / differenceVariance;
+  if (!(netSeparationSq > 0)) return null;
+  // SE of S ∓ b̂·(D² − K): S has variance D², and b̂ (from the pooled rows, independent of d) has
+  // variance τ̂²/Σg̃², which a pair whose panel contrast is large against the spread of the other
+  // products' profiles feels (the variance of a prediction with an estimated coefficient).
+  const statisticSe = Math.sqrt(separationSq + (netSeparationSq * netSeparationSq * residualVariance * fit.sgg) / (sggNet * sggNet));
+  const tServed = (s - slope * netSeparationSq) / statisticSe;
+  const tSwapped = (s + slope * netSeparationSq) / statisticSe;
   // ρ: the share of the pair's distance from the panel profiles that the exchange removes.
   const distance = (a: number, b: number): number => {
     let sum = 0;
@@ -363,8 +405,59 @@ function pairTest(
   };
   const served = distance(p, p) + distance(q, q);
   const relativeGain = served > 0 ? (served - distance(p, q) - distance(q, p)) / served : 0;
-  if (relativeGain < minRelativeGain) return null;
   return { relativeGain, tServed, tSwapped, df, pValue: 1 - tUpperTail(tServed, df), separationSd, panelSeparationT, slope };
+}
+
+/**
+ * A swap is alleged when "served" is rejected (t₀ ≤ −servedCritical), "swapped" is not
+ * (|t₁| < swappedCritical) and the distance gain ρ is at least minRelativeGain.
+ */
+function alleged(stats: PairStatistics, servedCritical: number, swappedCritical: number, minRelativeGain: number): boolean {
+  return stats.tServed <= -servedCritical && Math.abs(stats.tSwapped) < swappedCritical && stats.relativeGain >= minRelativeGain;
+}
+
+/**
+ * Under "served", t₁ = t₀ + effect, so the rule "t₀ ≤ −c and |t₁| < c" rejects exactly when
+ * t₀ ∈ (−c − effect, min(−c, c − effect)]; its level, with t₀ ~ t_df.
+ */
+export function swapRuleLevel(critical: number, effect: number, df: number): number {
+  const upper = Math.min(-critical, critical - effect);
+  const lower = -critical - effect;
+  if (!(upper > lower)) return 0;
+  // Lower tails as upper tails of the negated bounds (no 1 − p for small p).
+  return Math.max(0, tUpperTail(-upper, df) - tUpperTail(-lower, df));
+}
+
+/**
+ * Cut-offs c_i of the whole-session tests of one session, for pairs whose swap would shift t₀ by
+ * effect_i (t₁ − t₀, not using the pairs' own contrasts), such that the levels of the rules applied
+ * (swapRuleLevel: served rejected and swapped not, both at c_i) add up to at most alphaTotal
+ * (Bonferroni's inequality over the rejection events themselves), and the expected number of swaps
+ * found is largest: by Spjøtvoll (1972) the rule rejects where the likelihood ratio swapped :
+ * served exceeds one constant common to all pairs, for a shift of a normal t₀ that is
+ * c_i = effect_i/2 + k/effect_i (methods §5.10). A pair whose swap would be barely visible, or
+ * visible at any level, gets a high cut-off and spends little; equal effects give one common
+ * cut-off. The effects must not depend on the t₀ under "served" (Bourgon, Gentleman & Huber 2010).
+ * Pure; k ≥ 0 is found by bisection, always on the side within the budget.
+ */
+export function swapCutoffs(tests: readonly { effect: number; df: number }[], alphaTotal: number): number[] {
+  if (!(alphaTotal > 0)) return tests.map(() => Infinity);
+  const cutoffs = (k: number) => tests.map((t) => (t.effect > 0 ? t.effect / 2 + k / t.effect : Infinity));
+  const total = (k: number) => cutoffs(k).reduce((sum, c, i) => sum + (Number.isFinite(c) ? swapRuleLevel(c, tests[i].effect, tests[i].df) : 0), 0);
+  if (total(0) <= alphaTotal) return cutoffs(0);
+  let low = 0;
+  let high = 8;
+  while (total(high) > alphaTotal) {
+    low = high;
+    high *= 2;
+    if (high > 1e6) return tests.map(() => Infinity);
+  }
+  while (high - low > 1e-6 * high) {
+    const mid = (low + high) / 2;
+    if (total(mid) > alphaTotal) low = mid;
+    else high = mid;
+  }
+  return cutoffs(high);
 }
 
 /** Row i, attribute j of (x, g) with rows p and q replaced by their mean. */
@@ -452,3 +545,4 @@ function replicatesDisagree(
 function codeOf(data: SessionData, assessor: string, product: string, replicate: number): string | null {
   return data.ratings.find((r) => r.assessor === assessor && r.product === product && r.replicate === replicate && r.code !== null)?.code ?? null;
 }
+

@@ -6,11 +6,15 @@
  * (a) a whole-session swap of two clearly different products is found;
  * (b) no swap is alleged between two products the panel cannot tell apart, even when one is planted;
  * (c) a lenient or inconsistent assessor with no swap gets no swap finding.
+ * (f) the budget allocation: levels add up to the budget, equal effects give Bonferroni;
+ * (g) on clean sessions, with a generous budget, findings stay within what the budget allows.
  * Invented data (a property test), the expected outcome written beside each case.
  */
 import { describe, expect, it } from 'vitest';
 import type { Rating } from '../../../domain/ratings.js';
 import { assessorResidualSpreads, detectSwappedCodes, sessionData, type ResidualSpread, type SwapFinding } from '../../../analysis/quality/index.js';
+import { swapCutoffs, swapRuleLevel } from '../../../analysis/quality/swapped-codes.js';
+import { tUpperTail } from '../../../analysis/distributions/index.js';
 import { seededRandom } from '../flags/helpers/random.js';
 
 interface Shape {
@@ -70,12 +74,12 @@ function session(shape: Shape): { ratings: Rating[]; profiles: number[][] } {
 
 const attributesOf = (shape: Shape) => Array.from({ length: shape.nAttributes }, (_, j) => ({ name: `attr${j + 1}`, scaleMin: 0, scaleMax: 10 }));
 
-function detect(shape: Shape, priorSpreads?: ReadonlyMap<string, readonly ResidualSpread[]>): { findings: SwapFinding[]; profiles: number[][] } {
+function detect(shape: Shape, priorSpreads?: ReadonlyMap<string, readonly ResidualSpread[]>, falseAlertsPerYear = 0.05): { findings: SwapFinding[]; profiles: number[][] } {
   const { ratings, profiles } = session(shape);
   const attributes = attributesOf(shape);
   // The panel product test is part of the caller's gate (fits); every attribute here has real product differences.
   const productTestP = new Map(attributes.map((a) => [a.name, 0.001]));
-  const findings = detectSwappedCodes(sessionData('S01', ratings, attributes), productTestP, { minRelativeGain: 0.3, minAttributes: 5, falseAlertsPerYear: 0.05, sessionsPerYear: 52 }, priorSpreads);
+  const findings = detectSwappedCodes(sessionData('S01', ratings, attributes), productTestP, { minRelativeGain: 0.3, minAttributes: 5, falseAlertsPerYear, sessionsPerYear: 52 }, priorSpreads);
   return { findings, profiles };
 }
 
@@ -187,4 +191,49 @@ describe('swapped codes: properties over seeds and panel shapes', () => {
       }
     }
   });
+
+  it('(f) the cut-offs spend the budget through the rules\' own levels; equal effects give the Bonferroni cut-off', () => {
+    // A rule's level is the t probability of its rejection interval (t₁ = t₀ + effect): checked by hand.
+    expect(swapRuleLevel(4, 3, 50)).toBeCloseTo(tUpperTail(4, 50) - tUpperTail(7, 50), 15);
+    expect(swapRuleLevel(4, 12, 50)).toBeCloseTo(tUpperTail(8, 50) - tUpperTail(16, 50), 15);
+    expect(swapRuleLevel(4, 0, 50)).toBe(0);
+    // Equal effects below twice the cut-off: every test at alpha / m, the plain Bonferroni level.
+    const equal = swapCutoffs(Array.from({ length: 40 }, () => ({ effect: 5, df: 200 })), 1e-3);
+    for (const c of equal) expect(c).toBeCloseTo(equal[0], 12);
+    expect(tUpperTail(equal[0], 200) - tUpperTail(equal[0] + 5, 200)).toBeCloseTo(1e-3 / 40, 8);
+    // Mixed effects and df over seeds: the levels add up to the budget (within 1e-4 of it, never above).
+    const rng = seededRandom(7);
+    for (let k = 0; k < 20; k++) {
+      const tests = Array.from({ length: 10 + Math.floor(rng.uniform() * 200) }, () => ({ effect: 0.1 + 25 * rng.uniform(), df: rng.uniform() < 0.2 ? 29 : 263 }));
+      const budget = 10 ** (-2 - 3 * rng.uniform());
+      const cutoffs = swapCutoffs(tests, budget);
+      const spent = cutoffs.reduce((sum, c, i) => sum + swapRuleLevel(c, tests[i].effect, tests[i].df), 0);
+      expect(spent).toBeLessThanOrEqual(budget);
+      expect(spent).toBeGreaterThan(budget * (1 - 1e-4));
+      // A pair whose swap would hardly show gets a cut-off it cannot pass in practice.
+      cutoffs.forEach((c, i) => {
+        if (tests[i].effect < 0.5) expect(c).toBeGreaterThan(8);
+      });
+    }
+  });
+
+  it('(g) clean sessions over seeds and shapes: with a budget of 0.05 false alerts per session, findings stay within it', () => {
+    // 52 × 0.05 alerts per year = 0.05 per session (half to the whole-session check with replicates).
+    // Expected at most 0.05 × sessions if the levels are right; allowed: the Poisson 99.9 % bound.
+    let sessions = 0;
+    let alerts = 0;
+    for (let round = 0; round < 4; round++) {
+      for (const nearIdentical of [false, true]) {
+        for (const base of shapes(nearIdentical)) {
+          const shape = { ...base, seed: base.seed + 1000 * (round + 1), noise: { A02: 2.5 } };
+          alerts += detect(shape, history(shape, 3), 52 * 0.05).findings.length;
+          sessions++;
+        }
+      }
+    }
+    expect(sessions).toBe(192);
+    // Poisson(9.6): P(X > 20) < 0.001.
+    expect(alerts).toBeLessThanOrEqual(20);
+  });
 });
+
