@@ -62,10 +62,10 @@ let markdown = reportMarkdown(report, commit);
 markdown =
   `${markdown.trimEnd()}\n\n` +
   `Charts and flags (one chart design), on every one of the ${agreement.panels} panels: every page's charts were built as the routes build them ` +
-  `(overview, every assessor × attribute page, the control product of every attribute, every case; test/simulation/chart-agreement.ts). ` +
+  `(overview, every assessor × attribute page, the control product and the product stability of every attribute, every case; test/simulation/chart-agreement.ts). ` +
   `${agreement.signals.toLocaleString('en-US')} signal points drawn, ${agreement.linked.toLocaleString('en-US')} of them on a case; ` +
   `**${agreement.unlinked} with neither a case nor a stated reason** (goal: none). ` +
-  `Level charts (${agreement.ewmaSignals.toLocaleString('en-US')} EWMA signal points) whose first signal in the current segment is not their drift flag's signal session: **${agreement.unexplained}** (goal: none).\n` +
+  `Level and product step charts (${agreement.ewmaSignals.toLocaleString('en-US')} EWMA signal points) whose first signal in the current segment is not their drift (unstable-product) flag's signal session: **${agreement.unexplained}** (goal: none).\n` +
   agreement.problems.slice(0, 20).map((line) => `- ${line}\n`).join('');
 if (process.argv.includes('--period-fits')) {
   const windowSessions = 12;
