@@ -191,7 +191,7 @@ export function detectSwappedCodes(
   const seen = new Set<string>();
   wholeTests.forEach((test, i) => {
     const critical = cutoffs[i];
-    if (!alleged(test.stats, critical, critical, options.minRelativeGain)) return;
+    if (!alleged(test.stats, critical, options.minRelativeGain)) return;
     seen.add(`${test.assessor}|${test.productA}|${test.productB}`);
     findings.push({
       assessor: test.assessor,
@@ -222,7 +222,7 @@ export function detectSwappedCodes(
           const stats = pairStatistics(own.x, own.g, own.panelN, products.length, nJ, p, q, tables, null);
           if (!stats) continue;
           const critical = tQuantile(1 - alphaReplicate, stats.df);
-          if (!alleged(stats, critical, critical, options.minRelativeGain) || !replicatesDisagree(within, own.g, products.length, nJ, p, q, alphaReplicate)) continue;
+          if (!alleged(stats, critical, options.minRelativeGain) || !replicatesDisagree(within, own.g, products.length, nJ, p, q, alphaReplicate)) continue;
           findings.push({
             assessor,
             replicate,
@@ -409,11 +409,11 @@ function pairStatistics(
 }
 
 /**
- * A swap is alleged when "served" is rejected (t₀ ≤ −servedCritical), "swapped" is not
- * (|t₁| < swappedCritical) and the distance gain ρ is at least minRelativeGain.
+ * A swap is alleged when "served" is rejected (t₀ ≤ −critical), "swapped" is not (|t₁| < critical)
+ * and the distance gain ρ is at least minRelativeGain.
  */
-function alleged(stats: PairStatistics, servedCritical: number, swappedCritical: number, minRelativeGain: number): boolean {
-  return stats.tServed <= -servedCritical && Math.abs(stats.tSwapped) < swappedCritical && stats.relativeGain >= minRelativeGain;
+function alleged(stats: PairStatistics, critical: number, minRelativeGain: number): boolean {
+  return stats.tServed <= -critical && Math.abs(stats.tSwapped) < critical && stats.relativeGain >= minRelativeGain;
 }
 
 /**
@@ -545,4 +545,3 @@ function replicatesDisagree(
 function codeOf(data: SessionData, assessor: string, product: string, replicate: number): string | null {
   return data.ratings.find((r) => r.assessor === assessor && r.product === product && r.replicate === replicate && r.code !== null)?.code ?? null;
 }
-

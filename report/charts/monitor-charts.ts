@@ -130,6 +130,7 @@ export function monitorChartInputs(args: {
   const lastSegment = args.segments[args.segments.length - 1];
   const referenceLine: ChartLineInput[] = args.reference ? [{ name: args.reference.name, kind: 'reference', values: raw.map(() => args.reference!.value) }] : [];
   const nCharted = ewma.filter((v) => v !== null).length;
+  const hasWatchLimits = ewmaWatchUpper.some((v) => v !== null);
   const common = { sessions, events: args.events, isProvisional, size: args.size };
   return {
     individuals: {
@@ -154,14 +155,14 @@ export function monitorChartInputs(args: {
         { name: 'centre', kind: 'centre', values: ewma.map((v) => (v === null ? null : 0)) },
         { name: 'limit', kind: 'limit', values: ewmaUpper },
         { name: 'limit', kind: 'limit', values: ewmaLower },
-        ...(ewmaWatchUpper.some((v) => v !== null)
+        ...(hasWatchLimits
           ? [
               { name: 'watch', kind: 'limit' as const, values: ewmaWatchUpper },
               { name: 'watch', kind: 'limit' as const, values: ewmaWatchLower },
             ]
           : []),
       ],
-      description: `${nCharted} standardised values; exact time-varying limits (the outer pair for act, the inner pair for watch).`,
+      description: `${nCharted} standardised values; exact time-varying limits${hasWatchLimits ? ' (the outer pair for act, the inner pair for watch)' : ''}.`,
     },
     cusum: {
       ...common,
