@@ -9,11 +9,12 @@
  * logs it with its stack) and the group is listed as not fitted; other groups go on. Pure: no I/O.
  */
 import type { AnalyzeJson, AssessorIndicesJson, FitJson, NotFittedJson } from '../domain/analysis.js';
-import type { Observation } from '../domain/ratings.js';
-import { computeAnalyzeContractIndices } from './indices/compute-assessor-indices.js';
+import { LevelCoder } from '../domain/level-coder.js';
+import type { Observation, RatingColumns, RatingGroup } from '../domain/ratings.js';
+import { contractIndicesOfGroup } from './indices/contract-indices.js';
 import { LmmFitError } from './lmm/errors.js';
 import { fitPeriodModel } from './lmm/fit-period-model.js';
-import { fitSessionModel } from './lmm/fit-session-model.js';
+import { fitSessionGroup } from './lmm/fit-session-model.js';
 
 export interface AnalyzeOptions {
   period: boolean;
@@ -32,15 +33,20 @@ export interface AnalyzeNote {
 }
 
 export function analyzeRatingsWithNotes(ratings: readonly Observation[], options: AnalyzeOptions): { json: AnalyzeJson; notes: AnalyzeNote[] } {
+  return analyzeRatingColumns(toColumns(ratings), options);
+}
+
+/** analyzeRatingsWithNotes on ratings as columns (the analyze command's form: no object per rating). */
+export function analyzeRatingColumns(columns: RatingColumns, options: AnalyzeOptions): { json: AnalyzeJson; notes: AnalyzeNote[] } {
   const fits: FitJson[] = [];
   const assessorIndices: AssessorIndicesJson[] = [];
   const notFitted: NotFittedJson[] = [];
   const notes: AnalyzeNote[] = [];
-  const groups = groupBy(ratings, options.period);
-  for (const observations of groups) {
-    const where = { session: options.period ? null : observations[0].session, attribute: observations[0].attribute };
+  for (const rows of groupRows(columns, options.period)) {
+    const group = ratingGroup(columns, rows);
+    const where = { session: options.period ? null : group.session, attribute: group.attribute };
     try {
-      fits.push(options.period ? fitPeriodModel(observations).json : fitSessionModel(observations).json);
+      fits.push(options.period ? fitPeriodModel(observationsOf(columns, rows)).json : fitSessionGroup(group).json);
     } catch (error) {
       const expected = error instanceof LmmFitError;
       if (!expected) options.onFitFailure?.(error, where);
@@ -49,29 +55,87 @@ export function analyzeRatingsWithNotes(ratings: readonly Observation[], options
       notes.push({ ...where, message: `could not be fitted: ${reason}` });
     }
     if (options.period) continue;
-    for (const row of computeAnalyzeContractIndices(observations)) assessorIndices.push(row);
+    for (const row of contractIndicesOfGroup(group)) assessorIndices.push(row);
   }
   return { json: { fits, assessorIndices, ...(notFitted.length > 0 ? { notFitted } : {}) }, notes };
 }
 
-/** Groups in first-seen order; the lookup is nested so no key string is built per rating. */
-function groupBy(rows: readonly Observation[], period: boolean): Observation[][] {
-  const groups: Observation[][] = [];
-  const byAttribute = new Map<string, Observation[]>(); // period: one group per attribute
-  const bySession = new Map<string, Map<string, Observation[]>>(); // else per session, then attribute
-  for (const row of rows) {
-    let within = byAttribute;
-    if (!period) {
-      let inSession = bySession.get(row.session);
-      if (!inSession) bySession.set(row.session, (inSession = new Map()));
-      within = inSession;
-    }
-    let group = within.get(row.attribute);
-    if (!group) {
-      within.set(row.attribute, (group = []));
-      groups.push(group);
-    }
-    group.push(row);
+/** Observations as columns, names coded in first-seen order. */
+function toColumns(ratings: readonly Observation[]): RatingColumns {
+  const n = ratings.length;
+  const coders = [new LevelCoder<string>(), new LevelCoder<string>(), new LevelCoder<string>(), new LevelCoder<string>()];
+  const [session, attribute, assessor, product] = coders.map(() => new Int32Array(n));
+  const replicate = new Int32Array(n);
+  const value = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    const row = ratings[i];
+    session[i] = coders[0].code(row.session);
+    attribute[i] = coders[1].code(row.attribute);
+    assessor[i] = coders[2].code(row.assessor);
+    product[i] = coders[3].code(row.product);
+    replicate[i] = row.replicate;
+    value[i] = row.value;
   }
+  const [sessionNames, attributeNames, assessorNames, productNames] = coders.map((coder) => coder.names);
+  return { n, session, attribute, assessor, product, replicate, value, sessionNames, attributeNames, assessorNames, productNames };
+}
+
+/**
+ * Row numbers of each group (per session and attribute, or per attribute with `period`), groups
+ * in first-seen order and rows in file order within a group.
+ */
+function groupRows(columns: RatingColumns, period: boolean): Int32Array[] {
+  const n = columns.n;
+  const nAttributes = columns.attributeNames.length;
+  const groupOfKey = new Map<number, number>();
+  const groupOf = new Int32Array(n);
+  const sizes: number[] = [];
+  let lastKey = -1;
+  let lastGroup = -1;
+  for (let i = 0; i < n; i++) {
+    const key = period ? columns.attribute[i] : columns.session[i] * nAttributes + columns.attribute[i];
+    // Consecutive rows mostly share the group: compare before hashing.
+    if (key !== lastKey) {
+      let group = groupOfKey.get(key);
+      if (group === undefined) {
+        groupOfKey.set(key, (group = sizes.length));
+        sizes.push(0);
+      }
+      lastKey = key;
+      lastGroup = group;
+    }
+    groupOf[i] = lastGroup;
+    sizes[lastGroup]++;
+  }
+  const groups = sizes.map((size) => new Int32Array(size));
+  const filled = new Int32Array(sizes.length);
+  for (let i = 0; i < n; i++) groups[groupOf[i]][filled[groupOf[i]]++] = i;
   return groups;
+}
+
+function ratingGroup(columns: RatingColumns, rows: Int32Array): RatingGroup {
+  const m = rows.length;
+  const values: number[] = new Array(m);
+  const assessors: string[] = new Array(m);
+  const products: string[] = new Array(m);
+  for (let k = 0; k < m; k++) {
+    const i = rows[k];
+    values[k] = columns.value[i];
+    assessors[k] = columns.assessorNames[columns.assessor[i]];
+    products[k] = columns.productNames[columns.product[i]];
+  }
+  const first = rows[0];
+  return { session: columns.sessionNames[columns.session[first]], attribute: columns.attributeNames[columns.attribute[first]], values, assessors, products };
+}
+
+/** The group's ratings as objects (the period model takes them so). */
+function observationsOf(columns: RatingColumns, rows: Int32Array): Observation[] {
+  return Array.from(rows, (i) => ({
+    session: columns.sessionNames[columns.session[i]],
+    assessor: columns.assessorNames[columns.assessor[i]],
+    product: columns.productNames[columns.product[i]],
+    replicate: columns.replicate[i],
+    attribute: columns.attributeNames[columns.attribute[i]],
+    value: columns.value[i],
+  }));
 }

@@ -20,6 +20,36 @@ export interface Observation {
   value: number;
 }
 
+/**
+ * The ratings of one (session, attribute) group as parallel arrays: what a session fit and the
+ * analyze indices read, built without an object per rating.
+ */
+export interface RatingGroup {
+  session: string;
+  attribute: string;
+  values: number[];
+  assessors: string[];
+  products: string[];
+}
+
+/**
+ * Ratings as columns: each key an id into its name list (ids in first-seen order), the replicate
+ * number itself, the value. The analyze command's form of a file (no object per rating).
+ */
+export interface RatingColumns {
+  n: number;
+  session: Int32Array;
+  attribute: Int32Array;
+  assessor: Int32Array;
+  product: Int32Array;
+  replicate: Int32Array;
+  value: Float64Array;
+  sessionNames: readonly string[];
+  attributeNames: readonly string[];
+  assessorNames: readonly string[];
+  productNames: readonly string[];
+}
+
 /** One validated rating: what is stored and what export writes (long form). */
 export interface Rating extends Observation {
   /** Session date, YYYY-MM-DD. */

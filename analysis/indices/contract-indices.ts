@@ -1,5 +1,5 @@
 import type { AssessorIndicesJson } from '../../domain/analysis.js';
-import type { Observation } from '../../domain/ratings.js';
+import type { Observation, RatingGroup } from '../../domain/ratings.js';
 import { fUpperTail } from '../distributions/index.js';
 import { mean } from '../descriptive/mean.js';
 import { pearsonCorrelation } from '../descriptive/pearson-correlation.js';
@@ -20,7 +20,18 @@ import { pearsonCorrelation } from '../descriptive/pearson-correlation.js';
  */
 export function contractIndices(observations: readonly Observation[]): AssessorIndicesJson[] {
   if (observations.length === 0) return [];
-  const table = cellStatistics(codeRatings(observations));
+  return indicesOfTable(cellStatistics(codeRatings(observations)));
+}
+
+/** contractIndices of a group already taken from one session and attribute (the analyze path). */
+export function contractIndicesOfGroup(group: RatingGroup): AssessorIndicesJson[] {
+  if (group.values.length === 0) return [];
+  const { values } = group;
+  for (let i = 0; i < values.length; i++) if (!Number.isFinite(values[i])) throw new Error('buildCellTable: a rating value is not a finite number');
+  return indicesOfTable(cellStatistics(codeGroup(group.session, group.attribute, group.assessors, group.products, values)));
+}
+
+function indicesOfTable(table: CellStatistics): AssessorIndicesJson[] {
   const rows: AssessorIndicesJson[] = [];
   for (let a = 0; a < table.assessors.length; a++) rows.push(assessorRow(table, a));
   return rows;
@@ -30,7 +41,7 @@ export function contractIndices(observations: readonly Observation[]): AssessorI
 interface CodedRatings {
   session: string;
   attribute: string;
-  observations: readonly Observation[];
+  values: readonly number[];
   assessors: string[];
   nProducts: number;
   assessorOf: Int32Array;
@@ -62,6 +73,24 @@ interface CellStatistics {
 function codeRatings(observations: readonly Observation[]): CodedRatings {
   const n = observations.length;
   const { session, attribute } = observations[0];
+  const values: number[] = new Array(n);
+  const assessors: string[] = new Array(n);
+  const products: string[] = new Array(n);
+  for (let i = 0; i < n; i++) {
+    const observation = observations[i];
+    if (observation.session !== session || observation.attribute !== attribute) {
+      throw new Error('buildCellTable: observations must come from one session and one attribute');
+    }
+    if (!Number.isFinite(observation.value)) throw new Error('buildCellTable: a rating value is not a finite number');
+    values[i] = observation.value;
+    assessors[i] = observation.assessor;
+    products[i] = observation.product;
+  }
+  return codeGroup(session, attribute, assessors, products, values);
+}
+
+function codeGroup(session: string, attribute: string, assessorOfRating: readonly string[], productOfRating: readonly string[], values: readonly number[]): CodedRatings {
+  const n = values.length;
   const assessorCode = new Map<string, number>();
   const productCode = new Map<string, number>();
   const assessors: string[] = [];
@@ -70,14 +99,9 @@ function codeRatings(observations: readonly Observation[]): CodedRatings {
   let lastAssessor: string | undefined;
   let lastAssessorCode = -1;
   for (let i = 0; i < n; i++) {
-    const observation = observations[i];
-    if (observation.session !== session || observation.attribute !== attribute) {
-      throw new Error('buildCellTable: observations must come from one session and one attribute');
-    }
-    if (!Number.isFinite(observation.value)) throw new Error('buildCellTable: a rating value is not a finite number');
     // Consecutive ratings mostly share the assessor: compare before hashing.
-    if (observation.assessor !== lastAssessor) {
-      lastAssessor = observation.assessor;
+    if (assessorOfRating[i] !== lastAssessor) {
+      lastAssessor = assessorOfRating[i];
       let code = assessorCode.get(lastAssessor);
       if (code === undefined) {
         assessorCode.set(lastAssessor, (code = assessors.length));
@@ -86,16 +110,16 @@ function codeRatings(observations: readonly Observation[]): CodedRatings {
       lastAssessorCode = code;
     }
     assessorOf[i] = lastAssessorCode;
-    let product = productCode.get(observation.product);
-    if (product === undefined) productCode.set(observation.product, (product = productCode.size));
+    let product = productCode.get(productOfRating[i]);
+    if (product === undefined) productCode.set(productOfRating[i], (product = productCode.size));
     productOf[i] = product;
   }
-  return { session, attribute, observations, assessors, nProducts: productCode.size, assessorOf, productOf };
+  return { session, attribute, values, assessors, nProducts: productCode.size, assessorOf, productOf };
 }
 
 function cellStatistics(coded: CodedRatings): CellStatistics {
-  const { observations, assessorOf, productOf, nProducts: nP } = coded;
-  const n = observations.length;
+  const { values: ratingValues, assessorOf, productOf, nProducts: nP } = coded;
+  const n = ratingValues.length;
   const nA = coded.assessors.length;
   const nCells = nA * nP;
   // Ratings grouped by cell, in rating order within a cell (a counting sort). An assessor's
@@ -113,7 +137,7 @@ function cellStatistics(coded: CodedRatings): CellStatistics {
   for (let c = 0; c < nCells; c++) start[c + 1] = start[c] + counts[c];
   const values = new Float64Array(n);
   const cursor = start.slice(0, nCells);
-  for (let i = 0; i < n; i++) values[cursor[assessorOf[i] * nP + productOf[i]]++] = observations[i].value;
+  for (let i = 0; i < n; i++) values[cursor[assessorOf[i] * nP + productOf[i]]++] = ratingValues[i];
 
   const cellMeans = new Float64Array(nCells);
   for (let c = 0; c < nCells; c++) if (counts[c] > 0) cellMeans[c] = meanOfRange(values, start[c], start[c + 1]);
@@ -153,11 +177,10 @@ function assessorRow(table: CellStatistics, a: number): AssessorIndicesJson {
     if (counts[cell] === 0) continue;
     own.push(cellMeans[cell]);
     panel.push(panelMeans[p]);
-    const rest: number[] = [];
-    for (let other = 0; other < nA; other++) if (other !== a && counts[other * nP + p] > 0) rest.push(cellMeans[other * nP + p]);
-    if (rest.length > 0) {
+    const rest = meanOfOthers(table, a, p);
+    if (!Number.isNaN(rest)) {
       agreementOwn.push(cellMeans[cell]);
-      agreementRest.push(mean(rest));
+      agreementRest.push(rest);
     }
   }
   const nProducts = own.length;
@@ -224,5 +247,27 @@ function meanOfRange(values: Float64Array, from: number, to: number): number {
   const first = sum / n;
   let correction = 0;
   for (let k = from; k < to; k++) correction += values[k] - first;
+  return first + correction / n;
+}
+
+/**
+ * mean() over the other assessors' cell means of product p (assessor order), NaN when no one else
+ * rated it; the same two passes, without an array per product (6,240 assessor rows a year).
+ */
+function meanOfOthers(table: CellStatistics, a: number, p: number): number {
+  const { counts, cellMeans, nProducts: nP } = table;
+  const nA = table.assessors.length;
+  let n = 0;
+  let sum = 0;
+  for (let other = 0; other < nA; other++) {
+    if (other !== a && counts[other * nP + p] > 0) {
+      sum += cellMeans[other * nP + p];
+      n++;
+    }
+  }
+  if (n === 0) return Number.NaN;
+  const first = sum / n;
+  let correction = 0;
+  for (let other = 0; other < nA; other++) if (other !== a && counts[other * nP + p] > 0) correction += cellMeans[other * nP + p] - first;
   return first + correction / n;
 }

@@ -9,7 +9,7 @@
  * (`withDiagnostics`) or reads the LmmFit, or when neither fast path answers.
  */
 import type { FitJson } from '../../domain/analysis.js';
-import type { Observation } from '../../domain/ratings.js';
+import type { Observation, RatingGroup } from '../../domain/ratings.js';
 import { balancedAnova } from './balanced-anova.js';
 import { LmmFitError } from './errors.js';
 import type { LmmFit } from './fit.js';
@@ -45,9 +45,15 @@ export interface SessionModelFit {
 export function fitSessionModel(observations: Observation[], options: SessionModelOptions = {}): SessionModelFit {
   const { session, attribute } = checkOneGroup(observations);
   const values = observations.map((row) => row.value);
-  checkResponse(values);
   const assessors = observations.map((row) => row.assessor);
   const products = observations.map((row) => row.product);
+  return fitSessionGroup({ session: session!, attribute, values, assessors, products }, options);
+}
+
+/** fitSessionModel on a group already taken from one session and attribute (the analyze path). */
+export function fitSessionGroup(group: RatingGroup, options: SessionModelOptions = {}): SessionModelFit {
+  const { session, attribute, values, assessors, products } = group;
+  checkResponse(values);
   const assessorCoding = codeLevels(assessors);
   const nAssessors = assessorCoding.levels.length;
   if (nAssessors < 2) throw new LmmFitError('too-few-assessors', `only ${nAssessors} assessor rated ${attribute}: a panel model needs at least 2`);
@@ -80,7 +86,7 @@ export function fitSessionModel(observations: Observation[], options: SessionMod
       },
     };
   }
-  if (!anova && observations.length > nProducts) {
+  if (!anova && values.length > nProducts) {
     // Unbalanced (missing ratings, empty cells, a new assessor): fitted from the cell summaries;
     // the general machinery runs only when someone asks for the LmmFit.
     const criterion = makeSessionCriterion(values, cells.assessorCodes, cells.productCodes, nAssessors, nProducts, withInteraction);
@@ -91,7 +97,7 @@ export function fitSessionModel(observations: Observation[], options: SessionMod
       if (nAssessors < 3) diagnostics.messages.push(`too few assessors (${nAssessors}): the assessor variance is poorly determined`);
       let completed: LmmFit | null = null;
       return {
-        json: cellsFitJson(session, attribute, fast, withInteraction, observations.length, assessorCoding.levels, productCoding.levels),
+        json: cellsFitJson(session, attribute, fast, withInteraction, values.length, assessorCoding.levels, productCoding.levels),
         diagnostics,
         withInteraction,
         get fit() {

@@ -9,12 +9,12 @@
 import { existsSync, statSync } from 'node:fs';
 import { basename } from 'node:path';
 import type { Command } from 'commander';
-import { analyzeRatingsWithNotes } from '../../analysis/analyze-ratings.js';
+import { analyzeRatingColumns } from '../../analysis/analyze-ratings.js';
 import { LevelCoder } from '../../domain/level-coder.js';
 import { MAX_LISTED_PROBLEMS, type InputFinding, type InputProblem } from '../../domain/problems.js';
-import type { Observation, Rating } from '../../domain/ratings.js';
+import type { RatingColumns } from '../../domain/ratings.js';
 import { classifyRepeat } from '../../ingest/duplicate-rule.js';
-import { readRatingBatches } from '../../ingest/read-ratings.js';
+import { F_ASSESSOR, F_ATTRIBUTE, F_CODE, F_PRODUCT, F_REPLICATE, F_SESSION, KEY_FIELDS, KIND_ASSESSOR, KIND_ATTRIBUTE, KIND_CODE, KIND_PRODUCT, KIND_SESSION, NAME_KINDS, readCompactBatches } from '../../ingest/compact-batches.js';
 import { CliError } from './cli-error.js';
 import type { CommandOutput } from './import-command.js';
 import { COMMAND_SUMMARIES } from './command-summaries.js';
@@ -43,19 +43,10 @@ export async function runAnalyzeCommand(file: string, options: AnalyzeCommandOpt
   const fileName = basename(file);
   if (!existsSync(file) || !statSync(file).isFile()) throw new CliError(`${fileName}: no such file.`, 2);
 
-  const observations: Rating[] = [];
   const problems: InputProblem[] = [];
   const findings: InputFinding[] = [];
-  // Batches, not single events: one await per batch instead of one per rating.
-  for await (const batch of readRatingBatches({ path: file }, { fileName, sheet: options.sheet, scaleFor: () => 'unchecked' })) {
-    for (const event of batch) {
-      // A Rating is an Observation (plus date and code: the models ignore them, the duplicate rule reads the code): no copy.
-      if (event.type === 'rating') observations.push(event.rating);
-      else if (event.type === 'problem') problems.push(event.problem);
-      else if (event.type === 'finding') findings.push(event.finding);
-    }
-  }
-  const duplicates = checkDuplicates(observations, fileName);
+  const read = await readColumns(file, fileName, options.sheet, problems, findings);
+  const duplicates = checkDuplicates(read, fileName);
   problems.push(...duplicates.problems);
   const formatProblemLine = problems.length > 0 || findings.length > 0 ? await problemLineFormatter() : null;
   const notes = findings.map((finding) => `note: ${formatProblemLine!(finding)}`);
@@ -67,13 +58,13 @@ export async function runAnalyzeCommand(file: string, options: AnalyzeCommandOpt
     output.stderr.write(`${lines.join('\n')}\n`);
     return 1;
   }
-  if (observations.length === 0) {
+  if (read.columns.n === 0) {
     output.stderr.write(`${fileName}: no ratings to analyse.\n`);
     return 1;
   }
-  const dropped = observations.length - duplicates.kept.length;
+  const dropped = read.columns.n - duplicates.kept.n;
   if (dropped > 0) notes.push(`note: ${dropped} repeated rating${dropped === 1 ? '' : 's'} (same keys and value) counted once.`);
-  const { json, notes: fitNotes } = analyzeRatingsWithNotes(duplicates.kept, {
+  const { json, notes: fitNotes } = analyzeRatingColumns(duplicates.kept, {
     period: options.period ?? false,
     // A fault of the program, not of the file: its stack goes to stderr for the bug report.
     onFitFailure: (error, where) =>
@@ -90,64 +81,144 @@ export async function runAnalyzeCommand(file: string, options: AnalyzeCommandOpt
   return 0;
 }
 
+/** The file's ratings as columns, and each rating's sample-code id (0: none) into `codeNames`. */
+interface ReadColumns {
+  columns: RatingColumns;
+  code: Int32Array;
+  codeNames: readonly string[];
+}
+
+/**
+ * Reads the file with the import's compact reader (names as integer ids, no object per rating)
+ * into columns; problems and findings go to the given lists in reading order.
+ */
+async function readColumns(file: string, fileName: string, sheet: string | undefined, problems: InputProblem[], findings: InputFinding[]): Promise<ReadColumns> {
+  // Ids are 1-based per kind (0: none); names[kind][id].
+  const names = NAME_KINDS.map(() => [''] as string[]);
+  let keys = new Int32Array(1 << 16);
+  let values = new Float64Array(1 << 13);
+  let n = 0;
+  for await (const batch of readCompactBatches({ path: file }, { fileName, sheet, scaleFor: () => 'unchecked' })) {
+    batch.newNames.forEach((fresh, kind) => {
+      for (const name of fresh) names[kind].push(name);
+    });
+    for (const { event } of batch.others) {
+      if (event.type === 'problem') problems.push(event.problem);
+      else findings.push(event.finding);
+    }
+    if (n + batch.nRatings > values.length) {
+      const size = Math.max(2 * values.length, n + batch.nRatings);
+      const grownValues = new Float64Array(size);
+      grownValues.set(values.subarray(0, n));
+      values = grownValues;
+      const grownKeys = new Int32Array(size * KEY_FIELDS);
+      grownKeys.set(keys.subarray(0, n * KEY_FIELDS));
+      keys = grownKeys;
+    }
+    keys.set(batch.keys, n * KEY_FIELDS);
+    values.set(batch.values, n);
+    n += batch.nRatings;
+  }
+  const field = (offset: number): Int32Array => {
+    const column = new Int32Array(n);
+    for (let i = 0; i < n; i++) column[i] = keys[i * KEY_FIELDS + offset];
+    return column;
+  };
+  return {
+    columns: {
+      n,
+      session: field(F_SESSION),
+      attribute: field(F_ATTRIBUTE),
+      assessor: field(F_ASSESSOR),
+      product: field(F_PRODUCT),
+      replicate: field(F_REPLICATE),
+      value: values.slice(0, n),
+      sessionNames: names[KIND_SESSION],
+      attributeNames: names[KIND_ATTRIBUTE],
+      assessorNames: names[KIND_ASSESSOR],
+      productNames: names[KIND_PRODUCT],
+    },
+    code: field(F_CODE),
+    codeNames: names[KIND_CODE],
+  };
+}
+
 /**
  * The import's duplicate rule (ingest/duplicate-rule.ts) over the file: a conflicting copy cannot
- * be analysed, one problem per later row that differs from the first; an exact repeat is counted
- * once (`kept` holds the first of each key, in order). Row numbers are not kept per rating, so
- * the problem names the keys.
+ * be analysed, one problem per later rating that differs from the first; an exact repeat is
+ * counted once (`kept` holds the first of each key, in order). Row numbers are not kept per
+ * rating, so the problem names the keys.
  */
-function checkDuplicates(observations: readonly Rating[], fileName: string): { problems: InputProblem[]; kept: Rating[] } {
-  const firstRowOfKey = ratingKeyIndex(observations);
+function checkDuplicates(read: ReadColumns, fileName: string): { problems: InputProblem[]; kept: RatingColumns } {
+  const { columns, code, codeNames } = read;
+  const firstRowOfKey = ratingKeyIndex(columns);
   const problems: InputProblem[] = [];
-  const kept: Rating[] = [];
-  observations.forEach((row, i) => {
+  const keptRows: number[] = [];
+  for (let i = 0; i < columns.n; i++) {
     const first = firstRowOfKey[i];
-    if (first === i) kept.push(row);
-    else if (classifyRepeat(observations[first], row) === 'conflict') {
-      const previous = observations[first].value;
-      const [earlierCode, laterCode] = [observations[first].code ?? null, row.code ?? null];
-      problems.push({
-        code: 'conflicting-duplicate',
-        file: fileName,
-        row: null,
-        column: null,
-        message: `Session ${row.session}, assessor ${row.assessor}, product ${row.product}, replicate ${row.replicate}, attribute ${row.attribute} has ${previous !== row.value ? `two different values (${previous} and ${row.value})` : `the value ${row.value} twice`}${earlierCode !== laterCode ? ` with sample codes ${earlierCode ?? 'none'} and ${laterCode ?? 'none'}` : ''}; keep one or number the replicates.`,
-      });
+    if (first === i) {
+      keptRows.push(i);
+      continue;
     }
-  });
+    const earlier = { value: columns.value[first], code: code[first] };
+    const later = { value: columns.value[i], code: code[i] };
+    if (classifyRepeat(earlier, later) !== 'conflict') continue;
+    const [earlierCode, laterCode] = [code[first] === 0 ? null : codeNames[code[first]], code[i] === 0 ? null : codeNames[code[i]]];
+    problems.push({
+      code: 'conflicting-duplicate',
+      file: fileName,
+      row: null,
+      column: null,
+      message: `Session ${columns.sessionNames[columns.session[i]]}, assessor ${columns.assessorNames[columns.assessor[i]]}, product ${columns.productNames[columns.product[i]]}, replicate ${columns.replicate[i]}, attribute ${columns.attributeNames[columns.attribute[i]]} has ${earlier.value !== later.value ? `two different values (${earlier.value} and ${later.value})` : `the value ${later.value} twice`}${earlierCode !== laterCode ? ` with sample codes ${earlierCode ?? 'none'} and ${laterCode ?? 'none'}` : ''}; keep one or number the replicates.`,
+    });
+  }
+  if (keptRows.length === columns.n) return { problems, kept: columns };
+  const rows = Int32Array.from(keptRows);
+  const pick = <T extends Int32Array | Float64Array>(column: T): T => {
+    const out = new (column.constructor as new (n: number) => T)(rows.length);
+    for (let k = 0; k < rows.length; k++) out[k] = column[rows[k]];
+    return out;
+  };
+  const kept: RatingColumns = {
+    ...columns,
+    n: rows.length,
+    session: pick(columns.session),
+    attribute: pick(columns.attribute),
+    assessor: pick(columns.assessor),
+    product: pick(columns.product),
+    replicate: pick(columns.replicate),
+    value: pick(columns.value),
+  };
   return { problems, kept };
 }
 
 /**
- * For each rating, the index of the first rating with the same five keys. Each key column is
- * coded to small integers (one pass over the ratings for all five) and the five codes combine
+ * For each rating, the index of the first rating with the same five keys. The reader already
+ * gives the names as dense ids; the replicate numbers are coded here, and the five codes combine
  * into one number, so no key string is built per rating (75 000 ratings a year).
  */
-function ratingKeyIndex(observations: readonly Observation[]): Int32Array {
-  const n = observations.length;
-  const coders = [new LevelCoder<string | number>(), new LevelCoder<string | number>(), new LevelCoder<string | number>(), new LevelCoder<string | number>(), new LevelCoder<string | number>()];
-  const codes = coders.map(() => new Int32Array(n));
-  const [session, attribute, assessor, product, replicate] = coders;
-  const [sessionCodes, attributeCodes, assessorCodes, productCodes, replicateCodes] = codes;
-  for (let i = 0; i < n; i++) {
-    const row = observations[i];
-    sessionCodes[i] = session.code(row.session);
-    attributeCodes[i] = attribute.code(row.attribute);
-    assessorCodes[i] = assessor.code(row.assessor);
-    productCodes[i] = product.code(row.product);
-    replicateCodes[i] = replicate.code(row.replicate);
-  }
+function ratingKeyIndex(columns: RatingColumns): Int32Array {
+  const n = columns.n;
+  const replicates = new LevelCoder<number>();
+  const replicateCodes = new Int32Array(n);
+  for (let i = 0; i < n; i++) replicateCodes[i] = replicates.code(columns.replicate[i]);
+  // Ids are 1-based (0 reserved), hence the + 1 in each size.
+  const coded: [Int32Array, number][] = [
+    [columns.session, columns.sessionNames.length + 1],
+    [columns.attribute, columns.attributeNames.length + 1],
+    [columns.assessor, columns.assessorNames.length + 1],
+    [columns.product, columns.productNames.length + 1],
+    [replicateCodes, replicates.size],
+  ];
   const keys = new Float64Array(n);
   let keySpace = 1;
-  coders.forEach((coder, c) => {
-    const size = coder.size;
-    const column = codes[c];
+  for (const [column, size] of coded) {
     keySpace *= size;
     for (let i = 0; i < n; i++) keys[i] = keys[i] * size + column[i];
     // Renumber the combinations present when the space grows large, so the next product stays
     // far below 2^53 (exact in a double); panels of real size never get here.
     if (keySpace > 4 * n + 4096) keySpace = renumber(keys);
-  });
+  }
   // keySpace ≤ 4n + 4096 here: a lookup table instead of a hash map.
   const firstRow = new Int32Array(n);
   const firstOfKey = new Int32Array(keySpace).fill(-1);

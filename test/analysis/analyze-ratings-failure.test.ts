@@ -4,15 +4,15 @@
  * with code "fit-failed", and the rest of the analysis is returned.
  */
 import { describe, expect, it, vi } from 'vitest';
-import type { Observation } from '../../domain/ratings.js';
+import type { Observation, RatingGroup } from '../../domain/ratings.js';
 
 vi.mock('../../analysis/lmm/fit-session-model.js', async (importOriginal) => {
   const original = await importOriginal<typeof import('../../analysis/lmm/fit-session-model.js')>();
   return {
     ...original,
-    fitSessionModel: (observations: Observation[]) => {
-      if (observations[0].attribute === 'bitterness') throw new TypeError('a planted fault');
-      return original.fitSessionModel(observations);
+    fitSessionGroup: (group: RatingGroup) => {
+      if (group.attribute === 'bitterness') throw new TypeError('a planted fault');
+      return original.fitSessionGroup(group);
     },
   };
 });
