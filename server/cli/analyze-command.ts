@@ -14,7 +14,7 @@ import { LevelCoder } from '../../domain/level-coder.js';
 import { MAX_LISTED_PROBLEMS, type InputFinding, type InputProblem } from '../../domain/problems.js';
 import type { RatingColumns } from '../../domain/ratings.js';
 import { classifyRepeat } from '../../ingest/duplicate-rule.js';
-import { F_ASSESSOR, F_ATTRIBUTE, F_CODE, F_PRODUCT, F_REPLICATE, F_SESSION, KEY_FIELDS, KIND_ASSESSOR, KIND_ATTRIBUTE, KIND_CODE, KIND_PRODUCT, KIND_SESSION, NAME_KINDS, readCompactBatches } from '../../ingest/compact-batches.js';
+import { readRatingColumns, type ReadColumns } from '../../ingest/read-columns.js';
 import { CliError } from './cli-error.js';
 import type { CommandOutput } from './import-command.js';
 import { COMMAND_SUMMARIES } from './command-summaries.js';
@@ -43,9 +43,8 @@ export async function runAnalyzeCommand(file: string, options: AnalyzeCommandOpt
   const fileName = basename(file);
   if (!existsSync(file) || !statSync(file).isFile()) throw new CliError(`${fileName}: no such file.`, 2);
 
-  const problems: InputProblem[] = [];
-  const findings: InputFinding[] = [];
-  const read = await readColumns(file, fileName, options.sheet, problems, findings);
+  const read = await readRatingColumns({ path: file }, { fileName, sheet: options.sheet, scaleFor: () => 'unchecked' });
+  const { problems, findings } = read;
   const duplicates = checkDuplicates(read, fileName);
   problems.push(...duplicates.problems);
   const formatProblemLine = problems.length > 0 || findings.length > 0 ? await problemLineFormatter() : null;
@@ -79,68 +78,6 @@ export async function runAnalyzeCommand(file: string, options: AnalyzeCommandOpt
   // JSON.stringify writes the shortest text that reads back to the same double (full precision).
   output.stdout.write(`${JSON.stringify(json, null, 2)}\n`);
   return 0;
-}
-
-/** The file's ratings as columns, and each rating's sample-code id (0: none) into `codeNames`. */
-interface ReadColumns {
-  columns: RatingColumns;
-  code: Int32Array;
-  codeNames: readonly string[];
-}
-
-/**
- * Reads the file with the import's compact reader (names as integer ids, no object per rating)
- * into columns; problems and findings go to the given lists in reading order.
- */
-async function readColumns(file: string, fileName: string, sheet: string | undefined, problems: InputProblem[], findings: InputFinding[]): Promise<ReadColumns> {
-  // Ids are 1-based per kind (0: none); names[kind][id].
-  const names = NAME_KINDS.map(() => [''] as string[]);
-  let keys = new Int32Array(1 << 16);
-  let values = new Float64Array(1 << 13);
-  let n = 0;
-  for await (const batch of readCompactBatches({ path: file }, { fileName, sheet, scaleFor: () => 'unchecked' })) {
-    batch.newNames.forEach((fresh, kind) => {
-      for (const name of fresh) names[kind].push(name);
-    });
-    for (const { event } of batch.others) {
-      if (event.type === 'problem') problems.push(event.problem);
-      else findings.push(event.finding);
-    }
-    if (n + batch.nRatings > values.length) {
-      const size = Math.max(2 * values.length, n + batch.nRatings);
-      const grownValues = new Float64Array(size);
-      grownValues.set(values.subarray(0, n));
-      values = grownValues;
-      const grownKeys = new Int32Array(size * KEY_FIELDS);
-      grownKeys.set(keys.subarray(0, n * KEY_FIELDS));
-      keys = grownKeys;
-    }
-    keys.set(batch.keys, n * KEY_FIELDS);
-    values.set(batch.values, n);
-    n += batch.nRatings;
-  }
-  const field = (offset: number): Int32Array => {
-    const column = new Int32Array(n);
-    for (let i = 0; i < n; i++) column[i] = keys[i * KEY_FIELDS + offset];
-    return column;
-  };
-  return {
-    columns: {
-      n,
-      session: field(F_SESSION),
-      attribute: field(F_ATTRIBUTE),
-      assessor: field(F_ASSESSOR),
-      product: field(F_PRODUCT),
-      replicate: field(F_REPLICATE),
-      value: values.slice(0, n),
-      sessionNames: names[KIND_SESSION],
-      attributeNames: names[KIND_ATTRIBUTE],
-      assessorNames: names[KIND_ASSESSOR],
-      productNames: names[KIND_PRODUCT],
-    },
-    code: field(F_CODE),
-    codeNames: names[KIND_CODE],
-  };
 }
 
 /**
@@ -202,12 +139,11 @@ function ratingKeyIndex(columns: RatingColumns): Int32Array {
   const replicates = new LevelCoder<number>();
   const replicateCodes = new Int32Array(n);
   for (let i = 0; i < n; i++) replicateCodes[i] = replicates.code(columns.replicate[i]);
-  // Ids are 1-based (0 reserved), hence the + 1 in each size.
   const coded: [Int32Array, number][] = [
-    [columns.session, columns.sessionNames.length + 1],
-    [columns.attribute, columns.attributeNames.length + 1],
-    [columns.assessor, columns.assessorNames.length + 1],
-    [columns.product, columns.productNames.length + 1],
+    [columns.session, columns.sessionNames.length],
+    [columns.attribute, columns.attributeNames.length],
+    [columns.assessor, columns.assessorNames.length],
+    [columns.product, columns.productNames.length],
     [replicateCodes, replicates.size],
   ];
   const keys = new Float64Array(n);
