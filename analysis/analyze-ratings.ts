@@ -116,16 +116,24 @@ function groupRows(columns: RatingColumns, period: boolean): Int32Array[] {
 function ratingGroup(columns: RatingColumns, rows: Int32Array): RatingGroup {
   const m = rows.length;
   const values: number[] = new Array(m);
-  const assessors: string[] = new Array(m);
-  const products: string[] = new Array(m);
+  const assessorIds = new Int32Array(m);
+  const productIds = new Int32Array(m);
   for (let k = 0; k < m; k++) {
     const i = rows[k];
     values[k] = columns.value[i];
-    assessors[k] = columns.assessorNames[columns.assessor[i]];
-    products[k] = columns.productNames[columns.product[i]];
+    assessorIds[k] = columns.assessor[i];
+    productIds[k] = columns.product[i];
   }
   const first = rows[0];
-  return { session: columns.sessionNames[columns.session[first]], attribute: columns.attributeNames[columns.attribute[first]], values, assessors, products };
+  return {
+    session: columns.sessionNames[columns.session[first]],
+    attribute: columns.attributeNames[columns.attribute[first]],
+    values,
+    assessorIds,
+    productIds,
+    assessorNames: columns.assessorNames,
+    productNames: columns.productNames,
+  };
 }
 
 /** The group's ratings as objects (the period model takes them so). */

@@ -28,8 +28,11 @@ export interface RatingGroup {
   session: string;
   attribute: string;
   values: number[];
-  assessors: string[];
-  products: string[];
+  /** Each rating's assessor and product as an id into the name list (ids need not be dense within the group). */
+  assessorIds: Int32Array;
+  productIds: Int32Array;
+  assessorNames: readonly string[];
+  productNames: readonly string[];
 }
 
 /**

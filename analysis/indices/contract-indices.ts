@@ -28,7 +28,7 @@ export function contractIndicesOfGroup(group: RatingGroup): AssessorIndicesJson[
   if (group.values.length === 0) return [];
   const { values } = group;
   for (let i = 0; i < values.length; i++) if (!Number.isFinite(values[i])) throw new Error('buildCellTable: a rating value is not a finite number');
-  return indicesOfTable(cellStatistics(codeGroup(group.session, group.attribute, group.assessors, group.products, values)));
+  return indicesOfTable(cellStatistics(codeGroupIds(group)));
 }
 
 function indicesOfTable(table: CellStatistics): AssessorIndicesJson[] {
@@ -115,6 +115,30 @@ function codeGroup(session: string, attribute: string, assessorOfRating: readonl
     productOf[i] = product;
   }
   return { session, attribute, values, assessors, nProducts: productCode.size, assessorOf, productOf };
+}
+
+/** codeGroup on ids: first-seen order through lookup tables instead of a hash per rating. */
+function codeGroupIds(group: RatingGroup): CodedRatings {
+  const { assessorIds, productIds, values } = group;
+  const n = values.length;
+  const assessorCode = new Int32Array(group.assessorNames.length).fill(-1);
+  const productCode = new Int32Array(group.productNames.length).fill(-1);
+  const assessors: string[] = [];
+  let nProducts = 0;
+  const assessorOf = new Int32Array(n);
+  const productOf = new Int32Array(n);
+  for (let i = 0; i < n; i++) {
+    let assessor = assessorCode[assessorIds[i]];
+    if (assessor < 0) {
+      assessor = assessorCode[assessorIds[i]] = assessors.length;
+      assessors.push(group.assessorNames[assessorIds[i]]);
+    }
+    assessorOf[i] = assessor;
+    let product = productCode[productIds[i]];
+    if (product < 0) product = productCode[productIds[i]] = nProducts++;
+    productOf[i] = product;
+  }
+  return { session: group.session, attribute: group.attribute, values, assessors, nProducts, assessorOf, productOf };
 }
 
 function cellStatistics(coded: CodedRatings): CellStatistics {

@@ -9,12 +9,13 @@
  * (`withDiagnostics`) or reads the LmmFit, or when neither fast path answers.
  */
 import type { FitJson } from '../../domain/analysis.js';
+import { LevelCoder } from '../../domain/level-coder.js';
 import type { Observation, RatingGroup } from '../../domain/ratings.js';
 import { balancedAnova } from './balanced-anova.js';
 import { LmmFitError } from './errors.js';
 import type { LmmFit } from './fit.js';
 import { fitSessionCells, type SessionCellsFit } from './session-cells-fit.js';
-import { checkOneGroup, checkReplicateVariation, checkResidualVariation, checkResponse, codeLevels, hasReplicatedCell } from './session-checks.js';
+import { checkOneGroup, checkReplicateVariation, checkResidualVariation, checkResponse, codeIds, hasReplicatedCell } from './session-checks.js';
 import { balancedClosedForm, closedFormJson } from './session-closed-form.js';
 import { makeSessionCriterion } from './session-criterion.js';
 import { ASSESSOR, ASSESSOR_PRODUCT, fitThroughFrame, SESSION_LEVELS, type SessionModelDiagnostics } from './session-general-fit.js';
@@ -45,19 +46,21 @@ export interface SessionModelFit {
 export function fitSessionModel(observations: Observation[], options: SessionModelOptions = {}): SessionModelFit {
   const { session, attribute } = checkOneGroup(observations);
   const values = observations.map((row) => row.value);
-  const assessors = observations.map((row) => row.assessor);
-  const products = observations.map((row) => row.product);
-  return fitSessionGroup({ session: session!, attribute, values, assessors, products }, options);
+  const assessorCoder = new LevelCoder<string>();
+  const productCoder = new LevelCoder<string>();
+  const assessorIds = Int32Array.from(observations, (row) => assessorCoder.code(row.assessor));
+  const productIds = Int32Array.from(observations, (row) => productCoder.code(row.product));
+  return fitSessionGroup({ session: session!, attribute, values, assessorIds, productIds, assessorNames: assessorCoder.names, productNames: productCoder.names }, options);
 }
 
 /** fitSessionModel on a group already taken from one session and attribute (the analyze path). */
 export function fitSessionGroup(group: RatingGroup, options: SessionModelOptions = {}): SessionModelFit {
-  const { session, attribute, values, assessors, products } = group;
+  const { session, attribute, values } = group;
   checkResponse(values);
-  const assessorCoding = codeLevels(assessors);
+  const assessorCoding = codeIds(group.assessorIds, group.assessorNames);
   const nAssessors = assessorCoding.levels.length;
   if (nAssessors < 2) throw new LmmFitError('too-few-assessors', `only ${nAssessors} assessor rated ${attribute}: a panel model needs at least 2`);
-  const productCoding = codeLevels(products);
+  const productCoding = codeIds(group.productIds, group.productNames);
   const nProducts = productCoding.levels.length;
 
   // With one product the interaction would duplicate the assessor term (not identifiable).
@@ -67,7 +70,11 @@ export function fitSessionGroup(group: RatingGroup, options: SessionModelOptions
   const anova = nProducts > 1 ? balancedAnova(values, assessorCoding.codes, productCoding.codes, nAssessors, nProducts) : null;
   const closedForm = anova ? balancedClosedForm(anova, withInteraction) : null;
   const cells = { assessorCodes: assessorCoding.codes, productCodes: productCoding.codes, nAssessors, nProducts };
-  const general = (): { fit: LmmFit; diagnostics: SessionModelDiagnostics } => fitThroughFrame(values, assessors, products, attribute, withInteraction, anova, closedForm, cells);
+  const general = (): { fit: LmmFit; diagnostics: SessionModelDiagnostics } => {
+    const assessors = Array.from(group.assessorIds, (id) => group.assessorNames[id]);
+    const products = Array.from(group.productIds, (id) => group.productNames[id]);
+    return fitThroughFrame(values, assessors, products, attribute, withInteraction, anova, closedForm, cells);
+  };
 
   if (anova && closedForm && closedForm.variances.residual > 0) {
     checkResidualVariation(closedForm.variances.residual, values, SESSION_LEVELS);

@@ -25,6 +25,32 @@ export function codeLevels(values: readonly string[]): { levels: string[]; codes
   return { levels, codes };
 }
 
+/**
+ * codeLevels of the names that ids stand for (`names[ids[i]]`), without hashing a string per
+ * rating: the ids are coded first-seen through a lookup table, then renumbered after sorting the
+ * few levels by name. Same levels and codes as codeLevels on the names.
+ */
+export function codeIds(ids: Int32Array, names: readonly string[]): { levels: string[]; codes: Int32Array } {
+  const n = ids.length;
+  const localOf = new Int32Array(names.length).fill(-1);
+  const seen: number[] = [];
+  const codes = new Int32Array(n);
+  for (let i = 0; i < n; i++) {
+    let local = localOf[ids[i]];
+    if (local < 0) {
+      local = localOf[ids[i]] = seen.length;
+      seen.push(ids[i]);
+    }
+    codes[i] = local;
+  }
+  const levels = seen.map((id) => names[id]).sort(compareLevels);
+  const sortedCode = new Int32Array(levels.length);
+  const position = new Map(levels.map((level, at) => [level, at]));
+  seen.forEach((id, local) => (sortedCode[local] = position.get(names[id])!));
+  for (let i = 0; i < n; i++) codes[i] = sortedCode[codes[i]];
+  return { levels, codes };
+}
+
 /** True when some assessor × product cell holds more than one rating. */
 export function hasReplicatedCell(assessorCodes: Int32Array, productCodes: Int32Array, nProducts: number): boolean {
   const seen = new Set<number>();
