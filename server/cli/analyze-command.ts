@@ -18,6 +18,7 @@ import { readRatingColumns, type ReadColumns } from '../../ingest/read-columns.j
 import { CliError } from './cli-error.js';
 import type { CommandOutput } from './import-command.js';
 import { COMMAND_SUMMARIES } from './command-summaries.js';
+import { writeLongText } from './write-stdout.js';
 
 /**
  * The import command's problem-line format, loaded only when there is a problem or finding to
@@ -76,7 +77,7 @@ export async function runAnalyzeCommand(file: string, options: AnalyzeCommandOpt
     return 0;
   }
   // JSON.stringify writes the shortest text that reads back to the same double (full precision).
-  output.stdout.write(`${JSON.stringify(json, null, 2)}\n`);
+  writeLongText(`${JSON.stringify(json, null, 2)}\n`, output);
   return 0;
 }
 
@@ -90,11 +91,12 @@ function checkDuplicates(read: ReadColumns, fileName: string): { problems: Input
   const { columns, code, codeNames } = read;
   const firstRowOfKey = ratingKeyIndex(columns);
   const problems: InputProblem[] = [];
-  const keptRows: number[] = [];
+  const keptRows = new Int32Array(columns.n);
+  let nKept = 0;
   for (let i = 0; i < columns.n; i++) {
     const first = firstRowOfKey[i];
     if (first === i) {
-      keptRows.push(i);
+      keptRows[nKept++] = i;
       continue;
     }
     const earlier = { value: columns.value[first], code: code[first] };
@@ -109,8 +111,8 @@ function checkDuplicates(read: ReadColumns, fileName: string): { problems: Input
       message: `Session ${columns.sessionNames[columns.session[i]]}, assessor ${columns.assessorNames[columns.assessor[i]]}, product ${columns.productNames[columns.product[i]]}, replicate ${columns.replicate[i]}, attribute ${columns.attributeNames[columns.attribute[i]]} has ${earlier.value !== later.value ? `two different values (${earlier.value} and ${later.value})` : `the value ${later.value} twice`}${earlierCode !== laterCode ? ` with sample codes ${earlierCode ?? 'none'} and ${laterCode ?? 'none'}` : ''}; keep one or number the replicates.`,
     });
   }
-  if (keptRows.length === columns.n) return { problems, kept: columns };
-  const rows = Int32Array.from(keptRows);
+  if (nKept === columns.n) return { problems, kept: columns };
+  const rows = keptRows.subarray(0, nKept);
   const pick = <T extends Int32Array | Float64Array>(column: T): T => {
     const out = new (column.constructor as new (n: number) => T)(rows.length);
     for (let k = 0; k < rows.length; k++) out[k] = column[rows[k]];
@@ -136,9 +138,18 @@ function checkDuplicates(read: ReadColumns, fileName: string): { problems: Input
  */
 function ratingKeyIndex(columns: RatingColumns): Int32Array {
   const n = columns.n;
+  // Replicate numbers are small in practice: a lookup table for those, the coder for the rest.
   const replicates = new LevelCoder<number>();
+  const smallReplicateCode = new Int32Array(64).fill(-1);
   const replicateCodes = new Int32Array(n);
-  for (let i = 0; i < n; i++) replicateCodes[i] = replicates.code(columns.replicate[i]);
+  for (let i = 0; i < n; i++) {
+    const replicate = columns.replicate[i];
+    if (replicate >= 0 && replicate < 64) {
+      let code = smallReplicateCode[replicate];
+      if (code < 0) code = smallReplicateCode[replicate] = replicates.code(replicate);
+      replicateCodes[i] = code;
+    } else replicateCodes[i] = replicates.code(replicate);
+  }
   const coded: [Int32Array, number][] = [
     [columns.session, columns.sessionNames.length],
     [columns.attribute, columns.attributeNames.length],
