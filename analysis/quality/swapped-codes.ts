@@ -1,6 +1,7 @@
 /**
  * Longer than 400 lines: the whole-session test, the replicate-level test and the pooled spread
- * they share are one method (methods §5.10); apart, the same profile tables would be built twice.
+ * and slope they share are one method (methods §5.10); apart, the same profile tables would be
+ * built twice.
  *
  * Suspected swapped sample codes (methods §5.10 and §5.13): a test of "served as labelled" against
  * "p and q exchanged" for one assessor, judged against that assessor's own residual spread.
@@ -177,7 +178,8 @@ function profileNoise(tables: readonly Table[], panelN: Float64Array, nP: number
 
 /**
  * @param priorSpreads per assessor, their residual spreads in earlier sessions (oldest first); the
- *   last SWAP_HISTORY_SESSIONS with the session's number of replicates are pooled with its own.
+ *   last SWAP_HISTORY_SESSIONS with the session's number of replicates are pooled with its own,
+ *   and the slopes of the last SWAP_HISTORY_SESSIONS (any number of replicates) with its slope.
  */
 export function detectSwappedCodes(
   data: SessionData,
