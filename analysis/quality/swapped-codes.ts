@@ -1,6 +1,7 @@
 /**
  * Longer than 400 lines: the whole-session test, the replicate-level test and the pooled spread
- * they share are one method (methods §5.10); apart, the same profile tables would be built twice.
+ * and slope they share are one method (methods §5.10); apart, the same profile tables would be
+ * built twice.
  *
  * Suspected swapped sample codes (methods §5.10 and §5.13): a test of "served as labelled" against
  * "p and q exchanged" for one assessor, judged against that assessor's own residual spread.
@@ -17,6 +18,9 @@
  * and D² are taken net of it (errors in variables, Fuller 1987), and the SE of S ∓ b̂·D̃² includes
  * the slope's own variance: t₀ = (S − b̂·D̃²)/SE and t₁ = (S + b̂·D̃²)/SE (≈ t_ν under the
  * respective model; t₁ − t₀ is the shift a swap makes, computed without d).
+ * τ̂² and b̂ are pooled with the assessor's recent sessions (lasting properties of an assessor):
+ * τ̂² df-weighted under an F-test guard, b̂ by inverse-variance weights with the slope those
+ * sessions predict (random-effects pooling, DerSimonian & Laird 1986) under a z-test guard.
  * A swap is alleged when the served assignment is rejected (t₀ ≤ −c) and the swapped one is not
  * (|t₁| < c), ρ ≥ minRelativeGain, b > 0 and the panel itself tells p and q apart (some attribute
  * with |c_j|/SE_j beyond the Bonferroni-over-attributes t quantile at 0.05, SE from MS_AP). The
@@ -27,7 +31,7 @@
  * replicate's ratings, and the replicate's contrast must differ from the assessor's own other
  * replicates' in the direction a swap predicts, judged against their own replicate error.
  */
-import { fQuantile, tQuantile, tUpperTail } from '../distributions/index.js';
+import { fQuantile, normalQuantile, tQuantile, tUpperTail } from '../distributions/index.js';
 import { cellMeans, interactionMeanSquare, type SessionData } from './session-data.js';
 
 export interface SwapFinding {
@@ -54,7 +58,10 @@ export interface SwapFinding {
   separationSd: number;
   /** Largest |panel difference / SE| of the pair over the attributes. */
   panelSeparationT: number;
-  /** The assessor's slope on the panel profile (pair pooled, net of the panel's own noise). */
+  /**
+   * The assessor's slope on the panel profile (pair pooled, net of the panel's own noise), combined
+   * with their recent sessions' slopes when those agree with it (methods §5.10).
+   */
   slope: number;
 }
 
@@ -79,6 +86,13 @@ export interface ResidualSpread {
   variance: number;
   df: number;
   nReplicates: number;
+  /**
+   * The assessor's slope b̂ on the panel profile in that session (net of the panel's own noise) and
+   * its sampling variance τ̂²·Σg̃²/(Σg̃² − noise)²; absent when it could not be estimated. The
+   * slope has no units (own and panel profiles share the session's s_j), so sessions compare.
+   */
+  slope?: number;
+  slopeVariance?: number;
 }
 
 /** Previous sessions of the assessor whose residual variances are pooled with the session's own. */
@@ -88,6 +102,11 @@ export const SWAP_HISTORY_SESSIONS = 6;
  * recent ones (one-sided F test); when it is, the session is judged on its own variance and df.
  */
 export const SWAP_VARIANCE_CHECK_ALPHA = 0.05;
+/**
+ * Level of the two-sided check that the session's own slope agrees with the one its recent sessions
+ * predict; when it does not, the session's slope is used alone.
+ */
+export const SWAP_SLOPE_CHECK_ALPHA = 0.05;
 
 /** Usable attributes and their per-product sums; null when the session is too small for the check. */
 function sessionTables(data: SessionData, minAttributes: number) {
@@ -134,14 +153,33 @@ export function assessorResidualSpreads(data: SessionData, minAttributes: number
     const fit = residualFit(profiles.x, profiles.g, products.length, nJ, -1, -1);
     const df = nJ * (products.length - 1) - 1;
     if (!fit || df < 3 || !(fit.rss > 0)) continue;
-    out.set(assessor, { variance: fit.rss / df, df, nReplicates: data.nReplicates });
+    const variance = fit.rss / df;
+    const spread: ResidualSpread = { variance, df, nReplicates: data.nReplicates };
+    // No pair pooled: (P − 1)/P of the panel profile's noise is left after centring.
+    const sggNet = fit.sgg - (profileNoise(tables, profiles.panelN, products.length) * (products.length - 1)) / products.length;
+    if (sggNet > 0) {
+      spread.slope = (fit.slope * fit.sgg) / sggNet;
+      spread.slopeVariance = (variance * fit.sgg) / (sggNet * sggNet);
+    }
+    out.set(assessor, spread);
   }
   return out;
 }
 
+/** Σ over the cells of the panel means' own sampling variance, 1/(n̄·n) in s_j units. */
+function profileNoise(tables: readonly Table[], panelN: Float64Array, nP: number): number {
+  const nJ = tables.length;
+  let noise = 0;
+  for (let j = 0; j < nJ; j++) {
+    for (let i = 0; i < nP; i++) noise += 1 / (tables[j].replicatesPerCell * panelN[i * nJ + j]);
+  }
+  return noise;
+}
+
 /**
  * @param priorSpreads per assessor, their residual spreads in earlier sessions (oldest first); the
- *   last SWAP_HISTORY_SESSIONS with the session's number of replicates are pooled with its own.
+ *   last SWAP_HISTORY_SESSIONS with the session's number of replicates are pooled with its own,
+ *   and the slopes of the last SWAP_HISTORY_SESSIONS (any number of replicates) with its slope.
  */
 export function detectSwappedCodes(
   data: SessionData,
@@ -169,20 +207,7 @@ export function detectSwappedCodes(
   // 1. The whole session (cell means): a swap of every replicate, with the replicate noise averaged.
   // Every pair of every assessor is measured first, then the session's whole-session budget is
   // shared over them by what a swap of each would show (swapCutoffs), then judged.
-  const wholeTests: { assessor: string; productA: string; productB: string; stats: PairStatistics }[] = [];
-  for (const assessor of data.assessors) {
-    const sessionProducts = data.products.filter((p) => tables.every((t) => t.means.get(assessor)?.has(p)));
-    if (sessionProducts.length < 4) continue;
-    const whole = profilesOf(tables, assessor, 0, sessionProducts);
-    if (!whole) continue;
-    const prior = pooledPrior(priorSpreads.get(assessor) ?? [], data.nReplicates);
-    for (let p = 0; p < sessionProducts.length - 1; p++) {
-      for (let q = p + 1; q < sessionProducts.length; q++) {
-        const stats = pairStatistics(whole.x, whole.g, whole.panelN, sessionProducts.length, nJ, p, q, tables, prior);
-        if (stats) wholeTests.push({ assessor, productA: sessionProducts[p], productB: sessionProducts[q], stats });
-      }
-    }
-  }
+  const wholeTests = pairTests(data, tables, priorSpreads);
   // t₁ − t₀: the shift of t₀ that a swap of the pair makes, free of the pair's own contrast.
   const cutoffs = swapCutoffs(
     wholeTests.map((t) => ({ effect: t.stats.tSwapped - t.stats.tServed, df: t.stats.df })),
@@ -240,6 +265,44 @@ export function detectSwappedCodes(
   return findings;
 }
 
+/** One whole-session test of a pair of one assessor's products. */
+export interface WholeSessionTest {
+  assessor: string;
+  productA: string;
+  productB: string;
+  stats: PairStatistics;
+}
+
+/** Every testable pair of every assessor on the whole session's cell means (before any cut-off). */
+function pairTests(data: SessionData, tables: NonNullable<ReturnType<typeof sessionTables>>, priorSpreads: ReadonlyMap<string, readonly ResidualSpread[]>): WholeSessionTest[] {
+  const nJ = tables.length;
+  const out: WholeSessionTest[] = [];
+  for (const assessor of data.assessors) {
+    const sessionProducts = data.products.filter((p) => tables.every((t) => t.means.get(assessor)?.has(p)));
+    if (sessionProducts.length < 4) continue;
+    const whole = profilesOf(tables, assessor, 0, sessionProducts);
+    if (!whole) continue;
+    const history = priorSpreads.get(assessor) ?? [];
+    const prior: HistoryPrior = { spread: pooledPrior(history, data.nReplicates), slope: pooledSlope(history) };
+    for (let p = 0; p < sessionProducts.length - 1; p++) {
+      for (let q = p + 1; q < sessionProducts.length; q++) {
+        const stats = pairStatistics(whole.x, whole.g, whole.panelN, sessionProducts.length, nJ, p, q, tables, prior);
+        if (stats) out.push({ assessor, productA: sessionProducts[p], productB: sessionProducts[q], stats });
+      }
+    }
+  }
+  return out;
+}
+
+/**
+ * The whole-session statistics (t₀, t₁, df, …) of every testable pair, without cut-offs or the
+ * session's gates on discriminating attributes: for checking t₀'s calibration (bench, tests).
+ */
+export function wholeSessionTests(data: SessionData, minAttributes: number, priorSpreads: ReadonlyMap<string, readonly ResidualSpread[]> = new Map()): WholeSessionTest[] {
+  const tables = sessionTables(data, minAttributes);
+  return tables ? pairTests(data, tables, priorSpreads) : [];
+}
+
 /** Centred, scaled own ratings x and leave-one-out panel profile g over `products`. */
 function profilesOf(tables: NonNullable<ReturnType<typeof sessionTables>>, assessor: string, replicate: number, products: readonly string[]): { x: Float64Array; g: Float64Array; panelN: Float64Array } | null {
   const nP = products.length;
@@ -284,6 +347,46 @@ function pooledPrior(spreads: readonly ResidualSpread[], nReplicates: number): {
   return { variance: same.reduce((a, s) => a + s.df * s.variance, 0) / df, df };
 }
 
+/**
+ * The slope the assessor's last SWAP_HISTORY_SESSIONS sessions predict for this one, and the
+ * variance of that prediction; null with fewer than two. Random-effects pooling (DerSimonian &
+ * Laird 1986): the sessions' slopes weighted by 1/(V_k + σ̂_u²), σ̂_u² the between-session variance
+ * of the true slope by the method of moments (Cochran's Q, truncated at 0); a new session's slope
+ * differs from their mean by σ_u² on top of the mean's own variance.
+ */
+function pooledSlope(spreads: readonly ResidualSpread[]): { slope: number; variance: number } | null {
+  const usable = spreads
+    .slice(-SWAP_HISTORY_SESSIONS)
+    .filter((s): s is ResidualSpread & { slope: number; slopeVariance: number } => Number.isFinite(s.slope) && (s.slopeVariance ?? 0) > 0);
+  if (usable.length < 2) return null;
+  let sw = 0;
+  let sw2 = 0;
+  let swb = 0;
+  for (const s of usable) {
+    const w = 1 / s.slopeVariance;
+    sw += w;
+    sw2 += w * w;
+    swb += w * s.slope;
+  }
+  const fixed = swb / sw;
+  const q = usable.reduce((sum, s) => sum + (s.slope - fixed) ** 2 / s.slopeVariance, 0);
+  const between = Math.max(0, (q - (usable.length - 1)) / (sw - sw2 / sw));
+  let swr = 0;
+  let swrb = 0;
+  for (const s of usable) {
+    const w = 1 / (s.slopeVariance + between);
+    swr += w;
+    swrb += w * s.slope;
+  }
+  return { slope: swrb / swr, variance: 1 / swr + between };
+}
+
+/** What the assessor's recent sessions say: their pooled residual variance and predicted slope. */
+interface HistoryPrior {
+  spread: { variance: number; df: number } | null;
+  slope: { slope: number; variance: number } | null;
+}
+
 /** Slope of x on g and residual sum of squares, rows p and q replaced by their mean (p = q = −1: none). */
 function residualFit(x: Float64Array, g: Float64Array, nP: number, nJ: number, p: number, q: number): { slope: number; rss: number; sgg: number } | null {
   let sxg = 0;
@@ -325,7 +428,7 @@ function pairStatistics(
   p: number,
   q: number,
   tables: readonly Table[],
-  prior: { variance: number; df: number } | null,
+  prior: HistoryPrior | null,
 ): PairStatistics | null {
   // The panel must tell p and q apart on some attribute: |c_j| against the SE of a difference of
   // two product means, √(2 MS_AP / (n̄ · assessors)), in the same s_j units (so √(2 / (n̄ n))).
@@ -349,27 +452,36 @@ function pairStatistics(
   // The slope on the noisy panel profile is attenuated (Σg̃² holds the panel means' own sampling
   // variance, 1/(n̄·n) per cell in s_j units, (P − 2)/P of it left after centring and pooling the
   // pair); its method-of-moments correction divides by Σg̃² net of that noise (Fuller 1987, §1.1).
-  let profileNoise = 0;
-  for (let j = 0; j < nJ; j++) {
-    for (let i = 0; i < nP; i++) profileNoise += 1 / (tables[j].replicatesPerCell * panelN[i * nJ + j]);
-  }
-  const sggNet = fit.sgg - (profileNoise * (nP - 2)) / nP;
+  const sggNet = fit.sgg - (profileNoise(tables, panelN, nP) * (nP - 2)) / nP;
   if (!(sggNet > 0)) return null;
   const { rss } = fit;
-  const slope = (fit.slope * fit.sgg) / sggNet;
+  const sessionSlope = (fit.slope * fit.sgg) / sggNet;
   // Rows p and q pooled leave P − 2 df per attribute after centring; one more for the slope.
   const ownDf = nJ * (nP - 2) - 1;
-  if (ownDf < 3 || !(rss > 0) || !(slope > 0)) return null;
+  if (ownDf < 3 || !(rss > 0)) return null;
   const ownVariance = rss / ownDf;
   // With the assessor's recent sessions: the df-weighted pool, never below the session's own
   // variance (so a noisy day is not judged by a quieter history), and the session alone when its
   // variance is beyond the history's by the one-sided F test.
   let residualVariance = ownVariance;
   let df = ownDf;
-  if (prior && ownVariance / prior.variance <= fQuantile(1 - SWAP_VARIANCE_CHECK_ALPHA, ownDf, prior.df)) {
-    df = ownDf + prior.df;
-    residualVariance = Math.max(ownVariance, (rss + prior.variance * prior.df) / df);
+  const spread = prior?.spread;
+  if (spread && ownVariance / spread.variance <= fQuantile(1 - SWAP_VARIANCE_CHECK_ALPHA, ownDf, spread.df)) {
+    df = ownDf + spread.df;
+    residualVariance = Math.max(ownVariance, (rss + spread.variance * spread.df) / df);
   }
+  // The slope, likewise: the session's (variance τ̂²·Σg̃²/Σg̃²_net², a prediction's coefficient)
+  // combined by inverse-variance weights with the one the recent sessions predict, unless a
+  // two-sided z test at SWAP_SLOPE_CHECK_ALPHA finds the two apart (then the session's alone).
+  let slope = sessionSlope;
+  let slopeVariance = (residualVariance * fit.sgg) / (sggNet * sggNet);
+  const history = prior?.slope;
+  if (history && Math.abs(sessionSlope - history.slope) <= normalQuantile(1 - SWAP_SLOPE_CHECK_ALPHA / 2) * Math.sqrt(slopeVariance + history.variance)) {
+    const precision = 1 / slopeVariance + 1 / history.variance;
+    slope = (sessionSlope / slopeVariance + history.slope / history.variance) / precision;
+    slopeVariance = 1 / precision;
+  }
+  if (!(slope > 0)) return null;
   const differenceVariance = 2 * residualVariance;
   let s = 0;
   let cc = 0;
@@ -391,10 +503,11 @@ function pairStatistics(
   // A pair the panel does not separate beyond its noise predicts no difference: no swap is testable.
   const netSeparationSq = separationSq - panelNoise / differenceVariance;
   if (!(netSeparationSq > 0)) return null;
-  // SE of S ∓ b̂·(D² − K): S has variance D², and b̂ (from the pooled rows, independent of d) has
-  // variance τ̂²/Σg̃², which a pair whose panel contrast is large against the spread of the other
-  // products' profiles feels (the variance of a prediction with an estimated coefficient).
-  const statisticSe = Math.sqrt(separationSq + (netSeparationSq * netSeparationSq * residualVariance * fit.sgg) / (sggNet * sggNet));
+  // SE of S ∓ b̂·(D² − K): S has variance D², and b̂ (from the pooled rows and earlier sessions,
+  // independent of d) its variance above, which a pair whose panel contrast is large against the
+  // spread of the other products' profiles feels (the variance of a prediction with an estimated
+  // coefficient).
+  const statisticSe = Math.sqrt(separationSq + netSeparationSq * netSeparationSq * slopeVariance);
   const tServed = (s - slope * netSeparationSq) / statisticSe;
   const tSwapped = (s + slope * netSeparationSq) / statisticSe;
   // ρ: the share of the pair's distance from the panel profiles that the exchange removes.

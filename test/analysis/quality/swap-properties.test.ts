@@ -7,13 +7,15 @@
  * (b) no swap is alleged between two products the panel cannot tell apart, even when one is planted;
  * (c) a lenient or inconsistent assessor with no swap gets no swap finding.
  * (f) the budget allocation: levels add up to the budget, equal effects give Bonferroni;
- * (g) on clean sessions, with a generous budget, findings stay within what the budget allows.
+ * (g) on clean sessions, with a generous budget, findings stay within what the budget allows;
+ * (h) on clean sessions with a history, t₀ stays about t_ν (slope and spread pooled);
+ * (i) the pooled slope raises the power on an inconsistent assessor over the session's slope alone.
  * Invented data (a property test), the expected outcome written beside each case.
  */
 import { describe, expect, it } from 'vitest';
 import type { Rating } from '../../../domain/ratings.js';
 import { assessorResidualSpreads, detectSwappedCodes, sessionData, type ResidualSpread, type SwapFinding } from '../../../analysis/quality/index.js';
-import { swapCutoffs, swapRuleLevel } from '../../../analysis/quality/swapped-codes.js';
+import { swapCutoffs, swapRuleLevel, wholeSessionTests } from '../../../analysis/quality/swapped-codes.js';
 import { tUpperTail } from '../../../analysis/distributions/index.js';
 import { seededRandom } from '../flags/helpers/random.js';
 
@@ -31,6 +33,8 @@ interface Shape {
   noise?: Record<string, number>;
   /** Assessor whose P_a and P_b are exchanged in every replicate. */
   swap?: { assessor: string; a: string; b: string };
+  /** Assessor → scaling of the product differences (else drawn from 0.85–1.18 per session). */
+  scaling?: Record<string, number>;
 }
 
 const assessorName = (i: number) => `A${String(i + 1).padStart(2, '0')}`;
@@ -49,7 +53,8 @@ function session(shape: Shape): { ratings: Rating[]; profiles: number[][] } {
   for (let a = 0; a < shape.nAssessors; a++) {
     const assessor = assessorName(a);
     const level = rng.normal(0, 0.3) + (shape.levels?.[assessor] ?? 0);
-    const scaling = 0.85 + 0.33 * rng.uniform();
+    const drawn = 0.85 + 0.33 * rng.uniform();
+    const scaling = shape.scaling?.[assessor] ?? drawn;
     const noiseSd = 0.45 * (shape.noise?.[assessor] ?? 1);
     const interaction = profiles.map(() => profiles[0].map(() => rng.normal(0, 0.3)));
     for (let p = 0; p < shape.nProducts; p++) {
@@ -95,6 +100,11 @@ function history(shape: Shape, n: number): Map<string, ResidualSpread[]> {
   return out;
 }
 
+/** The same history with the slopes left out: the session's own slope is used alone. */
+function withoutSlopes(prior: ReadonlyMap<string, readonly ResidualSpread[]>): Map<string, ResidualSpread[]> {
+  return new Map([...prior].map(([assessor, list]) => [assessor, list.map(({ variance, df, nReplicates }) => ({ variance, df, nReplicates }))]));
+}
+
 /** Seeds × shapes: 8 and 15 assessors, 4 and 8 products, 1–3 replicates. */
 function shapes(nearIdentical: boolean): Omit<Shape, 'levels' | 'noise' | 'swap'>[] {
   const out: Omit<Shape, 'levels' | 'noise' | 'swap'>[] = [];
@@ -110,7 +120,31 @@ function shapes(nearIdentical: boolean): Omit<Shape, 'levels' | 'noise' | 'swap'
 }
 
 const distance = (x: number[], y: number[]) => Math.sqrt(x.reduce((s, v, j) => s + (v - y[j]) ** 2, 0));
-const names = (f: SwapFinding) => [f.productA, f.productB].sort().join('/');
+const names = (f: Pick<SwapFinding, 'productA' | 'productB'>) => [f.productA, f.productB].sort().join('/');
+
+/**
+ * Whole-session swaps planted on an inconsistent assessor A02 (noise × 2.5), one per pair of
+ * products whose profiles lie `from`–`to` of that assessor's SDs of a difference apart (from their
+ * replicate noise alone, 0.45 × 2.5 × √(2 / replicates) points; the profiles' Euclidean distance),
+ * over seeds and shapes, each with five earlier sessions of the same assessor.
+ */
+function noisySwaps(from: number, to: number): { shape: Shape; pair: string; prior: Map<string, ResidualSpread[]> }[] {
+  const out: { shape: Shape; pair: string; prior: Map<string, ResidualSpread[]> }[] = [];
+  for (const base of shapes(false)) {
+    const noise = { A02: 2.5 };
+    const { profiles } = session(base);
+    const sdDifference = 0.45 * 2.5 * Math.sqrt(2 / base.nReplicates);
+    const prior = history({ ...base, noise }, 5);
+    for (let a = 0; a < profiles.length; a++) {
+      for (let b = a + 1; b < profiles.length; b++) {
+        const d = distance(profiles[a], profiles[b]) / sdDifference;
+        if (d < from || d > to) continue;
+        out.push({ shape: { ...base, noise, swap: { assessor: 'A02', a: productName(a), b: productName(b) } }, pair: [productName(a), productName(b)].sort().join('/'), prior });
+      }
+    }
+  }
+  return out;
+}
 
 describe('swapped codes: properties over seeds and panel shapes', () => {
   it('(a) a whole-session swap of the two most different products is found, for exactly that pair and assessor', () => {
@@ -152,31 +186,17 @@ describe('swapped codes: properties over seeds and panel shapes', () => {
   });
 
   it('(d) an inconsistent assessor (noise × 2.5) with a swap of two products 4–6 of their SDs apart is found in ≥ 95 % of cases when five earlier sessions are pooled', () => {
-    // SD: of a difference of the assessor's cell means from their replicate noise alone,
-    // 0.45 × 2.5 × √(2 / replicates) points; the pair's distance is the profiles' Euclidean one.
     // Alone (no history) this assessor's pairs at that distance are found in 120 of 128 cases here.
-    let planted = 0;
+    const cases = noisySwaps(4, 6);
     let found = 0;
-    for (const base of shapes(false)) {
-      const noise = { A02: 2.5 };
-      const { profiles } = session(base);
-      const sdDifference = 0.45 * 2.5 * Math.sqrt(2 / base.nReplicates);
-      const prior = history({ ...base, noise }, 5);
-      for (let a = 0; a < profiles.length; a++) {
-        for (let b = a + 1; b < profiles.length; b++) {
-          const d = distance(profiles[a], profiles[b]) / sdDifference;
-          if (d < 4 || d > 6) continue;
-          const swap = { assessor: 'A02', a: productName(a), b: productName(b) };
-          const { findings } = detect({ ...base, noise, swap }, prior);
-          planted++;
-          if (findings.some((f) => f.assessor === 'A02' && f.replicate === null && names(f) === [swap.a, swap.b].sort().join('/'))) found++;
-          // Never another pair or another assessor.
-          expect(findings.filter((f) => f.assessor !== 'A02' || names(f) !== [swap.a, swap.b].sort().join('/')), `seed ${base.seed} ${swap.a}/${swap.b}`).toEqual([]);
-        }
-      }
+    for (const { shape, pair, prior } of cases) {
+      const { findings } = detect(shape, prior);
+      if (findings.some((f) => f.assessor === 'A02' && f.replicate === null && names(f) === pair)) found++;
+      // Never another pair or another assessor.
+      expect(findings.filter((f) => f.assessor !== 'A02' || names(f) !== pair), `seed ${shape.seed} ${pair}`).toEqual([]);
     }
-    expect(planted).toBeGreaterThan(100);
-    expect(found / planted).toBeGreaterThanOrEqual(0.95);
+    expect(cases.length).toBeGreaterThan(100);
+    expect(found / cases.length).toBeGreaterThanOrEqual(0.95);
   });
 
   it('(e) with five earlier sessions pooled, an inconsistent assessor with no swap gets no swap finding, also on a day much noisier than their history', () => {
@@ -190,6 +210,75 @@ describe('swapped codes: properties over seeds and panel shapes', () => {
         expect(findings.map((f) => `${f.assessor} ${names(f)} replicate ${f.replicate}`), label).toEqual([]);
       }
     }
+  });
+
+  it('(h) on clean sessions with five earlier ones pooled (slope and spread), t₀ stays about t_ν, also for an assessor whose scaling today is not their usual one', () => {
+    // Every testable pair of every assessor: A02 inconsistent (noise × 2.5) today and before; A03
+    // steeper before (scaling 1.3) than today (0.75), so their history predicts a slope too large
+    // for today (the slope check's job); the other assessors' scaling is drawn anew every session,
+    // so their slopes also vary between sessions beyond sampling error (the random-effects part,
+    // felt most with 4 products, where the slope's variance weighs most in the SE).
+    const all: number[] = [];
+    const fourProducts: number[] = [];
+    let expectedBelow3 = 0;
+    for (let round = 0; round < 3; round++) {
+      for (const nearIdentical of [false, true]) {
+        for (const base of shapes(nearIdentical)) {
+          const shape = { ...base, seed: base.seed + 5000 + 1000 * round, noise: { A02: 2.5 } };
+          const prior = history({ ...shape, scaling: { A03: 1.3 } }, 5);
+          const { ratings } = session({ ...shape, scaling: { A03: 0.75 } });
+          for (const test of wholeSessionTests(sessionData('S01', ratings, attributesOf(shape)), 5, prior)) {
+            all.push(test.stats.tServed);
+            if (shape.nProducts === 4) fourProducts.push(test.stats.tServed);
+            expectedBelow3 += tUpperTail(3, test.stats.df);
+          }
+        }
+      }
+    }
+    const mean = (v: number[]) => v.reduce((a, x) => a + x, 0) / v.length;
+    const sd = (v: number[]) => Math.sqrt(v.reduce((a, x) => a + (x - mean(v)) ** 2, 0) / (v.length - 1));
+    expect(all.length).toBeGreaterThan(20000);
+    expect(fourProducts.length).toBeGreaterThan(3000);
+    // t_ν with ν ≥ 15 has SD ≤ 1.07 (ν is larger with the history pooled): a too-narrow SE
+    // (the slope's between-session variance left out, or no slope check) widens t₀ beyond these.
+    expect(mean(all)).toBeGreaterThan(-0.05);
+    expect(mean(all)).toBeLessThan(0.1);
+    expect(sd(all)).toBeGreaterThan(0.93);
+    expect(sd(all)).toBeLessThan(1.05);
+    expect(sd(fourProducts)).toBeLessThan(1.1);
+    // The lower tail the cut-offs are set in: no more than t_ν's count and its Poisson 99.9 % margin.
+    const below3 = all.filter((v) => v <= -3).length;
+    expect(below3).toBeLessThanOrEqual(expectedBelow3 + 3.1 * Math.sqrt(expectedBelow3));
+  });
+
+  it('(i) the pooled slope finds more swaps of an inconsistent assessor than the session\'s slope alone, with nothing else alleged', () => {
+    // Pairs 3–6 of the assessor's SDs apart. Power: the shift a swap makes in t₀ (t₁ − t₀, its
+    // noncentrality, not using the pair's contrast) and the swaps found, with the history's slopes
+    // pooled and left out.
+    const cases = noisySwaps(3, 6);
+    const found = { pooled: 0, alone: 0 };
+    const shift = { pooled: 0, alone: 0 };
+    const shift4 = { pooled: 0, alone: 0 };
+    for (const { shape, pair, prior } of cases) {
+      const data = sessionData('S01', session(shape).ratings, attributesOf(shape));
+      for (const [variant, spreads] of [
+        ['pooled', prior],
+        ['alone', withoutSlopes(prior)],
+      ] as const) {
+        const test = wholeSessionTests(data, 5, spreads).find((t) => t.assessor === 'A02' && names(t) === pair);
+        const effect = test ? test.stats.tSwapped - test.stats.tServed : 0;
+        shift[variant] += effect;
+        if (shape.nProducts === 4) shift4[variant] += effect;
+        const { findings } = detect(shape, spreads);
+        if (findings.some((f) => f.assessor === 'A02' && f.replicate === null && names(f) === pair)) found[variant]++;
+        expect(findings.filter((f) => f.assessor !== 'A02' || names(f) !== pair), `seed ${shape.seed} ${pair} ${variant}`).toEqual([]);
+      }
+    }
+    expect(cases.length).toBeGreaterThan(100);
+    expect(found.pooled).toBeGreaterThanOrEqual(found.alone);
+    expect(shift.pooled).toBeGreaterThan(shift.alone);
+    // With 4 products the pooled pair leaves 3 rows for the session's slope: Var(b̂) weighs most.
+    expect(shift4.pooled).toBeGreaterThan(1.08 * shift4.alone);
   });
 
   it('(f) the cut-offs spend the budget through the rules\' own levels; equal effects give the Bonferroni cut-off', () => {
