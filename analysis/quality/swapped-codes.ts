@@ -32,6 +32,7 @@
  * replicates' in the direction a swap predicts, judged against their own replicate error.
  */
 import { fQuantile, normalQuantile, tQuantile, tUpperTail } from '../distributions/index.js';
+import { inverseVarianceCombination, randomEffectsPrediction } from './random-effects.js';
 import { cellMeans, interactionMeanSquare, type SessionData } from './session-data.js';
 
 export interface SwapFinding {
@@ -358,27 +359,8 @@ function pooledSlope(spreads: readonly ResidualSpread[]): { slope: number; varia
   const usable = spreads
     .slice(-SWAP_HISTORY_SESSIONS)
     .filter((s): s is ResidualSpread & { slope: number; slopeVariance: number } => Number.isFinite(s.slope) && (s.slopeVariance ?? 0) > 0);
-  if (usable.length < 2) return null;
-  let sw = 0;
-  let sw2 = 0;
-  let swb = 0;
-  for (const s of usable) {
-    const w = 1 / s.slopeVariance;
-    sw += w;
-    sw2 += w * w;
-    swb += w * s.slope;
-  }
-  const fixed = swb / sw;
-  const q = usable.reduce((sum, s) => sum + (s.slope - fixed) ** 2 / s.slopeVariance, 0);
-  const between = Math.max(0, (q - (usable.length - 1)) / (sw - sw2 / sw));
-  let swr = 0;
-  let swrb = 0;
-  for (const s of usable) {
-    const w = 1 / (s.slopeVariance + between);
-    swr += w;
-    swrb += w * s.slope;
-  }
-  return { slope: swrb / swr, variance: 1 / swr + between };
+  const prediction = randomEffectsPrediction(usable.map((s) => ({ value: s.slope, variance: s.slopeVariance })));
+  return prediction && { slope: prediction.mean, variance: prediction.predictionVariance };
 }
 
 /** What the assessor's recent sessions say: their pooled residual variance and predicted slope. */
@@ -477,9 +459,9 @@ function pairStatistics(
   let slopeVariance = (residualVariance * fit.sgg) / (sggNet * sggNet);
   const history = prior?.slope;
   if (history && Math.abs(sessionSlope - history.slope) <= normalQuantile(1 - SWAP_SLOPE_CHECK_ALPHA / 2) * Math.sqrt(slopeVariance + history.variance)) {
-    const precision = 1 / slopeVariance + 1 / history.variance;
-    slope = (sessionSlope / slopeVariance + history.slope / history.variance) / precision;
-    slopeVariance = 1 / precision;
+    const combined = inverseVarianceCombination({ value: sessionSlope, variance: slopeVariance }, { value: history.slope, variance: history.variance });
+    slope = combined.value;
+    slopeVariance = combined.variance;
   }
   if (!(slope > 0)) return null;
   const differenceVariance = 2 * residualVariance;
