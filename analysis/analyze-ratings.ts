@@ -40,24 +40,50 @@ export function analyzeRatingsWithNotes(ratings: readonly Observation[], options
 export function analyzeRatingColumns(columns: RatingColumns, options: AnalyzeOptions): { json: AnalyzeJson; notes: AnalyzeNote[] } {
   const fits: FitJson[] = [];
   const assessorIndices: AssessorIndicesJson[] = [];
+  const { notFitted, notes } = analyzeRatingColumnsInto(columns, options, {
+    fit: (fit) => fits.push(fit),
+    indices: (rows) => {
+      for (const row of rows) assessorIndices.push(row);
+    },
+  });
+  return { json: { fits, assessorIndices, ...(notFitted.length > 0 ? { notFitted } : {}) }, notes };
+}
+
+/** Receives the analysis as it is made: every fit (group order), then every group's indices. */
+export interface AnalyzeSink {
+  fit(fit: FitJson): void;
+  indices(rows: AssessorIndicesJson[]): void;
+}
+
+/**
+ * The analysis handed over piece by piece, in the JSON contract's order: all fits first, then all
+ * indices; what cannot be fitted comes back. A caller that writes each piece out keeps none of
+ * them: a year's 520 fits and 6,240 index rows are never all in memory (fresh memory is what
+ * costs, bench/README.md 2026-12-05).
+ */
+export function analyzeRatingColumnsInto(columns: RatingColumns, options: AnalyzeOptions, sink: AnalyzeSink): { notFitted: NotFittedJson[]; notes: AnalyzeNote[] } {
   const notFitted: NotFittedJson[] = [];
   const notes: AnalyzeNote[] = [];
-  for (const rows of groupRows(columns, options.period)) {
+  const groups = groupRows(columns, options.period);
+  for (const rows of groups) {
     const group = ratingGroup(columns, rows);
     const where = { session: options.period ? null : group.session, attribute: group.attribute };
+    let fit: FitJson;
     try {
-      fits.push(options.period ? fitPeriodModel(observationsOf(columns, rows)).json : fitSessionGroup(group).json);
+      fit = options.period ? fitPeriodModel(observationsOf(columns, rows)).json : fitSessionGroup(group).json;
     } catch (error) {
       const expected = error instanceof LmmFitError;
       if (!expected) options.onFitFailure?.(error, where);
       const reason = expected ? error.message : UNEXPECTED_FIT_FAILURE;
       notFitted.push({ ...where, model: options.period ? 'period' : 'session', status: 'not-fitted', code: expected ? error.code : 'fit-failed', reason });
       notes.push({ ...where, message: `could not be fitted: ${reason}` });
+      continue;
     }
-    if (options.period) continue;
-    for (const row of contractIndicesOfGroup(group)) assessorIndices.push(row);
+    // Outside the try: a fault of the sink (writing) is not a fit failure.
+    sink.fit(fit);
   }
-  return { json: { fits, assessorIndices, ...(notFitted.length > 0 ? { notFitted } : {}) }, notes };
+  if (!options.period) for (const rows of groups) sink.indices(contractIndicesOfGroup(ratingGroup(columns, rows)));
+  return { notFitted, notes };
 }
 
 /** Observations as columns, names coded in first-seen order. */

@@ -4,6 +4,7 @@
  * ids in first-seen order, so no object is made per rating and nothing is copied twice.
  * Problems and findings are kept in reading order; empty wide-form cells are only counted.
  */
+import { stat } from 'node:fs/promises';
 import { LevelCoder } from '../domain/level-coder.js';
 import type { InputFinding, InputProblem } from '../domain/problems.js';
 import type { RatingColumns } from '../domain/ratings.js';
@@ -30,15 +31,26 @@ class ColumnSink implements ReadSink {
   private readonly codes = new LevelCoder<string>('');
   n = 0;
   held = 0;
-  session: Int32Array<ArrayBuffer> = new Int32Array(RATINGS_PER_STEP);
-  attribute: Int32Array<ArrayBuffer> = new Int32Array(RATINGS_PER_STEP);
-  assessor: Int32Array<ArrayBuffer> = new Int32Array(RATINGS_PER_STEP);
-  product: Int32Array<ArrayBuffer> = new Int32Array(RATINGS_PER_STEP);
-  replicate: Int32Array<ArrayBuffer> = new Int32Array(RATINGS_PER_STEP);
-  code: Int32Array<ArrayBuffer> = new Int32Array(RATINGS_PER_STEP);
-  value: Float64Array<ArrayBuffer> = new Float64Array(RATINGS_PER_STEP);
+  session: Int32Array<ArrayBuffer>;
+  attribute: Int32Array<ArrayBuffer>;
+  assessor: Int32Array<ArrayBuffer>;
+  product: Int32Array<ArrayBuffer>;
+  replicate: Int32Array<ArrayBuffer>;
+  code: Int32Array<ArrayBuffer>;
+  value: Float64Array<ArrayBuffer>;
   readonly problems: InputProblem[] = [];
   readonly findings: InputFinding[] = [];
+
+  /** `capacity`: ratings expected (a guess; the columns grow past it). */
+  constructor(capacity: number) {
+    this.session = new Int32Array(capacity);
+    this.attribute = new Int32Array(capacity);
+    this.assessor = new Int32Array(capacity);
+    this.product = new Int32Array(capacity);
+    this.replicate = new Int32Array(capacity);
+    this.code = new Int32Array(capacity);
+    this.value = new Float64Array(capacity);
+  }
 
   get length(): number {
     return this.held;
@@ -108,8 +120,28 @@ class ColumnSink implements ReadSink {
 
 /** Reads and checks a ratings file (CSV or .xlsx) into columns; never throws for bad input. */
 export async function readRatingColumns(source: InputSource, options: ReadRatingsOptions): Promise<ReadColumns> {
-  const sink = new ColumnSink();
+  const sink = new ColumnSink(await capacityGuess(source));
   // Key strings are coded by the sink, so the reader need not keep one object per text.
   for await (const _ of readIntoSink(source, options, sink, RATINGS_PER_STEP, false)) sink.held = 0;
   return sink.result();
+}
+
+/** Bytes per rating below which a CSV row cannot go (keys, date, value and delimiters). */
+const MIN_BYTES_PER_RATING = 16;
+/** Largest first allocation (ratings); bigger files grow the columns by doubling. */
+const MAX_FIRST_CAPACITY = 1 << 22;
+
+/**
+ * Room for every rating a CSV of this size can hold, so the columns are allocated once: untouched
+ * pages of a large typed array cost nothing, while growing copies into fresh memory, the expensive
+ * part here (bench/README.md, 2026-12-05). An .xlsx may hold more; its columns grow.
+ */
+async function capacityGuess(source: InputSource): Promise<number> {
+  let bytes: number;
+  try {
+    bytes = 'bytes' in source ? source.bytes.length : (await stat(source.path)).size;
+  } catch {
+    return RATINGS_PER_STEP; // the reader reports the unreadable file
+  }
+  return Math.min(MAX_FIRST_CAPACITY, Math.max(RATINGS_PER_STEP, Math.ceil(bytes / MIN_BYTES_PER_RATING)));
 }

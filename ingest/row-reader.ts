@@ -54,6 +54,8 @@ export class RowReader {
   private readonly nameChecks: Map<string, NameCheck>[] = KEY_ROLES.map(() => new Map());
   private readonly lastNameTexts: (string | null)[] = KEY_ROLES.map(() => null);
   private readonly lastNameChecks: (NameCheck | null)[] = KEY_ROLES.map(() => null);
+  /** checkName for each key role, made once (not a closure per new text). */
+  private readonly nameCheckers: ((text: string) => NameCheck)[] = KEY_ROLE_NAMES.map((role) => (text: string) => checkName(text, role));
   /** Dates after this (a year after the caller's today) get a finding, once per date. */
   private readonly latestExpectedDate: string | null;
   private readonly futureDatesNoted = new Set<string>();
@@ -81,7 +83,7 @@ export class RowReader {
 
   private checkedName(text: string, roleIndex: number): NameCheck {
     if (text === this.lastNameTexts[roleIndex]) return this.lastNameChecks[roleIndex]!;
-    const check = parseCached(this.nameChecks[roleIndex], text, (t) => checkName(t, KEY_ROLE_NAMES[roleIndex]));
+    const check = parseCached(this.nameChecks[roleIndex], text, this.nameCheckers[roleIndex]);
     this.lastNameTexts[roleIndex] = text;
     this.lastNameChecks[roleIndex] = check;
     return check;

@@ -53,11 +53,14 @@ export function codeIds(ids: Int32Array, names: readonly string[]): { levels: st
 
 /** True when some assessor × product cell holds more than one rating. */
 export function hasReplicatedCell(assessorCodes: Int32Array, productCodes: Int32Array, nProducts: number): boolean {
-  const seen = new Set<number>();
+  let nAssessors = 0;
+  for (let i = 0; i < assessorCodes.length; i++) if (assessorCodes[i] >= nAssessors) nAssessors = assessorCodes[i] + 1;
+  // Codes are dense, so a table of cells instead of a hash set (520 sessions × 140 ratings a year).
+  const seen = new Uint8Array(nAssessors * nProducts);
   for (let i = 0; i < assessorCodes.length; i++) {
     const cell = assessorCodes[i] * nProducts + productCodes[i];
-    if (seen.has(cell)) return true;
-    seen.add(cell);
+    if (seen[cell] !== 0) return true;
+    seen[cell] = 1;
   }
   return false;
 }

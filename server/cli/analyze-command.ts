@@ -9,7 +9,7 @@
 import { existsSync, statSync } from 'node:fs';
 import { basename } from 'node:path';
 import type { Command } from 'commander';
-import { analyzeRatingColumns } from '../../analysis/analyze-ratings.js';
+import { analyzeRatingColumns, analyzeRatingColumnsInto, type AnalyzeNote } from '../../analysis/analyze-ratings.js';
 import { LevelCoder } from '../../domain/level-coder.js';
 import { MAX_LISTED_PROBLEMS, type InputFinding, type InputProblem } from '../../domain/problems.js';
 import type { RatingColumns } from '../../domain/ratings.js';
@@ -18,7 +18,7 @@ import { readRatingColumns, type ReadColumns } from '../../ingest/read-columns.j
 import { CliError } from './cli-error.js';
 import type { CommandOutput } from './import-command.js';
 import { COMMAND_SUMMARIES } from './command-summaries.js';
-import { writeLongText } from './write-stdout.js';
+import { PrettyJsonObjectWriter, StdoutWriter } from './write-stdout.js';
 
 /**
  * The import command's problem-line format, loaded only when there is a problem or finding to
@@ -64,20 +64,50 @@ export async function runAnalyzeCommand(file: string, options: AnalyzeCommandOpt
   }
   const dropped = read.columns.n - duplicates.kept.n;
   if (dropped > 0) notes.push(`note: ${dropped} repeated rating${dropped === 1 ? '' : 's'} (same keys and value) counted once.`);
-  const { json, notes: fitNotes } = analyzeRatingColumns(duplicates.kept, {
+  const analyzeOptions = {
     period: options.period ?? false,
     // A fault of the program, not of the file: its stack goes to stderr for the bug report.
-    onFitFailure: (error, where) =>
+    onFitFailure: (error: unknown, where: { session: string | null; attribute: string }) =>
       output.stderr.write(`error: ${where.session === null ? '' : `session ${where.session}, `}attribute ${where.attribute}: the fit failed unexpectedly\n${error instanceof Error ? (error.stack ?? error.message) : String(error)}\n`),
-  });
-  for (const note of fitNotes) notes.push(`note: ${note.session === null ? '' : `session ${note.session}, `}attribute ${note.attribute}: ${note.message}`);
-  if (notes.length > 0) output.stderr.write(`${notes.join('\n')}\n`);
+  };
+  const writeNotes = (fitNotes: AnalyzeNote[]): void => {
+    for (const note of fitNotes) notes.push(`note: ${note.session === null ? '' : `session ${note.session}, `}attribute ${note.attribute}: ${note.message}`);
+    if (notes.length > 0) output.stderr.write(`${notes.join('\n')}\n`);
+  };
   if (format === 'text') {
+    const { json, notes: fitNotes } = analyzeRatingColumns(duplicates.kept, analyzeOptions);
+    writeNotes(fitNotes);
     output.stdout.write((await import('./analyze-text.js')).formatAnalyzeText(json));
     return 0;
   }
-  // JSON.stringify writes the shortest text that reads back to the same double (full precision).
-  writeLongText(`${JSON.stringify(json, null, 2)}\n`, output);
+  // The JSON is written as it is made, fits then indices, exactly as JSON.stringify(json, null, 2)
+  // (the shortest text that reads back to the same double: full precision). Every problem of the
+  // file was found above, so nothing is written for a file that cannot be analysed.
+  const writer = new PrettyJsonObjectWriter(new StdoutWriter(output));
+  let section: 'fits' | 'assessorIndices' | null = null;
+  const enter = (key: 'fits' | 'assessorIndices'): void => {
+    if (section === key) return;
+    if (section !== null) writer.close();
+    writer.open(key);
+    section = key;
+  };
+  enter('fits');
+  const { notFitted, notes: fitNotes } = analyzeRatingColumnsInto(duplicates.kept, analyzeOptions, {
+    fit: (fit) => writer.items([fit]),
+    indices: (rows) => {
+      enter('assessorIndices');
+      writer.items(rows);
+    },
+  });
+  enter('assessorIndices');
+  writer.close();
+  if (notFitted.length > 0) {
+    writer.open('notFitted');
+    writer.items(notFitted);
+    writer.close();
+  }
+  writer.end();
+  writeNotes(fitNotes);
   return 0;
 }
 
