@@ -22,7 +22,8 @@
  * are skipped but counted. A first line "sep=;" is honoured and not counted.
  * Set-level checks (duplicate keys, one session label with two dates) belong to the store.
  * readRatingBatches gives the same events in arrays; readCompactBatches (compact-batches.ts) gives
- * them as typed-array batches for the import, through readIntoSink without an object per rating.
+ * them as typed-array batches for the import, and readRatingColumns (read-columns.ts) as columns for
+ * `analyze`, both through readIntoSink without an object per rating.
  */
 import { open } from 'node:fs/promises';
 import { createReadStream } from 'node:fs';
