@@ -1,4 +1,5 @@
 import type { AssessorIndicesJson } from '../../domain/analysis.js';
+import { LevelCoder } from '../../domain/level-coder.js';
 import type { Observation, RatingGroup } from '../../domain/ratings.js';
 import { fUpperTail } from '../distributions/index.js';
 import { mean } from '../descriptive/mean.js';
@@ -73,9 +74,11 @@ interface CellStatistics {
 function codeRatings(observations: readonly Observation[]): CodedRatings {
   const n = observations.length;
   const { session, attribute } = observations[0];
+  const assessorNames = new LevelCoder<string>();
+  const productNames = new LevelCoder<string>();
   const values: number[] = new Array(n);
-  const assessors: string[] = new Array(n);
-  const products: string[] = new Array(n);
+  const assessorIds = new Int32Array(n);
+  const productIds = new Int32Array(n);
   for (let i = 0; i < n; i++) {
     const observation = observations[i];
     if (observation.session !== session || observation.attribute !== attribute) {
@@ -83,41 +86,13 @@ function codeRatings(observations: readonly Observation[]): CodedRatings {
     }
     if (!Number.isFinite(observation.value)) throw new Error('buildCellTable: a rating value is not a finite number');
     values[i] = observation.value;
-    assessors[i] = observation.assessor;
-    products[i] = observation.product;
+    assessorIds[i] = assessorNames.code(observation.assessor);
+    productIds[i] = productNames.code(observation.product);
   }
-  return codeGroup(session, attribute, assessors, products, values);
+  return codeGroupIds({ session, attribute, values, assessorIds, productIds, assessorNames: assessorNames.names, productNames: productNames.names });
 }
 
-function codeGroup(session: string, attribute: string, assessorOfRating: readonly string[], productOfRating: readonly string[], values: readonly number[]): CodedRatings {
-  const n = values.length;
-  const assessorCode = new Map<string, number>();
-  const productCode = new Map<string, number>();
-  const assessors: string[] = [];
-  const assessorOf = new Int32Array(n);
-  const productOf = new Int32Array(n);
-  let lastAssessor: string | undefined;
-  let lastAssessorCode = -1;
-  for (let i = 0; i < n; i++) {
-    // Consecutive ratings mostly share the assessor: compare before hashing.
-    if (assessorOfRating[i] !== lastAssessor) {
-      lastAssessor = assessorOfRating[i];
-      let code = assessorCode.get(lastAssessor);
-      if (code === undefined) {
-        assessorCode.set(lastAssessor, (code = assessors.length));
-        assessors.push(lastAssessor);
-      }
-      lastAssessorCode = code;
-    }
-    assessorOf[i] = lastAssessorCode;
-    let product = productCode.get(productOfRating[i]);
-    if (product === undefined) productCode.set(productOfRating[i], (product = productCode.size));
-    productOf[i] = product;
-  }
-  return { session, attribute, values, assessors, nProducts: productCode.size, assessorOf, productOf };
-}
-
-/** codeGroup on ids: first-seen order through lookup tables instead of a hash per rating. */
+/** Assessors and products coded in first-seen order, through lookup tables on the name ids. */
 function codeGroupIds(group: RatingGroup): CodedRatings {
   const { assessorIds, productIds, values } = group;
   const n = values.length;
