@@ -83,8 +83,8 @@ export function bilinearForm(v: ArrayLike<number>, a: ArrayLike<number>, w: Arra
 export interface SymmetricEigen {
   /** Eigenvalues in decreasing order (as R's eigen()). */
   values: number[];
-  /** vectors[m] is the unit eigenvector of values[m]. */
-  vectors: number[][];
+  /** vectors[m] is the unit eigenvector of values[m] (typed: one element kind for compiled callers). */
+  vectors: Float64Array[];
 }
 
 /** Eigen-decomposition of a symmetric matrix (row-major n×n), eigenvalues in decreasing order. */
@@ -101,6 +101,6 @@ export function symmetricEigen(a: ArrayLike<number>, n: number): SymmetricEigen 
   const order = values.map((_, index) => index).sort((x, y) => values[y] - values[x]);
   return {
     values: order.map((index) => values[index]),
-    vectors: order.map((index) => vectorMatrix.getColumn(index)),
+    vectors: order.map((index) => Float64Array.from(vectorMatrix.getColumn(index))),
   };
 }

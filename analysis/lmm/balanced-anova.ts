@@ -41,6 +41,26 @@ export function balancedAnova(values: ArrayLike<number>, assessorIndex: ArrayLik
   const replicates = counts[0];
   if (replicates === 0) return null;
   for (let c = 1; c < cells; c++) if (counts[c] !== replicates) return null;
+  return balancedSums({ values, assessorIndex, productIndex, nAssessors, nProducts }, sums, replicates);
+}
+
+/**
+ * The sums of squares of a balanced design. Apart from the cell counts above: the unbalanced
+ * sessions that return early never run it, and its first run would otherwise throw away the
+ * compiled counting loop (no type feedback yet for this part).
+ */
+interface Design {
+  values: ArrayLike<number>;
+  assessorIndex: ArrayLike<number>;
+  productIndex: ArrayLike<number>;
+  nAssessors: number;
+  nProducts: number;
+}
+
+function balancedSums(design: Design, sums: Float64Array, replicates: number): BalancedAnova {
+  const { values, assessorIndex, productIndex, nAssessors, nProducts } = design;
+  const n = values.length;
+  const cells = nAssessors * nProducts;
   const cellMeans = Float64Array.from(sums, (sum) => sum / replicates);
   let grand = 0;
   for (const mean of cellMeans) grand += mean;

@@ -197,7 +197,7 @@ function differencedThetaDerivatives(objective: RemlObjective, theta: Float64Arr
  * lmerTest's contrast rows for the single fixed factor: t(doolittle(XᵀX)$L) without the
  * intercept row (its eps = 1e-6 zeroing included).
  */
-export function productContrastRows(xTx: Float64Array, p: number): number[][] {
+export function productContrastRows(xTx: Float64Array, p: number): Float64Array[] {
   if (p < 2) return [];
   const eps = 1e-6;
   const lower = new Float64Array(p * p);
@@ -215,12 +215,14 @@ export function productContrastRows(xTx: Float64Array, p: number): number[][] {
       lower[j * p + i] = Math.abs(upper[i * p + i]) < eps ? 0 : value / upper[i * p + i];
     }
   }
-  const rows: number[][] = [];
+  // Typed rows: an array of small integers and one of doubles have different element kinds, and
+  // the F-test's compiled code would be thrown away each time it met the other kind.
+  const rows: Float64Array[] = [];
   for (let r = 1; r < p; r++) {
-    const row: number[] = [];
+    const row = new Float64Array(p);
     for (let c = 0; c < p; c++) {
       const value = lower[c * p + r];
-      row.push(Math.abs(value) < eps ? 0 : value);
+      row[c] = Math.abs(value) < eps ? 0 : value;
     }
     rows.push(row);
   }
@@ -253,7 +255,7 @@ export function combineSatterthwaiteDf(nu: number[], tolerance = 1e-8): number {
 export function productFTest(
   beta: Float64Array,
   covBeta: Float64Array,
-  contrastRows: number[][],
+  contrastRows: Float64Array[],
   varpar: Pick<VarparCovariance, 'covariance' | 'jacobians'> | null,
 ): ProductTest {
   const p = beta.length;
@@ -273,7 +275,8 @@ export function productFTest(
   }
   const eigen = symmetricEigen(vl, rows);
   const tolerance = Math.max(Math.sqrt(2.220446049250313e-16) * eigen.values[0], 0);
-  const kept = eigen.values.map((value, index) => index).filter((index) => eigen.values[index] > tolerance);
+  const kept: number[] = [];
+  for (let index = 0; index < eigen.values.length; index++) if (eigen.values[index] > tolerance) kept.push(index);
   const q = kept.length;
   if (q === 0) return { F: null, numDf: 0, denDf: null, pValue: null, nuPerContrast: [], messages: ['the product contrasts have no variance'] };
   let statistic = 0;
@@ -287,7 +290,8 @@ export function productFTest(
     const variance = quadraticForm(ell, covBeta, p);
     statistic += (estimate * estimate) / variance;
     if (varpar) {
-      const gradient = varpar.jacobians.map((jacobian) => quadraticForm(ell, jacobian, p));
+      const gradient = new Float64Array(varpar.jacobians.length);
+      for (let k = 0; k < gradient.length; k++) gradient[k] = quadraticForm(ell, varpar.jacobians[k], p);
       const denominator = quadraticForm(gradient, varpar.covariance, gradient.length);
       nu.push((2 * variance * variance) / denominator);
     }

@@ -168,35 +168,52 @@ function checkDuplicates(read: ReadColumns, fileName: string): { problems: Input
  */
 function ratingKeyIndex(columns: RatingColumns): Int32Array {
   const n = columns.n;
-  // Replicate numbers are small in practice: a lookup table for those, the coder for the rest.
-  const replicates = new LevelCoder<number>();
-  const smallReplicateCode = new Int32Array(64).fill(-1);
-  const replicateCodes = new Int32Array(n);
-  for (let i = 0; i < n; i++) {
-    const replicate = columns.replicate[i];
-    if (replicate >= 0 && replicate < 64) {
-      let code = smallReplicateCode[replicate];
-      if (code < 0) code = smallReplicateCode[replicate] = replicates.code(replicate);
-      replicateCodes[i] = code;
-    } else replicateCodes[i] = replicates.code(replicate);
-  }
+  const replicates = codeReplicates(columns.replicate, n);
   const coded: [Int32Array, number][] = [
     [columns.session, columns.sessionNames.length],
     [columns.attribute, columns.attributeNames.length],
     [columns.assessor, columns.assessorNames.length],
     [columns.product, columns.productNames.length],
-    [replicateCodes, replicates.size],
+    [replicates.codes, replicates.size],
   ];
   const keys = new Float64Array(n);
   let keySpace = 1;
   for (const [column, size] of coded) {
     keySpace *= size;
-    for (let i = 0; i < n; i++) keys[i] = keys[i] * size + column[i];
+    appendKey(keys, column, size);
     // Renumber the combinations present when the space grows large, so the next product stays
     // far below 2^53 (exact in a double); panels of real size never get here.
     if (keySpace > 4 * n + 4096) keySpace = renumber(keys);
   }
   // keySpace ≤ 4n + 4096 here: a lookup table instead of a hash map.
+  return firstRowOfKeys(keys, keySpace);
+}
+
+// Each loop over the ratings is a function of its own: a loop that runs 75 000 times is compiled
+// while it runs, and code after it in the same function would throw that compiled code away.
+
+/** Replicate numbers as dense codes; small ones (nearly all) through a lookup table. */
+function codeReplicates(replicate: Int32Array, n: number): { codes: Int32Array; size: number } {
+  const replicates = new LevelCoder<number>();
+  const smallReplicateCode = new Int32Array(64).fill(-1);
+  const codes = new Int32Array(n);
+  for (let i = 0; i < n; i++) {
+    const value = replicate[i];
+    if (value >= 0 && value < 64) {
+      let code = smallReplicateCode[value];
+      if (code < 0) code = smallReplicateCode[value] = replicates.code(value);
+      codes[i] = code;
+    } else codes[i] = replicates.code(value);
+  }
+  return { codes, size: replicates.size };
+}
+
+function appendKey(keys: Float64Array, column: Int32Array, size: number): void {
+  for (let i = 0; i < keys.length; i++) keys[i] = keys[i] * size + column[i];
+}
+
+function firstRowOfKeys(keys: Float64Array, keySpace: number): Int32Array {
+  const n = keys.length;
   const firstRow = new Int32Array(n);
   const firstOfKey = new Int32Array(keySpace).fill(-1);
   for (let i = 0; i < n; i++) {
