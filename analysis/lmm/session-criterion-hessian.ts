@@ -72,6 +72,8 @@ export function makeSessionSecondOrder(criterion: SessionCriterion): SessionSeco
   const traces = new Float64Array(2);
   const traceProducts = new Float64Array(4);
   const quadraticProducts = new Float64Array(4);
+  // The sums over assessors of one evaluation (slots named at the end of the file).
+  const sums = new Float64Array(SUM_COUNT);
 
   /** target = a b (p × p, row-major). */
   function multiply(a: Float64Array, b: Float64Array, target: Float64Array): void {
@@ -89,105 +91,113 @@ export function makeSessionSecondOrder(criterion: SessionCriterion): SessionSeco
     for (let i = 0; i < p; i++) for (let j = 0; j < p; j++) sum += a[i * p + j] * b[j * p + i];
     return sum;
   }
+  /**
+   * One assessor's terms of the sums over assessors, added into `sums` (slots named at the end of the file) and the
+   * p-vectors and matrices. A function of its own, so the loops compiled while a year's first
+   * sessions run are short ones; called in assessor order, so the sums are added up exactly as
+   * in one loop.
+   */
+  function addAssessor(a: number, gammaA: number): void {
+    const { weight, denominator, assessorSum, residualMean } = state;
+    const row = a * p;
+    const d = denominator[a];
+    const shrink = gammaA / d;
+    // D_i = W − s w wᵀ with W = diag(w), s = γ_a/d: every piece below uses that structure
+    // (O(P²) per assessor), with α = Σw², β = Σw³ and b = w∘w.
+    let total = 0;
+    let alpha = 0;
+    let beta = 0;
+    for (let j = 0; j < p; j++) {
+      const wj = weight[row + j];
+      total += wj;
+      alpha += wj * wj;
+      beta += wj * wj * wj;
+    }
+    let aCa = 0;
+    let bCa = 0;
+    let bCb = 0;
+    let cCa = 0;
+    let diagonalTerm = 0;
+    for (let i = 0; i < p; i++) {
+      let sumW = 0;
+      let sumB = 0;
+      for (let j = 0; j < p; j++) {
+        const wj = weight[row + j];
+        sumW += inverse[i * p + j] * wj;
+        sumB += inverse[i * p + j] * wj * wj;
+      }
+      inverseW[i] = sumW;
+      const wi = weight[row + i];
+      aCa += wi * sumW;
+      bCa += wi * wi * sumW;
+      bCb += wi * wi * sumB;
+      cCa += wi * wi * wi * sumW;
+      diagonalTerm += inverse[i * p + i] * wi * wi * wi;
+    }
+    const d2 = d * d;
+    const blockTotal = total / d;
+    const vInverseV = aCa / d2;
+    sums[TRACE_A] += blockTotal - vInverseV;
+    sums[T_AA] += blockTotal * blockTotal - 2 * blockTotal * vInverseV;
+    for (let i = 0; i < p; i++) {
+      const vi = weight[row + i] / d2;
+      for (let j = 0; j < p; j++) sumU[i * p + j] += vi * weight[row + j];
+    }
+    const xiA = assessorSum[a] / d;
+    sums[Q_A] += xiA * xiA;
+    sums[Q_AA] += xiA * xiA * blockTotal;
+    for (let j = 0; j < p; j++) sumXiA[j] += (xiA * weight[row + j]) / d;
+    if (!withInteraction) return;
+    // S += D_i² = W² − s(b wᵀ + w bᵀ) + s²α w wᵀ.
+    const s2alpha = shrink * shrink * alpha;
+    for (let i = 0; i < p; i++) {
+      const wi = weight[row + i];
+      for (let j = 0; j < p; j++) {
+        const wj = weight[row + j];
+        sumS[i * p + j] += (i === j ? wi * wi : 0) - shrink * (wi * wi * wj + wi * wj * wj) + s2alpha * wi * wj;
+      }
+    }
+    sums[TRACE_AP] += total - shrink * alpha;
+    sums[T_APAP] += alpha - 2 * shrink * beta + s2alpha * alpha;
+    // tr(C⁻¹D_i³), D³ = W³ − s(c wᵀ + w cᵀ + b bᵀ) + s²α(b wᵀ + w bᵀ) + (s²β − s³α²) w wᵀ, c = w∘w∘w.
+    sums[TRACE_INVERSE_T] += diagonalTerm - shrink * (2 * cCa + bCb) + 2 * s2alpha * bCa + (shrink * shrink * beta - shrink * s2alpha * alpha) * aCa;
+    // |v|² − 2 (D v)ᵀC⁻¹v with D v = (b − sα w)/d.
+    sums[T_AAP] += alpha / d2 - (2 * (bCa - shrink * alpha * aCa)) / d2;
+    // ξ_ap: the cell sums of Py, u_ij = w_ij (e_ij − γ_a t_i/d_i); D u = w∘u − s w (wᵀu).
+    let wU = 0;
+    let wUU = 0;
+    for (let j = 0; j < p; j++) {
+      const wj = weight[row + j];
+      const uj = wj * (residualMean[row + j] - shrink * assessorSum[a]);
+      u[j] = uj;
+      wU += wj * uj;
+      wUU += wj * uj * uj;
+      sums[Q_AP] += uj * uj;
+    }
+    for (let j = 0; j < p; j++) sumXiAP[j] += weight[row + j] * (u[j] - shrink * wU);
+    sums[Q_AAP] += (xiA * wU) / d;
+    sums[Q_APAP] += wUU - shrink * wU * wU;
+  }
   /** Fills traces, traceProducts, quadraticProducts and residualQuadratics after the criterion's evaluation at γ_a. */
   function pieces(gammaA: number): void {
     state.fillInverseC(inverse);
-    const { weight, denominator, assessorSum, residualMean } = state;
     sumU.fill(0);
     sumS.fill(0);
     sumXiA.fill(0);
     sumXiAP.fill(0);
-    let traceA = 0;
-    let traceAP = 0;
-    let qA = 0;
-    let qAP = 0;
-    let tAA = 0;
-    let tAAP = 0;
-    let tAPAP = 0;
-    let traceInverseT = 0;
-    let qAA = 0;
-    let qAAP = 0;
-    let qAPAP = 0;
-    for (let a = 0; a < nAssessors; a++) {
-      const row = a * p;
-      const d = denominator[a];
-      const shrink = gammaA / d;
-      // D_i = W − s w wᵀ with W = diag(w), s = γ_a/d: every piece below uses that structure
-      // (O(P²) per assessor), with α = Σw², β = Σw³ and b = w∘w.
-      let total = 0;
-      let alpha = 0;
-      let beta = 0;
-      for (let j = 0; j < p; j++) {
-        const wj = weight[row + j];
-        total += wj;
-        alpha += wj * wj;
-        beta += wj * wj * wj;
-      }
-      let aCa = 0;
-      let bCa = 0;
-      let bCb = 0;
-      let cCa = 0;
-      let diagonalTerm = 0;
-      for (let i = 0; i < p; i++) {
-        let sumW = 0;
-        let sumB = 0;
-        for (let j = 0; j < p; j++) {
-          const wj = weight[row + j];
-          sumW += inverse[i * p + j] * wj;
-          sumB += inverse[i * p + j] * wj * wj;
-        }
-        inverseW[i] = sumW;
-        const wi = weight[row + i];
-        aCa += wi * sumW;
-        bCa += wi * wi * sumW;
-        bCb += wi * wi * sumB;
-        cCa += wi * wi * wi * sumW;
-        diagonalTerm += inverse[i * p + i] * wi * wi * wi;
-      }
-      const d2 = d * d;
-      const blockTotal = total / d;
-      const vInverseV = aCa / d2;
-      traceA += blockTotal - vInverseV;
-      tAA += blockTotal * blockTotal - 2 * blockTotal * vInverseV;
-      for (let i = 0; i < p; i++) {
-        const vi = weight[row + i] / d2;
-        for (let j = 0; j < p; j++) sumU[i * p + j] += vi * weight[row + j];
-      }
-      const xiA = assessorSum[a] / d;
-      qA += xiA * xiA;
-      qAA += xiA * xiA * blockTotal;
-      for (let j = 0; j < p; j++) sumXiA[j] += (xiA * weight[row + j]) / d;
-      if (!withInteraction) continue;
-      // S += D_i² = W² − s(b wᵀ + w bᵀ) + s²α w wᵀ.
-      const s2alpha = shrink * shrink * alpha;
-      for (let i = 0; i < p; i++) {
-        const wi = weight[row + i];
-        for (let j = 0; j < p; j++) {
-          const wj = weight[row + j];
-          sumS[i * p + j] += (i === j ? wi * wi : 0) - shrink * (wi * wi * wj + wi * wj * wj) + s2alpha * wi * wj;
-        }
-      }
-      traceAP += total - shrink * alpha;
-      tAPAP += alpha - 2 * shrink * beta + s2alpha * alpha;
-      // tr(C⁻¹D_i³), D³ = W³ − s(c wᵀ + w cᵀ + b bᵀ) + s²α(b wᵀ + w bᵀ) + (s²β − s³α²) w wᵀ, c = w∘w∘w.
-      traceInverseT += diagonalTerm - shrink * (2 * cCa + bCb) + 2 * s2alpha * bCa + (shrink * shrink * beta - shrink * s2alpha * alpha) * aCa;
-      // |v|² − 2 (D v)ᵀC⁻¹v with D v = (b − sα w)/d.
-      tAAP += alpha / d2 - (2 * (bCa - shrink * alpha * aCa)) / d2;
-      // ξ_ap: the cell sums of Py, u_ij = w_ij (e_ij − γ_a t_i/d_i); D u = w∘u − s w (wᵀu).
-      let wU = 0;
-      let wUU = 0;
-      for (let j = 0; j < p; j++) {
-        const wj = weight[row + j];
-        const uj = wj * (residualMean[row + j] - shrink * assessorSum[a]);
-        u[j] = uj;
-        wU += wj * uj;
-        wUU += wj * uj * uj;
-        qAP += uj * uj;
-      }
-      for (let j = 0; j < p; j++) sumXiAP[j] += weight[row + j] * (u[j] - shrink * wU);
-      qAAP += (xiA * wU) / d;
-      qAPAP += wUU - shrink * wU * wU;
-    }
+    sums.fill(0);
+    for (let a = 0; a < nAssessors; a++) addAssessor(a, gammaA);
+    let traceA = sums[TRACE_A];
+    let traceAP = sums[TRACE_AP];
+    const qA = sums[Q_A];
+    const qAP = sums[Q_AP];
+    let tAA = sums[T_AA];
+    let tAAP = sums[T_AAP];
+    let tAPAP = sums[T_APAP];
+    const traceInverseT = sums[TRACE_INVERSE_T];
+    let qAA = sums[Q_AA];
+    let qAAP = sums[Q_AAP];
+    let qAPAP = sums[Q_APAP];
     multiply(inverse, sumU, inverseTimesU);
     tAA += traceOfProduct(inverseTimesU, inverseTimesU);
     if (withInteraction) {
@@ -245,3 +255,17 @@ export function makeSessionSecondOrder(criterion: SessionCriterion): SessionSeco
     },
   };
 }
+
+// Slots of the sums over assessors (addAssessor).
+const TRACE_A = 0;
+const TRACE_AP = 1;
+const Q_A = 2;
+const Q_AP = 3;
+const T_AA = 4;
+const T_AAP = 5;
+const T_APAP = 6;
+const TRACE_INVERSE_T = 7;
+const Q_AA = 8;
+const Q_AAP = 9;
+const Q_APAP = 10;
+const SUM_COUNT = 11;

@@ -184,13 +184,12 @@ export function makeSessionCriterion(
       const row = a * nProducts;
       let sum = 0;
       for (let j = 0; j < nProducts; j++) {
-        const wj = weight[row + j];
-        if (wj === 0) {
-          residualMean[row + j] = 0;
-          continue;
-        }
-        const e = mean[row + j] - beta[j];
-        residualMean[row + j] = e;
+        const at = row + j;
+        const wj = weight[at];
+        // An empty cell (weight 0) has no residual. No statement that runs for empty cells only:
+        // the first empty cell would throw the compiled code away (nothing recorded for it yet).
+        const e = wj === 0 ? 0 : mean[at] - beta[j];
+        residualMean[at] = e;
         sum += wj * e;
         pwrss += wj * e * e;
       }
