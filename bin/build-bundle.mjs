@@ -58,6 +58,10 @@ const result = await build({
   banner: { js: "import { createRequire as __bundleCreateRequire } from 'node:module'; const require = __bundleCreateRequire(import.meta.url);" },
   sourcemap: true,
   legalComments: 'none',
+  // Fewer bytes to parse at every start (579 → 359 kB for the analyze chunk); names are kept, so
+  // a stack trace still names the functions (the source map gives the lines).
+  minifyWhitespace: true,
+  minifySyntax: true,
   logLevel: 'warning',
   plugins: [keepCommandsExternal],
   metafile: true,
