@@ -203,7 +203,8 @@ export async function* readIntoSink(
   const out = sink;
   try {
     for await (const batch of records) {
-      for (const record of batch) {
+      for (let r = 0; r < batch.length; r++) {
+        const record = batch[r];
         if (reader === null) {
           if (isBlankRecord(record.cells)) continue;
           reader = startRowReader(record, { file, csv: kind === 'csv', decimalMark, maxColumns, maxCellChars, options, internKeys }, out);

@@ -234,7 +234,11 @@ export class RowReader {
         );
       }
     }
-    for (const i of layout.unnamedColumns) {
+    // Index loops in the per-row code: a for-of allocates an iterator result per step until the
+    // function is compiled, and a year's first rows all run before that.
+    const unnamedColumns = layout.unnamedColumns;
+    for (let u = 0; u < unnamedColumns.length; u++) {
+      const i = unnamedColumns[u];
       const text = cells[i];
       if (text !== undefined && text.trim() !== '' && text.length <= this.maxCellChars) {
         keyProblems.push(this.problem('header-unknown-column', row, `column ${i + 1}`, `Column ${i + 1} has no header but this row has a value in it; give the column a name or empty the cell.`, text));
@@ -281,7 +285,9 @@ export class RowReader {
       return;
     }
 
-    for (const column of this.valueColumns) {
+    const valueColumns = this.valueColumns;
+    for (let v = 0; v < valueColumns.length; v++) {
+      const column = valueColumns[v];
       const header = headers[column.index];
       const attribute = column.attribute ?? longAttribute!;
       const text = this.text(cells[column.index]);
