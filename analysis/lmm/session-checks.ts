@@ -43,7 +43,11 @@ export function codeIds(ids: Int32Array, names: readonly string[]): { levels: st
     }
     codes[i] = local;
   }
-  const levels = seen.map((id) => names[id]).sort(compareLevels);
+  // One array shape for assessors and products alike (a mapped array's shape follows its source),
+  // so the compiled code serves both.
+  const levels: string[] = [];
+  for (let k = 0; k < seen.length; k++) levels.push(names[seen[k]]);
+  levels.sort(compareLevels);
   const sortedCode = new Int32Array(levels.length);
   const position = new Map(levels.map((level, at) => [level, at]));
   seen.forEach((id, local) => (sortedCode[local] = position.get(names[id])!));
