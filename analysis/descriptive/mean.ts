@@ -7,10 +7,11 @@
 export function mean(values: readonly number[]): number {
   const n = values.length;
   if (n === 0) return Number.NaN;
+  // Index loops: a for-of makes an iterator result per value wherever it is not optimised away.
   let sum = 0;
-  for (const value of values) sum += value;
+  for (let i = 0; i < n; i++) sum += values[i];
   const first = sum / n;
   let correction = 0;
-  for (const value of values) correction += value - first;
+  for (let i = 0; i < n; i++) correction += values[i] - first;
   return first + correction / n;
 }

@@ -131,13 +131,14 @@ function exactVarpar(
  */
 function toTreatmentCoding(matrix: Float64Array, p: number, scale = 1): Float64Array {
   const out = new Float64Array(p * p);
-  const at = (i: number, j: number): number => matrix[i * p + j];
+  // Indexed directly: a helper returning a double boxes it on every call unless inlined, and the
+  // analyze command compiles without inlining (server/cli/analyze-command.ts).
   for (let i = 0; i < p; i++) {
     for (let j = 0; j < p; j++) {
-      let value = at(i, j);
-      if (i > 0) value -= at(0, j);
-      if (j > 0) value -= at(i, 0);
-      if (i > 0 && j > 0) value += at(0, 0);
+      let value = matrix[i * p + j];
+      if (i > 0) value -= matrix[j];
+      if (j > 0) value -= matrix[i * p];
+      if (i > 0 && j > 0) value += matrix[0];
       out[i * p + j] = scale * value;
     }
   }
