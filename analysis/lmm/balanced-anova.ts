@@ -44,11 +44,7 @@ export function balancedAnova(values: ArrayLike<number>, assessorIndex: ArrayLik
   return balancedSums({ values, assessorIndex, productIndex, nAssessors, nProducts }, sums, replicates);
 }
 
-/**
- * The sums of squares of a balanced design. Apart from the cell counts above: the unbalanced
- * sessions that return early never run it, and its first run would otherwise throw away the
- * compiled counting loop (no type feedback yet for this part).
- */
+/** The ratings and their level codes, as balancedAnova takes them. */
 interface Design {
   values: ArrayLike<number>;
   assessorIndex: ArrayLike<number>;
@@ -57,6 +53,11 @@ interface Design {
   nProducts: number;
 }
 
+/**
+ * The sums of squares of a balanced design. Apart from the cell counts above: the unbalanced
+ * sessions that return early never run it, and its first run would otherwise throw away the
+ * compiled counting loop (no type feedback yet for this part).
+ */
 function balancedSums(design: Design, sums: Float64Array, replicates: number): BalancedAnova {
   const { values, assessorIndex, productIndex, nAssessors, nProducts } = design;
   const n = values.length;

@@ -60,7 +60,6 @@ export function makeSessionSecondOrder(criterion: SessionCriterion): SessionSeco
   const sumS = new Float64Array(pp);
   const inverseTimesU = new Float64Array(pp);
   const inverseTimesS = new Float64Array(pp);
-  const inverseW = new Float64Array(p);
   const u = new Float64Array(p);
   const sumXiA = new Float64Array(p);
   const sumXiAP = new Float64Array(p);
@@ -92,10 +91,10 @@ export function makeSessionSecondOrder(criterion: SessionCriterion): SessionSeco
     return sum;
   }
   /**
-   * One assessor's terms of the sums over assessors, added into `sums` (slots named at the end of the file) and the
-   * p-vectors and matrices. A function of its own, so the loops compiled while a year's first
-   * sessions run are short ones; called in assessor order, so the sums are added up exactly as
-   * in one loop.
+   * One assessor's terms of the sums over assessors, added into `sums` (slots named at the end of
+   * the file) and the p-vectors and matrices. A function of its own, so the loops compiled while
+   * a year's first sessions run are short ones; called in assessor order, so the sums are added
+   * up exactly as in one loop.
    */
   function addAssessor(a: number, gammaA: number): void {
     const { weight, denominator, assessorSum, residualMean } = state;
@@ -126,7 +125,6 @@ export function makeSessionSecondOrder(criterion: SessionCriterion): SessionSeco
         sumW += inverse[i * p + j] * wj;
         sumB += inverse[i * p + j] * wj * wj;
       }
-      inverseW[i] = sumW;
       const wi = weight[row + i];
       aCa += wi * sumW;
       bCa += wi * wi * sumW;
